@@ -1,0 +1,103 @@
+#pragma once
+// A calibration map: fitted on labelled scores, maps a raw score to a
+// probability, and writes and reads itself as JSON. The CLI only ever sees
+// this interface; each kind of map lives in its own file under src/core/maps.
+#include <cstddef>
+#include <memory>
+#include <nlohmann/json.hpp>
+#include <span>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "plumb/scale.hpp"
+
+namespace plumb {
+
+// The labelled rows a map is fitted on. `label` holds 0 or 1; `weight` is
+// empty (all 1) or holds finite weights >= 0. All spans have equal length.
+struct FitData {
+  std::span<const double> score;
+  std::span<const double> label;
+  std::span<const double> weight;
+  Scale scale = Scale::probability;
+};
+
+// Options for every kind; a kind reads only its own.
+struct MapOptions {
+  // isotonic: between fitted blocks, interpolate linearly (true) or hold the
+  // value of the block to the left (false).
+  bool isotonic_interpolate = true;
+  // platt: Platt's (1999) smoothed targets instead of 0/1 labels.
+  bool platt_smoothed_targets = true;
+  // beta: "full" (a, b, c free), "midpoint" (m = 1/2 fixed, so c = (a-b) ln 2)
+  // or "shared" (a = b: a logistic map on the log-odds).
+  std::string beta_form = "full";
+  // histogram: number of equal-mass bins (at most the number of distinct scores).
+  int histogram_bins = 10;
+};
+
+// What the fit did, for the artifact and for `inspect`.
+struct FitDiagnostics {
+  int iterations = 0;
+  bool converged = true;
+  double log_loss = 0.0;      // weighted mean log loss of the fitted map on the fit rows
+  std::size_t clipped = 0;    // fit rows whose probability was clipped before a log-odds
+  std::vector<std::string> notes;  // plain-language remarks (fallbacks taken, restrictions)
+};
+
+// The result of mapping one score.
+struct Mapped {
+  double probability;
+  bool outside_fit_range = false;  // the score lay outside the fitted scores and was clamped
+  bool clipped = false;            // a probability score of (nearly) 0 or 1 was clipped
+};
+
+class CalibrationMap {
+ public:
+  virtual ~CalibrationMap() = default;
+
+  // The kind's name, as in `--map` and the artifact ("isotonic", "platt", ...).
+  virtual std::string_view kind() const noexcept = 0;
+  // The scale of the scores the map was fitted on and expects.
+  virtual Scale scale() const noexcept = 0;
+
+  // Precondition: valid_on_scale(score, scale()). Returns a probability in [0, 1].
+  virtual Mapped map(double score) const noexcept = 0;
+  double operator()(double score) const noexcept { return map(score).probability; }
+
+  // The kind's parameters as a JSON object; load_map() inverts this exactly.
+  virtual nlohmann::json parameters() const = 0;
+  // True when the map is non-decreasing in the score.
+  virtual bool monotone() const noexcept = 0;
+
+  const FitDiagnostics& diagnostics() const noexcept { return diagnostics_; }
+
+ protected:
+  FitDiagnostics diagnostics_;
+};
+
+// The kinds plumb can fit, in the order the help text lists them.
+std::span<const std::string_view> map_kinds() noexcept;
+// Whether `kind` accepts scores on `scale`.
+bool accepts_scale(std::string_view kind, Scale scale) noexcept;
+
+// Fit a map of `kind` to `data`. Throws plumb::Error: usage for an unknown
+// kind or a scale the kind does not accept; fit when the data cannot support
+// the fit (no rows of positive weight, only one class). Precondition: every
+// score is valid on data.scale and every label is 0 or 1.
+std::unique_ptr<CalibrationMap> fit_map(std::string_view kind, const FitData& data,
+                                        const MapOptions& options = {});
+
+// Rebuild a map from its kind, scale and parameters, validating every field
+// (types, finiteness, ranges, monotone knots). `where` names the document for
+// error messages. Throws plumb::Error(artifact).
+std::unique_ptr<CalibrationMap> load_map(std::string_view kind, Scale scale,
+                                         const nlohmann::json& parameters,
+                                         const std::string& where);
+
+// Weighted mean log loss of `map` on `data` (probabilities clipped as in
+// clipped_logit); used by every kind to fill FitDiagnostics::log_loss.
+double mean_log_loss(const CalibrationMap& map, const FitData& data);
+
+}  // namespace plumb

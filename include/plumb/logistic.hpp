@@ -1,0 +1,31 @@
+#pragma once
+// Weighted logistic regression with a handful of features, by Newton's
+// method with backtracking line search (the safeguarded Newton iteration of
+// Lin, Lin and Weng 2007, generalised to several features). Used by the
+// Platt and beta maps and by the report's calibration slope and intercept.
+#include <cstddef>
+#include <span>
+#include <vector>
+
+namespace plumb {
+
+struct LogisticFit {
+  std::vector<double> coef;  // one per feature column, then the intercept (if fitted)
+  int iterations = 0;
+  bool converged = false;
+  double deviance = 0.0;     // -2 * weighted log-likelihood at coef
+};
+
+// Fit P(target = 1) = sigmoid(X coef [+ intercept]).
+//
+// `features`: column-major, `features.size() == n * k` with feature j of row
+// i at features[j * n + i]. `target`: n values in [0, 1] (0/1 labels or
+// smoothed targets). `weight`: empty (all 1) or n finite values >= 0.
+// Stops when the gradient's max-norm is below 1e-10 times the total weight or
+// after `max_iterations`; a separated data set ends unconverged with finite
+// coefficients (the line search never steps to infinity).
+LogisticFit fit_logistic(std::span<const double> features, std::size_t k,
+                         std::span<const double> target, std::span<const double> weight,
+                         bool intercept = true, int max_iterations = 100);
+
+}  // namespace plumb
