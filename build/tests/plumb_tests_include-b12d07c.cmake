@@ -1,5 +1,0 @@
-if(EXISTS "/work/main/build/tests/plumb_tests_tests-b12d07c.cmake")
-  include("/work/main/build/tests/plumb_tests_tests-b12d07c.cmake")
-else()
-  add_test(plumb_tests_NOT_BUILT-b12d07c plumb_tests_NOT_BUILT-b12d07c)
-endif()
