@@ -1,0 +1,68 @@
+#pragma once
+// Resampling uncertainty for the report: a seeded Poisson bootstrap of the
+// headline metrics, and the consistency band of a reliability curve under
+// the hypothesis of calibration (Broecker and Smith 2007).
+#include <cstddef>
+#include <cstdint>
+#include <span>
+#include <vector>
+
+#include "plumb/binning.hpp"
+#include "plumb/reliability.hpp"
+
+namespace plumb {
+
+struct BootstrapOptions {
+  std::size_t replicates = 300;
+  std::uint64_t seed = 1;
+  double confidence = 0.95;  // two-sided level of every interval
+  BinningKind binning = BinningKind::equal_width;  // bins for the ECE
+  std::size_t bins = 10;
+};
+
+// Percentile interval: the (1 - confidence)/2 and (1 + confidence)/2
+// quantiles of the replicates, with linear interpolation between order
+// statistics (Hyndman and Fan 1996 type 7, R's default). NaN replicates
+// (e.g. AUC of a replicate with one class) are left out.
+struct BootstrapInterval {
+  double lo = 0.0;
+  double hi = 0.0;
+  std::size_t used = 0;  // replicates that gave a finite value
+};
+
+struct BootstrapResult {
+  BootstrapInterval ece;          // plug-in ECE, bins re-made in each replicate
+  BootstrapInterval l2_debiased;  // sqrt(max(0, debiased squared l2)), same bins
+  BootstrapInterval brier;
+  BootstrapInterval mcb_brier;    // CORP miscalibration of the Brier score
+  BootstrapInterval auc;
+};
+
+// Poisson bootstrap (each row's weight multiplied by an independent
+// Poisson(1) count, the usual large-n stand-in for multinomial resampling).
+// The rows are sorted by forecast once; each replicate is then one pass over
+// the sorted rows for every metric (bins, Brier, PAV via pav_fit_sorted, AUC
+// with tie groups), so a replicate costs O(n) and no re-sort.
+// Determinism: replicate r draws from std::mt19937_64 seeded with
+// splitmix64(seed + (r + 1) * 0x9E3779B97F4A7C15) and turns each 64-bit draw
+// into a Poisson(1) count by inversion of its distribution function, so the
+// intervals depend only on (rows, options), not on the thread count or the
+// standard library. replicates == 0 gives Error(usage).
+BootstrapResult bootstrap_metrics(std::span<const double> forecast,
+                                  std::span<const double> label,
+                                  std::span<const double> weight,
+                                  const BootstrapOptions& options);
+
+// Consistency band under calibration (Broecker and Smith 2007): keep the
+// forecasts and weights (hence the bins), redraw every label as
+// Bernoulli(forecast), recompute each bin's observed frequency, and take the
+// percentile interval per bin. A calibrated forecaster's observed
+// frequencies fall inside the band with about `confidence` probability per
+// bin. Bins of zero weight get {NaN, NaN}. Replicate r uses the generator of
+// bootstrap_metrics with seed ^ 0xC2B2AE3D27D4EB4F, one uniform per row.
+std::vector<Interval> consistency_band(std::span<const double> forecast,
+                                       std::span<const double> weight,
+                                       const Binning& binning,
+                                       const BootstrapOptions& options);
+
+}  // namespace plumb

@@ -1,0 +1,41 @@
+#pragma once
+// Calibration-in-the-large and the logistic recalibration of Cox (1958):
+// regress the label on the forecast's log-odds.
+#include <cstddef>
+#include <span>
+
+namespace plumb {
+
+// Weighted mean forecast minus weighted observed rate. Positive: the
+// forecasts are too high on average (the same sign convention as the gap in
+// reliability.hpp).
+double calibration_in_the_large(std::span<const double> forecast, std::span<const double> label,
+                                std::span<const double> weight = {});
+
+// Two fits of P(y = 1) on l = clipped_logit(forecast) (scale.hpp), weighted:
+//   two-parameter fit (Cox 1958):  logit P = intercept_free + slope * l
+//   offset fit (slope held at 1):  logit P = intercept_at_unit_slope + l
+// A calibrated forecaster has slope 1 and both intercepts 0. slope < 1 means
+// the forecasts are too extreme (over-confident), slope > 1 too timid.
+// intercept_at_unit_slope is "calibration-in-the-large on the log-odds
+// scale": > 0 means the forecasts are too low on average. intercept_free is
+// the intercept of the two-parameter fit and reads together with the slope
+// (it is the log-odds correction at l = 0, i.e. at forecast 1/2).
+// The two-parameter fit uses plumb::fit_logistic (logistic.hpp); the
+// one-parameter offset fit solves its score equation by safeguarded Newton
+// steps (it is monotone in the intercept). converged is false when either fit
+// did not converge (e.g. separated data); the coefficients are then finite
+// but not meaningful.
+struct CalibrationRegression {
+  double slope = 0.0;
+  double intercept_free = 0.0;
+  double intercept_at_unit_slope = 0.0;
+  bool converged = false;
+  std::size_t clipped = 0;  // forecasts moved to the clip bound before the log-odds
+};
+
+CalibrationRegression calibration_regression(std::span<const double> forecast,
+                                             std::span<const double> label,
+                                             std::span<const double> weight = {});
+
+}  // namespace plumb

@@ -1,0 +1,183 @@
+#include "plumb/bootstrap.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <numeric>
+#include <random>
+
+#include "core/metric_input.hpp"
+#include "plumb/auc.hpp"
+#include "plumb/calibration_error.hpp"
+#include "plumb/pav.hpp"
+
+namespace plumb {
+namespace {
+
+constexpr double nan = std::numeric_limits<double>::quiet_NaN();
+
+std::uint64_t splitmix64(std::uint64_t x) noexcept {
+  x += 0x9E3779B97F4A7C15ull;
+  x = (x ^ (x >> 30)) * 0xBF58476D1CE4E5B9ull;
+  x = (x ^ (x >> 27)) * 0x94D049BB133111EBull;
+  return x ^ (x >> 31);
+}
+
+std::mt19937_64 replicate_generator(std::uint64_t seed, std::size_t r) {
+  return std::mt19937_64(splitmix64(seed + (static_cast<std::uint64_t>(r) + 1) *
+                                               0x9E3779B97F4A7C15ull));
+}
+
+// A uniform in [0, 1) from the top 53 bits of one draw.
+double uniform01(std::mt19937_64& gen) noexcept {
+  return static_cast<double>(gen() >> 11) * 0x1p-53;
+}
+
+// Poisson(1) by inversion of its distribution function: written out (rather
+// than std::poisson_distribution) so that every standard library gives the
+// same counts for the same seed.
+unsigned poisson1(std::mt19937_64& gen) noexcept {
+  const double u = uniform01(gen);
+  double term = std::exp(-1.0), cdf = term;
+  unsigned k = 0;
+  while (u >= cdf && k < 40) {
+    ++k;
+    term /= k;
+    cdf += term;
+  }
+  return k;
+}
+
+BootstrapInterval percentile_interval(std::vector<double> values, double confidence) {
+  values.erase(std::remove_if(values.begin(), values.end(),
+                              [](double v) { return !std::isfinite(v); }),
+               values.end());
+  BootstrapInterval out;
+  out.used = values.size();
+  if (values.empty()) {
+    out.lo = out.hi = nan;
+    return out;
+  }
+  std::sort(values.begin(), values.end());
+  auto quantile = [&](double q) {
+    const double h = static_cast<double>(values.size() - 1) * q;
+    const auto k = static_cast<std::size_t>(std::floor(h));
+    if (k + 1 >= values.size()) return values.back();
+    return values[k] + (h - static_cast<double>(k)) * (values[k + 1] - values[k]);
+  };
+  out.lo = quantile(0.5 - 0.5 * confidence);
+  out.hi = quantile(0.5 + 0.5 * confidence);
+  return out;
+}
+
+void check_options(const BootstrapOptions& options) {
+  if (options.replicates == 0)
+    throw Error(ErrorKind::usage, "the number of bootstrap replicates must be positive", {}, "0",
+                "1 or more");
+  if (!(options.confidence > 0.0 && options.confidence < 1.0))
+    throw Error(ErrorKind::usage, "the confidence level must lie strictly between 0 and 1", {},
+                std::to_string(options.confidence), "a value such as 0.95");
+}
+
+// CORP miscalibration of the Brier score for sorted rows.
+double sorted_mcb_brier(std::span<const double> p, std::span<const double> y,
+                        std::span<const double> w, double total) {
+  const std::vector<PavBlock> blocks = pav_fit_sorted(p, y, w);
+  double original = 0.0, recalibrated = 0.0;
+  std::size_t j = 0;
+  for (std::size_t i = 0; i < p.size(); ++i) {
+    if (w[i] == 0.0) continue;
+    while (j + 1 < blocks.size() && blocks[j].score_hi < p[i]) ++j;
+    const double v = blocks[j].value;
+    original += w[i] * (p[i] - y[i]) * (p[i] - y[i]);
+    recalibrated += w[i] * (v - y[i]) * (v - y[i]);
+  }
+  return (original - recalibrated) / total;
+}
+
+}  // namespace
+
+BootstrapResult bootstrap_metrics(std::span<const double> forecast,
+                                  std::span<const double> label,
+                                  std::span<const double> weight,
+                                  const BootstrapOptions& options) {
+  detail::check_metric_input("bootstrap_metrics", forecast, label, weight);
+  check_options(options);
+  const std::size_t n = forecast.size();
+  std::vector<std::size_t> order(n);
+  std::iota(order.begin(), order.end(), std::size_t{0});
+  std::stable_sort(order.begin(), order.end(),
+                   [&](std::size_t a, std::size_t b) { return forecast[a] < forecast[b]; });
+  std::vector<double> p(n), y(n), base(n), w(n);
+  for (std::size_t k = 0; k < n; ++k) {
+    p[k] = forecast[order[k]];
+    y[k] = label[order[k]];
+    base[k] = detail::weight_at(weight, order[k]);
+  }
+
+  const std::size_t R = options.replicates;
+  std::vector<double> ece(R), l2(R), brier(R), mcb(R), area(R);
+  for (std::size_t r = 0; r < R; ++r) {
+    std::mt19937_64 gen = replicate_generator(options.seed, r);
+    double total = 0.0, squared = 0.0;
+    for (std::size_t k = 0; k < n; ++k) {
+      w[k] = base[k] * poisson1(gen);
+      total += w[k];
+      squared += w[k] * (p[k] - y[k]) * (p[k] - y[k]);
+    }
+    if (!(total > 0.0)) {  // every row drawn zero times: no replicate
+      ece[r] = l2[r] = brier[r] = mcb[r] = area[r] = nan;
+      continue;
+    }
+    const Binning binning = make_binning_sorted(p, w, options.binning, options.bins);
+    const std::vector<BinSums> sums = bin_sums(p, y, w, binning);
+    const CalibrationError ce = calibration_error(sums, options.binning);
+    ece[r] = ce.ece;
+    l2[r] = ce.l2_debiased;
+    brier[r] = squared / total;
+    mcb[r] = sorted_mcb_brier(p, y, w, total);
+    area[r] = auc_sorted(p, y, w);
+  }
+  BootstrapResult out;
+  out.ece = percentile_interval(std::move(ece), options.confidence);
+  out.l2_debiased = percentile_interval(std::move(l2), options.confidence);
+  out.brier = percentile_interval(std::move(brier), options.confidence);
+  out.mcb_brier = percentile_interval(std::move(mcb), options.confidence);
+  out.auc = percentile_interval(std::move(area), options.confidence);
+  return out;
+}
+
+std::vector<Interval> consistency_band(std::span<const double> forecast,
+                                       std::span<const double> weight,
+                                       const Binning& binning,
+                                       const BootstrapOptions& options) {
+  check_options(options);
+  const std::size_t n = forecast.size();
+  if ((!weight.empty() && weight.size() != n) || binning.bin_of_row.size() != n)
+    throw Error(ErrorKind::internal, "consistency_band: rows, weights and binning differ in length");
+  const std::size_t bins = binning.bin_count;
+  std::vector<double> bin_weight(bins, 0.0);
+  for (std::size_t i = 0; i < n; ++i) bin_weight[binning.bin_of_row[i]] += detail::weight_at(weight, i);
+
+  const std::size_t R = options.replicates;
+  std::vector<std::vector<double>> frequency(bins, std::vector<double>(R, nan));
+  std::vector<double> positives(bins);
+  const std::uint64_t seed = options.seed ^ 0xC2B2AE3D27D4EB4Full;
+  for (std::size_t r = 0; r < R; ++r) {
+    std::mt19937_64 gen = replicate_generator(seed, r);
+    std::fill(positives.begin(), positives.end(), 0.0);
+    for (std::size_t i = 0; i < n; ++i) {
+      if (uniform01(gen) < forecast[i]) positives[binning.bin_of_row[i]] += detail::weight_at(weight, i);
+    }
+    for (std::size_t b = 0; b < bins; ++b)
+      if (bin_weight[b] > 0.0) frequency[b][r] = positives[b] / bin_weight[b];
+  }
+  std::vector<Interval> band(bins);
+  for (std::size_t b = 0; b < bins; ++b) {
+    const BootstrapInterval q = percentile_interval(std::move(frequency[b]), options.confidence);
+    band[b] = {q.lo, q.hi};
+  }
+  return band;
+}
+
+}  // namespace plumb
