@@ -21,9 +21,13 @@ struct LogisticFit {
 // `features`: column-major, `features.size() == n * k` with feature j of row
 // i at features[j * n + i]. `target`: n values in [0, 1] (0/1 labels or
 // smoothed targets). `weight`: empty (all 1) or n finite values >= 0.
-// Stops when the gradient's max-norm is below 1e-10 times the total weight or
-// after `max_iterations`; a separated data set ends unconverged with finite
-// coefficients (the line search never steps to infinity).
+// Rows of zero weight take no part. Converged means: every gradient
+// component is at most 1e-10 times sum(w |x_j|) (the total weight for the
+// intercept) and the next Newton step would change no fitted log-odds by more
+// than 1e-6. At most `max_iterations` Newton steps are taken; a separated
+// data set (no finite maximum) ends with converged == false and finite
+// coefficients, because every step is a finite, line-searched Newton step.
+// Throws plumb::Error(internal) on inconsistent sizes.
 LogisticFit fit_logistic(std::span<const double> features, std::size_t k,
                          std::span<const double> target, std::span<const double> weight,
                          bool intercept = true, int max_iterations = 100);

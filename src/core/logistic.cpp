@@ -1,0 +1,183 @@
+#include "plumb/logistic.hpp"
+
+#include <Eigen/Dense>
+#include <algorithm>
+#include <cmath>
+#include <limits>
+
+#include "plumb/error.hpp"
+#include "plumb/scale.hpp"
+
+namespace plumb {
+namespace {
+
+// log(1 + exp(x)) without overflow for large x and without losing the small
+// value for very negative x (Lin, Lin and Weng 2007, section 3).
+double softplus(double x) noexcept {
+  return x > 0 ? x + std::log1p(std::exp(-x)) : std::log1p(std::exp(x));
+}
+
+// Everything one Newton iteration needs at the current coefficients.
+struct Evaluation {
+  double loss = 0.0;  // weighted negative log-likelihood
+  Eigen::VectorXd gradient;
+  Eigen::MatrixXd hessian;
+};
+
+class Problem {
+ public:
+  Problem(std::span<const double> features, std::size_t k, std::span<const double> target,
+          std::span<const double> weight, bool intercept)
+      : x_(features), k_(k), n_(target.size()), t_(target), w_(weight), intercept_(intercept) {}
+
+  std::size_t dim() const noexcept { return k_ + (intercept_ ? 1 : 0); }
+  double weight(std::size_t i) const noexcept { return w_.empty() ? 1.0 : w_[i]; }
+  double feature(std::size_t j, std::size_t i) const noexcept { return j < k_ ? x_[j * n_ + i] : 1.0; }
+
+  double eta(const Eigen::VectorXd& beta, std::size_t i) const noexcept {
+    double e = 0.0;
+    for (std::size_t j = 0; j < dim(); ++j) e += beta[static_cast<Eigen::Index>(j)] * feature(j, i);
+    return e;
+  }
+
+  // (1-t) softplus(eta) + t softplus(-eta) equals softplus(eta) - t eta but
+  // stays accurate and non-negative when |eta| is large.
+  double loss(const Eigen::VectorXd& beta) const noexcept {
+    double total = 0.0;
+    for (std::size_t i = 0; i < n_; ++i) {
+      const double w = weight(i);
+      if (!(w > 0.0)) continue;
+      const double e = eta(beta, i);
+      total += w * ((1.0 - t_[i]) * softplus(e) + t_[i] * softplus(-e));
+    }
+    return total;
+  }
+
+  Evaluation evaluate(const Eigen::VectorXd& beta) const {
+    const auto d = static_cast<Eigen::Index>(dim());
+    Evaluation ev;
+    ev.gradient = Eigen::VectorXd::Zero(d);
+    ev.hessian = Eigen::MatrixXd::Zero(d, d);
+    Eigen::VectorXd row(d);
+    for (std::size_t i = 0; i < n_; ++i) {
+      const double w = weight(i);
+      if (!(w > 0.0)) continue;
+      for (Eigen::Index j = 0; j < d; ++j) row[j] = feature(static_cast<std::size_t>(j), i);
+      const double e = row.dot(beta);
+      const double p = sigmoid(e), q = sigmoid(-e);
+      // p - t written so that it does not cancel to zero when p rounds to 1.
+      const double residual = (1.0 - t_[i]) * p - t_[i] * q;
+      ev.loss += w * ((1.0 - t_[i]) * softplus(e) + t_[i] * softplus(-e));
+      ev.gradient += (w * residual) * row;
+      ev.hessian.selfadjointView<Eigen::Lower>().rankUpdate(row, w * p * q);
+    }
+    ev.hessian = ev.hessian.selfadjointView<Eigen::Lower>();
+    return ev;
+  }
+
+  // Per-coordinate gradient tolerance: relative to the weighted size of the
+  // feature, so that rescaling a feature does not change when the fit stops.
+  Eigen::VectorXd gradient_tolerance() const {
+    const auto d = static_cast<Eigen::Index>(dim());
+    Eigen::VectorXd tol = Eigen::VectorXd::Zero(d);
+    for (std::size_t i = 0; i < n_; ++i) {
+      const double w = weight(i);
+      if (!(w > 0.0)) continue;
+      for (Eigen::Index j = 0; j < d; ++j) tol[j] += w * std::abs(feature(static_cast<std::size_t>(j), i));
+    }
+    return 1e-10 * tol;
+  }
+
+  // Largest change of the linear predictor over the rows that count.
+  double max_eta_change(const Eigen::VectorXd& step) const noexcept {
+    double m = 0.0;
+    for (std::size_t i = 0; i < n_; ++i) {
+      if (!(weight(i) > 0.0)) continue;
+      m = std::max(m, std::abs(eta(step, i)));
+    }
+    return m;
+  }
+
+ private:
+  std::span<const double> x_;
+  std::size_t k_;
+  std::size_t n_;
+  std::span<const double> t_;
+  std::span<const double> w_;
+  bool intercept_;
+};
+
+}  // namespace
+
+LogisticFit fit_logistic(std::span<const double> features, std::size_t k, std::span<const double> target,
+                         std::span<const double> weight, bool intercept, int max_iterations) {
+  const std::size_t n = target.size();
+  if (features.size() != n * k || (!weight.empty() && weight.size() != n) || (k == 0 && !intercept))
+    throw Error(ErrorKind::internal, "fit_logistic: inconsistent feature, target or weight sizes");
+
+  const Problem problem(features, k, target, weight, intercept);
+  const auto d = static_cast<Eigen::Index>(problem.dim());
+  Eigen::VectorXd beta = Eigen::VectorXd::Zero(d);
+  const Eigen::VectorXd tolerance = problem.gradient_tolerance();
+
+  LogisticFit fit;
+  Evaluation ev = problem.evaluate(beta);
+  for (int it = 0;; ++it) {
+    // The ridge only keeps the solve defined when the Hessian is singular
+    // (constant or collinear features, separated rows); it does not enter the
+    // objective, so the fixed point is the unpenalised maximum likelihood.
+    const double scale = ev.hessian.diagonal().cwiseAbs().maxCoeff();
+    const double ridge = std::max(1e-12 * scale, std::numeric_limits<double>::min());
+    Eigen::MatrixXd h = ev.hessian;
+    h.diagonal().array() += ridge;
+    const Eigen::VectorXd step = -h.ldlt().solve(ev.gradient);
+    if (!step.allFinite()) break;
+
+    // Converged only when the gradient is negligible AND the Newton step would
+    // hardly move any fitted log-odds. On separated data the gradient decays
+    // towards zero while the step stays of order one, so the second test is
+    // what tells a finite optimum from a diverging one.
+    const bool small_gradient = (ev.gradient.cwiseAbs().array() <= tolerance.array()).all();
+    if (small_gradient && problem.max_eta_change(step) <= 1e-6) {
+      fit.converged = true;
+      break;
+    }
+    if (it >= max_iterations) break;
+
+    // Backtracking (Armijo) line search, as in Lin, Lin and Weng (2007),
+    // Algorithm 3: halve the step until the loss decreases enough.
+    const double slope = ev.gradient.dot(step);
+    double length = 1.0;
+    bool accepted = false;
+    Eigen::VectorXd candidate = beta + step;
+    // Close to the optimum the predicted decrease is below the rounding of
+    // the summed loss, so comparing losses says nothing; there the full
+    // Newton step is taken (the quadratic model is accurate).
+    if (-slope <= 1e-13 * ev.loss) accepted = true;
+    while (!accepted && length >= 1e-12) {
+      candidate = beta + length * step;
+      const double trial = problem.loss(candidate);
+      if (std::isfinite(trial) && trial <= ev.loss + 1e-4 * length * slope) {
+        accepted = true;
+        break;
+      }
+      length *= 0.5;
+    }
+    if (accepted && candidate == beta) accepted = false;  // the step vanished in rounding
+    if (!accepted) {
+      // No decrease is representable any more. That is a finite optimum
+      // reached to rounding only if the remaining step is negligible.
+      fit.converged = problem.max_eta_change(step) <= 1e-6;
+      break;
+    }
+    beta = candidate;
+    ++fit.iterations;
+    ev = problem.evaluate(beta);
+  }
+
+  fit.coef.assign(beta.data(), beta.data() + beta.size());
+  fit.deviance = 2.0 * ev.loss;
+  return fit;
+}
+
+}  // namespace plumb
