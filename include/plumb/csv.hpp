@@ -1,0 +1,104 @@
+#pragma once
+// Streaming CSV/TSV reading (RFC 4180 quoting) with exact error locations.
+//
+// Records are read one at a time from a file or standard input through a
+// fixed buffer, so memory stays flat whatever the input size. Each record
+// gives both its raw bytes (for passing columns through unchanged) and its
+// unescaped fields.
+#include <cstdint>
+#include <memory>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+namespace plumb::io {
+
+class ByteSource;
+
+struct Record {
+  std::string_view raw;        // the record's bytes, without its line end
+  std::string_view line_end;   // "\n", "\r\n" or "" (last record without one)
+  std::vector<std::string_view> fields;  // unescaped field values
+  std::uint64_t line = 0;      // physical line on which the record starts
+};
+
+struct CsvOptions {
+  // 0: detect (tab for *.tsv / *.tab files, or a header with tabs and no
+  // commas; comma otherwise).
+  char delimiter = 0;
+  // Longest record accepted; a longer one is an input error, not an
+  // unbounded allocation.
+  std::size_t max_record_bytes = std::size_t{64} << 20;
+};
+
+class CsvReader {
+ public:
+  // path "-" (or empty) reads standard input. Reads and checks the header row
+  // (at least one column, no empty or duplicated names, UTF-8 byte-order mark
+  // dropped). Throws plumb::Error: io when the file cannot be opened or
+  // read, input when it is empty or its header is malformed.
+  explicit CsvReader(const std::string& path, const CsvOptions& options = {});
+  ~CsvReader();
+  CsvReader(const CsvReader&) = delete;
+  CsvReader& operator=(const CsvReader&) = delete;
+
+  // The name used in messages: the path, or "<stdin>".
+  const std::string& name() const noexcept { return name_; }
+  char delimiter() const noexcept { return delimiter_; }
+  const std::vector<std::string>& header() const noexcept { return header_; }
+  // The header record as it was read (raw bytes, line end).
+  const Record& header_record() const noexcept { return header_record_; }
+
+  // Resolve a column given by name or by 1-based index ("3"); names win over
+  // indexes when a column is literally named "3". Throws plumb::Error(input)
+  // naming the available columns. `role` ("score", "label") goes in the message.
+  std::size_t column(std::string_view spec, std::string_view role) const;
+
+  // Next data record, with exactly header().size() fields; false at the end.
+  // Blank lines are skipped. The record's views stay valid until the next
+  // call. Throws plumb::Error(input) on a ragged row, an unclosed quote,
+  // stray text after a closing quote, a NUL byte or an over-long record.
+  bool next(Record& record);
+
+  // Bytes consumed so far, and the total size when the input is a regular file.
+  std::uint64_t bytes_read() const noexcept;
+  std::optional<std::uint64_t> total_bytes() const noexcept;
+
+  // SHA-256 of every byte read so far, as lowercase hex; call after the last
+  // record for the whole input.
+  std::string content_sha256() const;
+
+ private:
+  bool read_record(Record& record);
+  bool fill();
+
+  std::unique_ptr<ByteSource> source_;
+  std::string name_;
+  CsvOptions options_;
+  char delimiter_ = ',';
+  std::vector<std::string> header_;
+  Record header_record_;
+  std::string header_storage_;
+  std::vector<char> buffer_;
+  std::size_t begin_ = 0, end_ = 0;
+  bool eof_ = false;
+  std::uint64_t line_ = 1;
+  std::string scratch_;
+  struct Span {
+    std::size_t offset, length;
+    bool in_scratch;
+  };
+  std::vector<Span> spans_;
+};
+
+// Parse a decimal number (optional sign, digits, fraction, exponent; no hex,
+// no "nan"/"inf"), ignoring surrounding spaces and tabs. nullopt when the text
+// is not such a number or is out of double range.
+std::optional<double> parse_number(std::string_view text) noexcept;
+
+// Why parse_number refused `text`, in a few words ("is empty", "is not a
+// number", "is not finite", "is out of the range of a double").
+std::string_view number_problem(std::string_view text) noexcept;
+
+}  // namespace plumb::io

@@ -1,0 +1,49 @@
+#pragma once
+// Histogram binning (Zadrozny and Elkan 2001): equal-mass bins of the score,
+// each mapped to its observed (weighted) frequency of positives.
+#include <memory>
+#include <vector>
+
+#include "plumb/calibration_map.hpp"
+
+namespace plumb {
+
+struct HistogramBin {
+  double score_lo;  // smallest fitted score in the bin
+  double score_hi;  // largest fitted score in the bin
+  double value;     // weighted frequency of positives in the bin
+  double weight;    // total weight of the bin
+};
+
+class HistogramMap final : public CalibrationMap {
+ public:
+  HistogramMap(Scale scale, std::vector<HistogramBin> bins);
+
+  static bool accepts(Scale) noexcept { return true; }
+  // Bins hold about equal weight: rows of one distinct score never straddle
+  // two bins, and each distinct score goes to the bin holding the midpoint of
+  // its cumulative weight. Fewer bins than asked result when distinct scores
+  // are few; the diagnostics say so.
+  static std::unique_ptr<CalibrationMap> fit(const FitData& data, const MapOptions& options);
+  static std::unique_ptr<CalibrationMap> from_parameters(Scale scale, const nlohmann::json& parameters,
+                                                         const std::string& where);
+
+  std::string_view kind() const noexcept override { return "histogram"; }
+  Scale scale() const noexcept override { return scale_; }
+  // A score between two bins belongs to the nearer one (the boundary is the
+  // midpoint of the gap; a score exactly on it goes left). Outside the fitted
+  // scores: the end bin, flagged outside_fit_range.
+  Mapped map(double score) const noexcept override;
+  nlohmann::json parameters() const override;
+  bool monotone() const noexcept override { return monotone_; }
+
+  const std::vector<HistogramBin>& bins() const noexcept { return bins_; }
+
+ private:
+  Scale scale_;
+  std::vector<HistogramBin> bins_;
+  std::vector<double> upper_;  // decision boundary to the right of each bin but the last
+  bool monotone_ = true;
+};
+
+}  // namespace plumb

@@ -1,0 +1,105 @@
+// The one place that knows every kind of map. Adding a kind: write its
+// class (see DEVELOPERS.md), then add one row to `registry` below.
+#include <algorithm>
+#include <array>
+#include <cmath>
+
+#include "plumb/calibration_map.hpp"
+#include "plumb/error.hpp"
+#include "plumb/maps/histogram_map.hpp"
+#include "plumb/maps/isotonic_map.hpp"
+
+namespace plumb {
+namespace {
+
+struct Entry {
+  std::string_view kind;
+  bool (*accepts)(Scale) noexcept;
+  std::unique_ptr<CalibrationMap> (*fit)(const FitData&, const MapOptions&);
+  std::unique_ptr<CalibrationMap> (*load)(Scale, const nlohmann::json&, const std::string&);
+};
+
+template <class M>
+constexpr Entry entry(std::string_view kind) {
+  return Entry{kind, &M::accepts, &M::fit, &M::from_parameters};
+}
+
+const std::array registry{
+    entry<IsotonicMap>("isotonic"),
+    entry<HistogramMap>("histogram"),
+};
+
+const std::array<std::string_view, registry.size()> kind_names = [] {
+  std::array<std::string_view, registry.size()> names{};
+  for (std::size_t i = 0; i < registry.size(); ++i) names[i] = registry[i].kind;
+  return names;
+}();
+
+const Entry* find(std::string_view kind) noexcept {
+  const auto it = std::find_if(registry.begin(), registry.end(), [&](const Entry& e) { return e.kind == kind; });
+  return it == registry.end() ? nullptr : &*it;
+}
+
+std::string kind_list() {
+  std::string out;
+  for (std::string_view k : kind_names) out += (out.empty() ? "" : ", ") + std::string(k);
+  return out;
+}
+
+}  // namespace
+
+std::span<const std::string_view> map_kinds() noexcept { return kind_names; }
+
+bool accepts_scale(std::string_view kind, Scale scale) noexcept {
+  const Entry* e = find(kind);
+  return e && e->accepts(scale);
+}
+
+std::unique_ptr<CalibrationMap> fit_map(std::string_view kind, const FitData& data, const MapOptions& options) {
+  const Entry* e = find(kind);
+  if (!e) throw Error(ErrorKind::usage, "unknown map kind", {}, std::string(kind), "one of " + kind_list());
+  if (!e->accepts(data.scale))
+    throw Error(ErrorKind::usage, "the " + std::string(kind) + " map does not accept scores on the " +
+                                      std::string(to_string(data.scale)) + " scale",
+                {}, {}, "a --scale this map accepts (see plumb fit --help)");
+  double w_pos = 0.0, w_neg = 0.0;
+  for (std::size_t i = 0; i < data.score.size(); ++i) {
+    const double w = data.weight.empty() ? 1.0 : data.weight[i];
+    (data.label[i] > 0.5 ? w_pos : w_neg) += w;
+  }
+  if (!(w_pos + w_neg > 0.0)) throw Error(ErrorKind::fit, "no rows of positive weight to fit");
+  if (!(w_pos > 0.0) || !(w_neg > 0.0))
+    throw Error(ErrorKind::fit,
+                std::string("the calibration rows hold only ") + (w_pos > 0.0 ? "positive" : "negative") +
+                    " labels",
+                {}, {}, "both positive and negative labels");
+  return e->fit(data, options);
+}
+
+std::unique_ptr<CalibrationMap> load_map(std::string_view kind, Scale scale, const nlohmann::json& parameters,
+                                         const std::string& where) {
+  const Entry* e = find(kind);
+  Location loc;
+  loc.file = where;
+  if (!e) throw Error(ErrorKind::artifact, "unknown map kind", loc, std::string(kind), "one of " + kind_list());
+  if (!e->accepts(scale))
+    throw Error(ErrorKind::artifact,
+                "a " + std::string(kind) + " map cannot hold scores on the " + std::string(to_string(scale)) +
+                    " scale",
+                loc);
+  return e->load(scale, parameters, where);
+}
+
+double mean_log_loss(const CalibrationMap& map, const FitData& data) {
+  double loss = 0.0, total = 0.0;
+  for (std::size_t i = 0; i < data.score.size(); ++i) {
+    const double w = data.weight.empty() ? 1.0 : data.weight[i];
+    if (!(w > 0.0)) continue;
+    const double p = std::clamp(map(data.score[i]), probability_clip, 1.0 - probability_clip);
+    loss -= w * (data.label[i] > 0.5 ? std::log(p) : std::log1p(-p));
+    total += w;
+  }
+  return total > 0.0 ? loss / total : 0.0;
+}
+
+}  // namespace plumb

@@ -1,0 +1,92 @@
+#include "plumb/pav.hpp"
+
+#include <algorithm>
+#include <numeric>
+
+#include "plumb/error.hpp"
+
+namespace plumb {
+namespace {
+
+void check_lengths(std::span<const double> x, std::span<const double> y, std::span<const double> w) {
+  if (x.size() != y.size() || (!w.empty() && w.size() != x.size()))
+    throw Error(ErrorKind::internal, "pav_fit: score, label and weight columns differ in length");
+}
+
+// A block under construction keeps the weighted sum of y rather than its
+// mean, so that pooling is exact addition and the total is preserved.
+struct Pool {
+  double lo, hi, wy, w;
+};
+
+// PAV over rows visited in score order through `order` (or 0..n-1 when empty).
+std::vector<PavBlock> fit_in_order(std::span<const double> x, std::span<const double> y,
+                                   std::span<const double> w, const std::vector<std::size_t>* order) {
+  const std::size_t n = x.size();
+  std::vector<Pool> stack;
+  stack.reserve(64);
+  std::size_t k = 0;
+  while (k < n) {
+    // Pool every row of one distinct score first: ties get one fitted value.
+    const std::size_t first = order ? (*order)[k] : k;
+    const double score = x[first];
+    double wy = 0.0, wsum = 0.0;
+    for (; k < n; ++k) {
+      const std::size_t i = order ? (*order)[k] : k;
+      if (x[i] != score) break;
+      const double wi = w.empty() ? 1.0 : w[i];
+      wy += wi * y[i];
+      wsum += wi;
+    }
+    if (!(wsum > 0.0)) continue;
+    Pool cur{score, score, wy, wsum};
+    // Merge backwards while the previous block's mean exceeds this one's
+    // (compared by cross-multiplication to avoid two divisions).
+    while (!stack.empty() && stack.back().wy * cur.w > cur.wy * stack.back().w) {
+      const Pool& prev = stack.back();
+      cur = Pool{prev.lo, cur.hi, prev.wy + cur.wy, prev.w + cur.w};
+      stack.pop_back();
+    }
+    stack.push_back(cur);
+  }
+  std::vector<PavBlock> blocks;
+  blocks.reserve(stack.size());
+  for (const Pool& p : stack) blocks.push_back(PavBlock{p.lo, p.hi, p.wy / p.w, p.w});
+  // Division can break monotonicity by one ulp between nearly equal means.
+  for (std::size_t i = 1; i < blocks.size(); ++i)
+    blocks[i].value = std::max(blocks[i].value, blocks[i - 1].value);
+  return blocks;
+}
+
+}  // namespace
+
+std::vector<PavBlock> pav_fit(std::span<const double> x, std::span<const double> y,
+                              std::span<const double> w) {
+  check_lengths(x, y, w);
+  std::vector<std::size_t> order(x.size());
+  std::iota(order.begin(), order.end(), std::size_t{0});
+  std::sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return x[a] < x[b]; });
+  return fit_in_order(x, y, w, &order);
+}
+
+std::vector<PavBlock> pav_fit_sorted(std::span<const double> x, std::span<const double> y,
+                                     std::span<const double> w) {
+  check_lengths(x, y, w);
+  return fit_in_order(x, y, w, nullptr);
+}
+
+std::vector<double> pav_values(std::span<const double> x, std::span<const double> y,
+                               std::span<const double> w) {
+  const std::vector<PavBlock> blocks = pav_fit(x, y, w);
+  std::vector<double> out(x.size(), 0.0);
+  for (std::size_t i = 0; i < x.size(); ++i) {
+    // The block whose range holds x[i]; rows of zero weight whose score has no
+    // block take the value of the nearest block to their left (or the first).
+    auto it = std::upper_bound(blocks.begin(), blocks.end(), x[i],
+                               [](double s, const PavBlock& b) { return s < b.score_lo; });
+    out[i] = it == blocks.begin() ? (blocks.empty() ? 0.0 : blocks.front().value) : std::prev(it)->value;
+  }
+  return out;
+}
+
+}  // namespace plumb

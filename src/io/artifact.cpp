@@ -1,0 +1,158 @@
+#include "plumb/artifact.hpp"
+
+#include <fstream>
+#include <iterator>
+#include <sstream>
+
+#include "core/json_fields.hpp"
+#include "io/byte_source.hpp"
+#include "plumb/error.hpp"
+#include "plumb/version.hpp"
+
+namespace plumb {
+
+namespace jf = json_fields;
+using nlohmann::json;
+
+namespace {
+
+constexpr const char* integrity_key = "integrity_sha256";
+
+json diagnostics_json(const FitDiagnostics& d) {
+  return {{"iterations", d.iterations},
+          {"converged", d.converged},
+          {"log_loss", d.log_loss},
+          {"clipped_rows", d.clipped},
+          {"notes", d.notes}};
+}
+
+}  // namespace
+
+std::string integrity_hash(const json& document) { return io::sha256_hex(document.dump()); }
+
+json artifact_to_json(const Artifact& a) {
+  const Provenance& p = a.provenance;
+  json doc;
+  doc["format"] = artifact_format_marker;
+  doc["format_version"] = artifact_format_version;
+  doc["kind"] = std::string(a.map->kind());
+  doc["input"] = {{"score_column", a.score_column}, {"scale", std::string(to_string(a.map->scale()))}};
+  doc["parameters"] = a.map->parameters();
+  doc["fit"] = diagnostics_json(a.map->diagnostics());
+  doc["fit"]["options"] = a.fit_options;
+  doc["provenance"] = {{"source", p.source},
+                       {"source_sha256", p.source_sha256},
+                       {"rows", p.rows},
+                       {"positives", p.positives},
+                       {"weight_total", p.weight_total},
+                       {"label_column", p.label_column},
+                       {"weight_column", p.weight_column.empty() ? json(nullptr) : json(p.weight_column)},
+                       {"positive_rule", p.positive_rule},
+                       {"score_min", p.score_min},
+                       {"score_max", p.score_max},
+                       {"tool", p.tool},
+                       {"created_utc", p.created_utc.empty() ? json(nullptr) : json(p.created_utc)}};
+  return doc;
+}
+
+std::string artifact_to_text(const Artifact& a) {
+  json doc = artifact_to_json(a);
+  doc[integrity_key] = integrity_hash(doc);
+  return doc.dump(2) + "\n";
+}
+
+Artifact artifact_from_text(const std::string& text, const std::string& where) {
+  json doc;
+  try {
+    doc = json::parse(text);
+  } catch (const json::parse_error& e) {
+    // Turn the byte offset into a line and column.
+    Location loc;
+    loc.file = where;
+    loc.line = 1;
+    loc.column = 1;
+    const std::size_t stop = std::min<std::size_t>(e.byte > 0 ? e.byte - 1 : 0, text.size());
+    for (std::size_t i = 0; i < stop; ++i) {
+      if (text[i] == '\n') {
+        ++loc.line;
+        loc.column = 1;
+      } else {
+        ++loc.column;
+      }
+    }
+    const bool truncated = e.byte >= text.size();
+    throw Error(ErrorKind::artifact,
+                truncated ? "the map artifact ends early (truncated?)" : "the map artifact is not valid JSON", loc,
+                {}, "a complete JSON document written by plumb fit");
+  }
+  Location loc;
+  loc.file = where;
+  if (!doc.is_object() || !doc.contains("format") || doc["format"] != artifact_format_marker)
+    throw Error(ErrorKind::artifact, "not a plumb map artifact", loc, {},
+                std::string("a JSON object with \"format\": \"") + artifact_format_marker + "\"");
+  const std::int64_t version = jf::require_integer(doc, "format_version", where, "format_version");
+  if (version != artifact_format_version)
+    throw Error(ErrorKind::artifact,
+                version > artifact_format_version
+                    ? "the map artifact has format version " + std::to_string(version) +
+                          ", written by a newer plumb"
+                    : "the map artifact has unknown format version " + std::to_string(version),
+                loc, {}, "format version " + std::to_string(artifact_format_version) + " (plumb " + version_string + ")");
+  const std::string stated = jf::require_string(doc, integrity_key, where, integrity_key);
+  json content = doc;
+  content.erase(integrity_key);
+  if (integrity_hash(content) != stated)
+    throw Error(ErrorKind::artifact, "the map artifact's content does not match its integrity hash (edited or corrupted)",
+                loc, {}, "an artifact as written by plumb fit");
+
+  Artifact a;
+  const std::string kind = jf::require_string(doc, "kind", where, "kind");
+  const json& input = jf::require(doc, "input", where, "input");
+  a.score_column = jf::require_string(input, "score_column", where, "input.score_column");
+  const std::string scale_text = jf::require_string(input, "scale", where, "input.scale");
+  const auto scale = parse_scale(scale_text);
+  if (!scale) jf::fail(where, "input.scale", "is '" + scale_text + "'", "probability, logit or margin");
+  a.map = load_map(kind, *scale, jf::require(doc, "parameters", where, "parameters"), where);
+
+  const json& fit = jf::require(doc, "fit", where, "fit");
+  a.fit_options = jf::require(fit, "options", where, "fit.options");
+  const json& p = jf::require(doc, "provenance", where, "provenance");
+  Provenance& pr = a.provenance;
+  pr.source = jf::require_string(p, "source", where, "provenance.source");
+  pr.source_sha256 = jf::require_string(p, "source_sha256", where, "provenance.source_sha256");
+  pr.rows = static_cast<std::uint64_t>(jf::require_integer(p, "rows", where, "provenance.rows"));
+  pr.positives = jf::require_finite(p, "positives", where, "provenance.positives");
+  pr.weight_total = jf::require_finite(p, "weight_total", where, "provenance.weight_total");
+  pr.label_column = jf::require_string(p, "label_column", where, "provenance.label_column");
+  const json& wc = jf::require(p, "weight_column", where, "provenance.weight_column");
+  pr.weight_column = wc.is_string() ? wc.get<std::string>() : std::string();
+  pr.positive_rule = jf::require_string(p, "positive_rule", where, "provenance.positive_rule");
+  pr.score_min = jf::require_finite(p, "score_min", where, "provenance.score_min");
+  pr.score_max = jf::require_finite(p, "score_max", where, "provenance.score_max");
+  pr.tool = jf::require_string(p, "tool", where, "provenance.tool");
+  const json& created = jf::require(p, "created_utc", where, "provenance.created_utc");
+  pr.created_utc = created.is_string() ? created.get<std::string>() : std::string();
+  return a;
+}
+
+Artifact load_artifact(const std::string& path) {
+  io::ByteSource source(path);
+  std::string text;
+  char chunk[1 << 16];
+  for (std::size_t n; (n = source.read(chunk, sizeof chunk)) > 0;) {
+    text.append(chunk, n);
+    if (text.size() > (std::size_t{256} << 20)) {
+      Location loc;
+      loc.file = source.name();
+      throw Error(ErrorKind::artifact, "the file is too large to be a map artifact", loc);
+    }
+  }
+  if (text.empty()) {
+    Location loc;
+    loc.file = source.name();
+    throw Error(ErrorKind::artifact, "the map artifact is empty", loc, {}, "a JSON document written by plumb fit");
+  }
+  return artifact_from_text(text, source.name());
+}
+
+}  // namespace plumb

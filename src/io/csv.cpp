@@ -1,0 +1,300 @@
+#include "plumb/csv.hpp"
+
+#include <algorithm>
+#include <charconv>
+#include <cmath>
+#include <cstring>
+#include <set>
+
+#include "io/byte_source.hpp"
+#include "plumb/error.hpp"
+
+namespace plumb::io {
+namespace {
+
+constexpr std::size_t initial_buffer = std::size_t{1} << 20;
+
+bool ends_with(const std::string& s, std::string_view suffix) {
+  return s.size() >= suffix.size() && s.compare(s.size() - suffix.size(), suffix.size(), suffix) == 0;
+}
+
+std::string_view trim_blanks(std::string_view t) noexcept {
+  while (!t.empty() && (t.front() == ' ' || t.front() == '\t')) t.remove_prefix(1);
+  while (!t.empty() && (t.back() == ' ' || t.back() == '\t')) t.remove_suffix(1);
+  return t;
+}
+
+}  // namespace
+
+std::optional<double> parse_number(std::string_view text) noexcept {
+  text = trim_blanks(text);
+  if (!text.empty() && text.front() == '+') text.remove_prefix(1);
+  if (text.empty()) return std::nullopt;
+  // from_chars would also take "nan", "inf" and "infinity": scores must be
+  // decimal numbers, so the first character must start one.
+  const char c0 = text.front() == '-' && text.size() > 1 ? text[1] : text.front();
+  if (!(std::isdigit(static_cast<unsigned char>(c0)) || c0 == '.')) return std::nullopt;
+  double v = 0.0;
+  const auto [ptr, ec] = std::from_chars(text.data(), text.data() + text.size(), v, std::chars_format::general);
+  if (ec != std::errc() || ptr != text.data() + text.size() || !std::isfinite(v)) return std::nullopt;
+  return v;
+}
+
+std::string_view number_problem(std::string_view text) noexcept {
+  std::string_view t = trim_blanks(text);
+  if (t.empty()) return "is empty";
+  if (!t.empty() && (t.front() == '+' || t.front() == '-')) t.remove_prefix(1);
+  std::string lower;
+  for (char c : t) lower += static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
+  if (lower == "nan") return "is not a number (NaN)";
+  if (lower == "inf" || lower == "infinity") return "is not finite";
+  double v = 0.0;
+  const auto [ptr, ec] = std::from_chars(t.data(), t.data() + t.size(), v, std::chars_format::general);
+  if (ec == std::errc::result_out_of_range) return "is out of the range of a double";
+  return "is not a decimal number";
+}
+
+CsvReader::CsvReader(const std::string& path, const CsvOptions& options)
+    : source_(std::make_unique<ByteSource>(path)), options_(options) {
+  name_ = source_->name();
+  buffer_.resize(initial_buffer);
+  Location loc;
+  loc.file = name_;
+  fill();
+  if (end_ == begin_) throw Error(ErrorKind::input, "the file is empty", loc, {}, "a header row naming the columns");
+  // A UTF-8 byte-order mark is not part of the first column's name.
+  if (end_ - begin_ >= 3 && std::memcmp(buffer_.data() + begin_, "\xEF\xBB\xBF", 3) == 0) begin_ += 3;
+
+  delimiter_ = options.delimiter;
+  if (delimiter_ == 0) {
+    if (ends_with(name_, ".tsv") || ends_with(name_, ".tab")) {
+      delimiter_ = '\t';
+    } else {
+      // Look at the first line only.
+      const char* b = buffer_.data() + begin_;
+      const char* nl = static_cast<const char*>(std::memchr(b, '\n', end_ - begin_));
+      const std::string_view first(b, nl ? static_cast<std::size_t>(nl - b) : end_ - begin_);
+      delimiter_ = (first.find('\t') != std::string_view::npos && first.find(',') == std::string_view::npos) ? '\t' : ',';
+    }
+  }
+
+  if (!read_record(header_record_))
+    throw Error(ErrorKind::input, "the file is empty", loc, {}, "a header row naming the columns");
+  if (header_record_.fields.empty()) {
+    loc.line = 1;
+    throw Error(ErrorKind::input, "the header row is empty", loc, {}, "a header row naming the columns");
+  }
+  header_storage_.assign(header_record_.raw);
+  std::set<std::string> seen;
+  std::size_t col = 0;
+  for (std::string_view f : header_record_.fields) {
+    ++col;
+    Location at = loc;
+    at.line = header_record_.line;
+    at.column = col;
+    if (trim_blanks(f).empty())
+      throw Error(ErrorKind::input, "header column " + std::to_string(col) + " has no name", at, {},
+                  "a name for every column");
+    if (!seen.insert(std::string(f)).second)
+      throw Error(ErrorKind::input, "the header names a column twice", at, std::string(f), "distinct column names");
+    header_.emplace_back(f);
+  }
+  // The header record's views point into the buffer; keep a copy of the raw text.
+  header_record_.raw = header_storage_;
+  header_record_.fields.clear();
+  header_record_.line_end = header_record_.line_end == "\r\n" ? "\r\n" : "\n";
+}
+
+CsvReader::~CsvReader() = default;
+
+std::uint64_t CsvReader::bytes_read() const noexcept { return source_->bytes_read() - (end_ - begin_); }
+std::optional<std::uint64_t> CsvReader::total_bytes() const noexcept { return source_->total_bytes(); }
+std::string CsvReader::content_sha256() const { return source_->sha256_hex(); }
+
+std::size_t CsvReader::column(std::string_view spec, std::string_view role) const {
+  for (std::size_t i = 0; i < header_.size(); ++i)
+    if (header_[i] == spec) return i;
+  std::size_t index = 0;
+  const auto [ptr, ec] = std::from_chars(spec.data(), spec.data() + spec.size(), index);
+  if (ec == std::errc() && ptr == spec.data() + spec.size() && index >= 1 && index <= header_.size())
+    return index - 1;
+  std::string names;
+  for (const std::string& h : header_) {
+    if (names.size() > 200) {
+      names += ", ...";
+      break;
+    }
+    names += (names.empty() ? "'" : ", '") + h + "'";
+  }
+  Location loc;
+  loc.file = name_;
+  loc.line = 1;
+  throw Error(ErrorKind::input, "no " + std::string(role) + " column", loc, std::string(spec),
+              "a column name or 1-based index among " + names);
+}
+
+bool CsvReader::fill() {
+  if (eof_) return false;
+  if (begin_ > 0) {
+    std::memmove(buffer_.data(), buffer_.data() + begin_, end_ - begin_);
+    end_ -= begin_;
+    begin_ = 0;
+  }
+  if (end_ == buffer_.size()) {
+    if (buffer_.size() >= options_.max_record_bytes + 2) return true;  // the caller reports the long record
+    buffer_.resize(std::min(buffer_.size() * 2, options_.max_record_bytes + 2));
+  }
+  const std::size_t got = source_->read(buffer_.data() + end_, buffer_.size() - end_);
+  if (got == 0) eof_ = true;
+  end_ += got;
+  return got > 0;
+}
+
+bool CsvReader::next(Record& record) {
+  for (;;) {
+    if (!read_record(record)) return false;
+    if (record.raw.empty()) continue;  // blank line
+    if (record.fields.size() != header_.size()) {
+      Location loc;
+      loc.file = name_;
+      loc.line = record.line;
+      throw Error(ErrorKind::input,
+                  "row has " + std::to_string(record.fields.size()) + " fields but the header has " +
+                      std::to_string(header_.size()),
+                  loc, {}, "the same number of fields as the header");
+    }
+    return true;
+  }
+}
+
+bool CsvReader::read_record(Record& record) {
+  for (;;) {
+    const char* const base = buffer_.data();
+    const char* const b = base + begin_;
+    const char* const e = base + end_;
+    if (b == e && eof_) return false;
+
+    // Scan one record; on running out of bytes before its end (and not at
+    // end of input), refill and scan it again from its start.
+    spans_.clear();
+    scratch_.clear();
+    scratch_.reserve(static_cast<std::size_t>(e - b));
+    std::uint64_t newlines = 0;
+    const char* p = b;
+    bool complete = false;
+    const char* raw_end = nullptr;
+    const char* next = nullptr;
+    auto fail_at = [&](const std::string& message, std::string value, const std::string& expected) {
+      Location loc;
+      loc.file = name_;
+      loc.line = line_ + newlines;
+      loc.column = spans_.size() + 1;
+      throw Error(ErrorKind::input, message, loc, std::move(value), expected);
+    };
+    for (;;) {
+      // At the start of a field.
+      if (p < e && *p == '"') {
+        const std::size_t out_start = scratch_.size();
+        ++p;
+        bool closed = false;
+        while (p < e) {
+          const char c = *p;
+          if (c == '"') {
+            if (p + 1 < e && p[1] == '"') {
+              scratch_ += '"';
+              p += 2;
+              continue;
+            }
+            if (p + 1 == e && !eof_) break;  // cannot tell "" from " yet
+            closed = true;
+            ++p;
+            break;
+          }
+          if (c == '\n') ++newlines;
+          if (c == '\0') fail_at("the input holds a NUL byte", {}, "text (is this a binary file?)");
+          scratch_ += c;
+          ++p;
+        }
+        if (!closed) {
+          if (eof_) fail_at("a quoted field is not closed before the end of the input", {}, "a closing quote");
+          break;  // need more bytes
+        }
+        spans_.push_back(Span{out_start, scratch_.size() - out_start, true});
+        if (p < e && *p == delimiter_) {
+          ++p;
+          continue;
+        }
+        if (p < e && *p == '\r' && p + 1 < e && p[1] == '\n') {
+          raw_end = p;
+          next = p + 2;
+          complete = true;
+          break;
+        }
+        if (p < e && *p == '\n') {
+          raw_end = p;
+          next = p + 1;
+          complete = true;
+          break;
+        }
+        if (p == e) {
+          // At the end of the input the record ends here; otherwise the byte
+          // after the quote has not been read yet.
+          if (eof_) {
+            raw_end = next = p;
+            complete = true;
+          }
+          break;
+        }
+        if (*p == '\r' && p + 1 == e && !eof_) break;
+        fail_at("text follows the closing quote of a field", std::string(1, *p), "a delimiter or the end of the line");
+      }
+      // Unquoted field: up to the delimiter or the line end.
+      const char* f = p;
+      while (p < e && *p != delimiter_ && *p != '\n') {
+        if (*p == '\0') fail_at("the input holds a NUL byte", {}, "text (is this a binary file?)");
+        ++p;
+      }
+      if (p == e && !eof_) break;
+      const char* fe = p;
+      if (p < e && *p == '\n' && fe > f && fe[-1] == '\r') --fe;  // CRLF
+      else if (p == e && fe > f && fe[-1] == '\r') --fe;
+      spans_.push_back(Span{static_cast<std::size_t>(f - b), static_cast<std::size_t>(fe - f), false});
+      if (p < e && *p == delimiter_) {
+        ++p;
+        continue;
+      }
+      raw_end = fe;
+      next = p < e ? p + 1 : p;
+      complete = true;
+      break;
+    }
+
+    if (!complete) {
+      if (static_cast<std::size_t>(e - b) > options_.max_record_bytes) {
+        Location loc;
+        loc.file = name_;
+        loc.line = line_;
+        throw Error(ErrorKind::input,
+                    "a record is longer than " + std::to_string(options_.max_record_bytes >> 20) + " MiB", loc, {},
+                    "shorter lines (is the file truncated or missing line ends?)");
+      }
+      fill();
+      continue;
+    }
+
+    record.raw = std::string_view(b, static_cast<std::size_t>(raw_end - b));
+    record.line_end = std::string_view(raw_end, static_cast<std::size_t>(next - raw_end));
+    record.line = line_;
+    record.fields.clear();
+    // A blank line is one empty unquoted field; report it as no fields.
+    if (!(spans_.size() == 1 && !spans_[0].in_scratch && spans_[0].length == 0)) {
+      for (const Span& s : spans_)
+        record.fields.emplace_back(s.in_scratch ? scratch_.data() + s.offset : b + s.offset, s.length);
+    }
+    line_ += newlines + (record.line_end.empty() ? 0 : 1);
+    begin_ = static_cast<std::size_t>(next - base);
+    return true;
+  }
+}
+
+}  // namespace plumb::io
