@@ -6,8 +6,11 @@
 
 #include "plumb/calibration_map.hpp"
 #include "plumb/error.hpp"
+#include "plumb/maps/beta_map.hpp"
 #include "plumb/maps/histogram_map.hpp"
 #include "plumb/maps/isotonic_map.hpp"
+#include "plumb/maps/platt_map.hpp"
+#include "plumb/maps/temperature_map.hpp"
 
 namespace plumb {
 namespace {
@@ -26,6 +29,9 @@ constexpr Entry entry(std::string_view kind) {
 
 const std::array registry{
     entry<IsotonicMap>("isotonic"),
+    entry<PlattMap>("platt"),
+    entry<BetaMap>("beta"),
+    entry<TemperatureMap>("temperature"),
     entry<HistogramMap>("histogram"),
 };
 
@@ -88,18 +94,6 @@ std::unique_ptr<CalibrationMap> load_map(std::string_view kind, Scale scale, con
                     " scale",
                 loc);
   return e->load(scale, parameters, where);
-}
-
-double mean_log_loss(const CalibrationMap& map, const FitData& data) {
-  double loss = 0.0, total = 0.0;
-  for (std::size_t i = 0; i < data.score.size(); ++i) {
-    const double w = data.weight.empty() ? 1.0 : data.weight[i];
-    if (!(w > 0.0)) continue;
-    const double p = std::clamp(map(data.score[i]), probability_clip, 1.0 - probability_clip);
-    loss -= w * (data.label[i] > 0.5 ? std::log(p) : std::log1p(-p));
-    total += w;
-  }
-  return total > 0.0 ? loss / total : 0.0;
 }
 
 }  // namespace plumb

@@ -34,20 +34,4 @@ inline ClassTotals class_totals(const FitData& data) {
   return t;
 }
 
-// Weighted mean log loss of `map` on `data`, probabilities clipped into
-// [probability_clip, 1 - probability_clip]: the same definition as
-// plumb::mean_log_loss, kept here so the parametric maps do not depend on the
-// registry's translation unit.
-inline double mean_log_loss(const CalibrationMap& map, const FitData& data) {
-  double loss = 0.0, total = 0.0;
-  for (std::size_t i = 0; i < data.score.size(); ++i) {
-    const double w = weight_at(data, i);
-    if (!(w > 0.0)) continue;
-    const double p = std::clamp(map(data.score[i]), probability_clip, 1.0 - probability_clip);
-    loss -= w * (data.label[i] > 0.5 ? std::log(p) : std::log1p(-p));
-    total += w;
-  }
-  return total > 0.0 ? loss / total : 0.0;
-}
-
 }  // namespace plumb::parametric

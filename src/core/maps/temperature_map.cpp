@@ -109,7 +109,7 @@ std::unique_ptr<CalibrationMap> TemperatureMap::fit(const FitData& data, const M
     map->diagnostics_.notes.push_back(
         "the log-odds separate the labels, so the best temperature is 0; stopped at a small "
         "temperature after a bounded number of steps");
-  map->diagnostics_.log_loss = parametric::mean_log_loss(*map, data);
+  map->diagnostics_.log_loss = mean_log_loss(*map, data);
   return map;
 }
 
