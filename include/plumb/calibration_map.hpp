@@ -72,6 +72,9 @@ class CalibrationMap {
   virtual bool monotone() const noexcept = 0;
 
   const FitDiagnostics& diagnostics() const noexcept { return diagnostics_; }
+  // Used when a map is read back from an artifact, whose diagnostics were
+  // recorded at fit time.
+  void restore_diagnostics(FitDiagnostics diagnostics) { diagnostics_ = std::move(diagnostics); }
 
  protected:
   FitDiagnostics diagnostics_;

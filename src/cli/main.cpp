@@ -2,8 +2,8 @@
 #include <CLI/CLI.hpp>
 #include <cstdio>
 #include <exception>
-#include <iostream>
 #include <map>
+#include <new>
 #include <string>
 
 #include "cli/commands.hpp"
@@ -17,19 +17,42 @@ int main(int argc, char** argv) {
       "  plumb fit --map isotonic --score risk --label missed holdout.csv -o late.map.json\n"
       "  plumb apply late.map.json tonight.csv -o tonight.calibrated.csv\n"
       "  plumb inspect late.map.json\n\n"
-      "Exit codes: 0 ok, 1 internal error, 2 usage, 3 bad input data, 4 bad map artifact,\n"
-      "5 file I/O, 6 data cannot support the fit, 7 a --max threshold was exceeded.",
+      "Run 'plumb COMMAND --help' for each command's options.",
       "plumb"};
+  app.footer(
+      "Exit codes: 0 ok, 1 internal error, 2 usage, 3 bad input data, 4 bad map artifact,\n"
+      "5 file I/O, 6 data cannot support the fit, 7 a --max threshold was exceeded.\n"
+      "Errors are one line on stderr: FILE:LINE:COLUMN (column 'NAME'): what went wrong.");
   app.set_version_flag("--version", std::string("plumb ") + plumb::version_string);
   app.require_subcommand(1);
-  app.fallthrough(false);
 
   std::map<CLI::App*, plumb::cli::Command> commands;
-  (void)commands;
+  auto add = [&](plumb::cli::Command (*registrar)(CLI::App&)) {
+    const std::size_t before = app.get_subcommands({}).size();
+    plumb::cli::Command run = registrar(app);
+    commands[app.get_subcommands({})[before]] = std::move(run);
+  };
+  add(plumb::cli::add_fit_command);
+  add(plumb::cli::add_apply_command);
+  add(plumb::cli::add_inspect_command);
+
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
-    return app.exit(e) == 0 ? 0 : static_cast<int>(plumb::ErrorKind::usage);
+    const int code = app.exit(e);
+    return code == 0 ? 0 : static_cast<int>(plumb::ErrorKind::usage);
   }
-  return 0;
+  try {
+    for (CLI::App* sub : app.get_subcommands()) return commands.at(sub)();
+    return static_cast<int>(plumb::ErrorKind::usage);
+  } catch (const plumb::Error& e) {
+    std::fprintf(stderr, "plumb: %s\n", plumb::format_error(e).c_str());
+    return e.exit_code();
+  } catch (const std::bad_alloc&) {
+    std::fprintf(stderr, "plumb: out of memory\n");
+    return static_cast<int>(plumb::ErrorKind::internal);
+  } catch (const std::exception& e) {
+    std::fprintf(stderr, "plumb: internal error: %s\n", e.what());
+    return static_cast<int>(plumb::ErrorKind::internal);
+  }
 }

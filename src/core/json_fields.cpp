@@ -35,6 +35,13 @@ std::int64_t require_integer(const json& obj, std::string_view key, const std::s
   return v.get<std::int64_t>();
 }
 
+std::uint64_t require_count(const json& obj, std::string_view key, const std::string& where,
+                            std::string_view path) {
+  const std::int64_t v = require_integer(obj, key, where, path);
+  if (v < 0) fail(where, path, "is negative", "a count (an integer >= 0)");
+  return static_cast<std::uint64_t>(v);
+}
+
 bool require_bool(const json& obj, std::string_view key, const std::string& where, std::string_view path) {
   const json& v = require(obj, key, where, path);
   if (!v.is_boolean()) fail(where, path, "is not true or false", "a boolean");

@@ -20,6 +20,9 @@ double require_finite(const nlohmann::json& obj, std::string_view key, const std
                       std::string_view path);
 std::int64_t require_integer(const nlohmann::json& obj, std::string_view key, const std::string& where,
                              std::string_view path);
+// A non-negative integer (a count).
+std::uint64_t require_count(const nlohmann::json& obj, std::string_view key, const std::string& where,
+                            std::string_view path);
 bool require_bool(const nlohmann::json& obj, std::string_view key, const std::string& where,
                   std::string_view path);
 std::string require_string(const nlohmann::json& obj, std::string_view key, const std::string& where,

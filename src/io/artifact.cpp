@@ -116,11 +116,23 @@ Artifact artifact_from_text(const std::string& text, const std::string& where) {
 
   const json& fit = jf::require(doc, "fit", where, "fit");
   a.fit_options = jf::require(fit, "options", where, "fit.options");
+  FitDiagnostics d;
+  d.iterations = static_cast<int>(jf::require_count(fit, "iterations", where, "fit.iterations"));
+  d.converged = jf::require_bool(fit, "converged", where, "fit.converged");
+  d.log_loss = jf::require_finite(fit, "log_loss", where, "fit.log_loss");
+  d.clipped = static_cast<std::size_t>(jf::require_count(fit, "clipped_rows", where, "fit.clipped_rows"));
+  const json& notes = jf::require(fit, "notes", where, "fit.notes");
+  if (!notes.is_array()) jf::fail(where, "fit.notes", "is not an array", "an array of strings");
+  for (const json& n : notes) {
+    if (!n.is_string()) jf::fail(where, "fit.notes", "holds a value that is not a string", "an array of strings");
+    d.notes.push_back(n.get<std::string>());
+  }
+  a.map->restore_diagnostics(std::move(d));
   const json& p = jf::require(doc, "provenance", where, "provenance");
   Provenance& pr = a.provenance;
   pr.source = jf::require_string(p, "source", where, "provenance.source");
   pr.source_sha256 = jf::require_string(p, "source_sha256", where, "provenance.source_sha256");
-  pr.rows = static_cast<std::uint64_t>(jf::require_integer(p, "rows", where, "provenance.rows"));
+  pr.rows = jf::require_count(p, "rows", where, "provenance.rows");
   pr.positives = jf::require_finite(p, "positives", where, "provenance.positives");
   pr.weight_total = jf::require_finite(p, "weight_total", where, "provenance.weight_total");
   pr.label_column = jf::require_string(p, "label_column", where, "provenance.label_column");

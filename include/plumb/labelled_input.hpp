@@ -1,0 +1,73 @@
+#pragma once
+// Reading labelled scores (score, label, optional weight) from a CSV/TSV
+// file or standard input, with every value checked and every refusal
+// located by file, line and column.
+#include <cstdint>
+#include <functional>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "plumb/scale.hpp"
+
+namespace plumb::io {
+
+// How a label cell is read as an outcome.
+//   No positive value given: "1"/"0" and "true"/"false" (any letter case);
+//   anything else is refused.
+//   A positive value given (`--positive late`): that exact text is the
+//   positive outcome and every other non-empty value is negative.
+// An empty label is always refused.
+class LabelRule {
+ public:
+  LabelRule() = default;
+  explicit LabelRule(std::optional<std::string> positive) : positive_(std::move(positive)) {}
+  // 1.0 or 0.0; nullopt when the text is not a label under this rule.
+  std::optional<double> read(std::string_view text) const noexcept;
+  // What the rule accepts, for messages and provenance ("1/0 or true/false",
+  // "'late' is positive, any other value negative").
+  std::string describe() const;
+
+ private:
+  std::optional<std::string> positive_;
+};
+
+struct LabelledColumns {
+  std::string score;   // name or 1-based index
+  std::string label;
+  std::string weight;  // empty: every row weighs 1
+};
+
+struct LabelledRows {
+  std::vector<double> score, label, weight;  // weight empty when unweighted
+  std::string source;                        // file name in messages, "<stdin>" for standard input
+  std::string source_sha256;                 // SHA-256 of the input bytes
+  std::string score_column, label_column, weight_column;  // resolved header names
+  std::uint64_t rows = 0;
+  double positives = 0.0;     // weight of positive rows
+  double weight_total = 0.0;
+  double score_min = 0.0, score_max = 0.0;
+};
+
+// Reads every data row of `path` ("-" for standard input). Refuses, with
+// plumb::Error(input) naming file, line, column, value and what was expected:
+// a missing column, an empty file or one with a header and no rows, a score
+// that is empty, not a decimal number, NaN, infinite or outside the scale
+// (for `probability`, outside [0, 1]), a label the rule does not read, and a
+// weight that is empty, not a number or negative. `progress` (may be empty)
+// is called every 65536 rows, for progress reports.
+using ProgressCallback =
+    std::function<void(std::uint64_t rows, std::uint64_t bytes, std::optional<std::uint64_t> total_bytes)>;
+LabelledRows read_labelled(const std::string& path, const LabelledColumns& columns, const LabelRule& rule,
+                           Scale scale, char delimiter = 0, const ProgressCallback& progress = {});
+
+// The message part for a score refused on `scale` ("is not a decimal
+// number", "lies outside [0, 1]"), and what would have been accepted.
+struct ScoreProblem {
+  std::string message;
+  std::string expected;
+};
+ScoreProblem score_problem(std::string_view text, Scale scale);
+
+}  // namespace plumb::io

@@ -1,0 +1,126 @@
+#include "cli/common.hpp"
+
+#include <unistd.h>
+
+#include <charconv>
+#include <cstdio>
+#include <ctime>
+
+#include "plumb/error.hpp"
+
+namespace plumb::cli {
+
+void add_separator_option(CLI::App& command, std::string& separator) {
+  command.add_option("--sep", separator,
+                     "Field separator: auto (tab for .tsv/.tab files or a tab-only header, else comma), "
+                     "comma, tab, semicolon, or one character")
+      ->default_str("auto");
+}
+
+void add_quiet_option(CLI::App& command, bool& quiet) {
+  command.add_flag("-q,--quiet", quiet, "No progress and no summary on stderr (errors are still reported)");
+}
+
+void add_input_options(CLI::App& command, InputOptions& o, bool with_label) {
+  command.add_option("file", o.file, "CSV or TSV file with a header row; - or nothing reads standard input")
+      ->default_str("-");
+  command.add_option("--score", o.score, "Column holding the raw score (name or 1-based index)")->required();
+  if (with_label) {
+    command.add_option("--label", o.label, "Column holding the observed outcome (name or 1-based index)")
+        ->required();
+    command.add_option("--weight", o.weight, "Column of non-negative row weights (default: every row weighs 1)");
+    command.add_option("--positive", o.positive,
+                       "Label value that counts as the positive outcome; every other value is then negative "
+                       "(default: labels must be 1/0 or true/false)")
+        ->each([&o](const std::string&) { o.positive_given = true; });
+  }
+  command
+      .add_option("--scale", o.scale,
+                  "What the score is: probability (in [0, 1]), logit (log-odds) or margin (any real, "
+                  "no probabilistic reading)")
+      ->check(CLI::IsMember({"probability", "logit", "margin"}))
+      ->default_str("probability");
+  add_separator_option(command, o.separator);
+  add_quiet_option(command, o.quiet);
+}
+
+char parse_separator(const std::string& text) {
+  if (text == "auto") return 0;
+  if (text == "comma" || text == ",") return ',';
+  if (text == "tab" || text == "\\t" || text == "\t") return '\t';
+  if (text == "semicolon" || text == ";") return ';';
+  if (text.size() == 1 && text[0] != '"' && text[0] != '\n' && text[0] != '\r') return text[0];
+  throw Error(ErrorKind::usage, "unknown --sep", {}, text, "auto, comma, tab, semicolon or one character other than a quote");
+}
+
+Scale parse_scale_option(const std::string& text) {
+  const auto scale = parse_scale(text);
+  if (!scale) throw Error(ErrorKind::usage, "unknown --scale", {}, text, "probability, logit or margin");
+  return *scale;
+}
+
+io::LabelRule label_rule(const InputOptions& o) {
+  return o.positive_given ? io::LabelRule(o.positive) : io::LabelRule();
+}
+
+Progress::Progress(std::string what, bool quiet) : what_(std::move(what)) {
+  active_ = !quiet && ::isatty(STDERR_FILENO) == 1;
+  start_ = last_ = std::chrono::steady_clock::now();
+}
+
+Progress::~Progress() {
+  if (drawn_) std::fputs("\r\033[K", stderr);
+}
+
+void Progress::update(std::uint64_t rows, std::uint64_t bytes, std::optional<std::uint64_t> total) {
+  if (!active_) return;
+  const auto now = std::chrono::steady_clock::now();
+  if (now - last_ < std::chrono::milliseconds(250)) return;
+  last_ = now;
+  const double seconds = std::chrono::duration<double>(now - start_).count();
+  const double rate = seconds > 0 ? static_cast<double>(rows) / seconds : 0.0;
+  char line[160];
+  int n = std::snprintf(line, sizeof line, "\r\033[K%s: %s rows, %.1f MB, %.2f M rows/s", what_.c_str(),
+                        grouped(rows).c_str(), static_cast<double>(bytes) / 1e6, rate / 1e6);
+  if (total && *total > 0 && bytes > 0 && n > 0 && n < static_cast<int>(sizeof line)) {
+    const double fraction = std::min(1.0, static_cast<double>(bytes) / static_cast<double>(*total));
+    const double eta = fraction > 0 ? seconds * (1.0 - fraction) / fraction : 0.0;
+    std::snprintf(line + n, sizeof line - static_cast<std::size_t>(n), ", %.0f%%, about %.0f s left",
+                  100.0 * fraction, eta);
+  }
+  std::fputs(line, stderr);
+  std::fflush(stderr);
+  drawn_ = true;
+}
+
+void Progress::finish() {
+  if (drawn_) std::fputs("\r\033[K", stderr);
+  drawn_ = false;
+}
+
+std::string utc_now() {
+  const std::time_t t = std::time(nullptr);
+  std::tm tm{};
+  ::gmtime_r(&t, &tm);
+  char text[32];
+  std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", &tm);
+  return text;
+}
+
+std::string grouped(std::uint64_t n) {
+  std::string digits = std::to_string(n);
+  std::string out;
+  for (std::size_t i = 0; i < digits.size(); ++i) {
+    if (i > 0 && (digits.size() - i) % 3 == 0) out += ',';
+    out += digits[i];
+  }
+  return out;
+}
+
+std::string shortest(double value) {
+  char text[32];
+  const auto [end, ec] = std::to_chars(text, text + sizeof text, value);
+  return std::string(text, ec == std::errc() ? end : text);
+}
+
+}  // namespace plumb::cli

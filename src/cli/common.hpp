@@ -1,0 +1,66 @@
+#pragma once
+// Option handling shared by the subcommands: input columns, label rule,
+// score scale, field separator, progress on stderr.
+#include <CLI/CLI.hpp>
+#include <chrono>
+#include <cstdint>
+#include <optional>
+#include <string>
+
+#include "plumb/labelled_input.hpp"
+#include "plumb/scale.hpp"
+
+namespace plumb::cli {
+
+struct InputOptions {
+  std::string file = "-";
+  std::string score;
+  std::string label;
+  std::string weight;
+  std::string positive;  // empty: 1/0, true/false
+  bool positive_given = false;
+  std::string scale = "probability";
+  std::string separator = "auto";
+  bool quiet = false;
+};
+
+// --score, --label, --weight, --positive, --scale, --sep, --quiet and the
+// positional FILE. `with_label` false leaves out --label, --weight and
+// --positive (for commands that read unlabelled rows).
+void add_input_options(CLI::App& command, InputOptions& options, bool with_label);
+void add_separator_option(CLI::App& command, std::string& separator);
+void add_quiet_option(CLI::App& command, bool& quiet);
+
+// The separator option as a character (0 = detect). Throws Error(usage).
+char parse_separator(const std::string& text);
+Scale parse_scale_option(const std::string& text);
+io::LabelRule label_rule(const InputOptions& options);
+
+// Progress lines on stderr, only when stderr is a terminal and not quiet;
+// rewritten in place at most a few times a second.
+class Progress {
+ public:
+  Progress(std::string what, bool quiet);
+  ~Progress();
+  void update(std::uint64_t rows, std::uint64_t bytes, std::optional<std::uint64_t> total_bytes);
+  void finish();
+  bool active() const noexcept { return active_; }
+
+ private:
+  std::string what_;
+  bool active_ = false;
+  bool drawn_ = false;
+  std::chrono::steady_clock::time_point start_, last_;
+};
+
+// The current time as ISO 8601 UTC with seconds ("2026-12-02T11:32:40Z").
+std::string utc_now();
+
+// A count with thousands separators ("20,000").
+std::string grouped(std::uint64_t n);
+
+// A floating value printed with the shortest text that reads back to the
+// same double.
+std::string shortest(double value);
+
+}  // namespace plumb::cli

@@ -1,0 +1,159 @@
+// plumb fit: fit one map on labelled scores and write its artifact.
+#include <cstdio>
+#include <string>
+
+#include "cli/commands.hpp"
+#include "cli/common.hpp"
+#include "plumb/artifact.hpp"
+#include "plumb/calibration_map.hpp"
+#include "plumb/error.hpp"
+#include "plumb/output.hpp"
+#include "plumb/version.hpp"
+
+namespace plumb::cli {
+namespace {
+
+// Below this many rows the trade prefers a parametric map to isotonic or
+// histogram binning (common practice; Niculescu-Mizil and Caruana 2005 show
+// isotonic overfitting small calibration sets).
+constexpr double few_rows_for_nonparametric = 1000;
+
+struct FitOptions {
+  InputOptions input;
+  std::string kind;
+  std::string output = "-";
+  std::string between = "linear";
+  std::string platt_targets = "smoothed";
+  std::string beta_form = "full";
+  int bins = 10;
+  bool no_timestamp = false;
+};
+
+nlohmann::json kind_options(const FitOptions& o) {
+  if (o.kind == "isotonic") return {{"between_blocks", o.between}};
+  if (o.kind == "platt") return {{"platt_targets", o.platt_targets}};
+  if (o.kind == "beta") return {{"beta_form", o.beta_form}};
+  if (o.kind == "histogram") return {{"bins", o.bins}};
+  return nlohmann::json::object();
+}
+
+int run_fit(const FitOptions& o) {
+  const Scale scale = parse_scale_option(o.input.scale);
+  if (!accepts_scale(o.kind, scale))
+    throw Error(ErrorKind::usage,
+                "the " + o.kind + " map does not accept scores on the " + o.input.scale + " scale", {}, {},
+                o.kind == "beta" ? "--scale probability (beta calibration works on ln(s) and ln(1-s))"
+                                 : "--scale probability or logit (temperature divides log-odds)");
+  MapOptions map_options;
+  map_options.isotonic_interpolate = o.between == "linear";
+  map_options.platt_smoothed_targets = o.platt_targets == "smoothed";
+  map_options.beta_form = o.beta_form;
+  map_options.histogram_bins = o.bins;
+
+  Progress progress("plumb fit: reading", o.input.quiet);
+  io::LabelledRows rows = io::read_labelled(
+      o.input.file, {o.input.score, o.input.label, o.input.weight}, label_rule(o.input), scale,
+      parse_separator(o.input.separator),
+      [&progress](std::uint64_t r, std::uint64_t b, std::optional<std::uint64_t> t) { progress.update(r, b, t); });
+  progress.finish();
+
+  Artifact artifact;
+  try {
+    artifact.map = fit_map(o.kind, FitData{rows.score, rows.label, rows.weight, scale}, map_options);
+  } catch (const Error& e) {
+    if (e.kind() != ErrorKind::fit || !e.where().file.empty()) throw;
+    Location loc;
+    loc.file = rows.source;
+    throw Error(e.kind(), e.message(), loc, e.value(), e.expected());
+  }
+  artifact.score_column = rows.score_column;
+  artifact.fit_options = kind_options(o);
+  Provenance& p = artifact.provenance;
+  p.source = rows.source;
+  p.source_sha256 = rows.source_sha256;
+  p.rows = rows.rows;
+  p.positives = rows.positives;
+  p.weight_total = rows.weight_total;
+  p.label_column = rows.label_column;
+  p.weight_column = rows.weight_column;
+  p.positive_rule = label_rule(o.input).describe();
+  p.score_min = rows.score_min;
+  p.score_max = rows.score_max;
+  p.tool = std::string("plumb ") + version_string;
+  p.created_utc = o.no_timestamp ? std::string() : utc_now();
+
+  io::OutputFile out(o.output);
+  out.write(artifact_to_text(artifact));
+  out.commit();
+
+  if (!o.input.quiet) {
+    const FitDiagnostics& d = artifact.map->diagnostics();
+    std::string notes;
+    for (const std::string& n : d.notes) notes += "; " + n;
+    std::fprintf(stderr, "plumb fit: %s map from %s rows of %s (weight of positives %s of %s), log loss %.6f%s; written to %s\n",
+                 o.kind.c_str(), grouped(rows.rows).c_str(), rows.source.c_str(), shortest(rows.positives).c_str(),
+                 shortest(rows.weight_total).c_str(), d.log_loss, notes.c_str(), out.name().c_str());
+    if (!d.converged)
+      std::fprintf(stderr, "plumb fit: warning: the fit did not converge after %d iterations (are the labels "
+                           "separated by the score?); the map is usable but its parameters are not a maximum\n",
+                   d.iterations);
+    if (d.clipped > 0)
+      std::fprintf(stderr, "plumb fit: note: %s rows had probability scores within 1e-12 of 0 or 1 and were "
+                           "clipped there before taking log-odds\n",
+                   grouped(d.clipped).c_str());
+    if ((o.kind == "isotonic" || o.kind == "histogram") && rows.weight_total < few_rows_for_nonparametric)
+      std::fprintf(stderr, "plumb fit: caution: %s rows is few for a %s map (common practice: about 1,000 or "
+                           "more); a platt or beta map is less likely to overfit\n",
+                   shortest(rows.weight_total).c_str(), o.kind.c_str());
+  }
+  return 0;
+}
+
+}  // namespace
+
+Command add_fit_command(CLI::App& app) {
+  auto o = std::make_shared<FitOptions>();
+  CLI::App* cmd = app.add_subcommand("fit", "Fit a recalibration map on labelled scores and write it as a map artifact");
+  cmd->footer(
+      "Maps:\n"
+      "  isotonic     pool-adjacent-violators step fit; any monotone shape; needs many rows\n"
+      "  platt        logistic sigmoid in the score (or its log-odds); two parameters\n"
+      "  beta         logistic in ln(s) and -ln(1-s); probability scores only; three parameters\n"
+      "  temperature  divides the log-odds by one T > 0; probability or logit scores\n"
+      "  histogram    equal-mass bins, each mapped to its observed frequency\n\n"
+      "Examples:\n"
+      "  plumb fit --map isotonic --score risk --label missed holdout.csv -o late.map.json\n"
+      "  plumb fit --map platt --scale logit --score z --label outcome --positive late holdout.tsv > z.map.json\n\n"
+      "The artifact records the input's SHA-256, row counts and the fit's diagnostics; see docs/artifact-format.md.");
+  std::string kinds;
+  for (std::string_view k : map_kinds()) kinds += (kinds.empty() ? "" : "|") + std::string(k);
+  cmd->add_option("--map", o->kind, "Kind of map: " + kinds)->required()->check([](const std::string& k) {
+    for (std::string_view known : map_kinds())
+      if (known == k) return std::string();
+    return std::string("unknown map kind '") + k + "'";
+  });
+  add_input_options(*cmd, o->input, true);
+  cmd->add_option("-o,--output", o->output, "Where to write the map artifact (- for standard output)")
+      ->default_str("-");
+  cmd->add_option("--between", o->between,
+                  "isotonic: between fitted blocks, interpolate linearly or hold the left block's step")
+      ->check(CLI::IsMember({"linear", "step"}))
+      ->default_str("linear");
+  cmd->add_option("--platt-targets", o->platt_targets,
+                  "platt: fit to Platt's smoothed targets (N+ + 1)/(N+ + 2) and 1/(N- + 2), or to the labels")
+      ->check(CLI::IsMember({"smoothed", "labels"}))
+      ->default_str("smoothed");
+  cmd->add_option("--beta-form", o->beta_form,
+                  "beta: full (a, b, c free), midpoint (c = (a - b) ln 2, so the curve crosses 1/2 at a "
+                  "score of 1/2) or shared (a = b, a logistic map in the log-odds)")
+      ->check(CLI::IsMember({"full", "midpoint", "shared"}))
+      ->default_str("full");
+  cmd->add_option("--bins", o->bins, "histogram: number of equal-mass bins")
+      ->check(CLI::Range(1, 1000000))
+      ->default_str("10");
+  cmd->add_flag("--no-timestamp", o->no_timestamp,
+                "Leave the creation time out, so the same input gives a byte-identical artifact");
+  return [o] { return run_fit(*o); };
+}
+
+}  // namespace plumb::cli

@@ -1,0 +1,107 @@
+// plumb inspect: a readable summary of a map artifact, after full validation.
+#include <cstdio>
+#include <iostream>
+#include <string>
+
+#include "cli/commands.hpp"
+#include "cli/common.hpp"
+#include "plumb/artifact.hpp"
+#include "plumb/version.hpp"
+
+namespace plumb::cli {
+namespace {
+
+struct InspectOptions {
+  std::string artifact;
+  bool json = false;
+  bool all = false;
+};
+
+constexpr std::size_t rows_shown = 12;
+
+std::string scalar_text(const nlohmann::json& v) {
+  if (v.is_number_float()) return shortest(v.get<double>());
+  if (v.is_string()) return v.get<std::string>();
+  return v.dump();
+}
+
+// Parameters are printed without knowing the kind: scalars one per line,
+// arrays of equal length side by side as a table.
+void print_parameters(const nlohmann::json& params, bool all) {
+  std::vector<std::string> columns;
+  std::size_t length = 0;
+  for (const auto& [key, value] : params.items()) {
+    if (value.is_array()) {
+      if (columns.empty() || value.size() == length) {
+        columns.push_back(key);
+        length = value.size();
+      }
+      continue;
+    }
+    std::printf("  %-22s %s\n", key.c_str(), scalar_text(value).c_str());
+  }
+  if (columns.empty()) return;
+  std::printf("\n  %6s", "#");
+  for (const std::string& c : columns) std::printf(" %22s", c.c_str());
+  std::printf("\n");
+  const bool cut = !all && length > rows_shown;
+  for (std::size_t i = 0; i < length; ++i) {
+    if (cut && i == rows_shown / 2) {
+      std::printf("  %6s  ... %zu more (--all shows every row)\n", "", length - rows_shown);
+      i = length - rows_shown / 2;
+    }
+    std::printf("  %6zu", i + 1);
+    for (const std::string& c : columns) std::printf(" %22s", scalar_text(params[c][i]).c_str());
+    std::printf("\n");
+  }
+}
+
+int run_inspect(const InspectOptions& o) {
+  const Artifact a = load_artifact(o.artifact);
+  if (o.json) {
+    nlohmann::json doc = artifact_to_json(a);
+    doc["integrity_sha256"] = integrity_hash(doc);
+    std::cout << doc.dump(2) << "\n";
+    return 0;
+  }
+  const Provenance& p = a.provenance;
+  const FitDiagnostics& d = a.map->diagnostics();
+  const std::string name = o.artifact == "-" ? "<stdin>" : o.artifact;
+  std::printf("%s: %s map (format %s version %d, integrity hash checked)\n\n", name.c_str(),
+              std::string(a.map->kind()).c_str(), artifact_format_marker, artifact_format_version);
+  std::printf("  %-14s column '%s', %s scale\n", "scores", a.score_column.c_str(),
+              std::string(to_string(a.map->scale())).c_str());
+  std::printf("  %-14s %s (%s)\n", "fitted on", p.source.c_str(), p.tool.c_str());
+  std::printf("  %-14s %s rows, weight %s, positives %s (%.2f%%)\n", "", grouped(p.rows).c_str(),
+              shortest(p.weight_total).c_str(), shortest(p.positives).c_str(),
+              p.weight_total > 0 ? 100.0 * p.positives / p.weight_total : 0.0);
+  std::printf("  %-14s label column '%s': %s%s\n", "", p.label_column.c_str(), p.positive_rule.c_str(),
+              p.weight_column.empty() ? "" : (", weights from '" + p.weight_column + "'").c_str());
+  std::printf("  %-14s scores from %s to %s\n", "", shortest(p.score_min).c_str(), shortest(p.score_max).c_str());
+  std::printf("  %-14s sha256 %s\n", "", p.source_sha256.c_str());
+  std::printf("  %-14s %s\n", "created", p.created_utc.empty() ? "(no timestamp)" : p.created_utc.c_str());
+  std::printf("  %-14s %d iteration%s, %s, log loss %.6f on the fit rows, %zu rows clipped\n", "fit", d.iterations,
+              d.iterations == 1 ? "" : "s", d.converged ? "converged" : "NOT converged", d.log_loss, d.clipped);
+  for (const std::string& n : d.notes) std::printf("  %-14s %s\n", "", n.c_str());
+  if (!a.fit_options.empty()) std::printf("  %-14s %s\n", "options", a.fit_options.dump().c_str());
+  std::printf("  %-14s %s\n\nparameters\n", "monotone", a.map->monotone() ? "yes" : "NO (the map decreases somewhere)");
+  print_parameters(a.map->parameters(), o.all);
+  return 0;
+}
+
+}  // namespace
+
+Command add_inspect_command(CLI::App& app) {
+  auto o = std::make_shared<InspectOptions>();
+  CLI::App* cmd = app.add_subcommand("inspect", "Check a map artifact and summarise it: kind, parameters, provenance, fit");
+  cmd->footer("Exits with code 4 when the artifact is truncated, edited, of an unknown version or invalid.\n\n"
+              "Examples:\n"
+              "  plumb inspect late.map.json\n"
+              "  plumb inspect --json late.map.json | jq .parameters");
+  cmd->add_option("map", o->artifact, "Map artifact written by plumb fit (- reads standard input)")->required();
+  cmd->add_flag("--json", o->json, "Print the validated artifact as JSON instead of the summary");
+  cmd->add_flag("--all", o->all, "Show every knot or bin, not only the first and last few");
+  return [o] { return run_inspect(*o); };
+}
+
+}  // namespace plumb::cli

@@ -1,0 +1,117 @@
+#include "plumb/labelled_input.hpp"
+
+#include <algorithm>
+#include <cctype>
+
+#include "plumb/csv.hpp"
+#include "plumb/error.hpp"
+
+namespace plumb::io {
+namespace {
+
+bool equals_ignoring_case(std::string_view a, std::string_view b) noexcept {
+  return a.size() == b.size() && std::equal(a.begin(), a.end(), b.begin(), [](char x, char y) {
+           return std::tolower(static_cast<unsigned char>(x)) == std::tolower(static_cast<unsigned char>(y));
+         });
+}
+
+Location cell(const CsvReader& reader, const Record& record, std::size_t column) {
+  Location loc;
+  loc.file = reader.name();
+  loc.line = record.line;
+  loc.column = column + 1;
+  loc.column_name = reader.header()[column];
+  return loc;
+}
+
+}  // namespace
+
+std::optional<double> LabelRule::read(std::string_view text) const noexcept {
+  if (positive_) {
+    if (text.empty()) return std::nullopt;
+    return text == *positive_ ? 1.0 : 0.0;
+  }
+  if (text == "1" || equals_ignoring_case(text, "true")) return 1.0;
+  if (text == "0" || equals_ignoring_case(text, "false")) return 0.0;
+  return std::nullopt;
+}
+
+std::string LabelRule::describe() const {
+  if (positive_) return "'" + *positive_ + "' is positive, any other value negative";
+  return "1/0 or true/false";
+}
+
+ScoreProblem score_problem(std::string_view text, Scale scale) {
+  const std::optional<double> v = parse_number(text);
+  if (!v) {
+    std::string expected = "a decimal number";
+    if (scale == Scale::probability) expected += " in [0, 1]";
+    return {"the score " + std::string(number_problem(text)), expected};
+  }
+  // parse_number only returns finite numbers, so the scale's range is left.
+  return {"the score lies outside [0, 1]",
+          "a probability in [0, 1] (for log-odds or margins, give --scale logit or --scale margin)"};
+}
+
+LabelledRows read_labelled(const std::string& path, const LabelledColumns& columns, const LabelRule& rule,
+                           Scale scale, char delimiter, const ProgressCallback& progress) {
+  CsvOptions options;
+  options.delimiter = delimiter;
+  CsvReader reader(path, options);
+  const std::size_t score_col = reader.column(columns.score, "score");
+  const std::size_t label_col = reader.column(columns.label, "label");
+  const bool weighted = !columns.weight.empty();
+  const std::size_t weight_col = weighted ? reader.column(columns.weight, "weight") : 0;
+
+  LabelledRows out;
+  out.source = reader.name();
+  out.score_column = reader.header()[score_col];
+  out.label_column = reader.header()[label_col];
+  if (weighted) out.weight_column = reader.header()[weight_col];
+
+  Record record;
+  while (reader.next(record)) {
+    const std::string_view s = record.fields[score_col];
+    const std::optional<double> score = parse_number(s);
+    if (!score || !valid_on_scale(*score, scale)) {
+      const ScoreProblem why = score_problem(s, scale);
+      throw Error(ErrorKind::input, why.message, cell(reader, record, score_col), std::string(s), why.expected);
+    }
+    const std::string_view l = record.fields[label_col];
+    const std::optional<double> label = rule.read(l);
+    if (!label)
+      throw Error(ErrorKind::input, l.empty() ? "the label is empty" : "the label is neither positive nor negative",
+                  cell(reader, record, label_col), std::string(l), rule.describe() + " (or name the positive value with --positive)");
+    double w = 1.0;
+    if (weighted) {
+      const std::string_view t = record.fields[weight_col];
+      const std::optional<double> parsed = parse_number(t);
+      if (!parsed)
+        throw Error(ErrorKind::input, "the weight " + std::string(number_problem(t)), cell(reader, record, weight_col),
+                    std::string(t), "a finite number >= 0");
+      if (*parsed < 0.0)
+        throw Error(ErrorKind::input, "the weight is negative", cell(reader, record, weight_col), std::string(t),
+                    "a finite number >= 0");
+      w = *parsed;
+      out.weight.push_back(w);
+    }
+    out.score.push_back(*score);
+    out.label.push_back(*label);
+    out.positives += w * *label;
+    out.weight_total += w;
+    ++out.rows;
+    if (progress && (out.rows & 0xFFFF) == 0) progress(out.rows, reader.bytes_read(), reader.total_bytes());
+  }
+  if (out.rows == 0) {
+    Location loc;
+    loc.file = reader.name();
+    throw Error(ErrorKind::input, "the file has a header but no data rows", loc, {}, "at least one labelled row");
+  }
+  const auto [lo, hi] = std::minmax_element(out.score.begin(), out.score.end());
+  out.score_min = *lo;
+  out.score_max = *hi;
+  out.source_sha256 = reader.content_sha256();
+  return out;
+}
+
+}  // namespace plumb::io
