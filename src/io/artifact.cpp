@@ -65,6 +65,11 @@ Artifact artifact_from_text(const std::string& text, const std::string& where) {
   json doc;
   try {
     doc = json::parse(text);
+  } catch (const json::out_of_range&) {
+    Location loc;
+    loc.file = where;
+    throw Error(ErrorKind::artifact, "the map artifact holds a number too large for a double", loc, {},
+                "finite numbers, as written by plumb fit");
   } catch (const json::parse_error& e) {
     // Turn the byte offset into a line and column.
     Location loc;

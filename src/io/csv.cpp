@@ -195,6 +195,7 @@ bool CsvReader::read_record(Record& record) {
       // At the start of a field.
       if (p < e && *p == '"') {
         const std::size_t out_start = scratch_.size();
+        const std::uint64_t newlines_before_quote = newlines;
         ++p;
         bool closed = false;
         while (p < e) {
@@ -216,7 +217,10 @@ bool CsvReader::read_record(Record& record) {
           ++p;
         }
         if (!closed) {
-          if (eof_) fail_at("a quoted field is not closed before the end of the input", {}, "a closing quote");
+          if (eof_) {
+            newlines = newlines_before_quote;  // report the line where the field opened
+            fail_at("a quoted field is not closed before the end of the input", {}, "a closing quote");
+          }
           break;  // need more bytes
         }
         spans_.push_back(Span{out_start, scratch_.size() - out_start, true});

@@ -1,0 +1,127 @@
+"""Map artifacts: deterministic bytes, integrity, versions and validation
+on load (docs/artifact-format.md)."""
+import hashlib
+import json
+import unittest
+
+from plumbtest import PlumbCase, run, simulated_holdout, write
+
+ARTIFACT = 4
+
+
+def canonical_hash(doc):
+    """The integrity rule as docs/artifact-format.md states it: SHA-256 of the
+    compact, key-sorted JSON of the document without its hash field."""
+    body = {k: v for k, v in doc.items() if k != "integrity_sha256"}
+    text = json.dumps(body, sort_keys=True, separators=(",", ":"), ensure_ascii=False)
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+class Artifacts(PlumbCase):
+    def setUp(self):
+        super().setUp()
+        rows = ["risk,missed"] + [f"{s},{y}" for s, y in simulated_holdout(1500, seed=11)]
+        write(self.path("h.csv"), "\n".join(rows) + "\n")
+
+    def fit(self, kind, *extra):
+        rc, out, err = run("fit", "--map", kind, "--score", "risk", "--label", "missed", self.path("h.csv"), *extra)
+        self.assertEqual(rc, 0, err)
+        return out
+
+    def write_doc(self, doc, name="edited.json", rehash=True):
+        if rehash:
+            doc["integrity_sha256"] = canonical_hash(doc)
+        write(self.path(name), json.dumps(doc, indent=1))
+        return self.path(name)
+
+    def test_no_timestamp_is_byte_identical_and_timestamp_is_the_only_difference(self):
+        for kind in ("isotonic", "platt", "beta", "temperature", "histogram"):
+            a, b = self.fit(kind, "--no-timestamp"), self.fit(kind, "--no-timestamp")
+            self.assertEqual(a, b)
+            stamped = json.loads(self.fit(kind))
+            plain = json.loads(a)
+            self.assertRegex(stamped["provenance"]["created_utc"], r"^\d{4}-\d\d-\d\dT\d\d:\d\d:\d\dZ$")
+            self.assertIsNone(plain["provenance"]["created_utc"])
+            stamped["provenance"]["created_utc"] = None
+            del stamped["integrity_sha256"], plain["integrity_sha256"]
+            self.assertEqual(stamped, plain)
+
+    def test_integrity_hash_follows_the_documented_rule(self):
+        for kind in ("isotonic", "platt"):
+            doc = json.loads(self.fit(kind))
+            self.assertEqual(doc["integrity_sha256"], canonical_hash(doc))
+
+    def test_provenance(self):
+        doc = json.loads(self.fit("platt"))
+        with open(self.path("h.csv"), "rb") as f:
+            digest = hashlib.sha256(f.read()).hexdigest()
+        p = doc["provenance"]
+        self.assertEqual(p["source_sha256"], digest)
+        self.assertEqual(p["rows"], 1500)
+        self.assertEqual(p["positives"], sum(y for _, y in simulated_holdout(1500, seed=11)))
+        self.assertEqual(doc["format"], "plumb-map")
+        self.assertEqual(doc["input"], {"score_column": "risk", "scale": "probability"})
+
+    def test_this_version_loads_what_it_writes(self):
+        for kind in ("isotonic", "platt", "beta", "temperature", "histogram"):
+            path = self.write_doc(json.loads(self.fit(kind)), rehash=False)
+            rc, out, err = run("inspect", path)
+            self.assertEqual(rc, 0, err)
+            self.assertIn(kind, out)
+            rc, out, err = run("inspect", "--json", path)
+            self.assertEqual(json.loads(out), json.loads(open(path).read()))
+
+    def test_future_and_unknown_versions_are_refused(self):
+        doc = json.loads(self.fit("platt"))
+        doc["format_version"] = 2
+        self.assert_refused(["inspect", self.write_doc(doc)], ARTIFACT, "format version 2", "newer plumb")
+        doc["format_version"] = 0
+        self.assert_refused(["inspect", self.write_doc(doc)], ARTIFACT, "unknown format version 0")
+
+    def test_tampering_is_detected(self):
+        doc = json.loads(self.fit("platt"))
+        doc["parameters"]["a"] = doc["parameters"]["a"] * 1.01
+        path = self.write_doc(doc, rehash=False)
+        self.assert_refused(["apply", path, self.path("h.csv")], ARTIFACT, "integrity hash")
+
+    def test_truncation_is_detected(self):
+        text = self.fit("isotonic")
+        for cut in (1, len(text) // 3, len(text) - 3):
+            write(self.path("cut.json"), text[:cut])
+            self.assert_refused(["inspect", self.path("cut.json")], ARTIFACT, "cut.json")
+        write(self.path("empty.json"), "")
+        self.assert_refused(["inspect", self.path("empty.json")], ARTIFACT, "empty")
+
+    def test_invalid_content_is_refused_even_with_a_valid_hash(self):
+        iso = json.loads(self.fit("isotonic"))
+        values = iso["parameters"]["block_value"]
+        self.assertGreater(len(values), 2)
+        values[1], values[2] = values[2] + 0.2, values[1]  # non-monotone knots
+        self.assert_refused(["inspect", self.write_doc(iso)], ARTIFACT, "block_value[2]", "non-decreasing")
+
+        platt = json.loads(self.fit("platt"))
+        del platt["parameters"]["b"]
+        self.assert_refused(["inspect", self.write_doc(platt)], ARTIFACT, "parameters.b")
+
+        platt = json.loads(self.fit("platt"))
+        del platt["provenance"]["rows"]
+        self.assert_refused(["inspect", self.write_doc(platt)], ARTIFACT, "provenance.rows")
+
+        platt = json.loads(self.fit("platt"))
+        platt["parameters"]["a"] = "-1.0"
+        self.assert_refused(["inspect", self.write_doc(platt)], ARTIFACT, "parameters.a")
+
+        # JSON has no NaN; a number too large for a double is what a tampered file can hold.
+        text = self.fit("temperature")
+        doc = json.loads(text)
+        key = next(iter(doc["parameters"]))
+        raw = text.replace(json.dumps(doc["parameters"][key]), "1e999", 1)
+        write(self.path("huge.json"), raw)
+        self.assert_refused(["inspect", self.path("huge.json")], ARTIFACT, "huge.json")
+
+        other = {"format": "something-else", "format_version": 1}
+        self.assert_refused(["inspect", self.write_doc(other, rehash=False)], ARTIFACT, "not a plumb map artifact")
+
+
+if __name__ == "__main__":
+    unittest.main()
