@@ -71,7 +71,8 @@ int run_apply(const ApplyOptions& o) {
 
   Progress progress("plumb apply", o.quiet);
   const bool missing_is_empty = o.missing == "empty";
-  std::uint64_t rows = 0, outside = 0, clipped = 0, missing = 0;
+  std::uint64_t rows = 0, outside = 0, clamped = 0, clipped = 0, missing = 0;
+  const double fitted_min = artifact.provenance.score_min, fitted_max = artifact.provenance.score_max;
   io::Record record;
   char number[32];
   while (reader.next(record)) {
@@ -82,7 +83,8 @@ int run_apply(const ApplyOptions& o) {
     const std::optional<double> score = io::parse_number(s);
     if (score && valid_on_scale(*score, scale)) {
       const Mapped m = map.map(*score);
-      outside += m.outside_fit_range ? 1 : 0;
+      outside += (*score < fitted_min || *score > fitted_max) ? 1 : 0;
+      clamped += m.outside_fit_range ? 1 : 0;
       clipped += m.clipped ? 1 : 0;
       const auto [end, ec] = std::to_chars(number, number + sizeof number, m.probability);
       out.write(std::string_view(number, static_cast<std::size_t>(end - number)));
@@ -109,11 +111,11 @@ int run_apply(const ApplyOptions& o) {
   progress.finish();
 
   if (!o.quiet) {
-    std::fprintf(stderr, "plumb apply: %s rows, %s outside the fitted scores [%s, %s] (held at the end values), "
-                         "%s clipped near 0 or 1, %s missing scores left empty; written to %s\n",
-                 grouped(rows).c_str(), grouped(outside).c_str(),
-                 shortest(artifact.provenance.score_min).c_str(), shortest(artifact.provenance.score_max).c_str(),
-                 grouped(clipped).c_str(), grouped(missing).c_str(), out.name().c_str());
+    std::fprintf(stderr, "plumb apply: %s rows, %s outside the fitted scores [%s, %s] (%s held at the map's end "
+                         "values), %s clipped near 0 or 1, %s missing scores left empty; written to %s\n",
+                 grouped(rows).c_str(), grouped(outside).c_str(), shortest(fitted_min).c_str(),
+                 shortest(fitted_max).c_str(), grouped(clamped).c_str(), grouped(clipped).c_str(),
+                 grouped(missing).c_str(), out.name().c_str());
     if (rows > 0 && outside * 100 > rows)
       std::fprintf(stderr, "plumb apply: caution: more than 1%% of the scores lie outside the range the map was "
                            "fitted on; has the model or the population changed since the fit?\n");

@@ -97,6 +97,9 @@ int run_fit(const FitOptions& o) {
       std::fprintf(stderr, "plumb fit: warning: the fit did not converge after %d iterations (are the labels "
                            "separated by the score?); the map is usable but its parameters are not a maximum\n",
                    d.iterations);
+    if (!artifact.map->monotone())
+      std::fprintf(stderr, "plumb fit: warning: the fitted map decreases (higher scores get lower probabilities); "
+                           "is the score oriented the other way, or the label's positive value wrong?\n");
     if (d.clipped > 0)
       std::fprintf(stderr, "plumb fit: note: %s rows had probability scores within 1e-12 of 0 or 1 and were "
                            "clipped there before taking log-odds\n",

@@ -57,8 +57,16 @@ json artifact_to_json(const Artifact& a) {
 
 std::string artifact_to_text(const Artifact& a) {
   json doc = artifact_to_json(a);
-  doc[integrity_key] = integrity_hash(doc);
-  return doc.dump(2) + "\n";
+  try {
+    doc[integrity_key] = integrity_hash(doc);
+    return doc.dump(2) + "\n";
+  } catch (const json::type_error&) {
+    // JSON text must be UTF-8; the only free text is names from the input.
+    Location loc;
+    loc.file = a.provenance.source;
+    throw Error(ErrorKind::input, "a file or column name is not valid UTF-8 and cannot be kept in the artifact",
+                loc, {}, "UTF-8 file and column names");
+  }
 }
 
 Artifact artifact_from_text(const std::string& text, const std::string& where) {
@@ -140,6 +148,8 @@ Artifact artifact_from_text(const std::string& text, const std::string& where) {
   pr.rows = jf::require_count(p, "rows", where, "provenance.rows");
   pr.positives = jf::require_finite(p, "positives", where, "provenance.positives");
   pr.weight_total = jf::require_finite(p, "weight_total", where, "provenance.weight_total");
+  if (!(pr.positives >= 0.0 && pr.positives <= pr.weight_total))
+    jf::fail(where, "provenance.positives", "lies outside [0, weight_total]", "the weight of the positive rows");
   pr.label_column = jf::require_string(p, "label_column", where, "provenance.label_column");
   const json& wc = jf::require(p, "weight_column", where, "provenance.weight_column");
   pr.weight_column = wc.is_string() ? wc.get<std::string>() : std::string();

@@ -76,6 +76,12 @@ class Refusals(PlumbCase):
         self.assertEqual(rc, USAGE)
         self.assertIn("--map", err)
 
+    def test_non_utf8_column_name(self):
+        with open(self.path("latin1.csv"), "wb") as f:
+            f.write(b"risk,p\xe9nalit\xe9\n0.2,1\n0.4,0\n")
+        self.assert_refused(["fit", "--map", "platt", "--score", "risk", "--label", "2", self.path("latin1.csv"),
+                             "-o", self.out], INPUT, "latin1.csv", "UTF-8", output=self.out)
+
     def test_unreadable_input(self):
         self.assert_refused(["fit", "--map", "platt", "--score", "risk", "--label", "missed",
                              self.path("absent.csv"), "-o", self.out], 5, "absent.csv", output=self.out)
