@@ -40,9 +40,10 @@ std::vector<PavBlock> fit_in_order(std::span<const double> x, std::span<const do
     }
     if (!(wsum > 0.0)) continue;
     Pool cur{score, score, wy, wsum};
-    // Merge backwards while the previous block's mean exceeds this one's
-    // (compared by cross-multiplication to avoid two divisions).
-    while (!stack.empty() && stack.back().wy * cur.w > cur.wy * stack.back().w) {
+    // Merge backwards while the previous block's mean exceeds this one's.
+    // Means are compared as quotients: cross-multiplying (wy * w) overflows
+    // or underflows for weights beyond about 1e150 or below 1e-150.
+    while (!stack.empty() && stack.back().wy / stack.back().w > cur.wy / cur.w) {
       const Pool& prev = stack.back();
       cur = Pool{prev.lo, cur.hi, prev.wy + cur.wy, prev.w + cur.w};
       stack.pop_back();

@@ -389,6 +389,30 @@ TEST_CASE("pav: pav_values follows the input's row order", "[pav]") {
   }
 }
 
+TEST_CASE("pav: rescaling every weight by a constant leaves the fit unchanged", "[pav]") {
+  // The weighted least-squares objective is only multiplied by the constant,
+  // so its minimiser stays the same (follows from the definition; Barlow et
+  // al. 1972). Extreme constants probe overflow and underflow in pooling.
+  std::mt19937_64 g(0x9a71'0008);
+  for (int trial = 0; trial < 50; ++trial) {
+    const Rows r = random_rows(g, 2 + below(g, 300), 1 + below(g, 40), trial % 2 == 0);
+    const auto base = plumb::pav_fit(r.x, r.y, r.w);
+    for (double c : {1e-160, 1e-9, 3.0, 1e9, 1e160}) {
+      Rows s = r;
+      for (double& w : s.w) w *= c;
+      const auto scaled = plumb::pav_fit(s.x, s.y, s.w);
+      INFO("trial " << trial << " factor " << c);
+      REQUIRE(scaled.size() == base.size());
+      for (std::size_t i = 0; i < base.size(); ++i) {
+        CHECK(scaled[i].score_lo == base[i].score_lo);
+        CHECK(scaled[i].score_hi == base[i].score_hi);
+        CHECK(scaled[i].value == Approx(base[i].value).epsilon(1e-12).margin(1e-15));
+        CHECK(scaled[i].weight == Approx(base[i].weight * c).epsilon(1e-12));
+      }
+    }
+  }
+}
+
 TEST_CASE("pav: preserves the weighted total on a large input", "[pav]") {
   std::mt19937_64 g(0x9a71'0007);
   const Rows r = random_rows(g, 200000, 5000, true);
