@@ -394,6 +394,44 @@ TEST_CASE("histogram: bin value is the weighted frequency of its rows; ties neve
   }
 }
 
+TEST_CASE("histogram: each distinct score joins the bin holding the midpoint of its weight", "[histogram]") {
+  // Worked by hand from the rule in histogram_map.hpp: bin =
+  // floor(bins * (weight before the score + half its weight) / total).
+  const std::vector<double> score{0.1, 0.2, 0.3, 0.4}, label{0, 1, 0, 1};
+  MapOptions opt;
+  // Weights 3, 2, 2, 3 (total 10), two bins: midpoints 1.5, 4, 6, 8.5 give
+  // bins 0, 0, 1, 1 (a rule using the end of each score's weight would give
+  // 0, 1, 1, 1).
+  opt.histogram_bins = 2;
+  const std::vector<double> w1{3, 2, 2, 3};
+  const auto a = plumb::fit_map("histogram", FitData{score, label, w1, Scale::probability}, opt);
+  const auto& ab = as_histogram(*a).bins();
+  REQUIRE(ab.size() == 2);
+  CHECK(ab[0].score_lo == 0.1);
+  CHECK(ab[0].score_hi == 0.2);
+  CHECK(ab[0].weight == 5.0);
+  CHECK(ab[0].value == Approx(0.4).epsilon(1e-15));  // 2 / 5
+  CHECK(ab[1].score_lo == 0.3);
+  CHECK(ab[1].value == Approx(0.6).epsilon(1e-15));  // 3 / 5
+  // Weights 4, 1, 1, 4, four bins: midpoints 2, 4.5, 5.5, 8 give bins
+  // 0, 1, 2, 3 (a rule at three quarters of each weight would put the first
+  // two scores together: 3, 4.75 -> bins 1, 1).
+  opt.histogram_bins = 4;
+  const std::vector<double> w2{4, 1, 1, 4};
+  const auto b = plumb::fit_map("histogram", FitData{score, label, w2, Scale::probability}, opt);
+  CHECK(as_histogram(*b).bins().size() == 4);
+  // Weights 1, 1, 1, 7, four bins: midpoints 0.5, 1.5, 2.5, 6.5 give bins
+  // 0, 0, 1, 2: the heavy last score takes one bin and bin 3 stays empty.
+  const std::vector<double> w3{1, 1, 1, 7};
+  const auto c = plumb::fit_map("histogram", FitData{score, label, w3, Scale::probability}, opt);
+  const auto& cb = as_histogram(*c).bins();
+  REQUIRE(cb.size() == 3);
+  CHECK(cb[0].score_hi == 0.2);
+  CHECK(cb[1].score_lo == 0.3);
+  CHECK(cb[1].score_hi == 0.3);
+  CHECK(cb[2].weight == 7.0);
+}
+
 TEST_CASE("histogram: fewer bins when distinct scores are few", "[histogram]") {
   // Three equally weighted scores, ten bins asked: midpoints at 1/6, 1/2 and
   // 5/6 of the total fall in bins 1, 5 and 8, so three bins result.
@@ -496,6 +534,10 @@ TEST_CASE("histogram: load_map rejects damaged parameters as artifact errors", "
   CHECK(load_kind("histogram", with("bin_score_lo", 2, 0.5)) == ErrorKind::artifact);   // overlapping
   CHECK(load_kind("histogram", with("bin_score_hi", 1, 0.25)) == ErrorKind::artifact);  // reversed
   CHECK(load_kind("histogram", with("bin_weight", 0, 0.0)) == ErrorKind::artifact);
+  // Probability-scale bin scores outside [0, 1]; accepted on the margin scale.
+  CHECK(load_kind("histogram", with("bin_score_lo", 0, -0.1)) == ErrorKind::artifact);
+  CHECK(load_kind("histogram", with("bin_score_hi", 2, 1.5)) == ErrorKind::artifact);
+  CHECK_NOTHROW(plumb::load_map("histogram", Scale::margin, with("bin_score_hi", 2, 1.5), "test.json"));
   for (const char* key : {"bin_score_lo", "bin_score_hi", "bin_value", "bin_weight"}) {
     INFO(key);
     nlohmann::json p = good;

@@ -115,6 +115,8 @@ std::unique_ptr<CalibrationMap> HistogramMap::from_parameters(Scale scale, const
     if (!(value[i] >= 0.0 && value[i] <= 1.0))
       jf::fail(where, "parameters.bin_value" + at, "lies outside [0, 1]", "a probability");
     if (!(weight[i] > 0.0)) jf::fail(where, "parameters.bin_weight" + at, "is not positive");
+    if (scale == Scale::probability && (lo[i] < 0.0 || hi[i] > 1.0))
+      jf::fail(where, "parameters.bin_score_lo" + at, "lies outside [0, 1] on the probability scale");
     bins[i] = HistogramBin{lo[i], hi[i], value[i], weight[i]};
   }
   return std::make_unique<HistogramMap>(scale, std::move(bins));
