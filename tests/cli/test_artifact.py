@@ -2,9 +2,12 @@
 on load (docs/artifact-format.md)."""
 import hashlib
 import json
+import os
 import unittest
 
-from plumbtest import PlumbCase, run, simulated_holdout, write
+import jsonschema  # Debian python3-jsonschema, installed by tests/run.sh
+
+from plumbtest import SOURCE_DIR, PlumbCase, run, simulated_holdout, write
 
 ARTIFACT = 4
 
@@ -45,6 +48,25 @@ class Artifacts(PlumbCase):
             stamped["provenance"]["created_utc"] = None
             del stamped["integrity_sha256"], plain["integrity_sha256"]
             self.assertEqual(stamped, plain)
+
+    def test_every_kind_matches_the_published_schema(self):
+        with open(os.path.join(SOURCE_DIR, "docs", "artifact.schema.json")) as f:
+            schema = json.load(f)
+        jsonschema.Draft202012Validator.check_schema(schema)
+        validator = jsonschema.Draft202012Validator(schema)
+        write(self.path("w.csv"), "risk,missed,w\n0.1,0,1\n0.4,1,2\n0.3,0,0.5\n0.8,1,1\n")
+        for kind in ("isotonic", "platt", "beta", "temperature", "histogram"):
+            for extra in ((), ("--no-timestamp",)):
+                doc = json.loads(self.fit(kind, *extra))
+                errors = [e.message for e in validator.iter_errors(doc)]
+                self.assertEqual(errors, [], kind)
+            rc, out, err = run("fit", "--map", kind, "--score", "risk", "--label", "missed", "--weight", "w",
+                               self.path("w.csv"), "-q")
+            self.assertEqual(rc, 0, err)
+            self.assertEqual([e.message for e in validator.iter_errors(json.loads(out))], [], kind)
+        doc = json.loads(self.fit("platt"))
+        doc["kind"] = "spline"
+        self.assertTrue(list(validator.iter_errors(doc)), "the schema accepts an unknown kind")
 
     def test_integrity_hash_follows_the_documented_rule(self):
         for kind in ("isotonic", "platt"):
