@@ -5,6 +5,7 @@
 #include <numeric>
 
 #include "core/json_fields.hpp"
+#include "core/maps/piecewise_support.hpp"
 #include "plumb/error.hpp"
 
 namespace plumb {
@@ -84,42 +85,15 @@ Mapped HistogramMap::map(double score) const noexcept {
 }
 
 nlohmann::json HistogramMap::parameters() const {
-  nlohmann::json lo = nlohmann::json::array(), hi = nlohmann::json::array(),
-                 value = nlohmann::json::array(), weight = nlohmann::json::array();
-  for (const HistogramBin& b : bins_) {
-    lo.push_back(b.score_lo);
-    hi.push_back(b.score_hi);
-    value.push_back(b.value);
-    weight.push_back(b.weight);
-  }
-  return {{"bin_score_lo", lo}, {"bin_score_hi", hi}, {"bin_value", value}, {"bin_weight", weight}};
+  nlohmann::json out = nlohmann::json::object();
+  piecewise::write_pieces(out, "bin", bins_);
+  return out;
 }
 
 std::unique_ptr<CalibrationMap> HistogramMap::from_parameters(Scale scale, const nlohmann::json& p,
                                                               const std::string& where) {
-  namespace jf = json_fields;
-  const auto lo = jf::require_finite_array(p, "bin_score_lo", where, "parameters.bin_score_lo");
-  const auto hi = jf::require_finite_array(p, "bin_score_hi", where, "parameters.bin_score_hi");
-  const auto value = jf::require_finite_array(p, "bin_value", where, "parameters.bin_value");
-  const auto weight = jf::require_finite_array(p, "bin_weight", where, "parameters.bin_weight");
-  if (lo.empty()) jf::fail(where, "parameters.bin_score_lo", "is empty", "at least one bin");
-  if (hi.size() != lo.size() || value.size() != lo.size() || weight.size() != lo.size())
-    jf::fail(where, "parameters", "has bin arrays of different lengths", "equal lengths");
-  std::vector<HistogramBin> bins(lo.size());
-  for (std::size_t i = 0; i < lo.size(); ++i) {
-    const std::string at = "[" + std::to_string(i) + "]";
-    if (!(lo[i] <= hi[i])) jf::fail(where, "parameters.bin_score_hi" + at, "is below its bin's low end");
-    if (i > 0 && !(lo[i] > hi[i - 1]))
-      jf::fail(where, "parameters.bin_score_lo" + at, "does not lie above the previous bin",
-               "bins in increasing score order");
-    if (!(value[i] >= 0.0 && value[i] <= 1.0))
-      jf::fail(where, "parameters.bin_value" + at, "lies outside [0, 1]", "a probability");
-    if (!(weight[i] > 0.0)) jf::fail(where, "parameters.bin_weight" + at, "is not positive");
-    if (scale == Scale::probability && (lo[i] < 0.0 || hi[i] > 1.0))
-      jf::fail(where, "parameters.bin_score_lo" + at, "lies outside [0, 1] on the probability scale");
-    bins[i] = HistogramBin{lo[i], hi[i], value[i], weight[i]};
-  }
-  return std::make_unique<HistogramMap>(scale, std::move(bins));
+  return std::make_unique<HistogramMap>(
+      scale, piecewise::read_pieces<HistogramBin>(p, "bin", "bin", scale, /*non_decreasing=*/false, where));
 }
 
 }  // namespace plumb
