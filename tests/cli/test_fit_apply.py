@@ -93,6 +93,20 @@ class FitApply(PlumbCase):
             # Platt (1999): p = 1 / (1 + exp(A f + B)).
             self.assertAlmostEqual(float(row[4]), sigmoid(-(a * f + b)), delta=1e-12)
 
+    def test_zero_and_one_are_clipped_and_counted(self):
+        path, art = self.fit("platt")
+        a, b = art["parameters"]["a"], art["parameters"]["b"]
+        write(self.path("edge.csv"), "risk\n0\n1\n0.5\n")
+        rc, out, err = run("apply", path, self.path("edge.csv"))
+        self.assertEqual(rc, 0, err)
+        values = [float(r[1]) for r in read_rows(out, is_text=True)[1:]]
+        clip = 1e-12  # the documented clip (docs/methods.md)
+        for s, got in zip((clip, 1 - clip), values):
+            f = math.log(s / (1 - s))
+            self.assertAlmostEqual(got, sigmoid(-(a * f + b)), delta=1e-12)
+        self.assertTrue(0 < values[0] < values[2] < values[1] < 1)
+        self.assertIn("2 clipped near 0 or 1", err)
+
     def test_apply_passes_columns_through_and_keeps_order(self):
         path, _ = self.fit("temperature")
         with open(self.path("holdout.csv"), newline="") as f:
