@@ -11,6 +11,9 @@ plumb_setup test "$root/build"
 (cd "$root/build" && ctest --output-on-failure -j 2)
 
 if [ "${PLUMB_SKIP_SANITIZERS:-0}" != 1 ]; then
-  plumb_setup test "$root/build-sanitize" -DCMAKE_BUILD_TYPE=RelWithDebInfo -DPLUMB_SANITIZE=ON
+  # Warnings are held to zero in the build above; with sanitizers GCC 12
+  # reports false maybe-uninitialized warnings inside libstdc++, so they
+  # are not made errors here.
+  plumb_setup test "$root/build-sanitize" -DCMAKE_BUILD_TYPE=RelWithDebInfo -DPLUMB_SANITIZE=ON -DPLUMB_WERROR=OFF
   (cd "$root/build-sanitize" && ctest --output-on-failure -j 2)
 fi
