@@ -19,6 +19,7 @@
 #include "plumb/maps/isotonic_map.hpp"
 #include "plumb/pav.hpp"
 #include "plumb/scale.hpp"
+#include "support/test_helpers.hpp"
 
 using plumb::ErrorKind;
 using plumb::FitData;
@@ -27,8 +28,10 @@ using plumb::Scale;
 
 namespace {
 
-double uniform01(std::mt19937_64& g) { return static_cast<double>(g() >> 11) * 0x1.0p-53; }
-std::size_t below(std::mt19937_64& g, std::size_t k) { return static_cast<std::size_t>(g() % k); }
+using plumb::test::below;
+using plumb::test::error_kind;
+using plumb::test::uniform01;
+
 
 struct Rows {
   std::vector<double> score, label, weight;
@@ -74,16 +77,6 @@ std::vector<double> probe_grid(const std::vector<double>& fitted) {
   return grid;
 }
 
-template <class F>
-ErrorKind error_kind(F f) {
-  try {
-    f();
-  } catch (const plumb::Error& e) {
-    return e.kind();
-  }
-  return ErrorKind::threshold;  // "no error" shows up as a failed comparison
-}
-
 // parameters() -> text -> parse -> load_map must give the same map, bit for bit.
 void check_round_trip(const plumb::CalibrationMap& m, const std::vector<double>& grid) {
   const nlohmann::json parsed = nlohmann::json::parse(m.parameters().dump());
@@ -99,7 +92,7 @@ void check_round_trip(const plumb::CalibrationMap& m, const std::vector<double>&
   }
 }
 
-ErrorKind load_kind(std::string_view kind, const nlohmann::json& p, Scale scale = Scale::probability) {
+std::optional<ErrorKind> load_kind(std::string_view kind, const nlohmann::json& p, Scale scale = Scale::probability) {
   return error_kind([&] { plumb::load_map(kind, scale, p, "test.json"); });
 }
 

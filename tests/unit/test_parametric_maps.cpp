@@ -12,6 +12,7 @@
 #include "plumb/maps/platt_map.hpp"
 #include "plumb/maps/temperature_map.hpp"
 #include "plumb/scale.hpp"
+#include "support/test_helpers.hpp"
 
 using plumb::BetaMap;
 using plumb::FitData;
@@ -21,6 +22,10 @@ using plumb::Scale;
 using plumb::TemperatureMap;
 
 namespace {
+
+using plumb::test::below;
+using plumb::test::error_kind;
+using plumb::test::uniform01;
 
 struct Rows {
   std::vector<double> score, label, weight;
@@ -66,16 +71,6 @@ void check_round_trip(const plumb::CalibrationMap& m, const std::vector<double>&
   const auto back = M::from_parameters(m.scale(), parsed, "round-trip");
   CHECK(back->parameters() == m.parameters());
   for (double s : grid) CHECK(back->map(s).probability == m.map(s).probability);  // bit-identical
-}
-
-template <class F>
-plumb::ErrorKind error_kind(F f) {
-  try {
-    f();
-  } catch (const plumb::Error& e) {
-    return e.kind();
-  }
-  return plumb::ErrorKind::internal;  // "no error" shows up as a failed comparison
 }
 
 }  // namespace

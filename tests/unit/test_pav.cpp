@@ -15,15 +15,16 @@
 
 #include "plumb/error.hpp"
 #include "plumb/pav.hpp"
+#include "support/test_helpers.hpp"
 
 using plumb::PavBlock;
 
 namespace {
 
-// Uniform on [0, 1) from the top 53 bits of one engine draw.
-double uniform01(std::mt19937_64& g) { return static_cast<double>(g() >> 11) * 0x1.0p-53; }
-// Integer in [0, k) (modulo bias is irrelevant for these tests).
-std::size_t below(std::mt19937_64& g, std::size_t k) { return static_cast<std::size_t>(g() % k); }
+using plumb::test::below;
+using plumb::test::error_kind;
+using plumb::test::uniform01;
+
 
 struct Rows {
   std::vector<double> x, y, w;
@@ -134,16 +135,6 @@ void check_block_structure(const std::vector<PavBlock>& blocks) {
       CHECK(blocks[i].value >= blocks[i - 1].value);       // non-decreasing
     }
   }
-}
-
-template <class F>
-plumb::ErrorKind error_kind(F f) {
-  try {
-    f();
-  } catch (const plumb::Error& e) {
-    return e.kind();
-  }
-  return plumb::ErrorKind::threshold;  // "no error" shows up as a failed comparison
 }
 
 }  // namespace
