@@ -1,0 +1,137 @@
+#pragma once
+// The reliability report: every metric of one or more forecast columns on
+// one set of labelled rows, overall and per segment, with resampling
+// uncertainty, pass/fail gates and plain-language cautions. Pure
+// computation; the renderers (report_render.hpp) turn it into text, JSON,
+// SVG and Markdown.
+#include <cstddef>
+#include <cstdint>
+#include <optional>
+#include <span>
+#include <string>
+#include <vector>
+
+#include "plumb/binning.hpp"
+#include "plumb/bootstrap.hpp"
+#include "plumb/calibration_error.hpp"
+#include "plumb/calibration_regression.hpp"
+#include "plumb/corp.hpp"
+#include "plumb/goodness_of_fit.hpp"
+#include "plumb/murphy.hpp"
+#include "plumb/pav.hpp"
+#include "plumb/reliability.hpp"
+
+namespace plumb {
+
+struct ReportOptions {
+  std::size_t bins = 10;                           // reliability table, ECE, Murphy
+  BinningKind binning = BinningKind::equal_width;  // of the reliability table and chart
+  std::size_t bootstrap = 200;                     // replicates; 0: no intervals and no band
+  std::uint64_t seed = 1;
+  double confidence = 0.95;                        // every interval and band
+  std::size_t hl_groups = 10;                      // Hosmer-Lemeshow groups
+  double min_segment_weight = 100.0;               // smaller segments say "too few rows"
+  double segment_alpha = 0.05;                     // family-wise level of the segment flags
+  std::size_t histogram_bins = 50;                 // equal-width forecast histogram (for charts)
+};
+
+// One forecast column on one set of rows.
+struct ScoreSummary {
+  std::string name;  // the column's name (or "COLUMN via MAP" when mapped on the fly)
+  std::uint64_t rows = 0;
+  double weight = 0.0;
+  double positives = 0.0;       // weight of positive rows
+  double observed_rate = 0.0;   // positives / weight
+  double mean_forecast = 0.0;
+  double brier = 0.0;
+  double log_loss = 0.0;        // nats
+  double auc = 0.0;             // NaN when a class is absent
+  double calibration_in_the_large = 0.0;  // mean forecast - observed rate
+  CalibrationRegression regression;       // Cox (1958) slope and intercepts
+  MurphyDecomposition murphy;             // over `table`'s binning
+  CorpTerms corp_brier;                   // Dimitriadis, Gneiting and Jordan (2021)
+  CorpTerms corp_log_loss;
+  CalibrationError ece_equal_width;       // both binnings, `bins` bins each
+  CalibrationError ece_equal_mass;
+  HosmerLemeshow hosmer_lemeshow;
+  SpiegelhalterZ spiegelhalter;
+  std::optional<BootstrapResult> bootstrap;  // absent when options.bootstrap == 0
+  ReliabilityTable table;                    // options.binning, options.bins
+  std::vector<Interval> band;                // consistency band per table bin (empty without bootstrap)
+  std::vector<PavBlock> pav_curve;           // the CORP reliability curve (PAV of label on forecast)
+  std::vector<double> histogram;             // weight of forecasts in histogram_bins equal-width bins of [0, 1]
+  std::uint64_t at_zero_or_one = 0;          // forecasts exactly 0 or 1
+};
+
+// The key figures of one forecast column within one segment.
+struct SegmentSummary {
+  std::string value;  // the segment column's value
+  std::uint64_t rows = 0;
+  double weight = 0.0;
+  double positives = 0.0;
+  bool too_few = false;  // weight < min_segment_weight: only rows, weight and positives are set
+  double mean_forecast = 0.0;
+  double observed_rate = 0.0;
+  double calibration_in_the_large = 0.0;
+  double ece = 0.0;  // equal-width, options.bins
+  double brier = 0.0;
+  double log_loss = 0.0;
+  SpiegelhalterZ spiegelhalter;
+  double p_adjusted = 1.0;  // Holm (1979) over the segments that have a number
+  bool flagged = false;     // p_adjusted < segment_alpha
+};
+
+struct ScoreReport {
+  ScoreSummary overall;
+  // Sorted by how far off each segment is: |calibration_in_the_large|
+  // descending; too-few segments last, by value. Empty without --by.
+  std::vector<SegmentSummary> segments;
+};
+
+// --max METRIC=VALUE, optionally for one column: --max risk_cal:ece=0.02.
+struct Gate {
+  std::string column;  // empty: every score column
+  std::string metric;  // one of gate_metrics()
+  double limit = 0.0;
+};
+struct GateResult {
+  Gate gate;
+  std::string column;  // the column it was checked on
+  double value = 0.0;
+  bool exceeded = false;
+};
+
+struct Report {
+  std::string source;
+  std::string label_column;
+  std::string weight_column;   // empty when unweighted
+  std::string segment_column;  // empty without --by
+  ReportOptions options;
+  std::vector<ScoreReport> scores;
+  std::vector<GateResult> gates;
+  std::vector<std::string> cautions;  // plain sentences, in the order found
+  bool any_gate_exceeded() const noexcept;
+};
+
+// The names --max accepts, with what each reads: ece (equal-width plug-in),
+// ece_mass, mce, l2_debiased, brier, log_loss, mcb (CORP Brier), mcb_log,
+// citl (|calibration in the large|), slope_gap (|1 - slope|).
+std::span<const std::string_view> gate_metrics() noexcept;
+// The value a gate reads from a summary. Precondition: metric is in gate_metrics().
+double gate_value(const ScoreSummary& summary, std::string_view metric);
+
+// One forecast column with its name, for build_report.
+struct ForecastColumn {
+  std::string name;
+  std::span<const double> forecast;  // probabilities in [0, 1]
+};
+
+// Computes the whole report. `label` 0/1, `weight` empty or one per row,
+// `segment` empty or one segment index per row into `segment_names`.
+// Throws plumb::Error(fit) when the rows have no weight.
+Report build_report(std::span<const ForecastColumn> columns, std::span<const double> label,
+                    std::span<const double> weight, std::span<const std::uint32_t> segment,
+                    std::span<const std::string> segment_names, const std::vector<Gate>& gates,
+                    const ReportOptions& options);
+
+}  // namespace plumb

@@ -1,0 +1,38 @@
+#pragma once
+// The renderers of a Report (report.hpp). Each returns the whole document as
+// a string; the CLI writes it atomically. None reads the environment: what
+// the terminal can show is passed in.
+#include <nlohmann/json.hpp>
+#include <string>
+
+#include "plumb/report.hpp"
+
+namespace plumb {
+
+struct TextStyle {
+  bool unicode = true;  // block and box characters; false: ASCII only
+  bool colour = false;  // ANSI colours (the CLI sets it only for a terminal without NO_COLOR)
+  int width = 80;       // no line is wider than this (in terminal columns)
+};
+
+// The terminal report: per score column the headline metrics with their
+// intervals, the reliability table and a reliability chart; segments; gates;
+// cautions. Every line fits style.width columns.
+std::string render_text(const Report& report, const TextStyle& style);
+
+// Every number of the report (docs/report-format.md, docs/report.schema.json).
+// Non-finite numbers are written as null.
+nlohmann::json report_to_json(const Report& report);
+
+// A standalone SVG document: one reliability diagram per score column
+// (forecast probability against observed frequency: the diagonal, the
+// consistency band, the PAV curve, bin points with Wilson intervals) with a
+// histogram of the forecasts beneath. Well-formed XML, no scripts, prints
+// on one page per few columns.
+std::string render_svg(const Report& report);
+
+// A Markdown document to paste into a review: headline tables, reliability
+// tables, segments, gates, cautions.
+std::string render_markdown(const Report& report);
+
+}  // namespace plumb
