@@ -1,5 +1,7 @@
 #include "support/reference.hpp"
 
+#include <unistd.h>
+
 #include <cmath>
 #include <cstdlib>
 #include <filesystem>
@@ -10,7 +12,11 @@
 namespace plumb::test {
 
 std::string scratch_dir(const std::string& name) {
-  const std::filesystem::path dir = std::filesystem::path(PLUMB_TEST_BINARY_DIR) / "scratch" / name;
+  // One directory per process: CTest runs test cases of this binary as
+  // separate processes in parallel, and two of them may ask R for the same
+  // case at once.
+  const std::filesystem::path dir =
+      std::filesystem::path(PLUMB_TEST_BINARY_DIR) / "scratch" / (name + "." + std::to_string(::getpid()));
   std::filesystem::remove_all(dir);
   std::filesystem::create_directories(dir);
   return dir.string();

@@ -8,7 +8,8 @@
 
 namespace plumb::test {
 
-// A fresh empty directory under the test binary directory.
+// A fresh empty directory under the test binary directory, private to this
+// process.
 std::string scratch_dir(const std::string& name);
 
 // Runs `Rscript tests/reference/<script> <out_dir>`; fails the test (throws)
