@@ -33,34 +33,49 @@ class LabelRule {
   std::optional<std::string> positive_;
 };
 
+struct ScoreColumn {
+  std::string column;  // name or 1-based index
+  Scale scale = Scale::probability;
+};
+
 struct LabelledColumns {
-  std::string score;   // name or 1-based index
+  std::vector<ScoreColumn> scores;  // at least one
   std::string label;
-  std::string weight;  // empty: every row weighs 1
+  std::string weight;   // empty: every row weighs 1
+  std::string segment;  // empty: no segments
 };
 
 struct LabelledRows {
-  std::vector<double> score, label, weight;  // weight empty when unweighted
-  std::string source;                        // file name in messages, "<stdin>" for standard input
-  std::string source_sha256;                 // SHA-256 of the input bytes
-  std::string score_column, label_column, weight_column;  // resolved header names
+  std::vector<std::vector<double>> scores;  // one vector per requested score column, in order
+  std::vector<std::string> score_columns;   // their resolved header names
+  std::vector<double> label, weight;        // weight empty when unweighted
+  std::vector<std::uint32_t> segment;       // per row, an index into segment_names (empty without segments)
+  std::vector<std::string> segment_names;   // in order of first appearance
+  std::string source;                       // file name in messages, "<stdin>" for standard input
+  std::string source_sha256;                // SHA-256 of the input bytes
+  std::string label_column, weight_column, segment_column;  // resolved header names
   std::uint64_t rows = 0;
   double positives = 0.0;     // weight of positive rows
   double weight_total = 0.0;
-  double score_min = 0.0, score_max = 0.0;
+  double score_min = 0.0, score_max = 0.0;  // of the first score column
 };
+
+// At most this many distinct segment values; more is an input error (a
+// segment column that is really an id).
+inline constexpr std::size_t max_segments = 100000;
 
 // Reads every data row of `path` ("-" for standard input). Refuses, with
 // plumb::Error(input) naming file, line, column, value and what was expected:
 // a missing column, an empty file or one with a header and no rows, a score
-// that is empty, not a decimal number, NaN, infinite or outside the scale
-// (for `probability`, outside [0, 1]), a label the rule does not read, and a
-// weight that is empty, not a number or negative. `progress` (may be empty)
+// that is empty, not a decimal number, NaN, infinite or outside its column's
+// scale (for `probability`, outside [0, 1]), a label the rule does not read, and a
+// weight that is empty, not a number or negative, and more than
+// max_segments distinct segment values. `progress` (may be empty)
 // is called every 65536 rows, for progress reports.
 using ProgressCallback =
     std::function<void(std::uint64_t rows, std::uint64_t bytes, std::optional<std::uint64_t> total_bytes)>;
 LabelledRows read_labelled(const std::string& path, const LabelledColumns& columns, const LabelRule& rule,
-                           Scale scale, char delimiter = 0, const ProgressCallback& progress = {});
+                           char delimiter = 0, const ProgressCallback& progress = {});
 
 // The message part for a score refused on `scale` ("is not a decimal
 // number", "lies outside [0, 1]"), and what would have been accepted.

@@ -52,21 +52,21 @@ int run_fit(const FitOptions& o) {
 
   Progress progress("plumb fit: reading", o.input.quiet);
   io::LabelledRows rows = io::read_labelled(
-      o.input.file, {o.input.score, o.input.label, o.input.weight}, label_rule(o.input), scale,
+      o.input.file, {{{o.input.score, scale}}, o.input.label, o.input.weight, {}}, label_rule(o.input),
       parse_separator(o.input.separator),
       [&progress](std::uint64_t r, std::uint64_t b, std::optional<std::uint64_t> t) { progress.update(r, b, t); });
   progress.finish();
 
   Artifact artifact;
   try {
-    artifact.map = fit_map(o.kind, FitData{rows.score, rows.label, rows.weight, scale}, map_options);
+    artifact.map = fit_map(o.kind, FitData{rows.scores[0], rows.label, rows.weight, scale}, map_options);
   } catch (const Error& e) {
     if (e.kind() != ErrorKind::fit || !e.where().file.empty()) throw;
     Location loc;
     loc.file = rows.source;
     throw Error(e.kind(), e.message(), loc, e.value(), e.expected());
   }
-  artifact.score_column = rows.score_column;
+  artifact.score_column = rows.score_columns[0];
   artifact.fit_options = kind_options(o);
   Provenance& p = artifact.provenance;
   p.source = rows.source;

@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cctype>
+#include <unordered_map>
 
 #include "plumb/csv.hpp"
 #include "plumb/error.hpp"
@@ -54,34 +55,44 @@ ScoreProblem score_problem(std::string_view text, Scale scale) {
 }
 
 LabelledRows read_labelled(const std::string& path, const LabelledColumns& columns, const LabelRule& rule,
-                           Scale scale, char delimiter, const ProgressCallback& progress) {
+                           char delimiter, const ProgressCallback& progress) {
   CsvOptions options;
   options.delimiter = delimiter;
   CsvReader reader(path, options);
-  const std::size_t score_col = reader.column(columns.score, "score");
+  std::vector<std::size_t> score_cols;
+  for (const ScoreColumn& c : columns.scores) score_cols.push_back(reader.column(c.column, "score"));
   const std::size_t label_col = reader.column(columns.label, "label");
   const bool weighted = !columns.weight.empty();
   const std::size_t weight_col = weighted ? reader.column(columns.weight, "weight") : 0;
+  const bool segmented = !columns.segment.empty();
+  const std::size_t segment_col = segmented ? reader.column(columns.segment, "segment") : 0;
 
   LabelledRows out;
   out.source = reader.name();
-  out.score_column = reader.header()[score_col];
+  out.scores.resize(score_cols.size());
+  for (std::size_t c : score_cols) out.score_columns.push_back(reader.header()[c]);
   out.label_column = reader.header()[label_col];
   if (weighted) out.weight_column = reader.header()[weight_col];
+  if (segmented) out.segment_column = reader.header()[segment_col];
+  std::unordered_map<std::string, std::uint32_t> segment_index;
 
   Record record;
   while (reader.next(record)) {
-    const std::string_view s = record.fields[score_col];
-    const std::optional<double> score = parse_number(s);
-    if (!score || !valid_on_scale(*score, scale)) {
-      const ScoreProblem why = score_problem(s, scale);
-      throw Error(ErrorKind::input, why.message, cell(reader, record, score_col), std::string(s), why.expected);
+    for (std::size_t k = 0; k < score_cols.size(); ++k) {
+      const std::string_view s = record.fields[score_cols[k]];
+      const std::optional<double> score = parse_number(s);
+      if (!score || !valid_on_scale(*score, columns.scores[k].scale)) {
+        const ScoreProblem why = score_problem(s, columns.scores[k].scale);
+        throw Error(ErrorKind::input, why.message, cell(reader, record, score_cols[k]), std::string(s), why.expected);
+      }
+      out.scores[k].push_back(*score);
     }
     const std::string_view l = record.fields[label_col];
     const std::optional<double> label = rule.read(l);
     if (!label)
       throw Error(ErrorKind::input, l.empty() ? "the label is empty" : "the label is neither positive nor negative",
-                  cell(reader, record, label_col), std::string(l), rule.describe() + " (or name the positive value with --positive)");
+                  cell(reader, record, label_col), std::string(l),
+                  rule.describe() + " (or name the positive value with --positive)");
     double w = 1.0;
     if (weighted) {
       const std::string_view t = record.fields[weight_col];
@@ -95,7 +106,19 @@ LabelledRows read_labelled(const std::string& path, const LabelledColumns& colum
       w = *parsed;
       out.weight.push_back(w);
     }
-    out.score.push_back(*score);
+    if (segmented) {
+      const std::string_view v = record.fields[segment_col];
+      const auto [it, added] =
+          segment_index.try_emplace(std::string(v), static_cast<std::uint32_t>(out.segment_names.size()));
+      if (added) {
+        if (out.segment_names.size() == max_segments)
+          throw Error(ErrorKind::input, "the segment column has more than " + std::to_string(max_segments) +
+                                            " distinct values",
+                      cell(reader, record, segment_col), std::string(v), "a column of groups, not of ids");
+        out.segment_names.emplace_back(v);
+      }
+      out.segment.push_back(it->second);
+    }
     out.label.push_back(*label);
     out.positives += w * *label;
     out.weight_total += w;
@@ -107,7 +130,7 @@ LabelledRows read_labelled(const std::string& path, const LabelledColumns& colum
     loc.file = reader.name();
     throw Error(ErrorKind::input, "the file has a header but no data rows", loc, {}, "at least one labelled row");
   }
-  const auto [lo, hi] = std::minmax_element(out.score.begin(), out.score.end());
+  const auto [lo, hi] = std::minmax_element(out.scores[0].begin(), out.scores[0].end());
   out.score_min = *lo;
   out.score_max = *hi;
   out.source_sha256 = reader.content_sha256();

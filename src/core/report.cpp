@@ -1,0 +1,243 @@
+#include "plumb/report.hpp"
+
+#include <algorithm>
+#include <array>
+#include <cmath>
+#include <cstdio>
+#include <numeric>
+
+#include "core/metric_input.hpp"
+#include "plumb/auc.hpp"
+#include "plumb/error.hpp"
+#include "plumb/scores.hpp"
+
+namespace plumb {
+namespace {
+
+constexpr std::array<std::string_view, 10> gate_names{"ece",   "ece_mass", "mce", "l2_debiased", "brier",
+                                                      "log_loss", "mcb",   "mcb_log", "citl", "slope_gap"};
+
+// Below these the report says its bins are thin (common practice: about 10
+// positives and 10 negatives per bin for a stable observed frequency).
+constexpr double cases_per_bin = 10.0;
+// Share of forecasts at exactly 0 or 1 above which the report cautions.
+constexpr double extreme_share = 0.01;
+
+std::string format_g(double v, int digits = 4) {
+  char text[48];
+  std::snprintf(text, sizeof text, "%.*g", digits, v);
+  return text;
+}
+
+std::vector<double> forecast_histogram(std::span<const double> f, std::span<const double> w, std::size_t bins) {
+  std::vector<double> h(bins, 0.0);
+  if (bins == 0) return h;
+  for (std::size_t i = 0; i < f.size(); ++i) {
+    const auto b = std::min(bins - 1, static_cast<std::size_t>(f[i] * static_cast<double>(bins)));
+    h[b] += detail::weight_at(w, i);
+  }
+  return h;
+}
+
+ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, std::span<const double> w,
+                       const ReportOptions& o) {
+  const std::span<const double> f = column.forecast;
+  ScoreSummary s;
+  s.name = column.name;
+  s.rows = f.size();
+  double wp = 0.0;
+  for (std::size_t i = 0; i < f.size(); ++i) {
+    const double wi = detail::weight_at(w, i);
+    s.weight += wi;
+    s.positives += wi * y[i];
+    wp += wi * f[i];
+    if (f[i] == 0.0 || f[i] == 1.0) ++s.at_zero_or_one;
+  }
+  detail::require_positive_total("report", s.weight);
+  s.observed_rate = s.positives / s.weight;
+  s.mean_forecast = wp / s.weight;
+  s.brier = brier_score(f, y, w);
+  s.log_loss = log_loss(f, y, w);
+  s.auc = auc(f, y, w);
+  s.calibration_in_the_large = s.mean_forecast - s.observed_rate;
+  s.regression = calibration_regression(f, y, w);
+
+  const Binning binning = make_binning(f, w, o.binning, o.bins);
+  s.murphy = murphy_decomposition(f, y, w, binning);
+  s.table = reliability_table(f, y, w, o.binning, o.bins, o.confidence);
+  const CorpDecomposition corp = corp_decomposition(f, y, w);
+  s.corp_brier = corp.brier;
+  s.corp_log_loss = corp.log_loss;
+  s.pav_curve = pav_fit(f, y, w);
+  s.ece_equal_width = calibration_error(f, y, w, BinningKind::equal_width, o.bins);
+  s.ece_equal_mass = calibration_error(f, y, w, BinningKind::equal_mass, o.bins);
+  s.hosmer_lemeshow = hosmer_lemeshow(f, y, w, o.hl_groups);
+  s.spiegelhalter = spiegelhalter_z(f, y, w);
+  s.histogram = forecast_histogram(f, w, o.histogram_bins);
+  if (o.bootstrap > 0) {
+    BootstrapOptions b;
+    b.replicates = o.bootstrap;
+    b.seed = o.seed;
+    b.confidence = o.confidence;
+    b.binning = BinningKind::equal_width;
+    b.bins = o.bins;
+    s.bootstrap = bootstrap_metrics(f, y, w, b);
+    b.binning = o.binning;
+    s.band = consistency_band(f, w, binning, b);
+  }
+  return s;
+}
+
+SegmentSummary summarise_segment(std::string value, std::span<const double> f, std::span<const double> y,
+                                 std::span<const double> w, const ReportOptions& o) {
+  SegmentSummary s;
+  s.value = std::move(value);
+  s.rows = f.size();
+  double wp = 0.0;
+  for (std::size_t i = 0; i < f.size(); ++i) {
+    const double wi = detail::weight_at(w, i);
+    s.weight += wi;
+    s.positives += wi * y[i];
+    wp += wi * f[i];
+  }
+  s.too_few = !(s.weight >= o.min_segment_weight) || !(s.weight > 0.0);
+  if (s.too_few) return s;
+  s.mean_forecast = wp / s.weight;
+  s.observed_rate = s.positives / s.weight;
+  s.calibration_in_the_large = s.mean_forecast - s.observed_rate;
+  s.ece = calibration_error(f, y, w, BinningKind::equal_width, o.bins).ece;
+  s.brier = brier_score(f, y, w);
+  s.log_loss = log_loss(f, y, w);
+  s.spiegelhalter = spiegelhalter_z(f, y, w);
+  return s;
+}
+
+// Holm (1979) step-down adjustment of the segments' Spiegelhalter p-values:
+// sorted ascending, p_(i) * (m - i) made monotone, capped at 1.
+void holm_adjust(std::vector<SegmentSummary>& segments, double alpha) {
+  std::vector<SegmentSummary*> tested;
+  for (SegmentSummary& s : segments)
+    if (!s.too_few && std::isfinite(s.spiegelhalter.p_value)) tested.push_back(&s);
+  std::sort(tested.begin(), tested.end(), [](const SegmentSummary* a, const SegmentSummary* b) {
+    return a->spiegelhalter.p_value < b->spiegelhalter.p_value;
+  });
+  const double m = static_cast<double>(tested.size());
+  double running = 0.0;
+  for (std::size_t i = 0; i < tested.size(); ++i) {
+    const double adjusted = std::min(1.0, tested[i]->spiegelhalter.p_value * (m - static_cast<double>(i)));
+    running = std::max(running, adjusted);
+    tested[i]->p_adjusted = running;
+    tested[i]->flagged = running < alpha;
+  }
+}
+
+std::vector<SegmentSummary> segment_summaries(std::span<const double> f, std::span<const double> y,
+                                              std::span<const double> w, std::span<const std::uint32_t> segment,
+                                              std::span<const std::string> names, const ReportOptions& o) {
+  // Rows of each segment, gathered in one pass (counting sort by segment).
+  std::vector<std::size_t> start(names.size() + 1, 0);
+  for (std::uint32_t s : segment) ++start[s + 1];
+  std::partial_sum(start.begin(), start.end(), start.begin());
+  std::vector<std::size_t> next(start.begin(), start.end() - 1);
+  std::vector<double> fs(f.size()), ys(f.size()), ws(w.empty() ? 0 : f.size());
+  for (std::size_t i = 0; i < f.size(); ++i) {
+    const std::size_t at = next[segment[i]]++;
+    fs[at] = f[i];
+    ys[at] = y[i];
+    if (!w.empty()) ws[at] = w[i];
+  }
+  std::vector<SegmentSummary> out;
+  out.reserve(names.size());
+  for (std::size_t s = 0; s < names.size(); ++s) {
+    const std::size_t b = start[s], n = start[s + 1] - b;
+    out.push_back(summarise_segment(names[s], std::span(fs).subspan(b, n), std::span(ys).subspan(b, n),
+                                    w.empty() ? std::span<const double>() : std::span<const double>(ws).subspan(b, n),
+                                    o));
+  }
+  holm_adjust(out, o.segment_alpha);
+  std::stable_sort(out.begin(), out.end(), [](const SegmentSummary& a, const SegmentSummary& b) {
+    if (a.too_few != b.too_few) return b.too_few;
+    if (a.too_few) return a.value < b.value;
+    return std::fabs(a.calibration_in_the_large) > std::fabs(b.calibration_in_the_large);
+  });
+  return out;
+}
+
+void add_cautions(Report& r) {
+  const ReportOptions& o = r.options;
+  for (const ScoreReport& sr : r.scores) {
+    const ScoreSummary& s = sr.overall;
+    const double negatives = s.weight - s.positives;
+    if (std::min(s.positives, negatives) < cases_per_bin * static_cast<double>(o.bins))
+      r.cautions.push_back(s.name + ": " + format_g(std::min(s.positives, negatives)) + " rows of the rarer class for " +
+                           std::to_string(o.bins) + " bins; observed frequencies per bin are noisy (common practice: "
+                           "about 10 per bin) - consider fewer bins (--bins)");
+    if (static_cast<double>(s.at_zero_or_one) > extreme_share * static_cast<double>(s.rows))
+      r.cautions.push_back(s.name + ": " + std::to_string(s.at_zero_or_one) + " forecasts are exactly 0 or 1; the log "
+                           "loss counts each confident miss as about 27.6 nats (clipped at 1e-12)");
+    for (const SegmentSummary& g : sr.segments)
+      if (g.flagged)
+        r.cautions.push_back(s.name + ": segment '" + g.value + "' is far off: mean forecast " +
+                             format_g(g.mean_forecast) + " against observed " + format_g(g.observed_rate) +
+                             " (Spiegelhalter Z " + format_g(g.spiegelhalter.z, 3) + ", Holm-adjusted p " +
+                             format_g(g.p_adjusted, 2) + ")");
+  }
+}
+
+}  // namespace
+
+bool Report::any_gate_exceeded() const noexcept {
+  return std::any_of(gates.begin(), gates.end(), [](const GateResult& g) { return g.exceeded; });
+}
+
+std::span<const std::string_view> gate_metrics() noexcept { return gate_names; }
+
+double gate_value(const ScoreSummary& s, std::string_view metric) {
+  if (metric == "ece") return s.ece_equal_width.ece;
+  if (metric == "ece_mass") return s.ece_equal_mass.ece;
+  if (metric == "mce") return s.ece_equal_width.mce;
+  if (metric == "l2_debiased") return s.ece_equal_width.l2_debiased;
+  if (metric == "brier") return s.brier;
+  if (metric == "log_loss") return s.log_loss;
+  if (metric == "mcb") return s.corp_brier.mcb;
+  if (metric == "mcb_log") return s.corp_log_loss.mcb;
+  if (metric == "citl") return std::fabs(s.calibration_in_the_large);
+  if (metric == "slope_gap") return std::fabs(1.0 - s.regression.slope);
+  throw Error(ErrorKind::internal, "gate_value: unknown metric " + std::string(metric));
+}
+
+Report build_report(std::span<const ForecastColumn> columns, std::span<const double> label,
+                    std::span<const double> weight, std::span<const std::uint32_t> segment,
+                    std::span<const std::string> segment_names, const std::vector<Gate>& gates,
+                    const ReportOptions& options) {
+  Report r;
+  r.options = options;
+  for (const ForecastColumn& c : columns) {
+    detail::check_metric_input("build_report", c.forecast, label, weight);
+    if (!segment.empty() && segment.size() != label.size())
+      throw Error(ErrorKind::internal, "build_report: segment column differs in length");
+    ScoreReport sr;
+    sr.overall = summarise(c, label, weight, options);
+    if (!segment.empty()) sr.segments = segment_summaries(c.forecast, label, weight, segment, segment_names, options);
+    r.scores.push_back(std::move(sr));
+  }
+  for (const Gate& g : gates) {
+    bool matched = false;
+    for (const ScoreReport& sr : r.scores) {
+      if (!g.column.empty() && g.column != sr.overall.name) continue;
+      matched = true;
+      GateResult result{g, sr.overall.name, gate_value(sr.overall, g.metric), false};
+      // A value that cannot be computed fails the gate: a pipeline must not
+      // pass on a number it does not have.
+      result.exceeded = !(result.value <= g.limit);
+      r.gates.push_back(result);
+    }
+    if (!matched)
+      throw Error(ErrorKind::usage, "--max names a column that is not reported", {}, g.column,
+                  "one of the --score columns");
+  }
+  add_cautions(r);
+  return r;
+}
+
+}  // namespace plumb
