@@ -412,8 +412,10 @@ std::vector<Headline> headline_rows(const Report& report) {
   add("  DSC discrimination", [](const ScoreSummary& s) { return metric(s.corp_brier.dsc); });
   add("  UNC uncertainty", [](const ScoreSummary& s) { return metric(s.corp_brier.unc); });
   add("log loss (nats)", [](const ScoreSummary& s) { return metric(s.log_loss); });
-  add("  MCB / DSC / UNC", [](const ScoreSummary& s) {
-    return metric(s.corp_log_loss.mcb) + " / " + metric(s.corp_log_loss.dsc) + " / " +
+  // One row for the three log-loss terms keeps the block short; commas
+  // rather than wider separators keep three columns inside 100.
+  add("  MCB, DSC, UNC", [](const ScoreSummary& s) {
+    return metric(s.corp_log_loss.mcb) + ", " + metric(s.corp_log_loss.dsc) + ", " +
            metric(s.corp_log_loss.unc);
   });
   add("ECE width, " + std::to_string(ece_bins) + " bins", [&](const ScoreSummary& s) {
@@ -535,7 +537,7 @@ void render_reliability_table(Document& doc, const Painter& p, const Report& rep
       {"forecast range", false, 0, 0},
       {"rows", true, 0, 0},
       {"weight", true, weighted ? 3 : 0, 0},
-      {"mean forecast", true, 0, 0},
+      {"forecast", true, 0, 0},
       {"observed", true, 0, 0},
       {percent_level(t.confidence) + " Wilson", false, 2, 0},
       {"gap", true, 0, 0},

@@ -419,3 +419,52 @@ TEST_CASE("non-finite numbers print as n/a and cautions start with the marker",
     CHECK_FALSE(line_starting(text, marker + "second caution").empty());
   }
 }
+
+TEST_CASE("three score columns sit side by side at 100 columns, one after another at 80",
+          "[report_text]") {
+  const Simulation& s = shared_simulation();
+  std::vector<double> middle;
+  for (double q : s.calibrated) middle.push_back(logistic(1.3 * logit(q)));
+  const std::vector<plumb::ForecastColumn> columns = {
+      {"risk_raw", s.raw}, {"risk_cal", s.calibrated}, {"risk_mid", middle}};
+  plumb::ReportOptions options;
+  options.bootstrap = 40;
+  const plumb::Report r = plumb::build_report(columns, s.label, {}, {}, {}, {}, options);
+  const auto ece_numbers = [](const std::string& text) {
+    std::vector<std::size_t> out;
+    for (const std::string& l : lines_of(text))
+      if (l.find("ECE width, 10 bins") != std::string::npos)
+        out.push_back(numbers_in(l.substr(l.find("bins") + 4)).size());
+    return out;
+  };
+  const std::string wide = plumb::render_text(r, {true, false, 100});
+  CHECK(ece_numbers(wide) == std::vector<std::size_t>{9});
+  const std::vector<double> v = numbers_in(line_starting(wide, "Cox slope"));
+  REQUIRE(v.size() == 3);
+  for (std::size_t i = 0; i < 3; ++i)
+    CHECK(std::fabs(v[i] - r.scores[i].overall.regression.slope) <= 5e-5);
+  CHECK(ece_numbers(plumb::render_text(r, {true, false, 80})) ==
+        std::vector<std::size_t>{3, 3, 3});
+}
+
+TEST_CASE("a weighted report shows each bin's weight and the total", "[report_text]") {
+  Simulation s = shared_simulation();
+  std::mt19937_64 g(99);
+  for (std::size_t i = 0; i < s.label.size(); ++i) s.weight.push_back(0.5 + 2.0 * uniform01(g));
+  plumb::Report r = make_report(s, {}, 0, false);
+  r.weight_column = "exposure";
+  const std::string text = plumb::render_text(r, {false, false, 80});
+  CHECK(text.find("weight exposure") != std::string::npos);
+  const auto& bins = r.scores[0].overall.table.bins;
+  for (const auto& b : bins) {
+    if (!(b.weight > 0)) continue;
+    char range[64];
+    std::snprintf(range, sizeof range, "%.4f-%.4f", b.edge_lo, b.edge_hi);
+    const std::string l = line_starting(text, range);
+    const std::vector<double> v = numbers_in(l.substr(l.find(range) + std::string(range).size()));
+    REQUIRE(v.size() == 7);
+    CHECK(v[0] == static_cast<double>(b.rows));
+    CHECK(std::fabs(v[1] - b.weight) <= 5e-3);
+    CHECK(std::fabs(v[2] - b.mean_forecast) <= 5e-5);
+  }
+}
