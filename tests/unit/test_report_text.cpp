@@ -468,3 +468,25 @@ TEST_CASE("a weighted report shows each bin's weight and the total", "[report_te
     CHECK(std::fabs(v[2] - b.mean_forecast) <= 5e-5);
   }
 }
+
+TEST_CASE("equal-mass bins show their own forecast ranges and fit the width", "[report_text]") {
+  const Simulation& s = shared_simulation();
+  const std::vector<plumb::ForecastColumn> columns = {{"risk_raw", s.raw}};
+  plumb::ReportOptions options;
+  options.bootstrap = 30;
+  options.binning = plumb::BinningKind::equal_mass;
+  options.bins = 12;
+  const plumb::Report r = plumb::build_report(columns, s.label, {}, {}, {}, {}, options);
+  const auto& bins = r.scores[0].overall.table.bins;
+  REQUIRE(bins.size() == 12);
+  for (int width : {80, 100}) {
+    const std::string text = plumb::render_text(r, {false, false, width});
+    CHECK(text.find("12 equal-mass bins") != std::string::npos);
+    for (const std::string& l : lines_of(text)) CHECK(columns_of(l) <= static_cast<std::size_t>(width));
+    for (const auto& b : bins) {
+      char range[64];
+      std::snprintf(range, sizeof range, "%.4f-%.4f", b.edge_lo, b.edge_hi);
+      CHECK_FALSE(line_starting(text, range).empty());
+    }
+  }
+}
