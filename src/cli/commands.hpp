@@ -12,5 +12,6 @@ using Command = std::function<int()>;
 Command add_fit_command(CLI::App& app);
 Command add_apply_command(CLI::App& app);
 Command add_inspect_command(CLI::App& app);
+Command add_report_command(CLI::App& app);
 
 }  // namespace plumb::cli

@@ -29,6 +29,12 @@ std::string format_g(double v, int digits = 4) {
   return text;
 }
 
+std::string format_fixed(double v, int decimals = 4) {
+  char text[48];
+  std::snprintf(text, sizeof text, "%.*f", decimals, v);
+  return text;
+}
+
 std::vector<double> forecast_histogram(std::span<const double> f, std::span<const double> w, std::size_t bins) {
   std::vector<double> h(bins, 0.0);
   if (bins == 0) return h;
@@ -177,9 +183,9 @@ void add_cautions(Report& r) {
                            "loss counts each confident miss as about 27.6 nats (clipped at 1e-12)");
     for (const SegmentSummary& g : sr.segments)
       if (g.flagged)
-        r.cautions.push_back(s.name + ": segment '" + g.value + "' is far off: mean forecast " +
-                             format_g(g.mean_forecast) + " against observed " + format_g(g.observed_rate) +
-                             " (Spiegelhalter Z " + format_g(g.spiegelhalter.z, 3) + ", Holm-adjusted p " +
+        r.cautions.push_back(s.name + ": segment '" + g.value + "' is miscalibrated: mean forecast " +
+                             format_fixed(g.mean_forecast) + " against observed " + format_fixed(g.observed_rate) +
+                             " (Spiegelhalter Z " + format_fixed(g.spiegelhalter.z, 2) + ", Holm-adjusted p " +
                              format_g(g.p_adjusted, 2) + ")");
   }
 }

@@ -1,0 +1,223 @@
+// plumb report: reliability diagnostics of one or more forecast columns on
+// labelled rows, for a terminal, a pipeline gate and a review page.
+#include <unistd.h>
+
+#include <cstdio>
+#include <cstdlib>
+#include <filesystem>
+#include <string>
+
+#include "cli/commands.hpp"
+#include "cli/common.hpp"
+#include "plumb/artifact.hpp"
+#include "plumb/error.hpp"
+#include "plumb/output.hpp"
+#include "plumb/report.hpp"
+#include "plumb/report_render.hpp"
+
+namespace plumb::cli {
+namespace {
+
+struct ReportCliOptions {
+  InputOptions input;
+  std::vector<std::string> scores;
+  std::vector<std::string> maps;
+  std::string by;
+  std::size_t bins = 10;
+  std::string binning = "width";
+  std::size_t bootstrap = 200;
+  std::uint64_t seed = 1;
+  double confidence = 0.95;
+  std::size_t hl_groups = 10;
+  double min_segment = 100;
+  std::vector<std::string> max;
+  std::string json_path, svg_path, markdown_path;
+  bool ascii = false;
+};
+
+// Below this many scores outside the fitted range a mapped column is quiet.
+constexpr double outside_share_caution = 0.01;
+
+Gate parse_gate(const std::string& text) {
+  const auto eq = text.find('=');
+  const std::string expected = "METRIC=VALUE or COLUMN:METRIC=VALUE, METRIC one of " + [] {
+    std::string names;
+    for (std::string_view m : gate_metrics()) names += (names.empty() ? "" : ", ") + std::string(m);
+    return names;
+  }();
+  if (eq == std::string::npos) throw Error(ErrorKind::usage, "--max needs a value", {}, text, expected);
+  Gate g;
+  std::string lhs = text.substr(0, eq);
+  const auto colon = lhs.rfind(':');
+  if (colon != std::string::npos) {
+    g.column = lhs.substr(0, colon);
+    lhs = lhs.substr(colon + 1);
+  }
+  bool known = false;
+  for (std::string_view m : gate_metrics()) known = known || m == lhs;
+  if (!known) throw Error(ErrorKind::usage, "--max names an unknown metric", {}, lhs, expected);
+  g.metric = lhs;
+  const std::string value = text.substr(eq + 1);
+  char* end = nullptr;
+  g.limit = std::strtod(value.c_str(), &end);
+  if (value.empty() || *end != '\0' || !std::isfinite(g.limit))
+    throw Error(ErrorKind::usage, "--max has a limit that is not a number", {}, value, expected);
+  return g;
+}
+
+void write_file(const std::string& path, const std::string& text) {
+  io::OutputFile out(path);
+  out.write(text);
+  out.commit();
+}
+
+int run_report(const ReportCliOptions& o) {
+  std::vector<Gate> gates;
+  for (const std::string& m : o.max) gates.push_back(parse_gate(m));
+  ReportOptions ro;
+  ro.bins = o.bins;
+  ro.binning = o.binning == "mass" ? BinningKind::equal_mass : BinningKind::equal_width;
+  ro.bootstrap = o.bootstrap;
+  ro.seed = o.seed;
+  ro.confidence = o.confidence;
+  ro.hl_groups = o.hl_groups;
+  ro.min_segment_weight = o.min_segment;
+
+  // Score columns as read: every --score on the probability scale, then the
+  // source column of every --map on that map's scale.
+  std::vector<Artifact> artifacts;
+  for (const std::string& path : o.maps) artifacts.push_back(load_artifact(path));
+  io::LabelledColumns columns;
+  for (const std::string& s : o.scores) columns.scores.push_back({s, Scale::probability});
+  for (const Artifact& a : artifacts) columns.scores.push_back({a.score_column, a.map->scale()});
+  if (columns.scores.empty())
+    throw Error(ErrorKind::usage, "nothing to report", {}, {}, "at least one --score or --map");
+  columns.label = o.input.label;
+  columns.weight = o.input.weight;
+  columns.segment = o.by;
+
+  Progress progress("plumb report: reading", o.input.quiet);
+  const io::LabelledRows rows = io::read_labelled(
+      o.input.file, columns, label_rule(o.input), parse_separator(o.input.separator),
+      [&progress](std::uint64_t r, std::uint64_t b, std::optional<std::uint64_t> t) { progress.update(r, b, t); });
+  progress.finish();
+
+  std::vector<std::vector<double>> mapped;
+  std::vector<ForecastColumn> forecasts;
+  std::vector<std::string> extra_cautions;
+  for (std::size_t k = 0; k < o.scores.size(); ++k) forecasts.push_back({rows.score_columns[k], rows.scores[k]});
+  for (std::size_t m = 0; m < artifacts.size(); ++m) {
+    const std::size_t k = o.scores.size() + m;
+    const CalibrationMap& map = *artifacts[m].map;
+    std::vector<double> p(rows.scores[k].size());
+    std::uint64_t outside = 0;
+    for (std::size_t i = 0; i < p.size(); ++i) {
+      const Mapped r = map.map(rows.scores[k][i]);
+      p[i] = r.probability;
+      outside += r.outside_fit_range ? 1 : 0;
+    }
+    const std::string name =
+        rows.score_columns[k] + " via " + std::filesystem::path(o.maps[m]).filename().string();
+    if (static_cast<double>(outside) > outside_share_caution * static_cast<double>(p.size()))
+      extra_cautions.push_back(name + ": " + grouped(outside) +
+                               " scores lie outside the range the map was fitted on and were held at its end values");
+    mapped.push_back(std::move(p));
+    forecasts.push_back({name, {}});
+  }
+  for (std::size_t m = 0; m < mapped.size(); ++m) forecasts[o.scores.size() + m].forecast = mapped[m];
+
+  Report report = build_report(forecasts, rows.label, rows.weight, rows.segment, rows.segment_names, gates, ro);
+  report.source = rows.source;
+  report.label_column = rows.label_column;
+  report.weight_column = rows.weight_column;
+  report.segment_column = rows.segment_column;
+  report.cautions.insert(report.cautions.end(), extra_cautions.begin(), extra_cautions.end());
+
+  // Files first, each whole or not at all; then the terminal report.
+  if (!o.json_path.empty()) write_file(o.json_path, report_to_json(report).dump(2) + "\n");
+  if (!o.svg_path.empty()) write_file(o.svg_path, render_svg(report));
+  if (!o.markdown_path.empty()) write_file(o.markdown_path, render_markdown(report));
+  if (!o.input.quiet) {
+    TextStyle style;
+    style.unicode = !o.ascii;
+    style.colour = ::isatty(STDOUT_FILENO) == 1 && std::getenv("NO_COLOR") == nullptr;
+    io::OutputFile out("-");
+    out.write(render_text(report, style));
+    out.commit();
+  }
+  if (report.any_gate_exceeded()) {
+    std::fprintf(stderr, "plumb report: a --max threshold was exceeded:");
+    for (const GateResult& g : report.gates)
+      if (g.exceeded)
+        std::fprintf(stderr, " %s %s = %s > %s;", g.column.c_str(), g.gate.metric.c_str(), shortest(g.value).c_str(),
+                     shortest(g.gate.limit).c_str());
+    std::fprintf(stderr, "\n");
+    return static_cast<int>(ErrorKind::threshold);
+  }
+  return 0;
+}
+
+}  // namespace
+
+Command add_report_command(CLI::App& app) {
+  auto o = std::make_shared<ReportCliOptions>();
+  CLI::App* cmd = app.add_subcommand(
+      "report", "Reliability diagnostics of forecasts against outcomes: scores, decompositions, calibration "
+                "error with intervals, a reliability chart, segments, pass/fail gates");
+  cmd->footer(
+      "Gates (--max, repeatable) read one figure per score column: ece, ece_mass, mce, l2_debiased,\n"
+      "brier, log_loss, mcb (CORP miscalibration of the Brier score), mcb_log, citl (|mean forecast -\n"
+      "observed rate|), slope_gap (|1 - calibration slope|). 'risk_cal:ece=0.02' checks one column only.\n"
+      "When a gate is exceeded every requested output is still written, then plumb exits with code 7.\n\n"
+      "Examples:\n"
+      "  plumb report --score risk --score risk_cal --label missed --by depot scored.csv\n"
+      "  plumb report --map late.map.json --score risk --label missed holdout.csv --svg reliability.svg\n"
+      "  plumb report --score risk_cal --label missed --max ece=0.02 --max mcb=0.004 -q scored.csv || page-the-on-call\n\n"
+      "Cautions: a calibrated score is only as good as the data it was checked on; recalibration is not\n"
+      "model validation; credit, insurance and health uses follow local rules and licensed practice.");
+  cmd->add_option("file", o->input.file, "CSV or TSV file with a header row; - or nothing reads standard input")
+      ->default_str("-");
+  cmd->add_option("--score", o->scores, "Forecast column to report, a probability in [0, 1] (repeatable; side by side)")
+      ->allow_extra_args(false);
+  cmd->add_option("--map", o->maps,
+                  "Map artifact to apply on the fly to the column it was fitted on, reported beside the raw "
+                  "scores (repeatable)")
+      ->allow_extra_args(false);
+  cmd->add_option("--label", o->input.label, "Column holding the observed outcome (name or 1-based index)")
+      ->required();
+  cmd->add_option("--weight", o->input.weight, "Column of non-negative row weights (default: every row weighs 1)");
+  cmd->add_option("--positive", o->input.positive,
+                  "Label value that counts as the positive outcome; every other value is then negative")
+      ->each([o](const std::string&) { o->input.positive_given = true; });
+  cmd->add_option("--by", o->by, "Segment column: repeat the key figures per value, most miscalibrated first");
+  cmd->add_option("--bins", o->bins, "Bins of the reliability table, the ECE and the Murphy decomposition")
+      ->check(CLI::Range(1, 10000))
+      ->default_str("10");
+  cmd->add_option("--binning", o->binning, "Bins of the reliability table and chart: equal width or equal mass")
+      ->check(CLI::IsMember({"width", "mass"}))
+      ->default_str("width");
+  cmd->add_option("--bootstrap", o->bootstrap, "Bootstrap replicates for intervals and the consistency band (0: none)")
+      ->check(CLI::Range(0, 100000))
+      ->default_str("200");
+  cmd->add_option("--seed", o->seed, "Seed of the bootstrap; the same seed gives the same intervals")->default_str("1");
+  cmd->add_option("--confidence", o->confidence, "Level of every interval and band")
+      ->check(CLI::Range(0.5, 0.999))
+      ->default_str("0.95");
+  cmd->add_option("--groups", o->hl_groups, "Hosmer-Lemeshow groups (equal mass)")
+      ->check(CLI::Range(3, 1000))
+      ->default_str("10");
+  cmd->add_option("--min-segment", o->min_segment, "Segments of less weight say 'too few rows' instead of figures")
+      ->check(CLI::Range(1.0, 1e12))
+      ->default_str("100");
+  cmd->add_option("--max", o->max, "Gate: fail (exit 7) when METRIC exceeds VALUE, e.g. ece=0.02 (repeatable)")
+      ->allow_extra_args(false);
+  cmd->add_option("--json", o->json_path, "Also write every number as JSON (docs/report-format.md)");
+  cmd->add_option("--svg", o->svg_path, "Also write reliability diagrams as SVG");
+  cmd->add_option("--markdown", o->markdown_path, "Also write a Markdown report for a review");
+  cmd->add_flag("--ascii", o->ascii, "Draw the terminal chart with ASCII characters only");
+  add_separator_option(*cmd, o->input.separator);
+  cmd->add_flag("-q,--quiet", o->input.quiet, "No terminal report and no progress (files and gates still work)");
+  return [o] { return run_report(*o); };
+}
+
+}  // namespace plumb::cli
