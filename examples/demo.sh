@@ -29,6 +29,20 @@ say "$plumb" apply "$out/late.isotonic.map.json" data/tonight.csv -o "$out/tonig
 printf '\n$ head -4 %s\n' "$out/tonight.calibrated.csv"
 head -4 "$out/tonight.calibrated.csv"
 printf '\n$ cat data/tonight.csv | plumb apply late.platt.map.json --as p_late - | cut -d, -f1,4,5 | head -3\n'
+# head closes the pipe early; plumb then stops on SIGPIPE like any filter.
+set +o pipefail
 cat data/tonight.csv | "$plumb" apply "$out/late.platt.map.json" --as p_late - | cut -d, -f1,4,5 | head -3
+set -o pipefail
+
+# 4. Check the maps honestly: fit on the first 10,000 labelled parcels,
+#    report raw and calibrated scores on the other 10,000, per depot.
+head -n 10001 data/holdout.csv > "$out/fit-half.csv"
+{ head -n 1 data/holdout.csv; tail -n 10000 data/holdout.csv; } > "$out/check-half.csv"
+for kind in isotonic platt; do
+  "$plumb" fit -q --map "$kind" --score risk --label missed "$out/fit-half.csv" -o "$out/half.$kind.map.json"
+done
+say "$plumb" report --score risk --map "$out/half.isotonic.map.json" --map "$out/half.platt.map.json" \
+  --label missed --by depot "$out/check-half.csv" \
+  --json "$out/report.json" --svg "$out/reliability.svg" --markdown "$out/report.md"
 
 printf '\nDemo outputs are in %s\n' "$out"

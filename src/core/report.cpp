@@ -186,7 +186,7 @@ void add_cautions(Report& r) {
         r.cautions.push_back(s.name + ": segment '" + g.value + "' is miscalibrated: mean forecast " +
                              format_fixed(g.mean_forecast) + " against observed " + format_fixed(g.observed_rate) +
                              " (Spiegelhalter Z " + format_fixed(g.spiegelhalter.z, 2) + ", Holm-adjusted p " +
-                             format_g(g.p_adjusted, 2) + ")");
+                             (g.p_adjusted > 0.0 ? format_g(g.p_adjusted, 2) : std::string("< 1e-300")) + ")");
   }
 }
 
