@@ -32,6 +32,9 @@ struct Artifact {
   std::string score_column;
   Provenance provenance;
   nlohmann::json fit_options = nlohmann::json::object();  // the options the map was fitted with
+  // What `plumb cross-fit` measured and chose (folds, split, seed, out-of-fold
+  // evidence, the choice and its reason); null for a map from `plumb fit`.
+  nlohmann::json cross_fit = nullptr;
 };
 
 // The whole document, including its integrity hash. Deterministic: the same

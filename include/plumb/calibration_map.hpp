@@ -80,7 +80,8 @@ class CalibrationMap {
   FitDiagnostics diagnostics_;
 };
 
-// The kinds plumb can fit, in the order the help text lists them.
+// The kinds plumb can fit, in the order the help text lists them (kinds that
+// are only ever loaded, such as fold_average, are not among them).
 std::span<const std::string_view> map_kinds() noexcept;
 // Whether `kind` accepts scores on `scale`.
 bool accepts_scale(std::string_view kind, Scale scale) noexcept;

@@ -44,6 +44,45 @@ void add_input_options(CLI::App& command, InputOptions& o, bool with_label) {
   add_quiet_option(command, o.quiet);
 }
 
+MapOptions MapChoices::map_options() const {
+  MapOptions m;
+  m.isotonic_interpolate = between == "linear";
+  m.platt_smoothed_targets = platt_targets == "smoothed";
+  m.beta_form = beta_form;
+  m.histogram_bins = bins;
+  return m;
+}
+
+nlohmann::json MapChoices::recorded(std::string_view kind) const {
+  if (kind == "isotonic") return {{"between_blocks", between}};
+  if (kind == "platt") return {{"platt_targets", platt_targets}};
+  if (kind == "beta") return {{"beta_form", beta_form}};
+  if (kind == "histogram") return {{"bins", bins}};
+  return nlohmann::json::object();
+}
+
+void add_map_options(CLI::App& command, MapChoices& c) {
+  command
+      .add_option("--between", c.between,
+                  "isotonic: between fitted blocks, interpolate linearly or hold the left block's step")
+      ->check(CLI::IsMember({"linear", "step"}))
+      ->default_str("linear");
+  command
+      .add_option("--platt-targets", c.platt_targets,
+                  "platt: fit to Platt's smoothed targets (N+ + 1)/(N+ + 2) and 1/(N- + 2), or to the labels")
+      ->check(CLI::IsMember({"smoothed", "labels"}))
+      ->default_str("smoothed");
+  command
+      .add_option("--beta-form", c.beta_form,
+                  "beta: full (a, b, c free), midpoint (c = (a - b) ln 2, so the curve crosses 1/2 at a "
+                  "score of 1/2) or shared (a = b, a logistic map in the log-odds)")
+      ->check(CLI::IsMember({"full", "midpoint", "shared"}))
+      ->default_str("full");
+  command.add_option("--bins", c.bins, "histogram: number of equal-mass bins")
+      ->check(CLI::Range(1, 1000000))
+      ->default_str("10");
+}
+
 char parse_separator(const std::string& text) {
   if (text == "auto") return 0;
   if (text == "comma" || text == ",") return ',';

@@ -7,6 +7,7 @@
 #include <optional>
 #include <string>
 
+#include "plumb/calibration_map.hpp"
 #include "plumb/labelled_input.hpp"
 #include "plumb/scale.hpp"
 
@@ -23,6 +24,20 @@ struct InputOptions {
   std::string separator = "auto";
   bool quiet = false;
 };
+
+// The options of each kind of map, as given on the command line.
+struct MapChoices {
+  std::string between = "linear";
+  std::string platt_targets = "smoothed";
+  std::string beta_form = "full";
+  int bins = 10;
+
+  MapOptions map_options() const;
+  // The options that matter to `kind`, as the artifact records them.
+  nlohmann::json recorded(std::string_view kind) const;
+};
+// --between, --platt-targets, --beta-form, --bins.
+void add_map_options(CLI::App& command, MapChoices& choices);
 
 // --score, --label, --weight, --positive, --scale, --sep, --quiet and the
 // positional FILE. `with_label` false leaves out --label, --weight and

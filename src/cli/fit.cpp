@@ -22,20 +22,9 @@ struct FitOptions {
   InputOptions input;
   std::string kind;
   std::string output = "-";
-  std::string between = "linear";
-  std::string platt_targets = "smoothed";
-  std::string beta_form = "full";
-  int bins = 10;
+  MapChoices choices;
   bool no_timestamp = false;
 };
-
-nlohmann::json kind_options(const FitOptions& o) {
-  if (o.kind == "isotonic") return {{"between_blocks", o.between}};
-  if (o.kind == "platt") return {{"platt_targets", o.platt_targets}};
-  if (o.kind == "beta") return {{"beta_form", o.beta_form}};
-  if (o.kind == "histogram") return {{"bins", o.bins}};
-  return nlohmann::json::object();
-}
 
 int run_fit(const FitOptions& o) {
   const Scale scale = parse_scale_option(o.input.scale);
@@ -44,11 +33,7 @@ int run_fit(const FitOptions& o) {
                 "the " + o.kind + " map does not accept scores on the " + o.input.scale + " scale", {}, {},
                 o.kind == "beta" ? "--scale probability (beta calibration works on ln(s) and ln(1-s))"
                                  : "--scale probability or logit (temperature divides log-odds)");
-  MapOptions map_options;
-  map_options.isotonic_interpolate = o.between == "linear";
-  map_options.platt_smoothed_targets = o.platt_targets == "smoothed";
-  map_options.beta_form = o.beta_form;
-  map_options.histogram_bins = o.bins;
+  const MapOptions map_options = o.choices.map_options();
 
   Progress progress("plumb fit: reading", o.input.quiet);
   io::LabelledRows rows = io::read_labelled(
@@ -67,7 +52,7 @@ int run_fit(const FitOptions& o) {
     throw Error(e.kind(), e.message(), loc, e.value(), e.expected());
   }
   artifact.score_column = rows.score_columns[0];
-  artifact.fit_options = kind_options(o);
+  artifact.fit_options = o.choices.recorded(o.kind);
   Provenance& p = artifact.provenance;
   p.source = rows.source;
   p.source_sha256 = rows.source_sha256;
@@ -138,22 +123,7 @@ Command add_fit_command(CLI::App& app) {
   add_input_options(*cmd, o->input, true);
   cmd->add_option("-o,--output", o->output, "Where to write the map artifact (- for standard output)")
       ->default_str("-");
-  cmd->add_option("--between", o->between,
-                  "isotonic: between fitted blocks, interpolate linearly or hold the left block's step")
-      ->check(CLI::IsMember({"linear", "step"}))
-      ->default_str("linear");
-  cmd->add_option("--platt-targets", o->platt_targets,
-                  "platt: fit to Platt's smoothed targets (N+ + 1)/(N+ + 2) and 1/(N- + 2), or to the labels")
-      ->check(CLI::IsMember({"smoothed", "labels"}))
-      ->default_str("smoothed");
-  cmd->add_option("--beta-form", o->beta_form,
-                  "beta: full (a, b, c free), midpoint (c = (a - b) ln 2, so the curve crosses 1/2 at a "
-                  "score of 1/2) or shared (a = b, a logistic map in the log-odds)")
-      ->check(CLI::IsMember({"full", "midpoint", "shared"}))
-      ->default_str("full");
-  cmd->add_option("--bins", o->bins, "histogram: number of equal-mass bins")
-      ->check(CLI::Range(1, 1000000))
-      ->default_str("10");
+  add_map_options(*cmd, o->choices);
   cmd->add_flag("--no-timestamp", o->no_timestamp,
                 "Leave the creation time out, so the same input gives a byte-identical artifact");
   return [o] { return run_fit(*o); };

@@ -7,6 +7,7 @@
 #include "plumb/calibration_map.hpp"
 #include "plumb/error.hpp"
 #include "plumb/maps/beta_map.hpp"
+#include "plumb/maps/fold_average_map.hpp"
 #include "plumb/maps/histogram_map.hpp"
 #include "plumb/maps/isotonic_map.hpp"
 #include "plumb/maps/platt_map.hpp"
@@ -17,27 +18,35 @@ namespace {
 
 struct Entry {
   std::string_view kind;
+  bool fittable;  // false: made by another command, only ever loaded
   bool (*accepts)(Scale) noexcept;
   std::unique_ptr<CalibrationMap> (*fit)(const FitData&, const MapOptions&);
   std::unique_ptr<CalibrationMap> (*load)(Scale, const nlohmann::json&, const std::string&);
 };
 
 template <class M>
-constexpr Entry entry(std::string_view kind) {
-  return Entry{kind, &M::accepts, &M::fit, &M::from_parameters};
+constexpr Entry entry(std::string_view kind, bool fittable = true) {
+  return Entry{kind, fittable, &M::accepts, &M::fit, &M::from_parameters};
 }
 
-const std::array registry{
+constexpr std::array registry{
     entry<IsotonicMap>("isotonic"),
     entry<PlattMap>("platt"),
     entry<BetaMap>("beta"),
     entry<TemperatureMap>("temperature"),
     entry<HistogramMap>("histogram"),
+    entry<FoldAverageMap>("fold_average", /*fittable=*/false),
 };
 
-const std::array<std::string_view, registry.size()> kind_names = [] {
-  std::array<std::string_view, registry.size()> names{};
-  for (std::size_t i = 0; i < registry.size(); ++i) names[i] = registry[i].kind;
+constexpr std::size_t fittable_count =
+    static_cast<std::size_t>(std::count_if(registry.begin(), registry.end(), [](const Entry& e) { return e.fittable; }));
+
+// The kinds `plumb fit` and `cross-fit` can fit, in registry order.
+const std::array<std::string_view, fittable_count> kind_names = [] {
+  std::array<std::string_view, fittable_count> names{};
+  std::size_t n = 0;
+  for (const Entry& e : registry)
+    if (e.fittable) names[n++] = e.kind;
   return names;
 }();
 

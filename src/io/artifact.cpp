@@ -52,6 +52,7 @@ json artifact_to_json(const Artifact& a) {
                        {"score_max", p.score_max},
                        {"tool", p.tool},
                        {"created_utc", p.created_utc.empty() ? json(nullptr) : json(p.created_utc)}};
+  if (!a.cross_fit.is_null()) doc["cross_fit"] = a.cross_fit;
   return doc;
 }
 
@@ -141,6 +142,11 @@ Artifact artifact_from_text(const std::string& text, const std::string& where) {
     d.notes.push_back(n.get<std::string>());
   }
   a.map->restore_diagnostics(std::move(d));
+  if (doc.contains("cross_fit")) {
+    if (!doc["cross_fit"].is_object())
+      jf::fail(where, "cross_fit", "is not an object", "the evidence written by plumb cross-fit");
+    a.cross_fit = doc["cross_fit"];
+  }
   const json& p = jf::require(doc, "provenance", where, "provenance");
   Provenance& pr = a.provenance;
   pr.source = jf::require_string(p, "source", where, "provenance.source");

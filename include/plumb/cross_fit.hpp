@@ -1,0 +1,58 @@
+#pragma once
+// Cross-fitting: every candidate map is fitted on each fold's training rows
+// and scores only that fold's held-out rows, so every figure is out of fold.
+#include <cstddef>
+#include <memory>
+#include <span>
+#include <string>
+#include <vector>
+
+#include "plumb/calibration_map.hpp"
+#include "plumb/folds.hpp"
+
+namespace plumb {
+
+// The out-of-fold figures of one forecast (a candidate map, or the raw score).
+struct OutOfFoldFigures {
+  double log_loss = 0.0;  // weighted means over the scored rows
+  double brier = 0.0;
+  double ece = 0.0;        // equal-width, 10 bins
+  double mcb = 0.0;        // CORP miscalibration of the Brier score
+  std::vector<double> fold_log_loss;  // per scored fold, in fold order
+  double fold_log_loss_sd = 0.0;      // their standard deviation (n - 1 divisor)
+};
+
+struct Candidate {
+  std::string kind;
+  std::vector<double> oof;  // out-of-fold probability per row; NaN where the row is not scored
+  OutOfFoldFigures figures;
+  // Paired per-row difference of log loss against the best candidate
+  // (this minus best): weighted mean and its standard error. 0 for the best.
+  double diff_vs_best = 0.0;
+  double diff_se = 0.0;
+  std::vector<std::unique_ptr<CalibrationMap>> fold_maps;  // one per fold (time: fold 0 has none)
+};
+
+struct CrossFitResult {
+  Folds folds;
+  std::vector<Candidate> candidates;  // in the order asked
+  bool has_raw = false;               // the raw score is a probability
+  OutOfFoldFigures raw;               // its figures on the same scored rows
+  std::size_t scored_rows = 0;
+  std::size_t best = 0;    // lowest out-of-fold log loss
+  std::size_t chosen = 0;  // the simplest candidate within one standard error of the best
+  std::string reason;      // why, in one sentence
+};
+
+// Rank of a kind's flexibility, lower is simpler: temperature 1, platt 2,
+// beta 3, histogram 4, isotonic 5.
+int complexity(std::string_view kind) noexcept;
+
+// Cross-fits every kind in `kinds` on `data` over `folds`. Precondition: the
+// folds were made for these rows. Throws plumb::Error(fit) when a fold's
+// training rows cannot support a fit (say, one class only), naming the fold.
+// Deterministic: the same inputs give the same result.
+CrossFitResult cross_fit(const FitData& data, const Folds& folds, std::span<const std::string> kinds,
+                         const MapOptions& options);
+
+}  // namespace plumb
