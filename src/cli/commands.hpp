@@ -13,5 +13,6 @@ Command add_fit_command(CLI::App& app);
 Command add_apply_command(CLI::App& app);
 Command add_inspect_command(CLI::App& app);
 Command add_report_command(CLI::App& app);
+Command add_cross_fit_command(CLI::App& app);
 
 }  // namespace plumb::cli

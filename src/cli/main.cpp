@@ -16,6 +16,7 @@ int main(int argc, char** argv) {
       "versioned JSON artifact, and applies it to score files in a pipeline.\n\n"
       "  plumb fit --map isotonic --score risk --label missed holdout.csv -o late.map.json\n"
       "  plumb apply late.map.json tonight.csv -o tonight.calibrated.csv\n"
+      "  plumb cross-fit --map auto --score risk --label missed holdout.csv -o late.map.json\n"
       "  plumb report --score risk --map late.map.json --label missed holdout.csv --svg chart.svg\n"
       "  plumb inspect late.map.json\n\n"
       "Run 'plumb COMMAND --help' for each command's options.",
@@ -35,6 +36,7 @@ int main(int argc, char** argv) {
   };
   add(plumb::cli::add_fit_command);
   add(plumb::cli::add_apply_command);
+  add(plumb::cli::add_cross_fit_command);
   add(plumb::cli::add_report_command);
   add(plumb::cli::add_inspect_command);
 
