@@ -167,13 +167,13 @@ void write_oof(const CrossFitOptions& o, const io::LabelledRows& rows, const Cro
   const char d = reader.delimiter();
   const std::string line_end(reader.header_record().line_end);
   for (const std::string& h : reader.header())
-    if (h == "fold" || h.rfind("oof_", 0) == 0)
+    if (h.rfind("oof_", 0) == 0)
       throw Error(ErrorKind::usage, "the input already has a column named '" + h + "'", {}, {},
-                  "input without 'fold' or 'oof_*' columns when writing --oof");
+                  "input without 'oof_*' columns when writing --oof");
   io::OutputFile out(o.oof);
   out.write(reader.header_record().raw);
   out.put(d);
-  out.write("fold");
+  out.write("oof_fold");
   for (const Candidate& c : r.candidates) {
     out.put(d);
     out.write("oof_" + c.kind);
@@ -311,7 +311,7 @@ Command add_cross_fit_command(CLI::App& app) {
       ->default_str("stratified");
   cmd->add_option("--seed", o->seed, "Seed of the stratified and grouped splits")->default_str("1");
   cmd->add_option("--oof", o->oof,
-                  "Write every input row with its fold and each candidate's out-of-fold probability");
+                  "Write every input row with its fold (oof_fold) and each candidate's out-of-fold probability (oof_KIND)");
   cmd->add_option("-o,--output", o->output, "Where to write the chosen map's artifact (- for standard output)")
       ->default_str("-");
   cmd->add_option("--json", o->json_path, "Also write the evidence as JSON");
