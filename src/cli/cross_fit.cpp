@@ -237,6 +237,11 @@ int run_cross_fit(const CrossFitOptions& o) {
     for (auto& m : chosen.fold_maps)
       if (m) maps.push_back(std::move(m));
     artifact.map = std::make_unique<FoldAverageMap>(scale, std::move(maps));
+    FitDiagnostics d;
+    d.iterations = 0;
+    d.log_loss = mean_log_loss(*artifact.map, data);
+    d.notes.push_back("the mean of " + std::to_string(result.folds.count) + " fold maps of kind " + chosen.kind);
+    artifact.map->restore_diagnostics(std::move(d));
   } else {
     artifact.map = fit_map(chosen.kind, data, map_options);
   }

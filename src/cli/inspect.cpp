@@ -1,4 +1,5 @@
 // plumb inspect: a readable summary of a map artifact, after full validation.
+#include <cmath>
 #include <cstdio>
 #include <iostream>
 #include <string>
@@ -56,6 +57,30 @@ void print_parameters(const nlohmann::json& params, bool all) {
   }
 }
 
+// The evidence `plumb cross-fit` stored, read defensively: it is checked
+// by the integrity hash but its inner shape is informational.
+void print_cross_fit(const nlohmann::json& e) {
+  auto text = [&](const char* key) { return e.contains(key) ? scalar_text(e[key]) : std::string("?"); };
+  std::string split = e.contains("split") && e["split"].is_object() && e["split"].contains("kind")
+                          ? scalar_text(e["split"]["kind"])
+                          : std::string("?");
+  if (e.contains("split") && e["split"].is_object() && e["split"].contains("column"))
+    split += " by '" + scalar_text(e["split"]["column"]) + "'";
+  std::printf("\ncross-fit      %s folds, %s split, seed %s, %s rows scored out of fold, shipped: %s\n",
+              text("folds").c_str(), split.c_str(), text("seed").c_str(), text("scored_rows").c_str(),
+              text("final").c_str());
+  std::printf("  %-14s %s\n", "chosen", text("reason").c_str());
+  if (!e.contains("candidates") || !e["candidates"].is_array()) return;
+  std::printf("  %-14s %12s %12s %10s\n", "candidate", "oof log loss", "oof Brier", "oof ECE");
+  auto row = [](const std::string& name, const nlohmann::json& c) {
+    auto num = [&](const char* k) { return c.contains(k) && c[k].is_number() ? c[k].get<double>() : NAN; };
+    std::printf("  %-14s %12.6f %12.6f %10.6f\n", name.c_str(), num("log_loss"), num("brier"), num("ece"));
+  };
+  if (e.contains("raw") && e["raw"].is_object()) row("(raw score)", e["raw"]);
+  for (const auto& c : e["candidates"])
+    if (c.is_object() && c.contains("kind")) row(scalar_text(c["kind"]), c);
+}
+
 int run_inspect(const InspectOptions& o) {
   const Artifact a = load_artifact(o.artifact);
   if (o.json) {
@@ -84,7 +109,9 @@ int run_inspect(const InspectOptions& o) {
               d.iterations == 1 ? "" : "s", d.converged ? "converged" : "NOT converged", d.log_loss, d.clipped);
   for (const std::string& n : d.notes) std::printf("  %-14s %s\n", "", n.c_str());
   if (!a.fit_options.empty()) std::printf("  %-14s %s\n", "options", a.fit_options.dump().c_str());
-  std::printf("  %-14s %s\n\nparameters\n", "monotone", a.map->monotone() ? "yes" : "NO (the map decreases somewhere)");
+  std::printf("  %-14s %s\n", "monotone", a.map->monotone() ? "yes" : "NO (the map decreases somewhere)");
+  if (a.cross_fit.is_object()) print_cross_fit(a.cross_fit);
+  std::printf("\nparameters\n");
   print_parameters(a.map->parameters(), o.all);
   return 0;
 }
