@@ -1,6 +1,7 @@
 #include "plumb/maps/isotonic_map.hpp"
 
 #include <algorithm>
+#include <cmath>
 
 #include "core/json_fields.hpp"
 #include "core/maps/piecewise_support.hpp"
@@ -34,7 +35,12 @@ Mapped IsotonicMap::map(double score) const noexcept {
   const PavBlock& left = blocks_[i];
   if (score <= left.score_hi || !interpolate_) return {left.value, false, false};
   const PavBlock& right = blocks_[i + 1];
-  const double t = (score - left.score_hi) / (right.score_lo - left.score_hi);
+  // Margin scores near the ends of the double range: the gap may overflow to
+  // infinity (giving 0 or NaN) where the halves do not.
+  const double gap = right.score_lo - left.score_hi;
+  const double t = std::isfinite(gap)
+                       ? (score - left.score_hi) / gap
+                       : (0.5 * score - 0.5 * left.score_hi) / (0.5 * right.score_lo - 0.5 * left.score_hi);
   double p = left.value + t * (right.value - left.value);
   p = std::clamp(p, left.value, right.value);
   return {p, false, false};
