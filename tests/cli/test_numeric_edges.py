@@ -45,6 +45,15 @@ class NumericEdges(PlumbCase):
             expected = (s / 2 + 0.85e308) / 1.7e308
             self.assertAlmostEqual(p, expected, places=12, msg=text)
 
+    def test_histogram_bins_across_a_gap_wider_than_the_double_range(self):
+        # A score goes to the bin whose edge is nearest; the midpoint of two
+        # edges near -DBL_MAX and +DBL_MAX must not overflow.
+        write(self.path("m.csv"), "risk,missed\n-1.7e308,0\n-1.6e308,0\n1.6e308,1\n1.7e308,1\n")
+        doc, _ = self.fit("histogram", self.path("m.csv"), "--scale", "margin", "--bins", "2", "-q")
+        self.assertEqual(doc["parameters"]["bin_value"], [0.0, 1.0])
+        got = self.apply(self.path("histogram.json"), ["-1.65e308", "-1e308", "-1", "1", "1e308", "1.65e308"])
+        self.assertEqual(got, [0.0, 0.0, 0.0, 1.0, 1.0, 1.0])
+
 
 if __name__ == "__main__":
     unittest.main()

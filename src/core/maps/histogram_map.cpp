@@ -12,7 +12,10 @@ namespace plumb {
 
 HistogramMap::HistogramMap(Scale scale, std::vector<HistogramBin> bins) : scale_(scale), bins_(std::move(bins)) {
   for (std::size_t i = 0; i + 1 < bins_.size(); ++i) {
-    upper_.push_back(bins_[i].score_hi + 0.5 * (bins_[i + 1].score_lo - bins_[i].score_hi));
+    double mid = bins_[i].score_hi + 0.5 * (bins_[i + 1].score_lo - bins_[i].score_hi);
+    // Margin scores near the ends of the double range: the gap may overflow.
+    if (!std::isfinite(mid)) mid = 0.5 * bins_[i].score_hi + 0.5 * bins_[i + 1].score_lo;
+    upper_.push_back(mid);
     if (bins_[i + 1].value < bins_[i].value) monotone_ = false;
   }
 }
