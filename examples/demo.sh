@@ -21,10 +21,13 @@ for kind in isotonic platt beta temperature histogram; do
   say "$plumb" fit --map "$kind" --score risk --label missed data/holdout.csv -o "$out/late.$kind.map.json"
 done
 
-# 2. Look inside the isotonic map.
+# 2. Let the evidence choose: every map cross-fitted out of fold.
+say "$plumb" cross-fit --score risk --label missed data/holdout.csv --oof "$out/oof.csv" -o "$out/late.map.json"
+
+# 3. Look inside the isotonic map.
 say "$plumb" inspect "$out/late.isotonic.map.json"
 
-# 3. Calibrate tonight's dump, to a file and in a pipeline.
+# 4. Calibrate tonight's dump, to a file and in a pipeline.
 say "$plumb" apply "$out/late.isotonic.map.json" data/tonight.csv -o "$out/tonight.calibrated.csv"
 printf '\n$ head -4 %s\n' "$out/tonight.calibrated.csv"
 head -4 "$out/tonight.calibrated.csv"
@@ -34,7 +37,7 @@ set +o pipefail
 cat data/tonight.csv | "$plumb" apply "$out/late.platt.map.json" --as p_late - | cut -d, -f1,4,5 | head -3
 set -o pipefail
 
-# 4. Check the maps honestly: fit on the first 10,000 labelled parcels,
+# 5. Check the maps honestly: fit on the first 10,000 labelled parcels,
 #    report raw and calibrated scores on the other 10,000, per depot.
 head -n 10001 data/holdout.csv > "$out/fit-half.csv"
 { head -n 1 data/holdout.csv; tail -n 10000 data/holdout.csv; } > "$out/check-half.csv"
