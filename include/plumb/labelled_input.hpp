@@ -43,6 +43,10 @@ struct LabelledColumns {
   std::string label;
   std::string weight;   // empty: every row weighs 1
   std::string segment;  // empty: no segments
+  // More distinct segment values than this is an input error (a report's
+  // segment column that is really an id); cross-fit's group and time
+  // columns may hold one value per row.
+  std::size_t max_segment_values = 100000;
 };
 
 struct LabelledRows {
@@ -60,17 +64,13 @@ struct LabelledRows {
   double score_min = 0.0, score_max = 0.0;  // of the first score column
 };
 
-// At most this many distinct segment values; more is an input error (a
-// segment column that is really an id).
-inline constexpr std::size_t max_segments = 100000;
-
 // Reads every data row of `path` ("-" for standard input). Refuses, with
 // plumb::Error(input) naming file, line, column, value and what was expected:
 // a missing column, an empty file or one with a header and no rows, a score
 // that is empty, not a decimal number, NaN, infinite or outside its column's
 // scale (for `probability`, outside [0, 1]), a label the rule does not read, and a
 // weight that is empty, not a number or negative, and more than
-// max_segments distinct segment values. `progress` (may be empty)
+// columns.max_segment_values distinct segment values. `progress` (may be empty)
 // is called every 65536 rows, for progress reports.
 using ProgressCallback =
     std::function<void(std::uint64_t rows, std::uint64_t bytes, std::optional<std::uint64_t> total_bytes)>;

@@ -4,6 +4,7 @@
 #include <charconv>
 #include <cmath>
 #include <cstdio>
+#include <limits>
 #include <string>
 
 #include "cli/commands.hpp"
@@ -213,9 +214,10 @@ int run_cross_fit(const CrossFitOptions& o) {
   const char separator = parse_separator(o.input.separator);
 
   Progress progress("plumb cross-fit: reading", o.input.quiet);
+  io::LabelledColumns columns{{{o.input.score, scale}}, o.input.label, o.input.weight, split.column};
+  columns.max_segment_values = std::numeric_limits<std::uint32_t>::max();  // one group or time per row is fine
   const io::LabelledRows rows = io::read_labelled(
-      o.input.file, {{{o.input.score, scale}}, o.input.label, o.input.weight, split.column}, label_rule(o.input),
-      separator,
+      o.input.file, columns, label_rule(o.input), separator,
       [&progress](std::uint64_t r, std::uint64_t b, std::optional<std::uint64_t> t) { progress.update(r, b, t); });
   progress.finish();
 

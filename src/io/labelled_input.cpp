@@ -111,8 +111,8 @@ LabelledRows read_labelled(const std::string& path, const LabelledColumns& colum
       const auto [it, added] =
           segment_index.try_emplace(std::string(v), static_cast<std::uint32_t>(out.segment_names.size()));
       if (added) {
-        if (out.segment_names.size() == max_segments)
-          throw Error(ErrorKind::input, "the segment column has more than " + std::to_string(max_segments) +
+        if (out.segment_names.size() == columns.max_segment_values)
+          throw Error(ErrorKind::input, "the segment column has more than " + std::to_string(columns.max_segment_values) +
                                             " distinct values",
                       cell(reader, record, segment_col), std::string(v), "a column of groups, not of ids");
         out.segment_names.emplace_back(v);

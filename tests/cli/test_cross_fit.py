@@ -115,6 +115,19 @@ class CrossFit(PlumbCase):
         self.assertIn("never scored", err)
         self.assertEqual(ev["scored_rows"], sum(1 for r in oof[1:] if r[h.index("oof_fold")] != "1"))
 
+    def test_a_group_per_row_is_allowed(self):
+        # Customer ids as groups: more distinct values than a report segment may have.
+        g = Lcg(12)
+        lines = ["customer,risk,missed"]
+        for i in range(120000):
+            s = round(0.01 + 0.98 * g.uniform(), 4)
+            lines.append(f"c{i},{s},{1 if g.uniform() < sigmoid_distortion(s) else 0}")
+        write(self.path("ids.csv"), "\n".join(lines) + "\n")
+        rc, _, err = run("cross-fit", "--score", "risk", "--label", "missed", "--map", "platt", "--split",
+                         "group=customer", "-o", self.path("ids.json"), self.path("ids.csv"))
+        self.assertEqual(rc, 0, err)
+        self.assertIn("120,000 rows scored out of fold", err)
+
     def test_auto_prefers_a_parametric_map_on_few_rows_of_a_sigmoid_distortion(self):
         data = self.write_rows("few.csv", simulate(400, 6, sigmoid_distortion))
         art, _, ev, err = self.cross_fit(data)
