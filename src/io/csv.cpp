@@ -61,6 +61,12 @@ CsvReader::CsvReader(const std::string& path, const CsvOptions& options)
   Location loc;
   loc.file = name_;
   fill();
+  // A pipe may deliver the header in pieces: read up to its first line end
+  // (or the end of the input) before looking for a byte-order mark and the
+  // separator.
+  while (!eof_ && end_ - begin_ <= options_.max_record_bytes &&
+         std::memchr(buffer_.data() + begin_, '\n', end_ - begin_) == nullptr)
+    fill();
   if (end_ == begin_) throw Error(ErrorKind::input, "the file is empty", loc, {}, "a header row naming the columns");
   // A UTF-8 byte-order mark is not part of the first column's name.
   if (end_ - begin_ >= 3 && std::memcmp(buffer_.data() + begin_, "\xEF\xBB\xBF", 3) == 0) begin_ += 3;

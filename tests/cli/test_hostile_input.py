@@ -7,6 +7,7 @@ import json
 import math
 import os
 import subprocess
+import time
 import unittest
 
 from plumbtest import PLUMB, PlumbCase, read_rows, run, simulated_holdout, write
@@ -93,6 +94,31 @@ class HostileCsv(PlumbCase):
         out = self.apply_ok(path)
         self.assertTrue(out.startswith(b"risk,missed,risk_calibrated\n"), out[:40])
         self.assertEqual(len(out.splitlines()), 5)
+
+    def test_a_header_arriving_in_pieces_through_a_pipe(self):
+        # A writer may flush the byte-order mark and the header in parts; the
+        # mark and the tab separator must still be recognised.
+        pieces = [b"\xef", b"\xbb\xbfrisk", b"\tmissed\n0.2\t1\n", b"0.8\t0\n"]
+        for args in (["apply", self.map, "-", "-q"],
+                     ["fit", "--map", "platt", "--score", "risk", "--label", "missed", "-", "-q"]):
+            proc = subprocess.Popen([PLUMB, *args], stdin=subprocess.PIPE, stdout=subprocess.PIPE,
+                                    stderr=subprocess.PIPE)
+            try:
+                for piece in pieces:
+                    proc.stdin.write(piece)
+                    proc.stdin.flush()
+                    time.sleep(0.05)
+                proc.stdin.close()
+            except BrokenPipeError:
+                pass  # plumb stopped reading; its exit status tells why
+            out, err = proc.stdout.read(), proc.stderr.read()
+            proc.stdout.close()
+            proc.stderr.close()
+            self.assertEqual(proc.wait(timeout=10), 0, err)
+            if args[0] == "apply":
+                self.assertTrue(out.startswith(b"risk\tmissed\trisk_calibrated\n0.2\t1\t"), out)
+            else:
+                self.assertEqual(json.loads(out)["input"]["score_column"], "risk")
 
     def test_crlf_line_ends_work_and_are_kept(self):
         text = "risk,missed\r\n0.2,0\r\n0.3,1\r\n0.7,1\r\n0.8,0\r\n"
