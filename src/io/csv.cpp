@@ -24,6 +24,23 @@ std::string_view trim_blanks(std::string_view t) noexcept {
   return t;
 }
 
+// A column name as it can stand in a one-line message: control characters
+// (a quoted name may hold a line break) as \xNN.
+std::string printable(std::string_view name) {
+  static const char* hex = "0123456789abcdef";
+  std::string out;
+  for (unsigned char c : name) {
+    if (c < 0x20 || c == 0x7f) {
+      out += "\\x";
+      out += hex[c >> 4];
+      out += hex[c & 15];
+    } else {
+      out += static_cast<char>(c);
+    }
+  }
+  return out;
+}
+
 }  // namespace
 
 std::optional<double> parse_number(std::string_view text) noexcept {
@@ -130,7 +147,7 @@ std::size_t CsvReader::column(std::string_view spec, std::string_view role) cons
       names += ", ...";
       break;
     }
-    names += (names.empty() ? "'" : ", '") + h + "'";
+    names += (names.empty() ? "'" : ", '") + printable(h) + "'";
   }
   Location loc;
   loc.file = name_;

@@ -155,6 +155,14 @@ class HostileCsv(PlumbCase):
         self.assert_refused(self.apply_args(self.put(text)), INPUT, "in.csv:7:1", "(column 'risk')", "'bad'",
                             output=self.out)
 
+    def test_a_missing_column_among_names_with_line_breaks_is_one_line(self):
+        # A quoted header name may hold a line break; the list of names in
+        # the message shows it escaped so that the message stays one line.
+        path = self.put('"first\nname",risk,missed\nx,0.2,1\n')
+        line = self.assert_refused(["apply", self.map, path, "--score", "nope", "-o", self.out], INPUT,
+                                   "in.csv:1", "no score column", "'nope'", "'risk'", output=self.out)
+        self.assertIn("'first\\x0aname'", line)
+
     def test_ragged_rows(self):
         self.refused_by_both("risk,missed\n0.2,1\n0.3\n", INPUT, "in.csv:3", "1 fields", "header has 2")
         self.refused_by_both("risk,missed\n0.2,1\n0.3,0,extra\n", INPUT, "in.csv:3", "3 fields", "header has 2")
