@@ -397,6 +397,21 @@ class HostileArtifacts(PlumbCase):
             for p in probabilities:
                 self.assertTrue(math.isfinite(p) and 0.0 <= p <= 1.0, f"{kind} {params}: {p}")
 
+    def test_deeply_nested_brackets(self):
+        # A valid-looking artifact carrying a member nested 200,000 levels
+        # deep: refused before anything walks it recursively.
+        doc = json.loads(self.fit("temperature"))
+        text = json.dumps(doc)[:-1] + ', "extra": ' + "[" * 200000 + "]" * 200000 + "}"
+        write(self.path("deep.json"), text)
+        self.refused(self.path("deep.json"), "deep.json", "more than 64 levels deep")
+        write(self.path("open.json"), "[" * 1000000)
+        self.refused(self.path("open.json"), "open.json", "levels deep")
+        # Brackets inside strings do not count.
+        doc["provenance"]["source"] = "[" * 100 + '\\"{'
+        path = self.put(doc)
+        rc, _, err = run("apply", path, self.path("scores.csv"), "-q")
+        self.assertEqual(rc, 0, err)
+
     def test_not_an_artifact(self):
         write(self.path("other.json"), '{"format": "something-else", "format_version": 1}\n')
         self.refused(self.path("other.json"), "not a plumb map artifact")
