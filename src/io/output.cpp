@@ -30,6 +30,14 @@ OutputFile::OutputFile(const std::string& path, std::size_t buffer_bytes) : capa
     return;
   }
   name_ = path;
+  struct stat st {};
+  if (::stat(path.c_str(), &st) == 0 && !S_ISREG(st.st_mode) && !S_ISDIR(st.st_mode)) {
+    // A device or a named pipe (-o /dev/null, -o a FIFO) is written in place:
+    // renaming a temporary file over it would replace it with a regular file.
+    fd_ = ::open(path.c_str(), O_WRONLY | O_CLOEXEC);
+    if (fd_ < 0) io_error(path, "cannot open");
+    return;
+  }
   const std::filesystem::path target(path);
   const std::filesystem::path dir = target.has_parent_path() ? target.parent_path() : std::filesystem::path(".");
   // A hidden name beside the target, so that rename() stays on one file system.
@@ -70,7 +78,12 @@ void OutputFile::flush_buffer() {
 
 void OutputFile::commit() {
   flush_buffer();
-  if (fd_ == STDOUT_FILENO) {
+  if (temp_path_.empty()) {  // standard output, a device or a named pipe
+    if (fd_ != STDOUT_FILENO) {
+      const int fd = fd_;
+      fd_ = -1;
+      if (::close(fd) != 0) io_error(name_, "cannot write");
+    }
     committed_ = true;
     return;
   }

@@ -5,8 +5,10 @@ import os
 import resource
 import shutil
 import signal
+import stat
 import subprocess
 import tempfile
+import threading
 import time
 import unittest
 
@@ -178,6 +180,29 @@ class Faults(PlumbCase):
         out = self.path(os.path.join("missing", "out.csv"))
         self.assert_refused(["apply", self.map, os.path.join(self._shared.name, "h.csv"), "-o", out], IO,
                             "missing/out.csv", "cannot create a temporary file")
+
+    def test_output_to_a_named_pipe_keeps_the_pipe(self):
+        # -o naming a FIFO (or a device such as /dev/null) writes into it; a
+        # temporary file renamed over it would replace it with a regular file.
+        fifo = self.path("stream")
+        os.mkfifo(fifo)
+        received = []
+
+        def drain():
+            with open(fifo, "rb") as f:
+                received.append(f.read())
+
+        reader = threading.Thread(target=drain, daemon=True)
+        reader.start()
+        h = os.path.join(self._shared.name, "h.csv")
+        rc, _, err = run("apply", self.map, h, "-o", fifo, "-q")
+        reader.join(timeout=10)
+        self.assertEqual(rc, 0, err)
+        self.assertFalse(reader.is_alive(), "nothing was written into the pipe")
+        self.assertTrue(stat.S_ISFIFO(os.stat(fifo).st_mode), "the pipe was replaced")
+        rc, expected, err = run("apply", self.map, h, "-q")
+        self.assertEqual(received, [expected.encode()])
+        self.assertEqual(temp_files(self.dir), [])
 
     # --- a reader that stops reading ----------------------------------------
 
