@@ -189,12 +189,16 @@ Artifact artifact_from_text(const std::string& text, const std::string& where) {
     jf::fail(where, "provenance.positives", "lies outside [0, weight_total]", "the weight of the positive rows");
   pr.label_column = jf::require_string(p, "label_column", where, "provenance.label_column");
   const json& wc = jf::require(p, "weight_column", where, "provenance.weight_column");
+  if (!wc.is_string() && !wc.is_null())
+    jf::fail(where, "provenance.weight_column", "is neither a string nor null", "a column name, or null");
   pr.weight_column = wc.is_string() ? wc.get<std::string>() : std::string();
   pr.positive_rule = jf::require_string(p, "positive_rule", where, "provenance.positive_rule");
   pr.score_min = jf::require_finite(p, "score_min", where, "provenance.score_min");
   pr.score_max = jf::require_finite(p, "score_max", where, "provenance.score_max");
   pr.tool = jf::require_string(p, "tool", where, "provenance.tool");
   const json& created = jf::require(p, "created_utc", where, "provenance.created_utc");
+  if (!created.is_string() && !created.is_null())
+    jf::fail(where, "provenance.created_utc", "is neither a string nor null", "a UTC time, or null");
   pr.created_utc = created.is_string() ? created.get<std::string>() : std::string();
   return a;
 }

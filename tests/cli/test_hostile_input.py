@@ -365,6 +365,31 @@ class HostileArtifacts(PlumbCase):
         doc["parameters"]["bin_value"][0] = 1.5
         self.refused(self.put(doc), "parameters.bin_value[0]", "outside [0, 1]")
 
+    def test_members_of_the_wrong_type(self):
+        # docs/artifact-format.md: a member of the wrong type is refused, even
+        # with a valid hash; weight_column and created_utc are a string or null.
+        edits = ((("parameters", "temperature"), True, "parameters.temperature", "not a number"),
+                 (("parameters", "temperature"), "1.5", "parameters.temperature", "not a number"),
+                 (("parameters", "temperature"), -0.0, "parameters.temperature", "not positive"),
+                 (("provenance", "rows"), 1.5, "provenance.rows", "not an integer"),
+                 (("provenance", "rows"), -1, "provenance.rows", "negative"),
+                 (("kind",), 5, "'kind'", "not a string"),
+                 (("provenance", "created_utc"), 5, "provenance.created_utc", "neither a string nor null"),
+                 (("provenance", "weight_column"), ["w"], "provenance.weight_column", "neither a string nor null"))
+        for path, value, field, fragment in edits:
+            doc = json.loads(self.fit("temperature"))
+            target = doc
+            for key in path[:-1]:
+                target = target[key]
+            target[path[-1]] = value
+            self.refused(self.put(doc), "edited.json", field, fragment)
+        # The documented alternatives load: an integer temperature, a weight column.
+        doc = json.loads(self.fit("temperature"))
+        doc["parameters"]["temperature"] = 2
+        doc["provenance"]["weight_column"] = "w"
+        rc, _, err = run("apply", self.put(doc), self.path("scores.csv"), "-q")
+        self.assertEqual(rc, 0, err)
+
     def test_a_number_too_large_for_a_double(self):
         text = self.fit("platt")
         doc = json.loads(text)
