@@ -86,7 +86,17 @@ std::span<const std::string_view> map_kinds() noexcept;
 // Whether `kind` accepts scores on `scale`.
 bool accepts_scale(std::string_view kind, Scale scale) noexcept;
 
-// Fit a map of `kind` to `data`. Throws plumb::Error: usage for an unknown
+// The rows merged by score: for each distinct score (ascending) an entry of
+// label 0 with the weight of its negative rows and one of label 1 with the
+// weight of its positive rows (each only when positive). Every kind's fit
+// depends on the rows only through these sums. Rows of one score are summed
+// in input order; already sorted input is not re-sorted.
+struct ScoreTally {
+  std::vector<double> score, label, weight;
+};
+ScoreTally tally_by_score(const FitData& data);
+
+// Fit a map of `kind` to `data` (the parametric kinds on tally_by_score(data)). Throws plumb::Error: usage for an unknown
 // kind or a scale the kind does not accept; fit when the data cannot support
 // the fit (no rows of positive weight, only one class). Precondition: every
 // score is valid on data.scale and every label is 0 or 1.

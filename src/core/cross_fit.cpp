@@ -73,9 +73,12 @@ int complexity(std::string_view kind) noexcept {
   return 5;
 }
 
-CrossFitResult cross_fit(const FitData& data, const Folds& folds, std::span<const std::string> kinds,
-                         const MapOptions& options) {
-  if (kinds.empty()) throw Error(ErrorKind::usage, "no candidate maps", {}, {}, "at least one kind in --map");
+namespace {
+
+// cross_fit on rows already in score order: every fold's training rows are
+// then gathered in score order, so no fit sorts them again.
+CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::span<const std::string> kinds,
+                                const MapOptions& options) {
   const std::size_t n = data.score.size();
   CrossFitResult r;
   r.folds = folds;
@@ -159,6 +162,37 @@ CrossFitResult cross_fit(const FitData& data, const Folds& folds, std::span<cons
                   chosen.kind.c_str(), best.kind.c_str(), chosen.diff_vs_best, chosen.diff_se);
   }
   r.reason = text;
+  return r;
+}
+
+}  // namespace
+
+CrossFitResult cross_fit(const FitData& data, const Folds& folds, std::span<const std::string> kinds,
+                         const MapOptions& options) {
+  if (kinds.empty()) throw Error(ErrorKind::usage, "no candidate maps", {}, {}, "at least one kind in --map");
+  const std::size_t n = data.score.size();
+  if (folds.fold_of_row.size() != n) throw Error(ErrorKind::internal, "cross_fit: folds made for other rows");
+  if (std::is_sorted(data.score.begin(), data.score.end())) return cross_fit_sorted(data, folds, kinds, options);
+  // Sort once, stably (ties keep their input order, so sums over ties are
+  // added in the same order as a plain fit of the same rows would add them).
+  std::vector<std::size_t> order(n);
+  std::iota(order.begin(), order.end(), std::size_t{0});
+  std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return data.score[a] < data.score[b]; });
+  std::vector<double> score(n), label(n), weight(data.weight.empty() ? 0 : n);
+  Folds sorted_folds = folds;
+  for (std::size_t k = 0; k < n; ++k) {
+    score[k] = data.score[order[k]];
+    label[k] = data.label[order[k]];
+    if (!data.weight.empty()) weight[k] = data.weight[order[k]];
+    sorted_folds.fold_of_row[k] = folds.fold_of_row[order[k]];
+  }
+  CrossFitResult r = cross_fit_sorted(FitData{score, label, weight, data.scale}, sorted_folds, kinds, options);
+  r.folds = folds;
+  for (Candidate& c : r.candidates) {
+    std::vector<double> oof(n);
+    for (std::size_t k = 0; k < n; ++k) oof[order[k]] = c.oof[k];
+    c.oof = std::move(oof);
+  }
   return r;
 }
 

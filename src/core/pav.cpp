@@ -66,7 +66,10 @@ std::vector<PavBlock> pav_fit(std::span<const double> x, std::span<const double>
   check_lengths(x, y, w);
   std::vector<std::size_t> order(x.size());
   std::iota(order.begin(), order.end(), std::size_t{0});
-  std::sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return x[a] < x[b]; });
+  // Stable, so tied rows are pooled in input order whatever order the rows
+  // came in; sorted input (cross-fitting's folds) skips the sort.
+  if (!std::is_sorted(x.begin(), x.end()))
+    std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return x[a] < x[b]; });
   return fit_in_order(x, y, w, &order);
 }
 
