@@ -1,6 +1,7 @@
 """Faults outside plumb's control: the process killed mid-run, a full disk
 (a file-size limit), and a reader that stops reading. An output file named
 with -o is either absent, its previous content, or complete; never partial."""
+import errno
 import os
 import resource
 import shutil
@@ -147,7 +148,7 @@ class Faults(PlumbCase):
         self.assertEqual(len(lines), 1, err)
         self.assertIn(os.path.basename(out), lines[0])
         self.assertIn("cannot write", lines[0])
-        self.assertIn(os.strerror(27), lines[0])  # EFBIG
+        self.assertIn(os.strerror(errno.EFBIG), lines[0])
         self.assertEqual(temp_files(self.dir), [])
         if previous is None:
             self.assertFalse(os.path.exists(out))
@@ -243,7 +244,7 @@ class Faults(PlumbCase):
         lines = err.splitlines()
         self.assertEqual(len(lines), 1, err)
         self.assertIn("<stdout>", lines[0])
-        self.assertIn(os.strerror(32), lines[0])  # EPIPE
+        self.assertIn(os.strerror(errno.EPIPE), lines[0])
 
 
 if __name__ == "__main__":

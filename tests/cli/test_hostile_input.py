@@ -3,6 +3,7 @@ and damaged or edited map artifacts. Each case either works or is refused
 with its documented exit code (docs/cli.md), one stderr line naming what
 went wrong, and no output file."""
 import concurrent.futures
+import hashlib
 import json
 import math
 import os
@@ -14,12 +15,10 @@ import unittest
 from plumbtest import PLUMB, Lcg, PlumbCase, read_rows, run, simulated_holdout, write
 
 USAGE, INPUT, ARTIFACT = 2, 3, 4
-KINDS = ("isotonic", "platt", "beta", "temperature", "histogram")
 
 
 def canonical_hash(doc):
     """The integrity rule of docs/artifact-format.md (as in test_artifact.py)."""
-    import hashlib
     body = {k: v for k, v in doc.items() if k != "integrity_sha256"}
     text = json.dumps(body, sort_keys=True, separators=(",", ":"), ensure_ascii=False)
     return hashlib.sha256(text.encode("utf-8")).hexdigest()

@@ -1,9 +1,7 @@
 """Numeric edges of fit and apply: extreme scores and weights, ties,
 separated labels, one positive among many, and determinism. Every map must
 end with finite parameters and give probabilities in [0, 1]."""
-import json
 import math
-import os
 import time
 import unittest
 
