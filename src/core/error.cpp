@@ -5,40 +5,44 @@
 namespace plumb {
 namespace {
 
+// Control characters as \xNN so that a message stays one line whatever the
+// input held (a quoted column name may contain a line break).
+std::string escaped(const std::string& text, std::size_t limit = std::string::npos) {
+  static const char* hex = "0123456789abcdef";
+  std::string shown;
+  for (unsigned char c : text) {
+    if (shown.size() >= limit) {
+      shown += "...";
+      break;
+    }
+    if (c < 0x20 || c == 0x7f) {
+      shown += "\\x";
+      shown += hex[c >> 4];
+      shown += hex[c & 15];
+    } else {
+      shown += static_cast<char>(c);
+    }
+  }
+  return shown;
+}
+
 std::string render(const Location& where, const std::string& message, const std::string& value,
                    const std::string& expected) {
   std::string out;
   if (!where.file.empty()) {
-    out += where.file;
+    out += escaped(where.file);
     if (where.line > 0) out += ":" + std::to_string(where.line);
     if (where.column > 0) out += ":" + std::to_string(where.column);
   }
   if (!where.column_name.empty()) {
     out += out.empty() ? "" : " ";
-    out += "(column '" + where.column_name + "')";
+    out += "(column '" + escaped(where.column_name) + "')";
   }
   if (!out.empty()) out += ": ";
-  out += message;
-  if (!value.empty()) {
-    // Keep the line readable: long or binary values are cut and escaped.
-    std::string shown;
-    for (unsigned char c : value) {
-      if (shown.size() >= 60) {
-        shown += "...";
-        break;
-      }
-      if (c < 0x20 || c == 0x7f) {
-        static const char* hex = "0123456789abcdef";
-        shown += "\\x";
-        shown += hex[c >> 4];
-        shown += hex[c & 15];
-      } else {
-        shown += static_cast<char>(c);
-      }
-    }
-    out += ": got '" + shown + "'";
-  }
-  if (!expected.empty()) out += "; expected " + expected;
+  out += escaped(message);
+  // Keep the line readable: long or binary values are cut and escaped.
+  if (!value.empty()) out += ": got '" + escaped(value, 60) + "'";
+  if (!expected.empty()) out += "; expected " + escaped(expected);
   return out;
 }
 
