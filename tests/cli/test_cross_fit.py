@@ -87,6 +87,16 @@ class CrossFit(PlumbCase):
         rc, out, err = run("inspect", self.path("cf.map.json"))
         self.assertEqual(rc, 0, err)
         self.assertIn("fold_average", out)
+        self.assertIn("cross-fit      4 folds, stratified split, seed 5", out)
+        # report --map takes the cross-fit artifact like any other.
+        rc, _, err = run("report", "-q", "--label", "missed", "--score", "risk", "--map", self.path("cf.map.json"),
+                         "--bootstrap", "0", "--json", self.path("r.json"), data)
+        self.assertEqual(rc, 0, err)
+        with open(self.path("r.json")) as f:
+            rep = json.load(f)
+        self.assertEqual(rep["scores"][1]["column"], "risk via cf.map.json")
+        mean_averaged = sum(averaged) / len(averaged)
+        self.assertAlmostEqual(rep["scores"][1]["mean_forecast"], mean_averaged, delta=1e-12)
 
     def test_groups_are_never_split_and_time_runs_forward(self):
         rows = simulate(1200, 4, sigmoid_distortion)
