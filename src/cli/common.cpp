@@ -7,6 +7,7 @@
 #include <ctime>
 
 #include "plumb/error.hpp"
+#include "plumb/version.hpp"
 
 namespace plumb::cli {
 
@@ -135,6 +136,33 @@ void Progress::update(std::uint64_t rows, std::uint64_t bytes, std::optional<std
 void Progress::finish() {
   if (drawn_) std::fputs("\r\033[K", stderr);
   drawn_ = false;
+}
+
+io::LabelledRows read_rows_with_progress(const std::string& what, const InputOptions& o,
+                                         const io::LabelledColumns& columns) {
+  Progress progress(what, o.quiet);
+  io::LabelledRows rows = io::read_labelled(
+      o.file, columns, label_rule(o), parse_separator(o.separator),
+      [&progress](std::uint64_t r, std::uint64_t b, std::optional<std::uint64_t> t) { progress.update(r, b, t); });
+  progress.finish();
+  return rows;
+}
+
+Provenance provenance_of(const io::LabelledRows& rows, const InputOptions& o, bool no_timestamp) {
+  Provenance p;
+  p.source = rows.source;
+  p.source_sha256 = rows.source_sha256;
+  p.rows = rows.rows;
+  p.positives = rows.positives;
+  p.weight_total = rows.weight_total;
+  p.label_column = rows.label_column;
+  p.weight_column = rows.weight_column;
+  p.positive_rule = label_rule(o).describe();
+  p.score_min = rows.score_min;
+  p.score_max = rows.score_max;
+  p.tool = std::string("plumb ") + version_string;
+  p.created_utc = no_timestamp ? std::string() : utc_now();
+  return p;
 }
 
 std::string utc_now() {

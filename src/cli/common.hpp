@@ -7,6 +7,7 @@
 #include <optional>
 #include <string>
 
+#include "plumb/artifact.hpp"
 #include "plumb/calibration_map.hpp"
 #include "plumb/labelled_input.hpp"
 #include "plumb/scale.hpp"
@@ -67,6 +68,13 @@ class Progress {
   bool drawn_ = false;
   std::chrono::steady_clock::time_point start_, last_;
 };
+
+// Reads labelled rows with a progress line headed `what` on stderr.
+io::LabelledRows read_rows_with_progress(const std::string& what, const InputOptions& options,
+                                         const io::LabelledColumns& columns);
+
+// The provenance of an artifact fitted on `rows` (the first score column).
+Provenance provenance_of(const io::LabelledRows& rows, const InputOptions& options, bool no_timestamp);
 
 // The current time as ISO 8601 UTC with seconds ("2026-12-02T11:32:40Z").
 std::string utc_now();

@@ -213,13 +213,9 @@ int run_cross_fit(const CrossFitOptions& o) {
                 "a file name (the rows are read a second time to write them out)");
   const char separator = parse_separator(o.input.separator);
 
-  Progress progress("plumb cross-fit: reading", o.input.quiet);
   io::LabelledColumns columns{{{o.input.score, scale}}, o.input.label, o.input.weight, split.column};
   columns.max_segment_values = std::numeric_limits<std::uint32_t>::max();  // one group or time per row is fine
-  const io::LabelledRows rows = io::read_labelled(
-      o.input.file, columns, label_rule(o.input), separator,
-      [&progress](std::uint64_t r, std::uint64_t b, std::optional<std::uint64_t> t) { progress.update(r, b, t); });
-  progress.finish();
+  const io::LabelledRows rows = read_rows_with_progress("plumb cross-fit: reading", o.input, columns);
 
   Folds folds;
   switch (split.kind) {
@@ -250,19 +246,7 @@ int run_cross_fit(const CrossFitOptions& o) {
   artifact.score_column = rows.score_columns[0];
   artifact.fit_options = o.choices.recorded(chosen.kind);
   artifact.cross_fit = evidence_json(result, split, o);
-  Provenance& p = artifact.provenance;
-  p.source = rows.source;
-  p.source_sha256 = rows.source_sha256;
-  p.rows = rows.rows;
-  p.positives = rows.positives;
-  p.weight_total = rows.weight_total;
-  p.label_column = rows.label_column;
-  p.weight_column = rows.weight_column;
-  p.positive_rule = label_rule(o.input).describe();
-  p.score_min = rows.score_min;
-  p.score_max = rows.score_max;
-  p.tool = std::string("plumb ") + version_string;
-  p.created_utc = o.no_timestamp ? std::string() : utc_now();
+  artifact.provenance = provenance_of(rows, o.input, o.no_timestamp);
 
   if (!o.oof.empty()) write_oof(o, rows, result, separator);
   if (!o.json_path.empty()) {

@@ -35,12 +35,8 @@ int run_fit(const FitOptions& o) {
                                  : "--scale probability or logit (temperature divides log-odds)");
   const MapOptions map_options = o.choices.map_options();
 
-  Progress progress("plumb fit: reading", o.input.quiet);
-  io::LabelledRows rows = io::read_labelled(
-      o.input.file, {{{o.input.score, scale}}, o.input.label, o.input.weight, {}}, label_rule(o.input),
-      parse_separator(o.input.separator),
-      [&progress](std::uint64_t r, std::uint64_t b, std::optional<std::uint64_t> t) { progress.update(r, b, t); });
-  progress.finish();
+  const io::LabelledRows rows = read_rows_with_progress(
+      "plumb fit: reading", o.input, {{{o.input.score, scale}}, o.input.label, o.input.weight, {}});
 
   Artifact artifact;
   try {
@@ -53,19 +49,7 @@ int run_fit(const FitOptions& o) {
   }
   artifact.score_column = rows.score_columns[0];
   artifact.fit_options = o.choices.recorded(o.kind);
-  Provenance& p = artifact.provenance;
-  p.source = rows.source;
-  p.source_sha256 = rows.source_sha256;
-  p.rows = rows.rows;
-  p.positives = rows.positives;
-  p.weight_total = rows.weight_total;
-  p.label_column = rows.label_column;
-  p.weight_column = rows.weight_column;
-  p.positive_rule = label_rule(o.input).describe();
-  p.score_min = rows.score_min;
-  p.score_max = rows.score_max;
-  p.tool = std::string("plumb ") + version_string;
-  p.created_utc = o.no_timestamp ? std::string() : utc_now();
+  artifact.provenance = provenance_of(rows, o.input, o.no_timestamp);
 
   io::OutputFile out(o.output);
   out.write(artifact_to_text(artifact));

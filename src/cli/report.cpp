@@ -96,11 +96,7 @@ int run_report(const ReportCliOptions& o) {
   columns.weight = o.input.weight;
   columns.segment = o.by;
 
-  Progress progress("plumb report: reading", o.input.quiet);
-  const io::LabelledRows rows = io::read_labelled(
-      o.input.file, columns, label_rule(o.input), parse_separator(o.input.separator),
-      [&progress](std::uint64_t r, std::uint64_t b, std::optional<std::uint64_t> t) { progress.update(r, b, t); });
-  progress.finish();
+  const io::LabelledRows rows = read_rows_with_progress("plumb report: reading", o.input, columns);
 
   std::vector<std::vector<double>> mapped;
   std::vector<ForecastColumn> forecasts;
