@@ -15,7 +15,6 @@
 #include "plumb/error.hpp"
 #include "plumb/maps/fold_average_map.hpp"
 #include "plumb/output.hpp"
-#include "plumb/version.hpp"
 
 namespace plumb::cli {
 namespace {

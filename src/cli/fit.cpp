@@ -8,7 +8,6 @@
 #include "plumb/calibration_map.hpp"
 #include "plumb/error.hpp"
 #include "plumb/output.hpp"
-#include "plumb/version.hpp"
 
 namespace plumb::cli {
 namespace {
