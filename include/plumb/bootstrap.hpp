@@ -14,6 +14,9 @@ namespace plumb {
 
 struct BootstrapOptions {
   std::size_t replicates = 300;
+  // Worker threads for the replicates (0: one per core). Every replicate has
+  // its own seeded generator, so results do not depend on this.
+  std::size_t threads = 0;
   std::uint64_t seed = 1;
   double confidence = 0.95;  // two-sided level of every interval
   BinningKind binning = BinningKind::equal_width;  // bins for the ECE

@@ -33,6 +33,7 @@ struct ReportOptions {
   double min_segment_weight = 100.0;               // smaller segments say "too few rows"
   double segment_alpha = 0.05;                     // family-wise level of the segment flags
   std::size_t histogram_bins = 50;                 // equal-width forecast histogram (for charts)
+  std::size_t threads = 0;                         // bootstrap threads (0: one per core); never changes a number
 };
 
 // One forecast column on one set of rows.

@@ -26,6 +26,7 @@ struct ReportCliOptions {
   std::size_t bins = 10;
   std::string binning = "width";
   std::size_t bootstrap = 200;
+  std::size_t threads = 0;
   std::uint64_t seed = 1;
   double confidence = 0.95;
   std::size_t hl_groups = 10;
@@ -78,6 +79,7 @@ int run_report(const ReportCliOptions& o) {
   ro.bins = o.bins;
   ro.binning = o.binning == "mass" ? BinningKind::equal_mass : BinningKind::equal_width;
   ro.bootstrap = o.bootstrap;
+  ro.threads = o.threads;
   ro.seed = o.seed;
   ro.confidence = o.confidence;
   ro.hl_groups = o.hl_groups;
@@ -195,6 +197,10 @@ Command add_report_command(CLI::App& app) {
   cmd->add_option("--bootstrap", o->bootstrap, "Bootstrap replicates for intervals and the consistency band (0: none)")
       ->check(CLI::Range(0, 100000))
       ->default_str("200");
+  cmd->add_option("--threads", o->threads,
+                  "Threads for the bootstrap (0: one per core); the intervals are the same for any count")
+      ->check(CLI::Range(0, 1024))
+      ->default_str("0");
   cmd->add_option("--seed", o->seed, "Seed of the bootstrap; the same seed gives the same intervals")->default_str("1");
   cmd->add_option("--confidence", o->confidence, "Level of every interval and band")
       ->check(CLI::Range(0.5, 0.999))

@@ -5,6 +5,8 @@
 #include <limits>
 #include <numeric>
 #include <random>
+#include <exception>
+#include <thread>
 
 #include "core/metric_input.hpp"
 #include "plumb/auc.hpp"
@@ -70,6 +72,34 @@ BootstrapInterval percentile_interval(std::vector<double> values, double confide
   return out;
 }
 
+// Runs body(r, scratch) for r in [0, replicates) on up to `threads` threads
+// (0: one per core), each thread with its own scratch vector. Replicates are
+// dealt in interleaved order; the first exception is rethrown.
+template <class Body>
+void for_each_replicate(std::size_t replicates, std::size_t threads, Body body) {
+  if (threads == 0) threads = std::max(1u, std::thread::hardware_concurrency());
+  threads = std::min(threads, replicates);
+  if (threads <= 1) {
+    std::vector<double> scratch;
+    for (std::size_t r = 0; r < replicates; ++r) body(r, scratch);
+    return;
+  }
+  std::vector<std::exception_ptr> errors(threads);
+  std::vector<std::thread> pool;
+  for (std::size_t t = 0; t < threads; ++t)
+    pool.emplace_back([&, t] {
+      try {
+        std::vector<double> scratch;
+        for (std::size_t r = t; r < replicates; r += threads) body(r, scratch);
+      } catch (...) {
+        errors[t] = std::current_exception();
+      }
+    });
+  for (std::thread& th : pool) th.join();
+  for (const std::exception_ptr& e : errors)
+    if (e) std::rethrow_exception(e);
+}
+
 void check_options(const BootstrapOptions& options) {
   if (options.replicates == 0)
     throw Error(ErrorKind::usage, "the number of bootstrap replicates must be positive", {}, "0",
@@ -108,7 +138,7 @@ BootstrapResult bootstrap_metrics(std::span<const double> forecast,
   std::iota(order.begin(), order.end(), std::size_t{0});
   std::stable_sort(order.begin(), order.end(),
                    [&](std::size_t a, std::size_t b) { return forecast[a] < forecast[b]; });
-  std::vector<double> p(n), y(n), base(n), w(n);
+  std::vector<double> p(n), y(n), base(n);
   for (std::size_t k = 0; k < n; ++k) {
     p[k] = forecast[order[k]];
     y[k] = label[order[k]];
@@ -117,7 +147,11 @@ BootstrapResult bootstrap_metrics(std::span<const double> forecast,
 
   const std::size_t R = options.replicates;
   std::vector<double> ece(R), l2(R), brier(R), mcb(R), area(R);
-  for (std::size_t r = 0; r < R; ++r) {
+  // Replicate r writes only slot r of each vector and uses only its own
+  // generator and weight buffer, so any split of r over threads gives the
+  // same numbers.
+  for_each_replicate(R, options.threads, [&](std::size_t r, std::vector<double>& w) {
+    w.resize(n);
     std::mt19937_64 gen = replicate_generator(options.seed, r);
     double total = 0.0, squared = 0.0;
     for (std::size_t k = 0; k < n; ++k) {
@@ -127,7 +161,7 @@ BootstrapResult bootstrap_metrics(std::span<const double> forecast,
     }
     if (!(total > 0.0)) {  // every row drawn zero times: no replicate
       ece[r] = l2[r] = brier[r] = mcb[r] = area[r] = nan;
-      continue;
+      return;
     }
     const Binning binning = make_binning_sorted(p, w, options.binning, options.bins);
     const std::vector<BinSums> sums = bin_sums(p, y, w, binning);
@@ -137,7 +171,7 @@ BootstrapResult bootstrap_metrics(std::span<const double> forecast,
     brier[r] = squared / total;
     mcb[r] = sorted_mcb_brier(p, y, w, total);
     area[r] = auc_sorted(p, y, w);
-  }
+  });
   BootstrapResult out;
   out.ece = percentile_interval(std::move(ece), options.confidence);
   out.l2_debiased = percentile_interval(std::move(l2), options.confidence);
@@ -161,17 +195,16 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
 
   const std::size_t R = options.replicates;
   std::vector<std::vector<double>> frequency(bins, std::vector<double>(R, nan));
-  std::vector<double> positives(bins);
   const std::uint64_t seed = options.seed ^ 0xC2B2AE3D27D4EB4Full;
-  for (std::size_t r = 0; r < R; ++r) {
+  for_each_replicate(R, options.threads, [&](std::size_t r, std::vector<double>& positives) {
     std::mt19937_64 gen = replicate_generator(seed, r);
-    std::fill(positives.begin(), positives.end(), 0.0);
+    positives.assign(bins, 0.0);
     for (std::size_t i = 0; i < n; ++i) {
       if (uniform01(gen) < forecast[i]) positives[binning.bin_of_row[i]] += detail::weight_at(weight, i);
     }
     for (std::size_t b = 0; b < bins; ++b)
       if (bin_weight[b] > 0.0) frequency[b][r] = positives[b] / bin_weight[b];
-  }
+  });
   std::vector<Interval> band(bins);
   for (std::size_t b = 0; b < bins; ++b) {
     const BootstrapInterval q = percentile_interval(std::move(frequency[b]), options.confidence);

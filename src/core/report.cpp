@@ -83,6 +83,7 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
   if (o.bootstrap > 0) {
     BootstrapOptions b;
     b.replicates = o.bootstrap;
+    b.threads = o.threads;
     b.seed = o.seed;
     b.confidence = o.confidence;
     b.binning = BinningKind::equal_width;

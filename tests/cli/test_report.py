@@ -75,6 +75,10 @@ class Report(PlumbCase):
         c = self.json_report("--score", "risk", "--bootstrap", "40", "--seed", "10")
         self.assertEqual(a["scores"][0]["bootstrap"], b["scores"][0]["bootstrap"])
         self.assertNotEqual(a["scores"][0]["bootstrap"], c["scores"][0]["bootstrap"])
+        one = self.json_report("--score", "risk", "--bootstrap", "40", "--seed", "9", "--threads", "1")
+        two = self.json_report("--score", "risk", "--bootstrap", "40", "--seed", "9", "--threads", "2")
+        self.assertEqual(one, two)  # every number, the band included
+        self.assertEqual(one["scores"][0]["bootstrap"], a["scores"][0]["bootstrap"])
         none = self.json_report("--score", "risk", "--bootstrap", "0")
         self.assertIsNone(none["scores"][0]["bootstrap"])
         self.assertNotIn("band", none["scores"][0]["reliability_table"]["bins"][0])

@@ -47,6 +47,38 @@ TEST_CASE("Bootstrap: the same seed gives identical intervals, another seed othe
   CHECK_THROWS(plumb::bootstrap_metrics(p, y, {}, o));
 }
 
+TEST_CASE("Bootstrap and consistency band give the same numbers on any number of threads",
+          "[metrics][bootstrap]") {
+  std::vector<double> p, y, w;
+  calibrated(2000, 11, p, y);
+  for (std::size_t i = 0; i < p.size(); ++i) w.push_back(0.5 + static_cast<double>(i % 4));
+  plumb::BootstrapOptions o;
+  o.replicates = 37;  // not a multiple of the thread counts below
+  o.seed = 5;
+  o.threads = 1;
+  const auto one = plumb::bootstrap_metrics(p, y, w, o);
+  const auto binning = plumb::make_binning(p, w, plumb::BinningKind::equal_mass, 10);
+  const auto band_one = plumb::consistency_band(p, w, binning, o);
+  for (std::size_t threads : {2u, 3u, 8u, 0u}) {
+    INFO("threads " << threads);
+    o.threads = threads;
+    const auto many = plumb::bootstrap_metrics(p, y, w, o);
+    CHECK(many.ece.lo == one.ece.lo);
+    CHECK(many.ece.hi == one.ece.hi);
+    CHECK(many.l2_debiased.hi == one.l2_debiased.hi);
+    CHECK(many.brier.lo == one.brier.lo);
+    CHECK(many.mcb_brier.lo == one.mcb_brier.lo);
+    CHECK(many.mcb_brier.hi == one.mcb_brier.hi);
+    CHECK(many.auc.hi == one.auc.hi);
+    const auto band = plumb::consistency_band(p, w, binning, o);
+    REQUIRE(band.size() == band_one.size());
+    for (std::size_t b = 0; b < band.size(); ++b) {
+      CHECK(band[b].lo == band_one[b].lo);
+      CHECK(band[b].hi == band_one[b].hi);
+    }
+  }
+}
+
 TEST_CASE("Bootstrap on a large calibrated forecaster covers the debiased estimate",
           "[metrics][bootstrap]") {
   std::vector<double> p, y;
