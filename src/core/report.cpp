@@ -45,23 +45,40 @@ std::vector<double> forecast_histogram(std::span<const double> f, std::span<cons
   return h;
 }
 
+// Weighted totals of one set of rows, shared by the overall and the
+// per-segment summaries.
+struct Totals {
+  double weight = 0.0;
+  double positives = 0.0;
+  double weighted_forecast = 0.0;  // sum w p
+  std::uint64_t at_zero_or_one = 0;
+};
+
+Totals totals(std::span<const double> f, std::span<const double> y, std::span<const double> w) {
+  Totals t;
+  for (std::size_t i = 0; i < f.size(); ++i) {
+    const double wi = detail::weight_at(w, i);
+    t.weight += wi;
+    t.positives += wi * y[i];
+    t.weighted_forecast += wi * f[i];
+    if (f[i] == 0.0 || f[i] == 1.0) ++t.at_zero_or_one;
+  }
+  return t;
+}
+
 ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, std::span<const double> w,
                        const ReportOptions& o) {
   const std::span<const double> f = column.forecast;
   ScoreSummary s;
   s.name = column.name;
   s.rows = f.size();
-  double wp = 0.0;
-  for (std::size_t i = 0; i < f.size(); ++i) {
-    const double wi = detail::weight_at(w, i);
-    s.weight += wi;
-    s.positives += wi * y[i];
-    wp += wi * f[i];
-    if (f[i] == 0.0 || f[i] == 1.0) ++s.at_zero_or_one;
-  }
+  const Totals t = totals(f, y, w);
+  s.weight = t.weight;
+  s.positives = t.positives;
+  s.at_zero_or_one = t.at_zero_or_one;
   detail::require_positive_total("report", s.weight);
   s.observed_rate = s.positives / s.weight;
-  s.mean_forecast = wp / s.weight;
+  s.mean_forecast = t.weighted_forecast / s.weight;
   s.brier = brier_score(f, y, w);
   s.log_loss = log_loss(f, y, w);
   s.auc = auc(f, y, w);
@@ -100,16 +117,12 @@ SegmentSummary summarise_segment(std::string value, std::span<const double> f, s
   SegmentSummary s;
   s.value = std::move(value);
   s.rows = f.size();
-  double wp = 0.0;
-  for (std::size_t i = 0; i < f.size(); ++i) {
-    const double wi = detail::weight_at(w, i);
-    s.weight += wi;
-    s.positives += wi * y[i];
-    wp += wi * f[i];
-  }
+  const Totals t = totals(f, y, w);
+  s.weight = t.weight;
+  s.positives = t.positives;
   s.too_few = !(s.weight >= o.min_segment_weight) || !(s.weight > 0.0);
   if (s.too_few) return s;
-  s.mean_forecast = wp / s.weight;
+  s.mean_forecast = t.weighted_forecast / s.weight;
   s.observed_rate = s.positives / s.weight;
   s.calibration_in_the_large = s.mean_forecast - s.observed_rate;
   s.ece = calibration_error(f, y, w, BinningKind::equal_width, o.bins).ece;
