@@ -9,10 +9,13 @@
 set -euo pipefail
 
 plumb_build_packages=(cmake ninja-build g++ libcli11-dev nlohmann-json3-dev libeigen3-dev libboost-dev
-                      libssl-dev python3)
+                      libssl-dev zlib1g-dev python3)
 # The reference checks ask R (stats, Iso, MASS) at test time; the CLI tests
 # run on Debian's python3; the artifact schema is checked with jsonschema.
-plumb_test_packages=(catch2 r-base-core r-cran-iso r-cran-mass python3-jsonschema)
+# The fuzz targets build with clang and its libFuzzer runtime; the sharded
+# example runs on Dask.
+plumb_test_packages=(catch2 r-base-core r-cran-iso r-cran-mass python3-jsonschema clang libclang-rt-14-dev
+                     python3-dask python3-distributed)
 
 plumb_missing_packages() {
   local p
