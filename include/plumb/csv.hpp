@@ -4,7 +4,8 @@
 // Records are read one at a time from a file or standard input through a
 // fixed buffer, so memory stays flat whatever the input size. Each record
 // gives both its raw bytes (for passing columns through unchanged) and its
-// unescaped fields.
+// unescaped fields. Gzip input (recognised by its first bytes, whatever the
+// name) is decompressed as it is read.
 #include <cstdint>
 #include <memory>
 #include <optional>
@@ -30,6 +31,9 @@ struct CsvOptions {
   // Longest record accepted; a longer one is an input error, not an
   // unbounded allocation.
   std::size_t max_record_bytes = std::size_t{64} << 20;
+  // Keep the SHA-256 of the input for content_sha256() (a cost per byte;
+  // readers that never ask can turn it off).
+  bool keep_sha256 = true;
 };
 
 class CsvReader {
@@ -61,12 +65,14 @@ class CsvReader {
   // stray text after a closing quote, a NUL byte or an over-long record.
   bool next(Record& record);
 
-  // Bytes consumed so far, and the total size when the input is a regular file.
+  // Bytes consumed so far, and the total size when the input is a regular
+  // file (for gzip input, both count the compressed bytes, and bytes_read()
+  // runs ahead of the records by what is buffered).
   std::uint64_t bytes_read() const noexcept;
   std::optional<std::uint64_t> total_bytes() const noexcept;
 
-  // SHA-256 of every byte read so far, as lowercase hex; call after the last
-  // record for the whole input.
+  // SHA-256 of every byte read so far (as stored: compressed bytes for gzip
+  // input), as lowercase hex; call after the last record for the whole input.
   std::string content_sha256() const;
 
  private:

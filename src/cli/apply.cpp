@@ -135,9 +135,9 @@ Command add_apply_command(CLI::App& app) {
       "appears only when the whole input has been read without error.\n\n"
       "Examples:\n"
       "  plumb apply late.map.json tonight.csv -o tonight.calibrated.csv\n"
-      "  zcat big.csv.gz | plumb apply late.map.json - --as p_late | next-step");
+      "  plumb apply late.map.json big.csv.gz --as p_late | next-step");
   cmd->add_option("map", o->artifact, "Map artifact written by plumb fit")->required();
-  cmd->add_option("file", o->file, "CSV or TSV file with a header row; - or nothing reads standard input")
+  cmd->add_option("file", o->file, "CSV or TSV file with a header row, plain or gzip; - or nothing reads standard input")
       ->default_str("-");
   cmd->add_option("--score", o->score, "Column holding the raw score (default: the column the map was fitted on)");
   cmd->add_option("--as", o->as, "Name of the new column (default: the score column's name + _calibrated)");

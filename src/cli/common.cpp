@@ -23,7 +23,7 @@ void add_quiet_option(CLI::App& command, bool& quiet) {
 }
 
 void add_input_options(CLI::App& command, InputOptions& o, bool with_label) {
-  command.add_option("file", o.file, "CSV or TSV file with a header row; - or nothing reads standard input")
+  command.add_option("file", o.file, "CSV or TSV file with a header row, plain or gzip; - or nothing reads standard input")
       ->default_str("-");
   command.add_option("--score", o.score, "Column holding the raw score (name or 1-based index)")->required();
   if (with_label) {

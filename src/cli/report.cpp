@@ -173,7 +173,7 @@ Command add_report_command(CLI::App& app) {
       "  plumb report --score risk_cal --label missed --max ece=0.02 --max mcb=0.004 -q scored.csv || page-the-on-call\n\n"
       "Cautions: a calibrated score is only as good as the data it was checked on; recalibration is not\n"
       "model validation; credit, insurance and health uses follow local rules and licensed practice.");
-  cmd->add_option("file", o->input.file, "CSV or TSV file with a header row; - or nothing reads standard input")
+  cmd->add_option("file", o->input.file, "CSV or TSV file with a header row, plain or gzip; - or nothing reads standard input")
       ->default_str("-");
   cmd->add_option("--score", o->scores, "Forecast column to report, a probability in [0, 1] (repeatable; side by side)")
       ->allow_extra_args(false);

@@ -72,7 +72,8 @@ std::string_view number_problem(std::string_view text) noexcept {
 }
 
 CsvReader::CsvReader(const std::string& path, const CsvOptions& options)
-    : source_(std::make_unique<ByteSource>(path)), options_(options) {
+    : source_(std::make_unique<ByteSource>(path, ByteSourceOptions{options.keep_sha256, /*decompress=*/true})),
+      options_(options) {
   name_ = source_->name();
   buffer_.resize(initial_buffer);
   Location loc;
@@ -90,7 +91,8 @@ CsvReader::CsvReader(const std::string& path, const CsvOptions& options)
 
   delimiter_ = options.delimiter;
   if (delimiter_ == 0) {
-    if (ends_with(name_, ".tsv") || ends_with(name_, ".tab")) {
+    if (ends_with(name_, ".tsv") || ends_with(name_, ".tab") || ends_with(name_, ".tsv.gz") ||
+        ends_with(name_, ".tab.gz")) {
       delimiter_ = '\t';
     } else {
       // Look at the first line only.
@@ -130,7 +132,10 @@ CsvReader::CsvReader(const std::string& path, const CsvOptions& options)
 
 CsvReader::~CsvReader() = default;
 
-std::uint64_t CsvReader::bytes_read() const noexcept { return source_->bytes_read() - (end_ - begin_); }
+std::uint64_t CsvReader::bytes_read() const noexcept {
+  if (source_->compressed()) return source_->bytes_read();
+  return source_->bytes_read() - (end_ - begin_);
+}
 std::optional<std::uint64_t> CsvReader::total_bytes() const noexcept { return source_->total_bytes(); }
 std::string CsvReader::content_sha256() const { return source_->sha256_hex(); }
 
