@@ -96,7 +96,9 @@ struct ScoreTally {
 };
 ScoreTally tally_by_score(const FitData& data);
 
-// Fit a map of `kind` to `data` (the parametric kinds on tally_by_score(data)). Throws plumb::Error: usage for an unknown
+// Fit a map of `kind` to `data`. Every kind is fitted on tally_by_score(data),
+// never on the rows, so a map fitted from a tally of the same rows
+// (fit_map_on_tally, plumb/tally.hpp) is bit-identical. Throws plumb::Error: usage for an unknown
 // kind or a scale the kind does not accept; fit when the data cannot support
 // the fit (no rows of positive weight, only one class). Precondition: every
 // score is valid on data.scale and every label is 0 or 1.

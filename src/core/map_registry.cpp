@@ -13,6 +13,7 @@
 #include "plumb/maps/isotonic_map.hpp"
 #include "plumb/maps/platt_map.hpp"
 #include "plumb/maps/temperature_map.hpp"
+#include "plumb/tally.hpp"
 
 namespace plumb {
 namespace {
@@ -20,26 +21,23 @@ namespace {
 struct Entry {
   std::string_view kind;
   bool fittable;     // false: made by another command, only ever loaded
-  bool merge_rows;   // fit on tally_by_score: iterative fits whose cost grows with the rows
   bool (*accepts)(Scale) noexcept;
   std::unique_ptr<CalibrationMap> (*fit)(const FitData&, const MapOptions&);
   std::unique_ptr<CalibrationMap> (*load)(Scale, const nlohmann::json&, const std::string&);
 };
 
 template <class M>
-constexpr Entry entry(std::string_view kind, bool merge_rows, bool fittable = true) {
-  return Entry{kind, fittable, merge_rows, &M::accepts, &M::fit, &M::from_parameters};
+constexpr Entry entry(std::string_view kind, bool fittable = true) {
+  return Entry{kind, fittable, &M::accepts, &M::fit, &M::from_parameters};
 }
 
 constexpr std::array registry{
-    // Isotonic and histogram maps pool tied scores themselves in one pass
-    // after their sort; the parametric maps iterate over every row.
-    entry<IsotonicMap>("isotonic", /*merge_rows=*/false),
-    entry<PlattMap>("platt", /*merge_rows=*/true),
-    entry<BetaMap>("beta", /*merge_rows=*/true),
-    entry<TemperatureMap>("temperature", /*merge_rows=*/true),
-    entry<HistogramMap>("histogram", /*merge_rows=*/false),
-    entry<FoldAverageMap>("fold_average", /*merge_rows=*/false, /*fittable=*/false),
+    entry<IsotonicMap>("isotonic"),
+    entry<PlattMap>("platt"),
+    entry<BetaMap>("beta"),
+    entry<TemperatureMap>("temperature"),
+    entry<HistogramMap>("histogram"),
+    entry<FoldAverageMap>("fold_average", /*fittable=*/false),
 };
 
 constexpr std::size_t fittable_count =
@@ -68,33 +66,9 @@ std::string kind_list() {
 }  // namespace
 
 ScoreTally tally_by_score(const FitData& data) {
-  const std::size_t n = data.score.size();
-  std::vector<std::size_t> order(n);
-  std::iota(order.begin(), order.end(), std::size_t{0});
-  // Stable, so rows of one score are summed in input order whoever calls.
-  if (!std::is_sorted(data.score.begin(), data.score.end()))
-    std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return data.score[a] < data.score[b]; });
-  ScoreTally t;
-  for (std::size_t k = 0; k < n;) {
-    const double s = data.score[order[k]];
-    double positive = 0.0, negative = 0.0;
-    for (; k < n && data.score[order[k]] == s; ++k) {
-      const std::size_t i = order[k];
-      const double w = data.weight.empty() ? 1.0 : data.weight[i];
-      (data.label[i] > 0.5 ? positive : negative) += w;
-    }
-    if (negative > 0.0) {
-      t.score.push_back(s);
-      t.label.push_back(0.0);
-      t.weight.push_back(negative);
-    }
-    if (positive > 0.0) {
-      t.score.push_back(s);
-      t.label.push_back(1.0);
-      t.weight.push_back(positive);
-    }
-  }
-  return t;
+  Tally t;
+  tally_scores(data, t);
+  return to_score_tally(t);
 }
 
 std::span<const std::string_view> map_kinds() noexcept { return kind_names; }
@@ -104,17 +78,25 @@ bool accepts_scale(std::string_view kind, Scale scale) noexcept {
   return e && e->accepts(scale);
 }
 
-std::unique_ptr<CalibrationMap> fit_map(std::string_view kind, const FitData& data, const MapOptions& options) {
+namespace {
+
+// Every kind is fitted on the per-score sums, whether they came from rows
+// or from a tally file, so that both give bit-identical maps: the sums are
+// the same numbers (exactly so for unweighted rows), and the fit never sees
+// the rows themselves. For the parametric kinds it also makes each Newton
+// step pass over far fewer entries.
+std::unique_ptr<CalibrationMap> fit_on_sums(std::string_view kind, const Tally& sums, Scale scale,
+                                            const MapOptions& options) {
   const Entry* e = find(kind);
   if (!e) throw Error(ErrorKind::usage, "unknown map kind", {}, std::string(kind), "one of " + kind_list());
-  if (!e->accepts(data.scale))
+  if (!e->accepts(scale))
     throw Error(ErrorKind::usage, "the " + std::string(kind) + " map does not accept scores on the " +
-                                      std::string(to_string(data.scale)) + " scale",
+                                      std::string(to_string(scale)) + " scale",
                 {}, {}, "a --scale this map accepts (see plumb fit --help)");
   double w_pos = 0.0, w_neg = 0.0;
-  for (std::size_t i = 0; i < data.score.size(); ++i) {
-    const double w = data.weight.empty() ? 1.0 : data.weight[i];
-    (data.label[i] > 0.5 ? w_pos : w_neg) += w;
+  for (std::size_t i = 0; i < sums.score.size(); ++i) {
+    w_pos += sums.positive[i];
+    w_neg += sums.negative[i];
   }
   if (!(w_pos + w_neg > 0.0)) throw Error(ErrorKind::fit, "no rows of positive weight to fit");
   if (!(w_pos > 0.0) || !(w_neg > 0.0))
@@ -122,21 +104,29 @@ std::unique_ptr<CalibrationMap> fit_map(std::string_view kind, const FitData& da
                 std::string("the calibration rows hold only ") + (w_pos > 0.0 ? "positive" : "negative") +
                     " labels",
                 {}, {}, "both positive and negative labels");
-  if (!e->merge_rows) return e->fit(data, options);
-  // A parametric fit depends on the rows only through the weight of
-  // positives and of negatives at each distinct score, so the rows are
-  // merged to that first: exact up to the order of additions, and the same
-  // for every caller (fit and cross-fit give bit-identical maps on the same
-  // rows), while each Newton step passes over far fewer entries.
-  const ScoreTally tally = tally_by_score(data);
-  std::unique_ptr<CalibrationMap> map = e->fit(FitData{tally.score, tally.label, tally.weight, data.scale}, options);
-  // Clipping is reported per input row, not per merged entry.
+  const ScoreTally entries = to_score_tally(sums);
+  std::unique_ptr<CalibrationMap> map =
+      e->fit(FitData{entries.score, entries.label, entries.weight, scale}, options);
+  // Clipping is reported per input row of positive weight, not per entry.
   FitDiagnostics d = map->diagnostics();
   d.clipped = 0;
-  for (std::size_t i = 0; i < data.score.size(); ++i)
-    if ((data.weight.empty() || data.weight[i] > 0.0) && map->map(data.score[i]).clipped) ++d.clipped;
+  for (std::size_t i = 0; i < sums.score.size(); ++i)
+    if (map->map(sums.score[i]).clipped) d.clipped += sums.count[i];
   map->restore_diagnostics(std::move(d));
   return map;
+}
+
+}  // namespace
+
+std::unique_ptr<CalibrationMap> fit_map(std::string_view kind, const FitData& data, const MapOptions& options) {
+  Tally sums;
+  tally_scores(data, sums);
+  return fit_on_sums(kind, sums, data.scale, options);
+}
+
+std::unique_ptr<CalibrationMap> fit_map_on_tally(std::string_view kind, const Tally& tally,
+                                                 const MapOptions& options) {
+  return fit_on_sums(kind, tally, tally.scale, options);
 }
 
 std::unique_ptr<CalibrationMap> load_map(std::string_view kind, Scale scale, const nlohmann::json& parameters,
