@@ -14,5 +14,7 @@ Command add_apply_command(CLI::App& app);
 Command add_inspect_command(CLI::App& app);
 Command add_report_command(CLI::App& app);
 Command add_cross_fit_command(CLI::App& app);
+Command add_tally_command(CLI::App& app);
+Command add_merge_command(CLI::App& app);
 
 }  // namespace plumb::cli

@@ -292,6 +292,12 @@ Command add_cross_fit_command(CLI::App& app) {
       "      --oof oof.csv -o late.map.json holdout.csv\n"
       "  plumb cross-fit --score risk --label missed --split time=night --final folds holdout.csv > late.map.json");
   add_input_options(*cmd, o->input, true);
+  // Checked when the command runs, so that --tally gets its own message.
+  cmd->get_option("--score")->required(false)->description("Column holding the raw score (name or 1-based index); required");
+  cmd->get_option("--label")->required(false)->description("Column holding the observed outcome (name or 1-based index); required");
+  auto tally = std::make_shared<std::string>();
+  cmd->add_option("--tally", *tally,
+                  "Not accepted: folds split rows and a tally has merged them (see the message it gives)");
   cmd->add_option("--map", o->maps, "Candidates: auto, or a comma list such as isotonic,platt,beta")
       ->default_str("auto");
   cmd->add_option("--folds", o->folds, "Number of folds (with --split given=COLUMN, the column decides)")
@@ -311,7 +317,18 @@ Command add_cross_fit_command(CLI::App& app) {
       ->default_str("refit");
   add_map_options(*cmd, o->choices);
   cmd->add_flag("--no-timestamp", o->no_timestamp, "Leave the creation time out of the artifact");
-  return [o] { return run_cross_fit(*o); };
+  return [o, tally] {
+    if (!tally->empty())
+      throw Error(ErrorKind::usage,
+                  "cross-fit cannot read a tally: its folds split the rows, and a tally has merged rows of equal "
+                  "score across every fold",
+                  {}, *tally,
+                  "cross-fit on the rows (or a sample of them), then plumb fit --map KIND --tally FILE for the "
+                  "chosen kind");
+    if (o->input.score.empty() || o->input.label.empty())
+      throw Error(ErrorKind::usage, "cross-fit needs --score and --label", {}, {}, "--score COL --label COL FILE");
+    return run_cross_fit(*o);
+  };
 }
 
 }  // namespace plumb::cli

@@ -8,6 +8,9 @@
 #include "plumb/calibration_map.hpp"
 #include "plumb/error.hpp"
 #include "plumb/output.hpp"
+#include "plumb/tally.hpp"
+#include "plumb/tally_io.hpp"
+#include "plumb/version.hpp"
 
 namespace plumb::cli {
 namespace {
@@ -23,15 +26,70 @@ struct FitOptions {
   std::string output = "-";
   MapChoices choices;
   bool no_timestamp = false;
+  std::string tally;               // fit on this tally instead of rows
+  std::vector<std::string> given;  // row-reading options given on the command line
 };
 
-int run_fit(const FitOptions& o) {
-  const Scale scale = parse_scale_option(o.input.scale);
+// The artifact's provenance for a map fitted on a tally: the tally file is
+// the source; every count and range is the tally's, so they equal those of
+// a fit on the rows the tally was built from.
+Provenance provenance_of_tally(const Tally& t, const std::string& file, const std::string& sha256,
+                               bool no_timestamp) {
+  Provenance p;
+  p.source = file;
+  p.source_sha256 = sha256;
+  p.rows = t.rows;
+  p.positives = t.positives;
+  p.weight_total = t.weight_total;
+  p.label_column = t.label_column;
+  p.weight_column = t.weight_column;
+  p.positive_rule = t.positive_rule;
+  p.score_min = t.score_min;
+  p.score_max = t.score_max;
+  p.tool = std::string("plumb ") + version_string;
+  p.created_utc = no_timestamp ? std::string() : utc_now();
+  return p;
+}
+
+int write_and_summarise(const FitOptions& o, const Artifact& artifact, const std::string& from);
+
+void check_scale(const FitOptions& o, Scale scale, std::string_view scale_name) {
   if (!accepts_scale(o.kind, scale))
     throw Error(ErrorKind::usage,
-                "the " + o.kind + " map does not accept scores on the " + o.input.scale + " scale", {}, {},
+                "the " + o.kind + " map does not accept scores on the " + std::string(scale_name) + " scale", {}, {},
                 o.kind == "beta" ? "--scale probability (beta calibration works on ln(s) and ln(1-s))"
                                  : "--scale probability or logit (temperature divides log-odds)");
+}
+
+int run_fit(const FitOptions& o) {
+  if (!o.tally.empty()) {
+    if (!o.given.empty())
+      throw Error(ErrorKind::usage, o.given.front() + " cannot be used with --tally", {}, {},
+                  "--tally alone: the tally records its score and label columns, scale, weights and label rule");
+  } else if (o.input.score.empty() || o.input.label.empty()) {
+    throw Error(ErrorKind::usage, "fit needs --score and --label (or --tally FILE)", {}, {},
+                "--score COL --label COL FILE, or --tally FILE");
+  }
+  const Scale scale = o.tally.empty() ? parse_scale_option(o.input.scale) : Scale::probability;
+  if (!o.tally.empty()) {
+    std::string sha256;
+    const Tally tally = load_tally(o.tally, &sha256);
+    check_scale(o, tally.scale, to_string(tally.scale));
+    Artifact artifact;
+    Location loc;
+    loc.file = o.tally;
+    try {
+      artifact.map = fit_map_on_tally(o.kind, tally, o.choices.map_options());
+    } catch (const Error& e) {
+      if (e.kind() != ErrorKind::fit || !e.where().file.empty()) throw;
+      throw Error(e.kind(), e.message(), loc, e.value(), e.expected());
+    }
+    artifact.score_column = tally.score_column;
+    artifact.fit_options = o.choices.recorded(o.kind);
+    artifact.provenance = provenance_of_tally(tally, o.tally == "-" ? "<stdin>" : o.tally, sha256, o.no_timestamp);
+    return write_and_summarise(o, artifact, "tally " + artifact.provenance.source);
+  }
+  check_scale(o, scale, o.input.scale);
   const MapOptions map_options = o.choices.map_options();
 
   const io::LabelledRows rows = read_rows_with_progress(
@@ -49,7 +107,11 @@ int run_fit(const FitOptions& o) {
   artifact.score_column = rows.score_columns[0];
   artifact.fit_options = o.choices.recorded(o.kind);
   artifact.provenance = provenance_of(rows, o.input, o.no_timestamp);
+  return write_and_summarise(o, artifact, grouped(rows.rows) + " rows of " + rows.source);
+}
 
+int write_and_summarise(const FitOptions& o, const Artifact& artifact, const std::string& from) {
+  const Provenance& rows = artifact.provenance;
   io::OutputFile out(o.output);
   out.write(artifact_to_text(artifact));
   out.commit();
@@ -58,8 +120,8 @@ int run_fit(const FitOptions& o) {
     const FitDiagnostics& d = artifact.map->diagnostics();
     std::string notes;
     for (const std::string& n : d.notes) notes += "; " + n;
-    std::fprintf(stderr, "plumb fit: %s map from %s rows of %s (weight of positives %s of %s), log loss %.6f%s; written to %s\n",
-                 o.kind.c_str(), grouped(rows.rows).c_str(), rows.source.c_str(), shortest(rows.positives).c_str(),
+    std::fprintf(stderr, "plumb fit: %s map from %s (weight of positives %s of %s), log loss %.6f%s; written to %s\n",
+                 o.kind.c_str(), from.c_str(), shortest(rows.positives).c_str(),
                  shortest(rows.weight_total).c_str(), d.log_loss, notes.c_str(), out.name().c_str());
     if (!d.converged)
       std::fprintf(stderr, "plumb fit: warning: the fit did not converge after %d iterations (are the labels "
@@ -94,7 +156,11 @@ Command add_fit_command(CLI::App& app) {
       "  histogram    equal-mass bins, each mapped to its observed frequency\n\n"
       "Examples:\n"
       "  plumb fit --map isotonic --score risk --label missed holdout.csv -o late.map.json\n"
-      "  plumb fit --map platt --scale logit --score z --label outcome --positive late holdout.tsv > z.map.json\n\n"
+      "  plumb fit --map platt --scale logit --score z --label outcome --positive late holdout.tsv > z.map.json\n"
+      "  plumb fit --map isotonic --tally all.tally.json -o late.map.json\n\n"
+      "With --tally (from plumb tally and merge) the map is the one a fit on all the tallied rows gives:\n"
+      "every kind fits on the per-score sums, which a tally keeps. Only the recorded source (the tally\n"
+      "file and its SHA-256) differs in the artifact.\n\n"
       "The artifact records the input's SHA-256, row counts and the fit's diagnostics; see docs/artifact-format.md.");
   std::string kinds;
   for (std::string_view k : map_kinds()) kinds += (kinds.empty() ? "" : "|") + std::string(k);
@@ -104,12 +170,22 @@ Command add_fit_command(CLI::App& app) {
     return std::string("unknown map kind '") + k + "'";
   });
   add_input_options(*cmd, o->input, true);
+  // Required unless --tally is given; run_fit checks.
+  cmd->get_option("--score")->required(false)->description("Column holding the raw score (name or 1-based index); required unless --tally");
+  cmd->get_option("--label")->required(false)->description("Column holding the observed outcome (name or 1-based index); required unless --tally");
+  cmd->add_option("--tally", o->tally,
+                  "Fit on a tally from plumb tally or merge instead of rows (no FILE, --score, --label, --weight, "
+                  "--positive, --scale or --sep: the tally records them)");
   cmd->add_option("-o,--output", o->output, "Where to write the map artifact (- for standard output)")
       ->default_str("-");
   add_map_options(*cmd, o->choices);
   cmd->add_flag("--no-timestamp", o->no_timestamp,
                 "Leave the creation time out, so the same input gives a byte-identical artifact");
-  return [o] { return run_fit(*o); };
+  return [o, cmd] {
+    for (const char* name : {"file", "--score", "--label", "--weight", "--positive", "--scale", "--sep"})
+      if (cmd->count(name) > 0) o->given.push_back(name[0] == '-' ? name : "a FILE of rows");
+    return run_fit(*o);
+  };
 }
 
 }  // namespace plumb::cli

@@ -18,7 +18,9 @@ int main(int argc, char** argv) {
       "  plumb apply late.map.json tonight.csv -o tonight.calibrated.csv\n"
       "  plumb cross-fit --map auto --score risk --label missed holdout.csv -o late.map.json\n"
       "  plumb report --score risk --map late.map.json --label missed holdout.csv --svg chart.svg\n"
-      "  plumb inspect late.map.json\n\n"
+      "  plumb inspect late.map.json\n"
+      "  plumb tally --score risk --label missed part-0001.csv -o part-0001.tally.json\n"
+      "  plumb merge part-*.tally.json -o all.tally.json\n\n"
       "Run 'plumb COMMAND --help' for each command's options.",
       "plumb"};
   app.footer(
@@ -39,6 +41,8 @@ int main(int argc, char** argv) {
   add(plumb::cli::add_cross_fit_command);
   add(plumb::cli::add_report_command);
   add(plumb::cli::add_inspect_command);
+  add(plumb::cli::add_tally_command);
+  add(plumb::cli::add_merge_command);
 
   try {
     app.parse(argc, argv);

@@ -14,6 +14,8 @@
 #include "plumb/output.hpp"
 #include "plumb/report.hpp"
 #include "plumb/report_render.hpp"
+#include "plumb/tally.hpp"
+#include "plumb/tally_io.hpp"
 
 namespace plumb::cli {
 namespace {
@@ -34,7 +36,53 @@ struct ReportCliOptions {
   std::vector<std::string> max;
   std::string json_path, svg_path, markdown_path;
   bool ascii = false;
+  std::string tally;               // report on this tally instead of rows
+  std::vector<std::string> given;  // row-reading options given on the command line
 };
+
+// The rows a tally of unweighted rows stands for, in score order (at each
+// score its negatives, then its positives): a reordering of the rows it was
+// built from, which is all the report needs (its figures and its bootstrap
+// treat the rows as a set). Every requested column is the tally's score.
+io::LabelledRows rows_of_tally(const ReportCliOptions& o, const io::LabelledColumns& columns) {
+  const Tally t = load_tally(o.tally);
+  Location loc;
+  loc.file = o.tally;
+  if (!t.unit_weights)
+    throw Error(ErrorKind::usage,
+                "report --tally reads tallies of unweighted rows only: with weights, the report's effective "
+                "sample sizes need each row's weight, which a tally has summed",
+                loc, t.weight_column, "a tally made without --weight, or plumb report on the rows");
+  for (const io::ScoreColumn& c : columns.scores) {
+    if (c.column != t.score_column)
+      throw Error(ErrorKind::usage, "the tally holds column '" + t.score_column + "', not the column asked for", loc,
+                  c.column, "--score " + t.score_column + ", or a --map fitted on that column");
+    if (c.scale != t.scale)
+      throw Error(ErrorKind::usage,
+                  "the tally holds scores on the " + std::string(to_string(t.scale)) + " scale, not the " +
+                      std::string(to_string(c.scale)) + " scale asked for",
+                  loc, c.column, "--score for probability tallies, --map of a map fitted on the tally's scale");
+  }
+  io::LabelledRows rows;
+  std::vector<double> score;
+  score.reserve(t.rows);
+  rows.label.reserve(t.rows);
+  for (std::size_t i = 0; i < t.score.size(); ++i) {
+    score.insert(score.end(), t.count[i], t.score[i]);
+    rows.label.insert(rows.label.end(), static_cast<std::size_t>(t.negative[i]), 0.0);
+    rows.label.insert(rows.label.end(), static_cast<std::size_t>(t.positive[i]), 1.0);
+  }
+  rows.scores.assign(columns.scores.size(), score);
+  rows.score_columns.assign(columns.scores.size(), t.score_column);
+  rows.source = o.tally == "-" ? "<stdin>" : o.tally;
+  rows.label_column = t.label_column;
+  rows.rows = t.rows;
+  rows.positives = t.positives;
+  rows.weight_total = t.weight_total;
+  rows.score_min = t.score_min;
+  rows.score_max = t.score_max;
+  return rows;
+}
 
 // Below this many scores outside the fitted range a mapped column is quiet.
 constexpr double outside_share_caution = 0.01;
@@ -97,8 +145,15 @@ int run_report(const ReportCliOptions& o) {
   columns.label = o.input.label;
   columns.weight = o.input.weight;
   columns.segment = o.by;
+  if (!o.tally.empty() && !o.given.empty())
+    throw Error(ErrorKind::usage, o.given.front() + " cannot be used with --tally", {}, {},
+                "--tally alone: the tally records its columns and label rule, and has no segments");
+  if (o.tally.empty() && o.input.label.empty())
+    throw Error(ErrorKind::usage, "report needs --label (or --tally FILE)", {}, {}, "--label COL FILE, or --tally FILE");
 
-  const io::LabelledRows rows = read_rows_with_progress("plumb report: reading", o.input, columns);
+  const io::LabelledRows rows = o.tally.empty()
+                                    ? read_rows_with_progress("plumb report: reading", o.input, columns)
+                                    : rows_of_tally(o, columns);
 
   std::vector<std::vector<double>> mapped;
   std::vector<ForecastColumn> forecasts;
@@ -170,7 +225,11 @@ Command add_report_command(CLI::App& app) {
       "Examples:\n"
       "  plumb report --score risk --score risk_cal --label missed --by depot scored.csv\n"
       "  plumb report --map late.map.json --score risk --label missed holdout.csv --svg reliability.svg\n"
-      "  plumb report --score risk_cal --label missed --max ece=0.02 --max mcb=0.004 -q scored.csv || page-the-on-call\n\n"
+      "  plumb report --score risk_cal --label missed --max ece=0.02 --max mcb=0.004 -q scored.csv || page-the-on-call\n"
+      "  plumb report --score risk --map late.map.json --tally all.tally.json\n\n"
+      "With --tally the report is that of the tallied rows (the figures are sums over rows, which the\n"
+      "tally keeps per score; the bootstrap resamples the rows the tally stands for, holding them in\n"
+      "memory as the rows would be). Tallies with weights and segments (--by) are not supported.\n\n"
       "Cautions: a calibrated score is only as good as the data it was checked on; recalibration is not\n"
       "model validation; credit, insurance and health uses follow local rules and licensed practice.");
   cmd->add_option("file", o->input.file, "CSV or TSV file with a header row, plain or gzip; - or nothing reads standard input")
@@ -181,8 +240,11 @@ Command add_report_command(CLI::App& app) {
                   "Map artifact to apply on the fly to the column it was fitted on, reported beside the raw "
                   "scores (repeatable)")
       ->allow_extra_args(false);
-  cmd->add_option("--label", o->input.label, "Column holding the observed outcome (name or 1-based index)")
-      ->required();
+  cmd->add_option("--label", o->input.label,
+                  "Column holding the observed outcome (name or 1-based index); required unless --tally");
+  cmd->add_option("--tally", o->tally,
+                  "Report on a tally of unweighted rows (from plumb tally or merge) instead of rows; --score "
+                  "names its column. No FILE, --label, --weight, --positive, --by or --sep");
   cmd->add_option("--weight", o->input.weight, "Column of non-negative row weights (default: every row weighs 1)");
   cmd->add_option("--positive", o->input.positive,
                   "Label value that counts as the positive outcome; every other value is then negative")
@@ -219,7 +281,11 @@ Command add_report_command(CLI::App& app) {
   cmd->add_flag("--ascii", o->ascii, "Draw the terminal chart with ASCII characters only");
   add_separator_option(*cmd, o->input.separator);
   cmd->add_flag("-q,--quiet", o->input.quiet, "No terminal report and no progress (files and gates still work)");
-  return [o] { return run_report(*o); };
+  return [o, cmd] {
+    for (const char* name : {"file", "--label", "--weight", "--positive", "--by", "--sep"})
+      if (cmd->count(name) > 0) o->given.push_back(name[0] == '-' ? name : "a FILE of rows");
+    return run_report(*o);
+  };
 }
 
 }  // namespace plumb::cli

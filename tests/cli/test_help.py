@@ -11,7 +11,7 @@ class Help(unittest.TestCase):
     def test_every_option_is_in_the_reference(self):
         with open(os.path.join(SOURCE_DIR, "docs", "cli.md")) as f:
             reference = f.read()
-        for command in ("fit", "apply", "cross-fit", "report", "inspect"):
+        for command in ("fit", "apply", "cross-fit", "report", "inspect", "tally", "merge"):
             rc, out, err = run(command, "--help")
             self.assertEqual(rc, 0, err)
             options = set(re.findall(r"^\s+(?:-\w,)?(--[\w-]+)", out, re.M))
@@ -22,7 +22,7 @@ class Help(unittest.TestCase):
     def test_top_level_help(self):
         rc, out, _ = run("--help")
         self.assertEqual(rc, 0)
-        for word in ("fit", "apply", "cross-fit", "report", "inspect", "Exit codes"):
+        for word in ("fit", "apply", "cross-fit", "report", "inspect", "tally", "merge", "Exit codes"):
             self.assertIn(word, out)
         rc, out, _ = run("fit", "--help")
         for kind in ("isotonic", "platt", "beta", "temperature", "histogram"):

@@ -1,0 +1,27 @@
+#pragma once
+// The tally file: a Tally as one JSON document (docs/tally-format.md,
+// docs/tally.schema.json).
+#include <string>
+
+#include "plumb/tally.hpp"
+
+namespace plumb {
+
+// The whole document. Deterministic: the same tally gives the same bytes;
+// every double is written in the shortest form that reads back to it.
+std::string tally_to_text(const Tally& tally);
+
+// Parse and validate a document; `where` names it in messages. Refuses with
+// plumb::Error(artifact), naming the field: text that is not JSON (with line
+// and column), another format, an unknown format version, missing or
+// mistyped fields, non-finite or negative numbers, scores outside their
+// scale or not strictly ascending, arrays of different lengths, counts that
+// do not add up, and a grid on the margin scale.
+Tally tally_from_text(const std::string& text, const std::string& where);
+
+// Read a file ("-" for standard input) and parse it as above; `sha256`
+// (if given) receives the SHA-256 of its bytes. plumb::Error(io) if it
+// cannot be read.
+Tally load_tally(const std::string& path, std::string* sha256 = nullptr);
+
+}  // namespace plumb
