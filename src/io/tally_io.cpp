@@ -211,6 +211,9 @@ Tally tally_from_text(const std::string& text, const std::string& where) {
     if (!(t.positive[i] >= 0.0)) jf::fail(where, "positive" + at, "is negative", "a weight >= 0");
     if (!(t.negative[i] + t.positive[i] > 0.0))
       jf::fail(where, "positive" + at, "and negative" + at + " are both 0", "a score with rows of positive weight");
+    if (t.unit_weights && (std::floor(t.negative[i]) != t.negative[i] || std::floor(t.positive[i]) != t.positive[i]))
+      jf::fail(where, "negative" + at, "or positive" + at + " is not a whole number although unit_weights is true",
+               "counts of rows when every row weighs 1");
     if (t.unit_weights && t.negative[i] + t.positive[i] != static_cast<double>(t.count[i]))
       jf::fail(where, "count" + at, "differs from the weight of its rows although unit_weights is true",
                "negative + positive = count when every row weighs 1");

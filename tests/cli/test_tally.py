@@ -372,6 +372,8 @@ class Refusals(TallyCase):
             (dict(doc, grid={"space": "logit", "step": 0}), "field 'grid.step' is not positive"),
             ({k: v for k, v in doc.items() if k != "label_column"}, "field 'label_column' is missing"),
             (dict(doc, format="plumb-map"), "not a plumb tally"),
+            (dict(doc, negative=[doc["negative"][0] - 0.5] + doc["negative"][1:],
+                  positive=[doc["positive"][0] + 0.5] + doc["positive"][1:]), "is not a whole number"),
         ]
         for bad, fragment in cases:
             write(self.path("bad.json"), json.dumps(bad))
