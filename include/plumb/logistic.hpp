@@ -27,7 +27,13 @@ struct LogisticFit {
 // than 1e-6. At most `max_iterations` Newton steps are taken; a separated
 // data set (no finite maximum) ends with converged == false and finite
 // coefficients, because every step is a finite, line-searched Newton step.
-// Throws plumb::Error(internal) on inconsistent sizes.
+// A feature column whose largest magnitude lies outside [2^-32, 2^32] (margins
+// near 1e300 or 1e-300) is scaled by a power of two before the iteration and
+// its coefficient scaled back after, exactly, so that x^2 in the Hessian
+// neither overflows nor underflows; other columns are used as given.
+// Throws plumb::Error(internal) on inconsistent sizes, and plumb::Error(fit)
+// when a coefficient scaled back is too large for a double (features all
+// within about 1e-300 of 0 with a steep fit).
 LogisticFit fit_logistic(std::span<const double> features, std::size_t k,
                          std::span<const double> target, std::span<const double> weight,
                          bool intercept = true, int max_iterations = 100);

@@ -4,6 +4,7 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <vector>
 
 #include "plumb/error.hpp"
 #include "plumb/scale.hpp"
@@ -115,7 +116,30 @@ LogisticFit fit_logistic(std::span<const double> features, std::size_t k, std::s
   if (features.size() != n * k || (!weight.empty() && weight.size() != n) || (k == 0 && !intercept))
     throw Error(ErrorKind::internal, "fit_logistic: inconsistent feature, target or weight sizes");
 
-  const Problem problem(features, k, target, weight, intercept);
+  // Features of extreme magnitude (margins near 1e300, or near 1e-300) would
+  // overflow or underflow the Hessian's x^2 terms, and the solver would stop
+  // at once with a zero step. Such a column is scaled by a power of two to a
+  // largest magnitude in [1/2, 1); the fit is equivariant under the scaling
+  // (eta = beta x), and a power of two keeps it exact, so the coefficient is
+  // scaled back by the same power at the end. Ordinary columns are left as
+  // they are, so their fits do not change by a bit.
+  std::vector<int> exponent(k, 0);
+  std::vector<double> scaled;
+  for (std::size_t j = 0; j < k; ++j) {
+    double largest = 0.0;
+    for (std::size_t i = 0; i < n; ++i)
+      if (weight.empty() || weight[i] > 0.0) largest = std::max(largest, std::abs(features[j * n + i]));
+    if (largest > 0.0 && std::isfinite(largest) && (largest > 0x1p32 || largest < 0x1p-32))
+      exponent[j] = std::ilogb(largest) + 1;
+  }
+  const bool rescale = std::any_of(exponent.begin(), exponent.end(), [](int e) { return e != 0; });
+  if (rescale) {
+    scaled.assign(features.begin(), features.end());
+    for (std::size_t j = 0; j < k; ++j)
+      for (std::size_t i = 0; i < n; ++i) scaled[j * n + i] = std::ldexp(scaled[j * n + i], -exponent[j]);
+  }
+
+  const Problem problem(rescale ? std::span<const double>(scaled) : features, k, target, weight, intercept);
   const auto d = static_cast<Eigen::Index>(problem.dim());
   Eigen::VectorXd beta = Eigen::VectorXd::Zero(d);
   const Eigen::VectorXd tolerance = problem.gradient_tolerance();
@@ -176,6 +200,13 @@ LogisticFit fit_logistic(std::span<const double> features, std::size_t k, std::s
   }
 
   fit.coef.assign(beta.data(), beta.data() + beta.size());
+  for (std::size_t j = 0; j < k; ++j) {
+    fit.coef[j] = std::ldexp(fit.coef[j], -exponent[j]);
+    if (!std::isfinite(fit.coef[j]))
+      throw Error(ErrorKind::fit,
+                  "the fitted slope is too large for a double: every score lies extremely close to 0", {},
+                  {}, "scores rescaled to ordinary magnitudes");
+  }
   fit.deviance = 2.0 * ev.loss;
   return fit;
 }

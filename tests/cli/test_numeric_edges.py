@@ -191,6 +191,55 @@ class NumericEdges(PlumbCase):
         doc, _ = self.fit("isotonic", self.path("ends.csv"))
         self.assertEqual(doc["parameters"]["block_score_lo"][:2], [0.0, 1e-300])
 
+    def test_log_odds_near_1e300_and_1e_minus_300_fit_like_ordinary_ones(self):
+        # platt and temperature depend on the score only through A f and z / T,
+        # so scores multiplied by 2^k fit the same curve with A / 2^k and
+        # T 2^k (exactly, for a power of two). Before the fit rescaled such
+        # scores, x^2 overflowed its Hessian and platt stopped at a = b = 0,
+        # calling that converged. (beta takes probability scores only, whose
+        # features ln(s) and -ln(1 - s) are at most about 28 after clipping.)
+        g = Lcg(29)
+        base = []
+        for _ in range(400):
+            z = 8.0 * g.uniform() - 4.0
+            base.append((round(z, 3), 1 if g.uniform() < 1.0 / (1.0 + math.exp(-0.7 * z + 0.3)) else 0))
+        write(self.path("plain.csv"), "risk,missed\n" + "".join(f"{z!r},{y}\n" for z, y in base))
+        plain = {k: self.fit(k, self.path("plain.csv"), "--scale", "logit", "-q")[0] for k in ("platt", "temperature")}
+        probe = [-3.0, -0.5, 0.0, 1.0, 3.5]
+        for k in (1000, -1000):
+            rows = "".join(f"{math.ldexp(z, k)!r},{y}\n" for z, y in base)
+            write(self.path("extreme.csv"), "risk,missed\n" + rows)
+            for kind in ("platt", "temperature"):
+                what = f"{kind}, scores times 2^{k}"
+                doc, err = self.fit(kind, self.path("extreme.csv"), "--scale", "logit")
+                self.assertNotIn("warning", err, what)
+                self.assertTrue(doc["fit"]["converged"], what)
+                p, q = doc["parameters"], plain[kind]["parameters"]
+                if kind == "platt":
+                    self.assertNotEqual(p["a"], 0.0, what)
+                    self.assertAlmostEqual(math.ldexp(p["a"], k) / q["a"], 1.0, delta=1e-9, msg=what)
+                    self.assertAlmostEqual(p["b"], q["b"], delta=1e-9, msg=what)
+                else:
+                    self.assertAlmostEqual(math.ldexp(p["temperature"], -k) / q["temperature"], 1.0, delta=1e-9,
+                                           msg=what)
+                self.assertAlmostEqual(doc["fit"]["log_loss"], plain[kind]["fit"]["log_loss"], delta=1e-12,
+                                       msg=what)
+                got = self.apply(self.path(f"{kind}.json"), [repr(math.ldexp(z, k)) for z in probe])
+                self.fit(kind, self.path("plain.csv"), "--scale", "logit", "-q")
+                expected = self.apply(self.path(f"{kind}.json"), [repr(z) for z in probe])
+                for x, y in zip(got, expected):
+                    self.assertAlmostEqual(x, y, delta=1e-9, msg=what)
+
+    def test_log_odds_too_close_to_0_for_a_platt_slope_are_refused(self):
+        # Scores within 4e-323 of 0: the slope that fits them exceeds the
+        # largest double. Refused as a fit error (docs/methods_parametric.md).
+        write(self.path("tiny.csv"), "risk,missed\n-3e-322,0\n-2e-322,0\n-1e-322,1\n1e-322,0\n2e-322,1\n3e-322,1\n")
+        out = self.path("p.json")
+        self.assert_refused(["fit", "--map", "platt", "--scale", "logit", "--score", "risk", "--label", "missed",
+                             self.path("tiny.csv"), "-o", out], 6,
+                            "tiny.csv: the fitted slope is too large for a double: every score lies extremely "
+                            "close to 0; expected scores rescaled to ordinary magnitudes", output=out)
+
     # --- weights over 24 orders of magnitude --------------------------------
 
     def weighted_rows(self):

@@ -142,3 +142,54 @@ TEST_CASE("temperature matches R optimize on the weighted log loss", "[temperatu
                                                                     << ", largest log-loss difference "
                                                                     << largest_loss);
 }
+
+TEST_CASE("platt and temperature fit scores of magnitude 1e300 and 1e-300 like R does at ordinary ones",
+          "[platt][temperature][reference]") {
+  // Reference: the R answers above (stats::glm for platt, stats::optimize for
+  // temperature) on the margin and logit cases, with every score multiplied
+  // by 2^k. The model depends on the score only through A f (or z / T), so
+  // the exact answer on the rescaled rows is A 2^-k (or T 2^k) with B
+  // unchanged; a power of two keeps the rescaled rows exact. Before the fit
+  // rescaled such columns, x^2 overflowed or underflowed in the Hessian and
+  // platt stopped at A = B = 0, reporting convergence.
+  const std::string& platt_dir = r_output("platt_glm.R");
+  const Columns platt = plumb::test::read_numeric_csv(platt_dir + "/platt_answers.csv");
+  const std::string& temp_dir = r_output("temperature_optimize.R");
+  const Columns temps = plumb::test::read_numeric_csv(temp_dir + "/temperature_answers.csv");
+  int platt_checked = 0, temp_checked = 0;
+  for (const int k : {1000, -1000}) {
+    for (std::size_t r = 0; r < platt.at("case").size(); ++r) {
+      const int id = static_cast<int>(platt.at("case")[r]);
+      if (id != 2 && id != 3) continue;  // pima_logit, pima_margin
+      Case c = load_case(platt_dir, id);
+      for (double& s : c.rows.at("score")) s = std::ldexp(s, k);
+      plumb::FitData data = c.data();
+      data.scale = case_scales[id];
+      plumb::MapOptions opt;
+      opt.platt_smoothed_targets = platt.at("smoothed")[r] > 0.5;
+      const auto m = plumb::PlattMap::fit(data, opt);
+      const auto& p = dynamic_cast<const plumb::PlattMap&>(*m);
+      INFO("platt, case " << case_names[id] << " times 2^" << k);
+      CHECK(m->diagnostics().converged);
+      CHECK(rel_diff(std::ldexp(p.a(), k), platt.at("a")[r]) < 1e-6);
+      CHECK(std::abs(p.b() - platt.at("b")[r]) < 1e-6);
+      ++platt_checked;
+    }
+    for (std::size_t r = 0; r < temps.at("case").size(); ++r) {
+      const int id = static_cast<int>(temps.at("case")[r]);
+      if (id != 2) continue;  // pima_logit
+      Case c = load_case(temp_dir, id);
+      for (double& s : c.rows.at("score")) s = std::ldexp(s, k);
+      plumb::FitData data = c.data();
+      data.scale = plumb::Scale::logit;
+      const auto m = plumb::TemperatureMap::fit(data, {});
+      const double t = dynamic_cast<const plumb::TemperatureMap&>(*m).temperature();
+      INFO("temperature, case " << case_names[id] << " times 2^" << k);
+      CHECK(m->diagnostics().converged);
+      CHECK(rel_diff(std::ldexp(t, -k), temps.at("temperature")[r]) < 1e-6);
+      ++temp_checked;
+    }
+  }
+  CHECK(platt_checked == 8);
+  CHECK(temp_checked == 2);
+}

@@ -1,7 +1,9 @@
 // Property tests of the weighted logistic solver on seeded simulations.
 #include <catch2/catch.hpp>
+#include <algorithm>
 #include <cmath>
 #include <random>
+#include <string>
 #include <vector>
 
 #include "plumb/error.hpp"
@@ -153,5 +155,52 @@ TEST_CASE("logistic: inconsistent sizes are an internal error", "[logistic]") {
     FAIL("expected plumb::Error");
   } catch (const plumb::Error& e) {
     CHECK(e.kind() == plumb::ErrorKind::internal);
+  }
+}
+
+TEST_CASE("logistic: features near 1e300 or 1e-300 fit as their rescaled copies do", "[logistic]") {
+  // eta = beta x: multiplying a feature by 2^k divides its coefficient by
+  // 2^k and leaves the intercept and the likelihood as they were. Features
+  // whose largest magnitude is in [1/2, 1) come back exactly from the
+  // solver's own power-of-two rescaling, so the results agree to the bit.
+  std::mt19937_64 rng(31);
+  std::uniform_real_distribution<double> unif(0.0, 3.0);
+  Simulated s = simulate(2000, {1.2}, -0.4, 14);
+  double largest = 0.0;
+  for (double v : s.x) largest = std::max(largest, std::abs(v));
+  for (double& v : s.x) v = std::ldexp(v, -(std::ilogb(largest) + 1));
+  std::vector<double> w(s.y.size());
+  for (double& v : w) v = unif(rng);
+  const plumb::LogisticFit base = plumb::fit_logistic(s.x, 1, s.y, w);
+  REQUIRE(base.converged);
+  for (int k : {1000, 40, -40, -990}) {
+    INFO("features times 2^" << k);
+    std::vector<double> x(s.x);
+    for (double& v : x) v = std::ldexp(v, k);
+    const plumb::LogisticFit fit = plumb::fit_logistic(x, 1, s.y, w);
+    CHECK(fit.converged);
+    CHECK(fit.iterations == base.iterations);
+    CHECK(fit.coef[0] == std::ldexp(base.coef[0], -k));
+    CHECK(fit.coef[1] == base.coef[1]);
+    CHECK(fit.deviance == base.deviance);
+  }
+}
+
+TEST_CASE("logistic: a slope too large for a double is a fit error", "[logistic]") {
+  // Subnormal features: the slope that fits them is about 2^1070, beyond the
+  // largest double (about 2^1024).
+  const std::vector<double> x{-3, -2, -1, 1, 2, 3, -1, 1};
+  const std::vector<double> y{0, 0, 1, 0, 1, 1, 0, 1};
+  std::vector<double> tiny(x);
+  for (double& v : tiny) v = std::ldexp(v, -1070);
+  const plumb::LogisticFit ordinary = plumb::fit_logistic(x, 1, y, {});
+  REQUIRE(ordinary.converged);
+  REQUIRE(ordinary.coef[0] > 0.1);
+  try {
+    plumb::fit_logistic(tiny, 1, y, {});
+    FAIL("no error");
+  } catch (const plumb::Error& e) {
+    CHECK(e.kind() == plumb::ErrorKind::fit);
+    CHECK(std::string(e.what()).find("too large for a double") != std::string::npos);
   }
 }

@@ -419,3 +419,49 @@ TEST_CASE("temperature: parameters round-trip and validation", "[temperature]") 
   CHECK(artifact_error({{"temperature", std::numeric_limits<double>::quiet_NaN()}}));
   CHECK(artifact_error({{"temperature", "1"}}));
 }
+
+TEST_CASE("temperature: log-odds near 1e300 or 1e-300 fit as their rescaled copies do", "[temperature]") {
+  // sigmoid(z / T): multiplying every z by 2^k multiplies T by 2^k. Log-odds
+  // whose largest magnitude is in [1/2, 1) come back exactly from the fit's
+  // own power-of-two rescaling, so the temperatures agree to the bit.
+  Rows r = simulate(
+      3000, 46, [](std::mt19937_64& g) { return std::uniform_real_distribution<double>(-0.99, 0.99)(g); },
+      [](double z) { return plumb::sigmoid(z / 0.2); });
+  const auto base = TemperatureMap::fit(r.data(Scale::logit), MapOptions{});
+  const double t0 = dynamic_cast<const TemperatureMap&>(*base).temperature();
+  REQUIRE(base->diagnostics().converged);
+  CHECK(t0 == Approx(0.2).epsilon(0.15));
+  for (int k : {1000, -990}) {
+    INFO("log-odds times 2^" << k);
+    Rows scaled = r;
+    for (double& z : scaled.score) z = std::ldexp(z, k);
+    const auto m = TemperatureMap::fit(scaled.data(Scale::logit), MapOptions{});
+    CHECK(m->diagnostics().converged);
+    CHECK(dynamic_cast<const TemperatureMap&>(*m).temperature() == std::ldexp(t0, k));
+    CHECK(m->diagnostics().log_loss == base->diagnostics().log_loss);
+  }
+  // Near the bottom of the doubles the fitted T is below the smallest one.
+  Rows tiny = r;
+  for (double& z : tiny.score) z = std::ldexp(z, -1073);
+  CHECK(error_kind([&] { TemperatureMap::fit(tiny.data(Scale::logit), MapOptions{}); }) == plumb::ErrorKind::fit);
+}
+
+TEST_CASE("platt: margins near 1e300 no longer stop at a = b = 0", "[platt]") {
+  // The former failure: x^2 overflowed the Hessian at the first step, the
+  // step came out zero and the fit reported convergence at a = b = 0.
+  Rows r;
+  const double x[] = {-1e300, -5e299, -2e299, 1e299, 3e299, 8e299, 1e300};
+  const double y[] = {0, 1, 0, 1, 0, 1, 1};
+  for (int i = 0; i < 7; ++i) {
+    r.score.push_back(x[i]);
+    r.label.push_back(y[i]);
+  }
+  MapOptions opt;
+  opt.platt_smoothed_targets = false;
+  const auto m = PlattMap::fit(r.data(Scale::margin), opt);
+  const auto& p = dynamic_cast<const PlattMap&>(*m);
+  CHECK(m->diagnostics().converged);
+  CHECK(p.a() < 0.0);
+  CHECK(std::isfinite(p.a()));
+  CHECK((*m)(1e300) > (*m)(-1e300));
+}

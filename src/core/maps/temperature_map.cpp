@@ -1,6 +1,8 @@
 #include "plumb/maps/temperature_map.hpp"
 
+#include <algorithm>
 #include <cmath>
+#include <string>
 #include <limits>
 #include <vector>
 
@@ -63,6 +65,26 @@ std::unique_ptr<CalibrationMap> TemperatureMap::fit(const FitData& data, const M
     if ((positive && z[i] < 0.0) || (!positive && z[i] > 0.0)) separated = false;
   }
 
+  // Log-odds of extreme magnitude (near 1e300 or 1e-300 on the logit scale)
+  // would overflow or underflow z^2 in L''. They are scaled by a power of two
+  // to a largest magnitude in [1/2, 1) and the temperature is scaled back at
+  // the end: the fit depends on z only through beta z, and a power of two
+  // keeps the scaling exact. Ordinary log-odds (every probability score) are
+  // used as given.
+  double largest = 0.0;
+  for (std::size_t i = 0; i < n; ++i)
+    if (parametric::weight_at(data, i) > 0.0) largest = std::max(largest, std::abs(z[i]));
+  int exponent = 0;
+  if (largest > 0.0 && (largest > 0x1p32 || largest < 0x1p-32)) {
+    exponent = std::ilogb(largest) + 1;
+    for (double& v : z) v = std::ldexp(v, -exponent);
+    scale_of_z = 0.0;
+    for (std::size_t i = 0; i < n; ++i) {
+      const double w = parametric::weight_at(data, i);
+      if (w > 0.0) scale_of_z += w * std::abs(z[i]);
+    }
+  }
+
   // L is convex in beta, so the optimum is at beta > 0 exactly when L'(0) < 0.
   const double tolerance = 1e-12 * scale_of_z;
   const Derivatives at_zero = derivatives(z, data, 0.0);
@@ -101,7 +123,14 @@ std::unique_ptr<CalibrationMap> TemperatureMap::fit(const FitData& data, const M
     }
   }
 
-  auto map = std::make_unique<TemperatureMap>(data.scale, 1.0 / beta);
+  // T = 1 / (beta 2^-exponent), exact but for the one division.
+  const double temperature = std::ldexp(1.0 / beta, exponent);
+  if (!(temperature > 0.0) || !std::isfinite(temperature))
+    throw Error(ErrorKind::fit,
+                std::string("the fitted temperature is ") + (temperature > 0.0 ? "too large" : "too small") +
+                    " for a double on the scale of these log-odds",
+                {}, {}, "log-odds rescaled to ordinary magnitudes");
+  auto map = std::make_unique<TemperatureMap>(data.scale, temperature);
   map->diagnostics_.iterations = steps;
   map->diagnostics_.converged = converged;
   map->diagnostics_.clipped = clipped;
