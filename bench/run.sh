@@ -21,7 +21,7 @@
 #
 # Every timed command runs under /usr/bin/time -v (wall clock and peak
 # resident memory) with its output sent to /dev/null. A full run at 10^7
-# rows takes about 15 minutes, most of it the report's bootstrap and R.
+# rows should take about 15 minutes, most of it the report's bootstrap and R.
 set -euo pipefail
 root=$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)
 # shellcheck source=../cmake/setup.sh
