@@ -19,7 +19,9 @@ class ByteSource;
 
 struct Record {
   std::string_view raw;        // the record's bytes, without its line end
-  std::string_view line_end;   // "\n", "\r\n" or "" (last record without one)
+  // "\n", "\r\n" or "" (last record without one); "\r" for a last record
+  // cut off after the CR of a CRLF, as a file truncated there ends.
+  std::string_view line_end;
   std::vector<std::string_view> fields;  // unescaped field values
   std::uint64_t line = 0;      // physical line on which the record starts
 };
@@ -64,6 +66,20 @@ class CsvReader {
   // call. Throws plumb::Error(input) on a ragged row, an unclosed quote,
   // stray text after a closing quote, a NUL byte or an over-long record.
   bool next(Record& record);
+
+  // Bulk reading for streaming passes that check fields themselves: hands
+  // over, appended to `out`, the unread bytes up to the last line end among
+  // the next `max_bytes` (or up to the end of the input), when those lines
+  // hold no quote character, and sets `first_line` to the physical line they
+  // start on. Blank lines, field counts and NUL bytes in them are not
+  // checked: that is the caller's job. Bulk and next() may alternate.
+  enum class Bulk { lines, quoted, end };
+  // lines: bytes were appended. quoted: the next line holds a quote (or is
+  // longer than max_bytes); read it with next(). end: no more input.
+  Bulk take_lines(std::string& out, std::size_t max_bytes, std::uint64_t& first_line);
+  // Whether a quote character lies among the next `bytes` unread bytes (of
+  // those already buffered): when not, take_lines() will take them in bulk.
+  bool quote_ahead(std::size_t bytes) const noexcept;
 
   // Bytes consumed so far, and the total size when the input is a regular
   // file (for gzip input, both count the compressed bytes, and bytes_read()

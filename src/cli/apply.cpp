@@ -3,9 +3,11 @@
 #include <charconv>
 #include <cstdio>
 #include <string>
+#include <thread>
 
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
+#include "plumb/apply_stream.hpp"
 #include "plumb/artifact.hpp"
 #include "plumb/csv.hpp"
 #include "plumb/error.hpp"
@@ -23,6 +25,7 @@ struct ApplyOptions {
   std::string output = "-";
   std::string missing = "stop";
   std::string separator = "auto";
+  unsigned threads = 0;
   bool quiet = false;
 };
 
@@ -37,17 +40,13 @@ std::string quoted_if_needed(const std::string& text, char delimiter) {
   return out + "\"";
 }
 
-bool blank(std::string_view t) {
-  return t.find_first_not_of(" \t") == std::string_view::npos;
-}
-
 int run_apply(const ApplyOptions& o) {
   const Artifact artifact = load_artifact(o.artifact);
   const CalibrationMap& map = *artifact.map;
-  const Scale scale = map.scale();
 
   io::CsvOptions csv;
   csv.delimiter = parse_separator(o.separator);
+  csv.keep_sha256 = false;
   io::CsvReader reader(o.file, csv);
   const std::string score_spec = o.score.empty() ? artifact.score_column : o.score;
   const std::size_t score_col = reader.column(score_spec, "score");
@@ -69,46 +68,22 @@ int run_apply(const ApplyOptions& o) {
   out.write(quoted_if_needed(new_name, delim));
   out.write(line_end);
 
+  io::ApplyStreamOptions stream;
+  stream.score_column = score_col;
+  stream.missing_is_empty = o.missing == "empty";
+  stream.threads = o.threads == 0 ? std::max(1u, std::thread::hardware_concurrency()) : o.threads;
+  stream.fitted_min = artifact.provenance.score_min;
+  stream.fitted_max = artifact.provenance.score_max;
   Progress progress("plumb apply", o.quiet);
-  const bool missing_is_empty = o.missing == "empty";
-  std::uint64_t rows = 0, outside = 0, clamped = 0, clipped = 0, missing = 0;
-  const double fitted_min = artifact.provenance.score_min, fitted_max = artifact.provenance.score_max;
-  io::Record record;
-  char number[32];
-  while (reader.next(record)) {
-    ++rows;
-    const std::string_view s = record.fields[score_col];
-    out.write(record.raw);
-    out.put(delim);
-    const std::optional<double> score = io::parse_number(s);
-    if (score && valid_on_scale(*score, scale)) {
-      const Mapped m = map.map(*score);
-      outside += (*score < fitted_min || *score > fitted_max) ? 1 : 0;
-      clamped += m.outside_fit_range ? 1 : 0;
-      clipped += m.clipped ? 1 : 0;
-      const auto [end, ec] = std::to_chars(number, number + sizeof number, m.probability);
-      out.write(std::string_view(number, static_cast<std::size_t>(end - number)));
-    } else if (missing_is_empty && blank(s)) {
-      ++missing;
-    } else {
-      Location loc;
-      loc.file = reader.name();
-      loc.line = record.line;
-      loc.column = score_col + 1;
-      loc.column_name = reader.header()[score_col];
-      if (blank(s))
-        throw Error(ErrorKind::input, "the score is missing", loc, std::string(s),
-                    "a score (or --missing empty to write an empty probability and go on)");
-      const io::ScoreProblem why = io::score_problem(s, scale);
-      throw Error(ErrorKind::input, why.message + " (the map was fitted on the " + std::string(to_string(scale)) +
-                                        " scale)",
-                  loc, std::string(s), why.expected);
-    }
-    out.write(line_end);
-    if ((rows & 0xFFFF) == 0) progress.update(rows, reader.bytes_read(), reader.total_bytes());
-  }
+  const io::ApplyCounts counts =
+      io::apply_stream(reader, map, out, stream, [&](std::uint64_t rows, std::uint64_t bytes, auto total) {
+        progress.update(rows, bytes, total);
+      });
   out.commit();
   progress.finish();
+  const std::uint64_t rows = counts.rows, outside = counts.outside, clamped = counts.clamped,
+                      clipped = counts.clipped, missing = counts.missing;
+  const double fitted_min = stream.fitted_min, fitted_max = stream.fitted_max;
 
   if (!o.quiet) {
     std::fprintf(stderr, "plumb apply: %s rows, %s outside the fitted scores [%s, %s] (%s held at the map's end "
@@ -146,6 +121,10 @@ Command add_apply_command(CLI::App& app) {
                   "A blank score: stop with an error, or write an empty probability and count the row")
       ->check(CLI::IsMember({"stop", "empty"}))
       ->default_str("stop");
+  cmd->add_option("--threads", o->threads,
+                  "Threads parsing and mapping rows (0: one per core); the output is the same for any count")
+      ->check(CLI::Range(0, 1024))
+      ->default_str("0");
   add_separator_option(*cmd, o->separator);
   add_quiet_option(*cmd, o->quiet);
   return [o] { return run_apply(*o); };

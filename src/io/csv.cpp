@@ -6,6 +6,10 @@
 #include <cstring>
 #include <set>
 
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
+
 #include "io/byte_source.hpp"
 #include "plumb/error.hpp"
 
@@ -176,6 +180,63 @@ bool CsvReader::fill() {
   if (got == 0) eof_ = true;
   end_ += got;
   return got > 0;
+}
+
+namespace {
+
+// Line ends in [b, e).
+std::uint64_t count_newlines(const char* b, const char* e) noexcept {
+  std::uint64_t n = 0;
+#if defined(__SSE2__)
+  // Sixteen byte counters (each match subtracts -1), summed every 255 steps
+  // before they can wrap.
+  const __m128i nl = _mm_set1_epi8('\n'), zero = _mm_setzero_si128();
+  while (e - b >= 16) {
+    __m128i counts = zero;
+    for (int step = 0; step < 255 && e - b >= 16; ++step, b += 16)
+      counts = _mm_sub_epi8(counts, _mm_cmpeq_epi8(_mm_loadu_si128(reinterpret_cast<const __m128i*>(b)), nl));
+    const __m128i sums = _mm_sad_epu8(counts, zero);
+    n += static_cast<std::uint64_t>(_mm_cvtsi128_si64(sums)) +
+         static_cast<std::uint64_t>(_mm_cvtsi128_si64(_mm_unpackhi_epi64(sums, sums)));
+  }
+#endif
+  for (; b < e; ++b) n += *b == '\n' ? 1 : 0;
+  return n;
+}
+
+}  // namespace
+
+CsvReader::Bulk CsvReader::take_lines(std::string& out, std::size_t max_bytes, std::uint64_t& first_line) {
+  // No line taken in bulk may be longer than a record may be.
+  max_bytes = std::min(max_bytes, options_.max_record_bytes);
+  while (!eof_ && end_ - begin_ < max_bytes) {
+    const std::size_t before = end_ - begin_;
+    fill();
+    if (end_ - begin_ == before && !eof_) break;  // the buffer is at its limit
+  }
+  if (begin_ == end_) return eof_ ? Bulk::end : Bulk::quoted;
+  const char* const b = buffer_.data() + begin_;
+  const std::size_t span = std::min(end_ - begin_, max_bytes);
+  const char* quote = static_cast<const char*>(std::memchr(b, '"', span));
+  const std::size_t clean = quote ? static_cast<std::size_t>(quote - b) : span;
+  const char* last_nl = static_cast<const char*>(::memrchr(b, '\n', clean));
+  std::size_t take = 0;
+  if (last_nl) {
+    take = static_cast<std::size_t>(last_nl - b) + 1;
+  } else if (!quote && eof_ && end_ - begin_ <= max_bytes) {
+    take = end_ - begin_;  // the last line, without a line end
+  } else {
+    return Bulk::quoted;
+  }
+  out.append(b, take);
+  first_line = line_;
+  line_ += count_newlines(b, b + take);
+  begin_ += take;
+  return Bulk::lines;
+}
+
+bool CsvReader::quote_ahead(std::size_t bytes) const noexcept {
+  return std::memchr(buffer_.data() + begin_, '"', std::min(bytes, end_ - begin_)) != nullptr;
 }
 
 bool CsvReader::next(Record& record) {

@@ -29,9 +29,16 @@ std::unique_ptr<CalibrationMap> IsotonicMap::fit(const FitData& data, const MapO
 Mapped IsotonicMap::map(double score) const noexcept {
   if (score < blocks_.front().score_lo) return {blocks_.front().value, true, false};
   if (score > blocks_.back().score_hi) return {blocks_.back().value, true, false};
-  // The last block starting at or before the score.
-  const std::size_t i =
-      static_cast<std::size_t>(std::upper_bound(lo_.begin(), lo_.end(), score) - lo_.begin()) - 1;
+  // The last block starting at or before the score (lo_[0] <= score here).
+  // A binary search whose step is a conditional move, not a branch: scores
+  // arrive in no order, so a branch would be mispredicted half the time.
+  const double* base = lo_.data();
+  for (std::size_t n = lo_.size(); n > 1;) {
+    const std::size_t half = n / 2;
+    base = base[half] <= score ? base + half : base;
+    n -= half;
+  }
+  const std::size_t i = static_cast<std::size_t>(base - lo_.data());
   const PavBlock& left = blocks_[i];
   if (score <= left.score_hi || !interpolate_) return {left.value, false, false};
   const PavBlock& right = blocks_[i + 1];

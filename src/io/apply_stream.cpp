@@ -1,0 +1,407 @@
+#include "plumb/apply_stream.hpp"
+
+#include <charconv>
+#include <condition_variable>
+#include <cstring>
+#include <deque>
+#include <exception>
+#include <memory>
+#include <mutex>
+#include <thread>
+#include <vector>
+
+#include "plumb/error.hpp"
+#include "plumb/labelled_input.hpp"
+#include "plumb/scale.hpp"
+
+namespace plumb::io {
+namespace {
+
+bool blank(std::string_view t) noexcept { return t.find_first_not_of(" \t") == std::string_view::npos; }
+
+// Exact powers of ten: every one up to 1e22 is a double (5^22 < 2^53).
+constexpr double exact_powers_of_ten[] = {1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1e7,  1e8,  1e9,  1e10, 1e11,
+                                          1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22};
+
+// A plain decimal ("0.123456", "-3", "12.5": digits, then optionally a point
+// and digits) read exactly: when its digits as an integer m fit in 53 bits
+// and it has at most 22 decimals, m and 10^k are both doubles and one
+// correctly rounded division gives the correctly rounded value (Clinger,
+// "How to read floating point numbers accurately", PLDI 1990), the same
+// double std::from_chars gives. Anything else is left to parse_number.
+bool read_plain_decimal(const char* p, const char* e, double& value) noexcept {
+  const bool negative = p < e && *p == '-';
+  if (negative) ++p;
+  std::uint64_t m = 0;
+  int digits = 0, decimals = 0;
+  const char* const int_start = p;
+  for (; p < e && static_cast<unsigned>(*p - '0') < 10; ++p, ++digits) m = m * 10 + static_cast<unsigned>(*p - '0');
+  if (p == int_start) return false;
+  if (p < e && *p == '.') {
+    const char* const frac_start = ++p;
+    for (; p < e && static_cast<unsigned>(*p - '0') < 10; ++p, ++digits)
+      m = m * 10 + static_cast<unsigned>(*p - '0');
+    decimals = static_cast<int>(p - frac_start);
+    if (decimals == 0) return false;
+  }
+  if (p != e || digits > 19 || decimals > 22 || m > (std::uint64_t{1} << 53)) return false;
+  const double v = static_cast<double>(m) / exact_powers_of_ten[decimals];
+  value = negative ? -v : v;
+  return true;
+}
+
+// What stopped a block: the first bad record in it.
+struct Failure {
+  enum class Kind { none, ragged, nul, score } kind = Kind::none;
+  std::uint64_t line = 0;
+  std::size_t column = 0;  // 1-based (nul)
+  std::size_t fields = 0;  // (ragged)
+  std::string value;       // the score text (score)
+};
+
+// One block of whole records and what became of it.
+struct Block {
+  std::string in;  // the records with their line ends, as read
+  std::uint64_t first_line = 0;
+  // Records read by CsvReader::next() (blocks with quotes): where each lies
+  // in `in`, and its score field unescaped into `scores`.
+  struct Parsed {
+    std::size_t raw_offset, raw_length, end_length, score_offset, score_length;
+    std::uint64_t line;
+  };
+  bool parsed = false;
+  std::vector<Parsed> records;
+  std::string scores;
+
+  std::string out;
+  std::size_t out_size = 0;
+  ApplyCounts counts;
+  Failure failure;
+  std::exception_ptr crash;  // anything but a Failure (out of memory)
+  // An error met while reading the records after this block's; raised once
+  // the block itself has been checked, so that errors come in input order.
+  std::exception_ptr read_error;
+  bool done = false;
+
+  void reset() {
+    in.clear();
+    records.clear();
+    scores.clear();
+    parsed = false;
+    out_size = 0;
+    counts = {};
+    failure = {};
+    crash = nullptr;
+    read_error = nullptr;
+    done = false;
+  }
+};
+
+// Parses and maps blocks; shared read-only by the workers.
+class Mapper {
+ public:
+  // Room for a record of `raw` bytes and its new field at `w`, growing the
+  // block's output (and moving `w`) when needed.
+  static void reserve(Block& block, char*& w, std::size_t raw) {
+    const std::size_t used = static_cast<std::size_t>(w - block.out.data());
+    const std::size_t need = used + raw + 64;
+    if (need <= block.out.size()) return;
+    block.out.resize(std::max(need, block.out.size() + block.out.size() / 2));
+    w = block.out.data() + used;
+  }
+
+  Mapper(const CalibrationMap& map, const ApplyStreamOptions& o, char delimiter, std::size_t fields)
+      : map_(map), scale_(map.scale()), o_(o), delimiter_(delimiter), fields_(fields) {}
+
+  void run(Block& block) const {
+    try {
+      // Records grow by a delimiter and up to 24 characters of probability;
+      // start with room for typical rows and grow when a record needs more.
+      const std::size_t room = 2 * block.in.size() + 4096;
+      if (block.out.size() < room) block.out.resize(room);
+      if (block.parsed)
+        run_parsed(block);
+      else
+        run_lines(block);
+    } catch (...) {
+      block.crash = std::current_exception();
+    }
+  }
+
+ private:
+  // One record's new field; false (with block.failure set) for a bad score.
+  bool append_probability(Block& block, char*& w, std::string_view text, std::uint64_t line) const {
+    double score = 0.0;
+    bool ok = read_plain_decimal(text.data(), text.data() + text.size(), score);
+    if (!ok) {
+      const std::optional<double> parsed = parse_number(text);
+      ok = parsed.has_value();
+      if (ok) score = *parsed;
+    }
+    if (ok && valid_on_scale(score, scale_)) {
+      const Mapped m = map_.map(score);
+      block.counts.outside += (score < o_.fitted_min || score > o_.fitted_max) ? 1 : 0;
+      block.counts.clamped += m.outside_fit_range ? 1 : 0;
+      block.counts.clipped += m.clipped ? 1 : 0;
+      w = std::to_chars(w, w + 32, m.probability).ptr;
+      return true;
+    }
+    if (o_.missing_is_empty && blank(text)) {
+      ++block.counts.missing;
+      return true;
+    }
+    block.failure.kind = Failure::Kind::score;
+    block.failure.line = line;
+    block.failure.value.assign(text);
+    return false;
+  }
+
+  void run_lines(Block& block) const {
+    const char* p = block.in.data();
+    const char* const end = p + block.in.size();
+    char* w = block.out.data();
+    std::uint64_t line = block.first_line;
+    const std::size_t k = o_.score_column;
+    const char d = delimiter_;
+    while (p < end) {
+      const char* const start = p;
+      const char* field = k == 0 ? p : nullptr;
+      const char* field_end = nullptr;
+      std::size_t delimiters = 0;
+      for (; p < end; ++p) {
+        const char c = *p;
+        if (c == d) {
+          ++delimiters;
+          if (delimiters == k) field = p + 1;
+          else if (delimiters == k + 1) field_end = p;
+        } else if (c == '\n') {
+          break;
+        } else if (c == '\0') {
+          block.failure.kind = Failure::Kind::nul;
+          block.failure.line = line;
+          block.failure.column = delimiters + 1;
+          block.out_size = static_cast<std::size_t>(w - block.out.data());
+          return;
+        }
+      }
+      const char* raw_end = p;
+      if (raw_end > start && raw_end[-1] == '\r') --raw_end;
+      const char* const next = p < end ? p + 1 : p;
+      if (raw_end == start) {  // a blank line
+        line += p < end ? 1 : 0;
+        p = next;
+        continue;
+      }
+      if (delimiters + 1 != fields_) {
+        block.failure.kind = Failure::Kind::ragged;
+        block.failure.line = line;
+        block.failure.fields = delimiters + 1;
+        break;
+      }
+      if (!field_end) field_end = raw_end;  // the score is the last field
+      ++block.counts.rows;
+      const std::size_t raw_length = static_cast<std::size_t>(raw_end - start);
+      reserve(block, w, raw_length);
+      std::memcpy(w, start, raw_length);
+      w += raw_length;
+      *w++ = d;
+      if (!append_probability(block, w, std::string_view(field, static_cast<std::size_t>(field_end - field)), line))
+        break;
+      for (const char* q = raw_end; q < next; ++q) *w++ = *q;
+      line += p < end ? 1 : 0;
+      p = next;
+    }
+    block.out_size = static_cast<std::size_t>(w - block.out.data());
+  }
+
+  void run_parsed(Block& block) const {
+    char* w = block.out.data();
+    for (const Block::Parsed& r : block.records) {
+      ++block.counts.rows;
+      reserve(block, w, r.raw_length + r.end_length);
+      std::memcpy(w, block.in.data() + r.raw_offset, r.raw_length);
+      w += r.raw_length;
+      *w++ = delimiter_;
+      if (!append_probability(block, w, std::string_view(block.scores.data() + r.score_offset, r.score_length),
+                              r.line))
+        break;
+      std::memcpy(w, block.in.data() + r.raw_offset + r.raw_length, r.end_length);
+      w += r.end_length;
+    }
+    block.out_size = static_cast<std::size_t>(w - block.out.data());
+  }
+
+  const CalibrationMap& map_;
+  Scale scale_;
+  ApplyStreamOptions o_;
+  char delimiter_;
+  std::size_t fields_;
+};
+
+// Worker threads taking blocks from a queue.
+class Workers {
+ public:
+  Workers(const Mapper& mapper, unsigned count) : mapper_(mapper) {
+    for (unsigned i = 0; i < count; ++i) threads_.emplace_back([this] { work(); });
+  }
+  ~Workers() {
+    {
+      std::lock_guard<std::mutex> lock(mutex_);
+      stopping_ = true;
+    }
+    wake_workers_.notify_all();
+    for (std::thread& t : threads_) t.join();
+  }
+  Workers(const Workers&) = delete;
+  Workers& operator=(const Workers&) = delete;
+
+  void submit(Block& block) {
+    {
+      std::lock_guard<std::mutex> lock(mutex_);
+      queue_.push_back(&block);
+    }
+    wake_workers_.notify_one();
+  }
+  void wait(Block& block) {
+    std::unique_lock<std::mutex> lock(mutex_);
+    block_done_.wait(lock, [&] { return block.done; });
+  }
+
+ private:
+  void work() {
+    for (;;) {
+      Block* block = nullptr;
+      {
+        std::unique_lock<std::mutex> lock(mutex_);
+        wake_workers_.wait(lock, [&] { return stopping_ || !queue_.empty(); });
+        if (queue_.empty()) return;
+        block = queue_.front();
+        queue_.pop_front();
+      }
+      mapper_.run(*block);
+      {
+        std::lock_guard<std::mutex> lock(mutex_);
+        block->done = true;
+      }
+      block_done_.notify_all();
+    }
+  }
+
+  const Mapper& mapper_;
+  std::mutex mutex_;
+  std::condition_variable wake_workers_, block_done_;
+  std::deque<Block*> queue_;
+  bool stopping_ = false;
+  std::vector<std::thread> threads_;
+};
+
+// Fills `block` from the reader: a run of quote-free lines in bulk or, at a
+// line with quotes, records through next() up to the block size or until
+// the next 16 KiB hold no quote. An error
+// from the reader is kept in block.read_error, after the records read before
+// it. False at the end of the input (and no error).
+bool read_block(CsvReader& reader, Block& block, std::size_t score_column, std::size_t block_bytes) {
+  block.reset();
+  try {
+    switch (reader.take_lines(block.in, block_bytes, block.first_line)) {
+      case CsvReader::Bulk::lines:
+        return true;
+      case CsvReader::Bulk::end:
+        return false;
+      case CsvReader::Bulk::quoted:
+        break;
+    }
+    block.parsed = true;
+    Record record;
+    while (block.in.size() < block_bytes && reader.next(record)) {
+      const std::string_view score = record.fields[score_column];
+      block.records.push_back(Block::Parsed{block.in.size(), record.raw.size(), record.line_end.size(),
+                                            block.scores.size(), score.size(), record.line});
+      block.in.append(record.raw);
+      block.in.append(record.line_end);
+      block.scores.append(score);
+      if (!reader.quote_ahead(std::size_t{16} << 10)) break;
+    }
+    return !block.records.empty();
+  } catch (const Error&) {
+    block.read_error = std::current_exception();
+    return true;
+  }
+}
+
+}  // namespace
+
+ApplyCounts apply_stream(CsvReader& reader, const CalibrationMap& map, OutputFile& out,
+                         const ApplyStreamOptions& options, const ApplyProgress& progress) {
+  const Mapper mapper(map, options, reader.delimiter(), reader.header().size());
+  const unsigned threads = std::max(1u, options.threads);
+  // Blocks in flight: enough for every worker to have one queued behind the
+  // one it is on, while the reading thread writes the oldest.
+  std::vector<std::unique_ptr<Block>> ring;
+  for (unsigned i = 0; i < (threads == 1 ? 1 : 2 * threads + 1); ++i) ring.push_back(std::make_unique<Block>());
+  std::unique_ptr<Workers> workers;
+  if (threads > 1) workers = std::make_unique<Workers>(mapper, threads);
+
+  ApplyCounts total;
+  auto finish = [&](Block& block) {
+    if (workers) workers->wait(block);
+    if (block.crash) std::rethrow_exception(block.crash);
+    out.write(std::string_view(block.out.data(), block.out_size));
+    total.rows += block.counts.rows;
+    total.outside += block.counts.outside;
+    total.clamped += block.counts.clamped;
+    total.clipped += block.counts.clipped;
+    total.missing += block.counts.missing;
+    const Failure& f = block.failure;
+    if (f.kind == Failure::Kind::none) {
+      if (block.read_error) std::rethrow_exception(block.read_error);
+      if (progress) progress(total.rows, reader.bytes_read(), reader.total_bytes());
+      return;
+    }
+    Location loc;
+    loc.file = reader.name();
+    loc.line = f.line;
+    if (f.kind == Failure::Kind::ragged)
+      throw Error(ErrorKind::input,
+                  "row has " + std::to_string(f.fields) + " fields but the header has " +
+                      std::to_string(reader.header().size()),
+                  loc, {}, "the same number of fields as the header");
+    if (f.kind == Failure::Kind::nul) {
+      loc.column = f.column;
+      throw Error(ErrorKind::input, "the input holds a NUL byte", loc, {}, "text (is this a binary file?)");
+    }
+    loc.column = options.score_column + 1;
+    loc.column_name = reader.header()[options.score_column];
+    if (blank(f.value))
+      throw Error(ErrorKind::input, "the score is missing", loc, f.value,
+                  "a score (or --missing empty to write an empty probability and go on)");
+    const ScoreProblem why = score_problem(f.value, map.scale());
+    throw Error(ErrorKind::input,
+                why.message + " (the map was fitted on the " + std::string(to_string(map.scale())) + " scale)", loc,
+                f.value, why.expected);
+  };
+
+  // Blocks are read in order into the ring and finished (written) in the
+  // same order; with workers, up to ring.size() are in flight.
+  std::size_t submitted = 0, finished = 0;
+  for (;;) {
+    if (submitted - finished == ring.size()) {
+      finish(*ring[finished % ring.size()]);
+      ++finished;
+    }
+    Block& block = *ring[submitted % ring.size()];
+    if (!read_block(reader, block, options.score_column, options.block_bytes)) break;
+    if (workers) {
+      workers->submit(block);
+    } else {
+      mapper.run(block);
+      block.done = true;
+    }
+    ++submitted;
+    if (block.read_error) break;  // raised when the block is finished, after any earlier error
+  }
+  while (finished < submitted) finish(*ring[finished++ % ring.size()]);
+  return total;
+}
+
+}  // namespace plumb::io
