@@ -16,4 +16,7 @@ if [ "${PLUMB_SKIP_SANITIZERS:-0}" != 1 ]; then
   # are not made errors here.
   plumb_setup test "$root/build-sanitize" -DCMAKE_BUILD_TYPE=RelWithDebInfo -DPLUMB_SANITIZE=ON -DPLUMB_WERROR=OFF
   (cd "$root/build-sanitize" && ctest --output-on-failure -j 2)
+  # The same commands through both builds give the same bytes: the numbers
+  # do not depend on the optimisation level or the sanitizers.
+  bash "$root/tests/determinism/compare_builds.sh" "$root/build/plumb" "$root/build-sanitize/plumb"
 fi
