@@ -14,6 +14,10 @@
 #include "plumb/labelled_input.hpp"
 #include "plumb/scale.hpp"
 
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
+
 namespace plumb::io {
 namespace {
 
@@ -59,6 +63,35 @@ struct Failure {
   std::string value;       // the score text (score)
 };
 
+// The text of recently written probabilities, by their bits. Shortest
+// round-trip formatting is the costliest step per row; a piecewise-constant
+// map (isotonic within its blocks, histogram) writes a few values over and
+// over, and a hit copies the same bytes std::to_chars would write.
+class ProbabilityText {
+ public:
+  ProbabilityText() : entries_(std::size_t{1} << bits_) {}
+  char* write(char* w, double p) {
+    std::uint64_t key;
+    std::memcpy(&key, &p, sizeof key);
+    Entry& e = entries_[(key * 0x9E3779B97F4A7C15ull) >> (64 - bits_)];
+    if (e.key != key) {
+      e.key = key;
+      e.length = static_cast<std::uint8_t>(std::to_chars(e.text, e.text + sizeof e.text, p).ptr - e.text);
+    }
+    std::memcpy(w, e.text, sizeof e.text);  // the caller has room for a whole entry
+    return w + e.length;
+  }
+
+ private:
+  static constexpr int bits_ = 12;
+  struct Entry {
+    std::uint64_t key = ~std::uint64_t{0};  // a NaN's bits: no probability has them
+    char text[32];
+    std::uint8_t length = 0;
+  };
+  std::vector<Entry> entries_;
+};
+
 // One block of whole records and what became of it.
 struct Block {
   std::string in;  // the records with their line ends, as read
@@ -75,6 +108,7 @@ struct Block {
 
   std::string out;
   std::size_t out_size = 0;
+  ProbabilityText text;  // kept from block to block: it depends on nothing else
   ApplyCounts counts;
   Failure failure;
   std::exception_ptr crash;  // anything but a Failure (out of memory)
@@ -143,7 +177,7 @@ class Mapper {
       block.counts.outside += (score < o_.fitted_min || score > o_.fitted_max) ? 1 : 0;
       block.counts.clamped += m.outside_fit_range ? 1 : 0;
       block.counts.clipped += m.clipped ? 1 : 0;
-      w = std::to_chars(w, w + 32, m.probability).ptr;
+      w = block.text.write(w, m.probability);
       return true;
     }
     if (o_.missing_is_empty && blank(text)) {
@@ -168,12 +202,37 @@ class Mapper {
       const char* field = k == 0 ? p : nullptr;
       const char* field_end = nullptr;
       std::size_t delimiters = 0;
-      for (; p < end; ++p) {
+      // Up to the line end: sixteen bytes at a time while they last (a NUL
+      // among them sends the rest of the line to the byte loop below, which
+      // locates it), then byte by byte.
+      auto delimiter_at = [&](const char* at) {
+        ++delimiters;
+        if (delimiters == k) field = at + 1;
+        else if (delimiters == k + 1) field_end = at;
+      };
+      bool at_line_end = false;
+#if defined(__SSE2__)
+      const __m128i newline16 = _mm_set1_epi8('\n'), delimiter16 = _mm_set1_epi8(d), nul16 = _mm_setzero_si128();
+      while (end - p >= 16) {
+        const __m128i v = _mm_loadu_si128(reinterpret_cast<const __m128i*>(p));
+        const unsigned newlines = static_cast<unsigned>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, newline16)));
+        const unsigned before = newlines ? (newlines & (0u - newlines)) - 1 : 0xFFFFu;
+        if (static_cast<unsigned>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, nul16))) & before) break;
+        for (unsigned m = static_cast<unsigned>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, delimiter16))) & before; m;
+             m &= m - 1)
+          delimiter_at(p + __builtin_ctz(m));
+        if (newlines) {
+          p += __builtin_ctz(newlines);
+          at_line_end = true;
+          break;
+        }
+        p += 16;
+      }
+#endif
+      for (; !at_line_end && p < end; ++p) {
         const char c = *p;
         if (c == d) {
-          ++delimiters;
-          if (delimiters == k) field = p + 1;
-          else if (delimiters == k + 1) field_end = p;
+          delimiter_at(p);
         } else if (c == '\n') {
           break;
         } else if (c == '\0') {
