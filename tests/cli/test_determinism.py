@@ -1,5 +1,6 @@
 """Determinism: the same input, options and seed give byte-identical
-artifacts and outputs on every run and for every thread count. (Across
+artifacts and outputs on every run and for every thread count (report
+and apply take --threads). (Across
 build types: tests/determinism/compare_builds.sh, run by tests/run.sh.)"""
 import os
 import unittest
@@ -84,6 +85,27 @@ class Determinism(PlumbCase):
         self.assertIn("risk", first["<stdout>"])
         other = self.outputs(args(2, seed=4), files)
         self.assertNotEqual(other["r.json"], first["r.json"])
+
+    def test_apply_every_kind_on_one_and_two_threads(self):
+        # Enough rows, with quoted fields, line breaks inside them, a blank
+        # score kept as an empty probability and CRLF line ends, that two
+        # threads really split the work.
+        g = Lcg(41)
+        lines = ["id,note,risk"]
+        for i in range(60000):
+            note = '"a, ""quoted""\nnote"' if i % 97 == 0 else f"n{i}"
+            score = "" if i % 1009 == 0 else f"{g.uniform():.6f}"
+            lines.append(f"{i},{note},{score}")
+        write(self.path("s.csv"), "\r\n".join(lines) + "\r\n")
+        for kind in KINDS:
+            rc, _, err = run("fit", "--map", kind, "--score", "risk", "--label", "missed", "--no-timestamp", "-q",
+                             self.path("d.csv"), "-o", self.path("m.json"))
+            self.assertEqual(rc, 0, err)
+            out = self.assert_same_every_time(
+                lambda t: ["apply", self.path("m.json"), self.path("s.csv"), "--missing", "empty", "--threads",
+                           str(t), "-q", "-o", self.path("out.csv")], ["out.csv"], threads=(1, 2))
+            self.assertEqual(out["out.csv"].count(b"\r\n"), 60001, kind)
+            self.assertEqual(out["out.csv"].count(b'""quoted""\nnote"'), 60000 // 97 + 1, kind)
 
 
 if __name__ == "__main__":

@@ -3,7 +3,7 @@
 #
 # Runs the same commands (every map kind and option that changes the
 # arithmetic, cross-fit with a seed, report with a seeded bootstrap on one
-# and two threads, apply, inspect) with two plumb binaries, say the
+# and two threads, apply on one and two threads, inspect) with two plumb binaries, say the
 # optimised build and the sanitizer build, and checks that every output is
 # byte-identical: the numbers must not depend on the build type.
 #
@@ -47,6 +47,7 @@ run_all() {
   "$plumb" cross-fit --seed 7 --oof oof.csv --json cross-fit.json "${common[@]}" ../holdout.csv -o cross-fit.map.json
   "$plumb" cross-fit --seed 7 --split group=depot --final folds "${common[@]}" ../holdout.csv \
     -o cross-fit-groups.map.json
+  "$plumb" apply platt.json ../tonight.csv --threads 1 -q -o apply-platt-1.csv
   for threads in 1 2; do
     "$plumb" report --score risk --map platt.json --map isotonic.json --label missed --by depot \
       --bootstrap 100 --seed 3 --threads "$threads" --json "report-$threads.json" --svg "report-$threads.svg" \
@@ -55,7 +56,7 @@ run_all() {
   for map in *.json; do
     case $map in report-*|cross-fit.json) continue ;; esac
     "$plumb" inspect "$map" > "inspect-${map%.json}.txt"
-    "$plumb" apply "$map" ../tonight.csv -q -o "apply-${map%.json}.csv"
+    "$plumb" apply "$map" ../tonight.csv --threads 2 -q -o "apply-${map%.json}.csv"
   done
   cd - > /dev/null
 }
@@ -76,4 +77,5 @@ fi
 for ext in json svg md txt; do
   cmp "$work/a/report-1.$ext" "$work/a/report-2.$ext" >&2
 done
+cmp "$work/a/apply-platt-1.csv" "$work/a/apply-platt.csv" >&2
 echo "compare_builds: $count outputs byte-identical between $bin_a and $bin_b"
