@@ -28,7 +28,7 @@ class ExactMessages(PlumbCase):
     def refused(self, args, code, line):
         rc, _, err = run_bytes(*args)
         self.assertEqual(rc, code, err)
-        self.assertEqual(err.decode("utf-8", "backslashreplace"), "plumb: " + line + "\n")
+        self.assertEqual(err.decode("utf-8"), "plumb: " + line + "\n")  # strict: stderr is valid UTF-8
         self.assertFalse(os.path.exists(self.out), f"{self.out} was left behind")
         self.assertEqual([f for f in os.listdir(self.dir) if ".plumb-" in f], [])
 
@@ -83,10 +83,18 @@ class ExactMessages(PlumbCase):
                              + LABELS)
 
     def test_a_label_that_is_not_utf8(self):
-        # The bytes are quoted as they are (not escaped): the line is shown
-        # here with Python's backslash escapes for the two invalid bytes.
+        # Bytes that are not UTF-8 (RFC 3629) are shown escaped, so the
+        # message is valid UTF-8 text; well-formed UTF-8 is shown as it is.
         self.fit_refused(b"risk,missed\n0.3,\xff\xfe\n", INPUT,
                          ":2:2 (column 'missed'): the label is neither positive nor negative: got '\\xff\\xfe'; "
+                         + LABELS)
+        self.fit_refused("risk,missed\n0.3,spät\n".encode(), INPUT,
+                         ":2:2 (column 'missed'): the label is neither positive nor negative: got 'spät'; " + LABELS)
+        # A truncated sequence and an overlong form are not UTF-8 either.
+        self.fit_refused(b"risk,missed\n0.3,a\xc3\n", INPUT,
+                         ":2:2 (column 'missed'): the label is neither positive nor negative: got 'a\\xc3'; " + LABELS)
+        self.fit_refused(b"risk,missed\n0.3,\xc0\xaf\n", INPUT,
+                         ":2:2 (column 'missed'): the label is neither positive nor negative: got '\\xc0\\xaf'; "
                          + LABELS)
 
     def test_weights(self):
