@@ -362,15 +362,22 @@ bool CsvReader::read_record(Record& record) {
       break;
     }
 
+    // The limit counts the record's bytes with its line end. A complete
+    // record is held to it too: otherwise whether a long record is refused
+    // would depend on how many bytes one read happened to return.
+    const std::size_t seen = static_cast<std::size_t>((complete ? next : e) - b);
+    if (seen > options_.max_record_bytes) {
+      const std::size_t limit = options_.max_record_bytes;
+      Location loc;
+      loc.file = name_;
+      loc.line = line_;
+      throw Error(ErrorKind::input,
+                  "a record is longer than " +
+                      (limit % (std::size_t{1} << 20) == 0 ? std::to_string(limit >> 20) + " MiB"
+                                                          : std::to_string(limit) + " bytes"),
+                  loc, {}, "shorter lines (is the file truncated or missing line ends?)");
+    }
     if (!complete) {
-      if (static_cast<std::size_t>(e - b) > options_.max_record_bytes) {
-        Location loc;
-        loc.file = name_;
-        loc.line = line_;
-        throw Error(ErrorKind::input,
-                    "a record is longer than " + std::to_string(options_.max_record_bytes >> 20) + " MiB", loc, {},
-                    "shorter lines (is the file truncated or missing line ends?)");
-      }
       fill();
       continue;
     }
