@@ -2,6 +2,7 @@
 
 #include <fstream>
 #include <iterator>
+#include <limits>
 #include <sstream>
 
 #include "core/json_fields.hpp"
@@ -162,7 +163,12 @@ Artifact artifact_from_text(const std::string& text, const std::string& where) {
   const json& fit = jf::require(doc, "fit", where, "fit");
   a.fit_options = jf::require(fit, "options", where, "fit.options");
   FitDiagnostics d;
-  d.iterations = static_cast<int>(jf::require_count(fit, "iterations", where, "fit.iterations"));
+  // FitDiagnostics holds an int: a larger count would wrap to a negative
+  // number, which plumb would then write and refuse to read back.
+  const std::uint64_t iterations = jf::require_count(fit, "iterations", where, "fit.iterations");
+  if (iterations > static_cast<std::uint64_t>(std::numeric_limits<int>::max()))
+    jf::fail(where, "fit.iterations", "is too large", "a count below 2^31");
+  d.iterations = static_cast<int>(iterations);
   d.converged = jf::require_bool(fit, "converged", where, "fit.converged");
   d.log_loss = jf::require_finite(fit, "log_loss", where, "fit.log_loss");
   d.clipped = static_cast<std::size_t>(jf::require_count(fit, "clipped_rows", where, "fit.clipped_rows"));
