@@ -43,14 +43,19 @@ struct BootstrapResult {
 
 // Poisson bootstrap (each row's weight multiplied by an independent
 // Poisson(1) count, the usual large-n stand-in for multinomial resampling).
-// The rows are sorted by forecast once; each replicate is then one pass over
-// the sorted rows for every metric (bins, Brier, PAV via pav_fit_sorted, AUC
-// with tie groups), so a replicate costs O(n) and no re-sort.
+// The rows are sorted by forecast once and, without weights, the rows of
+// one forecast and label merged into a cell of n rows whose replicate
+// weight is one Poisson(n) draw (the law of the sum of n Poisson(1)); each
+// replicate is then one pass over the cells for every metric (bins, Brier,
+// PAV via pav_fit_sorted, AUC with tie groups), so a replicate costs O(cells)
+// and no re-sort. Within a cell the sum of squared row weights (for the
+// debiased l2's effective sizes) is its expectation given the cell's total
+// t, t + t(t - 1)/n. With weights every row is a cell.
 // Determinism: replicate r draws from std::mt19937_64 seeded with
 // splitmix64(seed + (r + 1) * 0x9E3779B97F4A7C15) and turns each 64-bit draw
-// into a Poisson(1) count by inversion of its distribution function, so the
-// intervals depend only on (rows, options), not on the thread count or the
-// standard library. replicates == 0 gives Error(usage).
+// into a Poisson count by inversion of its distribution function, so the
+// intervals depend only on (rows, options), not on the thread count.
+// replicates == 0 gives Error(usage).
 BootstrapResult bootstrap_metrics(std::span<const double> forecast,
                                   std::span<const double> label,
                                   std::span<const double> weight,

@@ -1,6 +1,7 @@
 #include "plumb/bootstrap.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <limits>
 #include <numeric>
@@ -45,6 +46,35 @@ unsigned poisson1(std::mt19937_64& gen) noexcept {
   while (u >= cdf && k < 40) {
     ++k;
     term /= k;
+    cdf += term;
+  }
+  return k;
+}
+
+// Poisson(n): the total count of n rows that each draw Poisson(1), which is
+// what the bootstrap needs for n tied rows of equal weight. By inversion for
+// n up to 64 (e^-64 is far from underflow), else as the sum of n Poisson(1).
+std::uint64_t poisson_n(std::mt19937_64& gen, std::uint64_t n) noexcept {
+  if (n == 1) return poisson1(gen);
+  if (n > 64) {
+    std::uint64_t k = 0;
+    for (std::uint64_t i = 0; i < n; ++i) k += poisson1(gen);
+    return k;
+  }
+  // e^-n once for every n, not once per cell and replicate.
+  static const std::array<double, 65> exp_minus = [] {
+    std::array<double, 65> t{};
+    for (std::size_t i = 0; i < t.size(); ++i) t[i] = std::exp(-static_cast<double>(i));
+    return t;
+  }();
+  const double lambda = static_cast<double>(n), u = uniform01(gen);
+  // Beyond mean + 40 sd the remaining mass is below the spacing of u.
+  const std::uint64_t cap = n + 40 * static_cast<std::uint64_t>(std::ceil(std::sqrt(lambda))) + 40;
+  double term = exp_minus[n], cdf = term;
+  std::uint64_t k = 0;
+  while (u >= cdf && k < cap) {
+    ++k;
+    term *= lambda / static_cast<double>(k);
     cdf += term;
   }
   return k;
@@ -138,33 +168,63 @@ BootstrapResult bootstrap_metrics(std::span<const double> forecast,
   std::iota(order.begin(), order.end(), std::size_t{0});
   std::stable_sort(order.begin(), order.end(),
                    [&](std::size_t a, std::size_t b) { return forecast[a] < forecast[b]; });
-  std::vector<double> p(n), y(n), base(n);
-  for (std::size_t k = 0; k < n; ++k) {
-    p[k] = forecast[order[k]];
-    y[k] = label[order[k]];
-    base[k] = detail::weight_at(weight, order[k]);
+  // Cells in forecast order: without weights, the rows of one forecast and
+  // label are one cell of `count` rows (a replicate draws its total weight
+  // as one Poisson(count), the sum of their Poisson(1) counts); with
+  // weights, every row is a cell of its own.
+  std::vector<double> p, y, base;
+  std::vector<std::uint64_t> count;
+  if (weight.empty()) {
+    for (std::size_t k = 0; k < n;) {
+      const double f = forecast[order[k]];
+      std::uint64_t tally[2] = {0, 0};
+      for (; k < n && forecast[order[k]] == f; ++k) ++tally[label[order[k]] > 0.5 ? 1 : 0];
+      for (int l = 0; l < 2; ++l) {
+        if (tally[l] == 0) continue;
+        p.push_back(f);
+        y.push_back(l);
+        base.push_back(1.0);
+        count.push_back(tally[l]);
+      }
+    }
+  } else {
+    for (std::size_t k = 0; k < n; ++k) {
+      p.push_back(forecast[order[k]]);
+      y.push_back(label[order[k]]);
+      base.push_back(weight[order[k]]);
+      count.push_back(1);
+    }
   }
+  const std::size_t cells = p.size();
 
   const std::size_t R = options.replicates;
   std::vector<double> ece(R), l2(R), brier(R), mcb(R), area(R);
   // Replicate r writes only slot r of each vector and uses only its own
   // generator and weight buffer, so any split of r over threads gives the
   // same numbers.
-  for_each_replicate(R, options.threads, [&](std::size_t r, std::vector<double>& w) {
-    w.resize(n);
+  for_each_replicate(R, options.threads, [&](std::size_t r, std::vector<double>& scratch) {
+    scratch.resize(2 * cells);
+    const std::span<double> w(scratch.data(), cells), w_sq(scratch.data() + cells, cells);
     std::mt19937_64 gen = replicate_generator(options.seed, r);
     double total = 0.0, squared = 0.0;
-    for (std::size_t k = 0; k < n; ++k) {
-      w[k] = base[k] * poisson1(gen);
-      total += w[k];
-      squared += w[k] * (p[k] - y[k]) * (p[k] - y[k]);
+    for (std::size_t c = 0; c < cells; ++c) {
+      const double t = static_cast<double>(poisson_n(gen, count[c]));
+      w[c] = base[c] * t;
+      // The sum of the rows' squared weights given the cell's total t: each
+      // of the t draws falls on one of the cell's rows at random, so its
+      // expectation is t + t(t - 1)/count (exact for a cell of one row).
+      w_sq[c] = base[c] * base[c] * (t + t * (t - 1.0) / static_cast<double>(count[c]));
+      total += w[c];
+      squared += w[c] * (p[c] - y[c]) * (p[c] - y[c]);
     }
     if (!(total > 0.0)) {  // every row drawn zero times: no replicate
       ece[r] = l2[r] = brier[r] = mcb[r] = area[r] = nan;
       return;
     }
     const Binning binning = make_binning_sorted(p, w, options.binning, options.bins);
-    const std::vector<BinSums> sums = bin_sums(p, y, w, binning);
+    std::vector<BinSums> sums = bin_sums(p, y, w, binning);
+    for (BinSums& b : sums) b.weight_sq = 0.0;
+    for (std::size_t c = 0; c < cells; ++c) sums[binning.bin_of_row[c]].weight_sq += w_sq[c];
     const CalibrationError ce = calibration_error(sums, options.binning);
     ece[r] = ce.ece;
     l2[r] = ce.l2_debiased;
