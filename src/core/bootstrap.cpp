@@ -80,6 +80,29 @@ std::uint64_t poisson_n(std::mt19937_64& gen, std::uint64_t n) noexcept {
   return k;
 }
 
+// Binomial(n, f): how many of n rows of forecast f draw a positive label,
+// by inversion for n up to 64 (on the rarer outcome, so that the chance of
+// no such outcome, at least 2^-64, cannot underflow), else row by row.
+std::uint64_t binomial_n(std::mt19937_64& gen, std::uint64_t n, double f) noexcept {
+  if (n > 64) {
+    std::uint64_t k = 0;
+    for (std::uint64_t i = 0; i < n; ++i) k += uniform01(gen) < f ? 1 : 0;
+    return k;
+  }
+  if (!(f > 0.0)) return 0;
+  if (!(f < 1.0)) return n;
+  const bool flip = f > 0.5;
+  const double p = flip ? 1.0 - f : f, q = 1.0 - p, u = uniform01(gen);
+  double term = std::pow(q, static_cast<double>(n)), cdf = term;
+  std::uint64_t k = 0;
+  while (u >= cdf && k < n) {
+    term *= static_cast<double>(n - k) / static_cast<double>(k + 1) * (p / q);
+    ++k;
+    cdf += term;
+  }
+  return flip ? n - k : k;
+}
+
 BootstrapInterval percentile_interval(std::vector<double> values, double confidence) {
   values.erase(std::remove_if(values.begin(), values.end(),
                               [](double v) { return !std::isfinite(v); }),
@@ -253,14 +276,41 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
   std::vector<double> bin_weight(bins, 0.0);
   for (std::size_t i = 0; i < n; ++i) bin_weight[binning.bin_of_row[i]] += detail::weight_at(weight, i);
 
+  // Without weights, the rows of one forecast are one cell: its count of
+  // positives is one Binomial(count, forecast) draw, the law of the sum of
+  // its rows' Bernoulli labels. With weights every row is its own cell.
+  struct Cell {
+    double forecast;
+    std::uint32_t bin;
+    std::uint64_t count;
+    double weight;
+  };
+  std::vector<Cell> cells;
+  if (weight.empty()) {
+    std::vector<std::pair<double, std::uint32_t>> rows(n);
+    for (std::size_t i = 0; i < n; ++i) rows[i] = {forecast[i], binning.bin_of_row[i]};
+    std::sort(rows.begin(), rows.end());
+    for (std::size_t k = 0; k < n;) {
+      std::size_t e = k;
+      while (e < n && rows[e] == rows[k]) ++e;
+      cells.push_back({rows[k].first, rows[k].second, e - k, 1.0});
+      k = e;
+    }
+  } else {
+    for (std::size_t i = 0; i < n; ++i) cells.push_back({forecast[i], binning.bin_of_row[i], 1, weight[i]});
+  }
+
   const std::size_t R = options.replicates;
   std::vector<std::vector<double>> frequency(bins, std::vector<double>(R, nan));
   const std::uint64_t seed = options.seed ^ 0xC2B2AE3D27D4EB4Full;
   for_each_replicate(R, options.threads, [&](std::size_t r, std::vector<double>& positives) {
     std::mt19937_64 gen = replicate_generator(seed, r);
     positives.assign(bins, 0.0);
-    for (std::size_t i = 0; i < n; ++i) {
-      if (uniform01(gen) < forecast[i]) positives[binning.bin_of_row[i]] += detail::weight_at(weight, i);
+    for (const Cell& c : cells) {
+      if (c.count == 1)
+        positives[c.bin] += uniform01(gen) < c.forecast ? c.weight : 0.0;
+      else
+        positives[c.bin] += static_cast<double>(binomial_n(gen, c.count, c.forecast));
     }
     for (std::size_t b = 0; b < bins; ++b)
       if (bin_weight[b] > 0.0) frequency[b][r] = positives[b] / bin_weight[b];

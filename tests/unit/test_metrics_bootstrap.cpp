@@ -159,3 +159,36 @@ TEST_CASE("Bootstrap of tied unweighted rows by cells agrees with the bootstrap 
   agree(cells.mcb_brier, rows.mcb_brier);
   agree(cells.auc, rows.auc);
 }
+
+TEST_CASE("Consistency band of tied unweighted rows by cells agrees with the band row by row",
+          "[metrics][bootstrap]") {
+  // A cell of n rows of forecast f draws Binomial(n, f) positives at once;
+  // row by row (unit weights) each row draws its own Bernoulli(f): the same
+  // law. Forecasts on a grid of 12 values near 0, near 1 and between, with
+  // 20 to 150 rows each, on both sides of 1/2 and of the 64-row switch to
+  // row-by-row draws.
+  std::vector<double> p;
+  const double levels[] = {0.001, 0.02, 0.1, 0.25, 0.4, 0.5, 0.55, 0.7, 0.85, 0.93, 0.99, 0.9995};
+  const int counts[] = {60, 130, 40, 90, 50, 20, 64, 100, 33, 45, 150, 55};
+  for (int i = 0; i < 12; ++i)
+    for (int k = 0; k < counts[i]; ++k) p.push_back(levels[i]);
+  const std::vector<double> ones(p.size(), 1.0);
+  const auto bins = plumb::make_binning(p, {}, plumb::BinningKind::equal_width, 10);
+  plumb::BootstrapOptions o;
+  o.replicates = 4000;
+  o.seed = 8;
+  const auto cells = plumb::consistency_band(p, {}, bins, o);
+  o.seed = 9;
+  const auto rows = plumb::consistency_band(p, ones, bins, o);
+  REQUIRE(cells.size() == rows.size());
+  for (std::size_t b = 0; b < cells.size(); ++b) {
+    const double width = rows[b].hi - rows[b].lo;
+    // Quantiles of a discrete law: allow one step of 1/(rows in the bin) too.
+    double in_bin = 0;
+    for (std::size_t i = 0; i < p.size(); ++i) in_bin += bins.bin_of_row[i] == b;
+    if (in_bin == 0) continue;
+    const double slack = 0.1 * width + 1.0 / in_bin + 1e-12;
+    CHECK(std::abs(cells[b].lo - rows[b].lo) <= slack);
+    CHECK(std::abs(cells[b].hi - rows[b].hi) <= slack);
+  }
+}
