@@ -20,3 +20,11 @@ if [ "${PLUMB_SKIP_SANITIZERS:-0}" != 1 ]; then
   # do not depend on the optimisation level or the sanitizers.
   bash "$root/tests/determinism/compare_builds.sh" "$root/build/plumb" "$root/build-sanitize/plumb"
 fi
+
+if [ "${PLUMB_SKIP_FUZZ:-0}" != 1 ]; then
+  # libFuzzer targets (clang, coverage and sanitizers): about 90 seconds of
+  # fuzzing shared by every target, then each target's regression inputs.
+  plumb_setup test "$root/build-fuzz" -DCMAKE_CXX_COMPILER=clang++ -DCMAKE_BUILD_TYPE=RelWithDebInfo \
+    -DPLUMB_FUZZ=ON -DPLUMB_BUILD_TESTS=OFF -DPLUMB_WERROR=OFF
+  bash "$root/tests/fuzz/run.sh" "$root/build-fuzz" 90
+fi
