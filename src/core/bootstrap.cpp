@@ -61,47 +61,65 @@ std::uint64_t poisson_n(std::mt19937_64& gen, std::uint64_t n) noexcept {
     for (std::uint64_t i = 0; i < n; ++i) k += poisson1(gen);
     return k;
   }
-  // e^-n once for every n, not once per cell and replicate.
-  static const std::array<double, 65> exp_minus = [] {
-    std::array<double, 65> t{};
-    for (std::size_t i = 0; i < t.size(); ++i) t[i] = std::exp(-static_cast<double>(i));
-    return t;
+  // e^-n and 1/k once, not once per cell and replicate (a division per step
+  // would cost more than the rest of the step).
+  constexpr std::size_t steps = 512;  // beyond mean + 40 sd for every n <= 64
+  struct Tables {
+    std::array<double, 65> exp_minus;
+    std::array<double, steps + 1> reciprocal;
+  };
+  static const Tables t = [] {
+    Tables out{};
+    for (std::size_t i = 0; i < out.exp_minus.size(); ++i) out.exp_minus[i] = std::exp(-static_cast<double>(i));
+    for (std::size_t k = 1; k <= steps; ++k) out.reciprocal[k] = 1.0 / static_cast<double>(k);
+    return out;
   }();
   const double lambda = static_cast<double>(n), u = uniform01(gen);
-  // Beyond mean + 40 sd the remaining mass is below the spacing of u.
-  const std::uint64_t cap = n + 40 * static_cast<std::uint64_t>(std::ceil(std::sqrt(lambda))) + 40;
-  double term = exp_minus[n], cdf = term;
+  double term = t.exp_minus[n], cdf = term;
   std::uint64_t k = 0;
-  while (u >= cdf && k < cap) {
+  // Past mean + 40 sd the remaining mass is below the spacing of u.
+  while (u >= cdf && k < steps) {
     ++k;
-    term *= lambda / static_cast<double>(k);
+    term *= lambda * t.reciprocal[k];
     cdf += term;
   }
   return k;
 }
 
 // Binomial(n, f): how many of n rows of forecast f draw a positive label,
-// by inversion for n up to 64 (on the rarer outcome, so that the chance of
-// no such outcome, at least 2^-64, cannot underflow), else row by row.
-std::uint64_t binomial_n(std::mt19937_64& gen, std::uint64_t n, double f) noexcept {
-  if (n > 64) {
+// by inversion for n up to 64 on the rarer outcome (so that the chance of no
+// such outcome, at least 2^-64, cannot underflow), else row by row. The
+// cell's fixed numbers, (1 - p)^n and p / (1 - p), are computed once.
+struct BinomialCell {
+  std::uint64_t n;
+  double f;
+  bool flip;
+  double start, ratio;
+  BinomialCell(std::uint64_t count, double forecast) : n(count), f(forecast), flip(forecast > 0.5) {
+    const double p = flip ? 1.0 - f : f;
+    start = std::pow(1.0 - p, static_cast<double>(n));
+    ratio = p / (1.0 - p);
+  }
+  std::uint64_t draw(std::mt19937_64& gen) const noexcept {
+    if (n == 1) return uniform01(gen) < f ? 1 : 0;
+    if (n > 64) {
+      std::uint64_t k = 0;
+      for (std::uint64_t i = 0; i < n; ++i) k += uniform01(gen) < f ? 1 : 0;
+      return k;
+    }
+    if (!(f > 0.0)) return 0;
+    if (!(f < 1.0)) return n;
+    const double u = uniform01(gen);
+    double term = start, cdf = term;
     std::uint64_t k = 0;
-    for (std::uint64_t i = 0; i < n; ++i) k += uniform01(gen) < f ? 1 : 0;
-    return k;
+    while (u >= cdf && k < n) {
+      term *= static_cast<double>(n - k) / static_cast<double>(k + 1) * ratio;
+      ++k;
+      cdf += term;
+    }
+    return flip ? n - k : k;
   }
-  if (!(f > 0.0)) return 0;
-  if (!(f < 1.0)) return n;
-  const bool flip = f > 0.5;
-  const double p = flip ? 1.0 - f : f, q = 1.0 - p, u = uniform01(gen);
-  double term = std::pow(q, static_cast<double>(n)), cdf = term;
-  std::uint64_t k = 0;
-  while (u >= cdf && k < n) {
-    term *= static_cast<double>(n - k) / static_cast<double>(k + 1) * (p / q);
-    ++k;
-    cdf += term;
-  }
-  return flip ? n - k : k;
-}
+};
 
 BootstrapInterval percentile_interval(std::vector<double> values, double confidence) {
   values.erase(std::remove_if(values.begin(), values.end(),
@@ -280,10 +298,8 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
   // positives is one Binomial(count, forecast) draw, the law of the sum of
   // its rows' Bernoulli labels. With weights every row is its own cell.
   struct Cell {
-    double forecast;
+    BinomialCell law;
     std::uint32_t bin;
-    std::uint64_t count;
-    double weight;
   };
   std::vector<Cell> cells;
   if (weight.empty()) {
@@ -293,11 +309,9 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
     for (std::size_t k = 0; k < n;) {
       std::size_t e = k;
       while (e < n && rows[e] == rows[k]) ++e;
-      cells.push_back({rows[k].first, rows[k].second, e - k, 1.0});
+      cells.push_back({BinomialCell(e - k, rows[k].first), rows[k].second});
       k = e;
     }
-  } else {
-    for (std::size_t i = 0; i < n; ++i) cells.push_back({forecast[i], binning.bin_of_row[i], 1, weight[i]});
   }
 
   const std::size_t R = options.replicates;
@@ -306,11 +320,11 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
   for_each_replicate(R, options.threads, [&](std::size_t r, std::vector<double>& positives) {
     std::mt19937_64 gen = replicate_generator(seed, r);
     positives.assign(bins, 0.0);
-    for (const Cell& c : cells) {
-      if (c.count == 1)
-        positives[c.bin] += uniform01(gen) < c.forecast ? c.weight : 0.0;
-      else
-        positives[c.bin] += static_cast<double>(binomial_n(gen, c.count, c.forecast));
+    if (weight.empty()) {
+      for (const Cell& c : cells) positives[c.bin] += static_cast<double>(c.law.draw(gen));
+    } else {
+      for (std::size_t i = 0; i < n; ++i)
+        if (uniform01(gen) < forecast[i]) positives[binning.bin_of_row[i]] += weight[i];
     }
     for (std::size_t b = 0; b < bins; ++b)
       if (bin_weight[b] > 0.0) frequency[b][r] = positives[b] / bin_weight[b];
