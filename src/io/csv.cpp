@@ -49,7 +49,11 @@ std::string printable(std::string_view name) {
 
 std::optional<double> parse_number(std::string_view text) noexcept {
   text = trim_blanks(text);
-  if (!text.empty() && text.front() == '+') text.remove_prefix(1);
+  if (!text.empty() && text.front() == '+') {
+    text.remove_prefix(1);
+    // from_chars takes a '-' here, which would read "+-2" as -2.
+    if (!text.empty() && text.front() == '-') return std::nullopt;
+  }
   if (text.empty()) return std::nullopt;
   // from_chars would also take "nan", "inf" and "infinity": scores must be
   // decimal numbers, so the first character must start one.

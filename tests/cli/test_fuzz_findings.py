@@ -48,5 +48,39 @@ class ArtifactIterations(PlumbCase):
             self.assert_refused(["inspect", self.with_iterations(n)], ARTIFACT, "fit.iterations", "too large")
 
 
+class SignedNumbers(PlumbCase):
+    """A number is one optional sign, then digits: "+-2" used to be read as
+    -2, because the reader dropped the '+' and std::from_chars took the '-'
+    (fuzz_csv, checking parse_number against the documented grammar)."""
+
+    INPUT = 3
+
+    def setUp(self):
+        super().setUp()
+        rows = ["z,y"] + [f"{(s - 0.5) * 8:.6f},{y}" for s, y in simulated_holdout(300, seed=9)]
+        write(self.path("logit.csv"), "\n".join(rows) + "\n")
+        rc, out, err = run("fit", "--map", "platt", "--scale", "logit", "--score", "z", "--label", "y",
+                           self.path("logit.csv"), "-q", "-o", self.path("map.json"))
+        self.assertEqual(rc, 0, err)
+
+    def test_plus_then_minus_is_refused_where_numbers_are_read(self):
+        write(self.path("apply.csv"), "z\n1.5\n+-2\n")
+        self.assert_refused(["apply", self.path("map.json"), self.path("apply.csv")], self.INPUT,
+                            "apply.csv:3", "+-2", "not a decimal number")
+        write(self.path("fit.csv"), "z,y\n1,1\n+-1,0\n-1,0\n")
+        self.assert_refused(["fit", "--map", "platt", "--scale", "logit", "--score", "z", "--label", "y",
+                             self.path("fit.csv")], self.INPUT, "fit.csv:3", "+-1")
+        write(self.path("weights.csv"), "z,y,w\n1,1,1\n-1,0,+-0\n")
+        self.assert_refused(["fit", "--map", "platt", "--scale", "logit", "--score", "z", "--label", "y",
+                             "--weight", "w", self.path("weights.csv")], self.INPUT, "weights.csv:3", "+-0")
+
+    def test_one_plus_sign_is_still_read(self):
+        write(self.path("plus.csv"), "z\n+2\n2\n")
+        rc, out, err = run("apply", self.path("map.json"), self.path("plus.csv"))
+        self.assertEqual(rc, 0, err)
+        rows = out.splitlines()
+        self.assertEqual(rows[1].split(",")[1], rows[2].split(",")[1])
+
+
 if __name__ == "__main__":
     unittest.main()
