@@ -71,8 +71,9 @@ for f in "$texts"/*; do
   name=$(basename "$f")
   # fuzz_csv: separator detected (byte 0 = 0), pieces of up to 8 bytes (byte 1 = 7).
   { printf '\x00\x07,'; cat "$f"; } > "$corpus/fuzz_csv/$name"
-  # fuzz_labelled: probability scale, weighted, with segments (0x14).
-  { printf '\x14'; cat "$f"; } > "$corpus/fuzz_labelled/$name"
+  # fuzz_labelled: probability scale, weighted, with segments (0x14); the
+  # demo data's score and label columns renamed to the ones it reads.
+  { printf '\x14'; sed '1s/risk/score/; 1s/missed/label/' "$f"; } > "$corpus/fuzz_labelled/$name"
 done
 # A few other option bytes: explicit tab, explicit ';' with small pieces, a
 # small record limit; logit scale and the named positive value.
