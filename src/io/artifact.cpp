@@ -7,6 +7,7 @@
 
 #include "core/json_fields.hpp"
 #include "io/byte_source.hpp"
+#include "io/json_depth.hpp"
 #include "plumb/error.hpp"
 #include "plumb/version.hpp"
 
@@ -25,30 +26,6 @@ json diagnostics_json(const FitDiagnostics& d) {
           {"log_loss", d.log_loss},
           {"clipped_rows", d.clipped},
           {"notes", d.notes}};
-}
-
-// nlohmann::json copies and serialises values recursively, so a hostile file
-// of deeply nested brackets would overflow the stack. plumb's own artifacts
-// nest three levels deep.
-constexpr int max_nesting = 64;
-
-bool nested_too_deeply(const std::string& text) noexcept {
-  int depth = 0;
-  bool in_string = false;
-  for (std::size_t i = 0; i < text.size(); ++i) {
-    const char c = text[i];
-    if (in_string) {
-      if (c == '\\') ++i;
-      else if (c == '"') in_string = false;
-    } else if (c == '"') {
-      in_string = true;
-    } else if (c == '[' || c == '{') {
-      if (++depth > max_nesting) return true;
-    } else if (c == ']' || c == '}') {
-      --depth;
-    }
-  }
-  return false;
 }
 
 }  // namespace
@@ -96,11 +73,11 @@ std::string artifact_to_text(const Artifact& a) {
 }
 
 Artifact artifact_from_text(const std::string& text, const std::string& where) {
-  if (nested_too_deeply(text)) {
+  if (io::json_nested_deeper_than(text)) {
     Location loc;
     loc.file = where;
     throw Error(ErrorKind::artifact,
-                "the map artifact nests arrays or objects more than " + std::to_string(max_nesting) + " levels deep",
+                "the map artifact nests arrays or objects more than " + std::to_string(io::max_json_nesting) + " levels deep",
                 loc, {}, "a JSON document written by plumb fit");
   }
   json doc;

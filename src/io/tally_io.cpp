@@ -4,6 +4,7 @@
 
 #include "core/json_fields.hpp"
 #include "io/byte_source.hpp"
+#include "io/json_depth.hpp"
 #include "plumb/error.hpp"
 #include "plumb/version.hpp"
 
@@ -14,28 +15,6 @@ using nlohmann::json;
 
 namespace {
 
-// plumb's own tallies nest three levels deep; copying or destroying a
-// hostile document of deeply nested brackets would overflow the stack.
-constexpr int max_nesting = 64;
-
-bool nested_too_deeply(const std::string& text) noexcept {
-  int depth = 0;
-  bool in_string = false;
-  for (std::size_t i = 0; i < text.size(); ++i) {
-    const char c = text[i];
-    if (in_string) {
-      if (c == '\\') ++i;
-      else if (c == '"') in_string = false;
-    } else if (c == '"') {
-      in_string = true;
-    } else if (c == '[' || c == '{') {
-      if (++depth > max_nesting) return true;
-    } else if (c == ']' || c == '}') {
-      --depth;
-    }
-  }
-  return false;
-}
 
 Location at_file(const std::string& where) {
   Location loc;
@@ -105,9 +84,9 @@ std::string tally_to_text(const Tally& t) {
 }
 
 Tally tally_from_text(const std::string& text, const std::string& where) {
-  if (nested_too_deeply(text))
+  if (io::json_nested_deeper_than(text))
     throw Error(ErrorKind::artifact,
-                "the tally nests arrays or objects more than " + std::to_string(max_nesting) + " levels deep",
+                "the tally nests arrays or objects more than " + std::to_string(io::max_json_nesting) + " levels deep",
                 at_file(where), {}, "a JSON document written by plumb tally");
   json doc;
   try {

@@ -26,6 +26,7 @@
 #include <vector>
 
 #include "fuzz_support.hpp"
+#include "io/json_depth.hpp"
 #include "plumb/artifact.hpp"
 
 namespace {
@@ -110,33 +111,14 @@ void check_loaded(const plumb::Artifact& a, const std::string& text, const json*
   }
 }
 
-// The loader's own limit; deeper documents are refused before parsing, and
-// this target must not overflow its stack on them either.
-bool nested_deeper_than(const std::string& text, int limit) {
-  int depth = 0;
-  bool in_string = false;
-  for (std::size_t i = 0; i < text.size(); ++i) {
-    const char c = text[i];
-    if (in_string) {
-      if (c == '\\') ++i;
-      else if (c == '"') in_string = false;
-    } else if (c == '"') {
-      in_string = true;
-    } else if (c == '[' || c == '{') {
-      if (++depth > limit) return true;
-    } else if (c == ']' || c == '}') {
-      --depth;
-    }
-  }
-  return false;
-}
-
 }  // namespace
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {
   const std::string text(reinterpret_cast<const char*>(data), size);
   json doc;
-  if (!nested_deeper_than(text, 64)) doc = json::parse(text, nullptr, /*allow_exceptions=*/false);
+  // The loader refuses deeper documents before parsing, and this target must
+  // not overflow its stack on them either.
+  if (!plumb::io::json_nested_deeper_than(text)) doc = json::parse(text, nullptr, /*allow_exceptions=*/false);
   const json* numbers = doc.is_structured() ? &doc : nullptr;
 
   plumb::Artifact as_is;
