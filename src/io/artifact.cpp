@@ -7,7 +7,7 @@
 
 #include "core/json_fields.hpp"
 #include "io/byte_source.hpp"
-#include "io/json_depth.hpp"
+#include "io/json_input.hpp"
 #include "plumb/error.hpp"
 #include "plumb/version.hpp"
 
@@ -92,17 +92,7 @@ Artifact artifact_from_text(const std::string& text, const std::string& where) {
     // Turn the byte offset into a line and column.
     Location loc;
     loc.file = where;
-    loc.line = 1;
-    loc.column = 1;
-    const std::size_t stop = std::min<std::size_t>(e.byte > 0 ? e.byte - 1 : 0, text.size());
-    for (std::size_t i = 0; i < stop; ++i) {
-      if (text[i] == '\n') {
-        ++loc.line;
-        loc.column = 1;
-      } else {
-        ++loc.column;
-      }
-    }
+    io::locate_byte(text, e.byte, loc);
     const bool truncated = e.byte >= text.size();
     throw Error(ErrorKind::artifact,
                 truncated ? "the map artifact ends early (truncated?)" : "the map artifact is not valid JSON", loc,

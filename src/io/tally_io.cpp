@@ -4,7 +4,7 @@
 
 #include "core/json_fields.hpp"
 #include "io/byte_source.hpp"
-#include "io/json_depth.hpp"
+#include "io/json_input.hpp"
 #include "plumb/error.hpp"
 #include "plumb/version.hpp"
 
@@ -96,17 +96,7 @@ Tally tally_from_text(const std::string& text, const std::string& where) {
                 "finite numbers, as written by plumb tally");
   } catch (const json::parse_error& e) {
     Location loc = at_file(where);
-    loc.line = 1;
-    loc.column = 1;
-    const std::size_t stop = std::min<std::size_t>(e.byte > 0 ? e.byte - 1 : 0, text.size());
-    for (std::size_t i = 0; i < stop; ++i) {
-      if (text[i] == '\n') {
-        ++loc.line;
-        loc.column = 1;
-      } else {
-        ++loc.column;
-      }
-    }
+    io::locate_byte(text, e.byte, loc);
     throw Error(ErrorKind::artifact,
                 e.byte >= text.size() ? "the tally ends early (truncated?)" : "the tally is not valid JSON", loc, {},
                 "a complete JSON document written by plumb tally");

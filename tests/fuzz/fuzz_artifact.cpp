@@ -26,7 +26,7 @@
 #include <vector>
 
 #include "fuzz_support.hpp"
-#include "io/json_depth.hpp"
+#include "io/json_input.hpp"
 #include "plumb/artifact.hpp"
 
 namespace {

@@ -1,4 +1,4 @@
-#include "io/json_depth.hpp"
+#include "io/json_input.hpp"
 
 namespace plumb::io {
 
@@ -19,6 +19,20 @@ bool json_nested_deeper_than(const std::string& text, int limit) noexcept {
     }
   }
   return false;
+}
+
+void locate_byte(const std::string& text, std::size_t byte, Location& loc) noexcept {
+  loc.line = 1;
+  loc.column = 1;
+  const std::size_t stop = byte > 0 ? (byte - 1 < text.size() ? byte - 1 : text.size()) : 0;
+  for (std::size_t i = 0; i < stop; ++i) {
+    if (text[i] == '\n') {
+      ++loc.line;
+      loc.column = 1;
+    } else {
+      ++loc.column;
+    }
+  }
 }
 
 }  // namespace plumb::io
