@@ -68,7 +68,10 @@ class CalibrationMap {
 
   // The kind's parameters as a JSON object; load_map() inverts this exactly.
   virtual nlohmann::json parameters() const = 0;
-  // True when the map is non-decreasing in the score.
+  // True when the map is non-decreasing in the score: exactly for the
+  // piecewise kinds (isotonic, histogram); for the kinds that end in the
+  // logistic function, up to its rounding (between neighbouring doubles the
+  // probability may fall by an ulp or two, as e / (1 + e) rounds).
   virtual bool monotone() const noexcept = 0;
 
   const FitDiagnostics& diagnostics() const noexcept { return diagnostics_; }
