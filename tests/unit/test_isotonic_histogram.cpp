@@ -213,6 +213,69 @@ TEST_CASE("isotonic: non-decreasing on a fine grid and on every scale", "[isoton
   }
 }
 
+TEST_CASE("isotonic: the block found for a score is the last one starting at or before it, however the blocks lie",
+          "[isotonic]") {
+  // The lookup guides its search by buckets of the score range; the rule
+  // it must keep (docs/methods.md) is the plain one: the value of the block
+  // holding the score, or the interpolation from the block starting last at
+  // or before it to the next. Checked against std::upper_bound on maps whose
+  // blocks are spread evenly, crowded near one end, and spread over the
+  // whole double range (margin scale), at every block end, its neighbouring
+  // doubles and random scores.
+  std::mt19937_64 gen(17);
+  auto u01 = [&] { return static_cast<double>(gen() >> 11) * 0x1p-53; };
+  for (int shape = 0; shape < 3; ++shape) {
+    for (std::size_t count : {16u, 40u, 300u, 5000u}) {
+      std::vector<double> ends;
+      for (std::size_t k = 0; k < 2 * count; ++k) {
+        const double v = u01();
+        ends.push_back(shape == 0 ? v : shape == 1 ? std::pow(v, 12.0) : (v - 0.5) * 1e300);
+      }
+      std::sort(ends.begin(), ends.end());
+      ends.erase(std::unique(ends.begin(), ends.end()), ends.end());
+      if (ends.size() % 2) ends.pop_back();
+      std::vector<plumb::PavBlock> blocks;
+      for (std::size_t k = 0; k + 1 < ends.size(); k += 2) {
+        plumb::PavBlock b;
+        b.score_lo = ends[k];
+        b.score_hi = ends[k + 1];
+        b.value = static_cast<double>(k) / static_cast<double>(ends.size());
+        b.weight = 1.0;
+        blocks.push_back(b);
+      }
+      const plumb::Scale scale = shape == 2 ? plumb::Scale::margin : plumb::Scale::probability;
+      const plumb::IsotonicMap map(scale, blocks, /*interpolate=*/true);
+      std::vector<double> lo;
+      for (const auto& b : blocks) lo.push_back(b.score_lo);
+      std::vector<double> scores;
+      for (double e : ends) {
+        scores.push_back(e);
+        scores.push_back(std::nextafter(e, -std::numeric_limits<double>::infinity()));
+        scores.push_back(std::nextafter(e, std::numeric_limits<double>::infinity()));
+      }
+      for (int k = 0; k < 20000; ++k) scores.push_back(ends.front() + u01() * (ends.back() - ends.front()));
+      std::size_t mismatches = 0;
+      for (double s : scores) {
+        if (s < blocks.front().score_lo || s > blocks.back().score_hi) continue;
+        const std::size_t i = static_cast<std::size_t>(std::upper_bound(lo.begin(), lo.end(), s) - lo.begin()) - 1;
+        const plumb::PavBlock& left = blocks[i];
+        double want = left.value;
+        if (s > left.score_hi) {
+          const plumb::PavBlock& right = blocks[i + 1];
+          const double gap = right.score_lo - left.score_hi;
+          const double t = std::isfinite(gap) ? (s - left.score_hi) / gap
+                                              : (0.5 * s - 0.5 * left.score_hi) /
+                                                    (0.5 * right.score_lo - 0.5 * left.score_hi);
+          want = std::clamp(left.value + t * (right.value - left.value), left.value, right.value);
+        }
+        mismatches += map(s) == want ? 0 : 1;
+      }
+      INFO("shape " << shape << ", " << blocks.size() << " blocks");
+      CHECK(mismatches == 0);
+    }
+  }
+}
+
 TEST_CASE("isotonic: the fit's log loss is the weighted mean log loss of the map", "[isotonic]") {
   // Definition of log loss (Good 1952, from memory), probabilities clipped
   // to [1e-12, 1 - 1e-12] as documented in scale.hpp.

@@ -1,6 +1,7 @@
 #pragma once
 // Isotonic map: the pool-adjacent-violators fit of label on score, kept as
 // its blocks (Zadrozny and Elkan 2002).
+#include <cstdint>
 #include <memory>
 #include <vector>
 
@@ -34,7 +35,14 @@ class IsotonicMap final : public CalibrationMap {
  private:
   Scale scale_;
   std::vector<PavBlock> blocks_;
+  std::size_t block_at(double score) const noexcept;
+
   std::vector<double> lo_;  // blocks_[i].score_lo, contiguous for the search
+  // A guide for the search: the score range [lo_.front(), lo_.back()] cut
+  // into equal buckets, each holding the last block starting at or before
+  // the bucket's start. Empty when the range is not a finite positive width.
+  std::vector<std::uint32_t> guide_;
+  double guide_origin_ = 0.0, guide_scale_ = 0.0;
   bool interpolate_;
 };
 
