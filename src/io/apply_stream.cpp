@@ -1,6 +1,7 @@
 #include "plumb/apply_stream.hpp"
 
 #include <charconv>
+#include <cmath>
 #include <condition_variable>
 #include <cstring>
 #include <deque>
@@ -172,7 +173,8 @@ class Mapper {
       ok = parsed.has_value();
       if (ok) score = *parsed;
     }
-    if (ok && valid_on_scale(score, scale_)) {
+    // valid_on_scale(), written out: this runs once per row.
+    if (ok && (scale_ == Scale::probability ? score >= 0.0 && score <= 1.0 : std::isfinite(score))) {
       const Mapped m = map_.map(score);
       block.counts.outside += (score < o_.fitted_min || score > o_.fitted_max) ? 1 : 0;
       block.counts.clamped += m.outside_fit_range ? 1 : 0;
