@@ -42,11 +42,11 @@ void tally_unweighted(const FitData& data, Tally& out) {
 
 void tally_scores(const FitData& data, Tally& out) {
   const std::size_t n = data.score.size();
+  out.score.clear();
+  out.count.clear();
+  out.negative.clear();
+  out.positive.clear();
   if (data.weight.empty()) {
-    out.score.clear();
-    out.count.clear();
-    out.negative.clear();
-    out.positive.clear();
     tally_unweighted(data, out);
     return;
   }
@@ -55,10 +55,6 @@ void tally_scores(const FitData& data, Tally& out) {
   // Stable, so rows of one score are summed in input order whoever calls.
   if (!std::is_sorted(data.score.begin(), data.score.end()))
     std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return data.score[a] < data.score[b]; });
-  out.score.clear();
-  out.count.clear();
-  out.negative.clear();
-  out.positive.clear();
   for (std::size_t k = 0; k < n;) {
     // -0 and +0 are one score; keeping +0 makes the result independent of
     // which came first.
