@@ -117,6 +117,8 @@ class CsvReader {
 // Parse a decimal number (optional sign, digits, fraction, exponent; no hex,
 // no "nan"/"inf"), ignoring surrounding spaces and tabs. nullopt when the text
 // is not such a number or is out of double range.
+// The result is the correctly rounded double, as std::from_chars gives; plain
+// decimals of up to 19 digits take an exact fast path.
 std::optional<double> parse_number(std::string_view text) noexcept;
 
 // Why parse_number refused `text`, in a few words ("is empty", "is not a

@@ -11,6 +11,7 @@
 #include <thread>
 #include <vector>
 
+#include "io/csv_errors.hpp"
 #include "plumb/error.hpp"
 #include "plumb/labelled_input.hpp"
 #include "plumb/scale.hpp"
@@ -23,37 +24,6 @@ namespace plumb::io {
 namespace {
 
 bool blank(std::string_view t) noexcept { return t.find_first_not_of(" \t") == std::string_view::npos; }
-
-// Exact powers of ten: every one up to 1e22 is a double (5^22 < 2^53).
-constexpr double exact_powers_of_ten[] = {1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1e7,  1e8,  1e9,  1e10, 1e11,
-                                          1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22};
-
-// A plain decimal ("0.123456", "-3", "12.5": digits, then optionally a point
-// and digits) read exactly: when its digits as an integer m fit in 53 bits
-// and it has at most 22 decimals, m and 10^k are both doubles and one
-// correctly rounded division gives the correctly rounded value (Clinger,
-// "How to read floating point numbers accurately", PLDI 1990), the same
-// double std::from_chars gives. Anything else is left to parse_number.
-bool read_plain_decimal(const char* p, const char* e, double& value) noexcept {
-  const bool negative = p < e && *p == '-';
-  if (negative) ++p;
-  std::uint64_t m = 0;
-  int digits = 0, decimals = 0;
-  const char* const int_start = p;
-  for (; p < e && static_cast<unsigned>(*p - '0') < 10; ++p, ++digits) m = m * 10 + static_cast<unsigned>(*p - '0');
-  if (p == int_start) return false;
-  if (p < e && *p == '.') {
-    const char* const frac_start = ++p;
-    for (; p < e && static_cast<unsigned>(*p - '0') < 10; ++p, ++digits)
-      m = m * 10 + static_cast<unsigned>(*p - '0');
-    decimals = static_cast<int>(p - frac_start);
-    if (decimals == 0) return false;
-  }
-  if (p != e || digits > 19 || decimals > 22 || m > (std::uint64_t{1} << 53)) return false;
-  const double v = static_cast<double>(m) / exact_powers_of_ten[decimals];
-  value = negative ? -v : v;
-  return true;
-}
 
 // What stopped a block: the first bad record in it.
 struct Failure {
@@ -166,15 +136,10 @@ class Mapper {
  private:
   // One record's new field; false (with block.failure set) for a bad score.
   bool append_probability(Block& block, char*& w, std::string_view text, std::uint64_t line) const {
-    double score = 0.0;
-    bool ok = read_plain_decimal(text.data(), text.data() + text.size(), score);
-    if (!ok) {
-      const std::optional<double> parsed = parse_number(text);
-      ok = parsed.has_value();
-      if (ok) score = *parsed;
-    }
+    const std::optional<double> parsed = parse_number(text);
+    const double score = parsed.value_or(0.0);
     // valid_on_scale(), written out: this runs once per row.
-    if (ok && (scale_ == Scale::probability ? score >= 0.0 && score <= 1.0 : std::isfinite(score))) {
+    if (parsed && (scale_ == Scale::probability ? score >= 0.0 && score <= 1.0 : std::isfinite(score))) {
       const Mapped m = map_.map(score);
       block.counts.outside += (score < o_.fitted_min || score > o_.fitted_max) ? 1 : 0;
       block.counts.clamped += m.outside_fit_range ? 1 : 0;
@@ -419,18 +384,11 @@ ApplyCounts apply_stream(CsvReader& reader, const CalibrationMap& map, OutputFil
       if (progress) progress(total.rows, reader.bytes_read(), reader.total_bytes());
       return;
     }
+    if (f.kind == Failure::Kind::ragged) throw ragged_row(reader.name(), f.line, f.fields, reader.header().size());
+    if (f.kind == Failure::Kind::nul) throw nul_byte(reader.name(), f.line, f.column);
     Location loc;
     loc.file = reader.name();
     loc.line = f.line;
-    if (f.kind == Failure::Kind::ragged)
-      throw Error(ErrorKind::input,
-                  "row has " + std::to_string(f.fields) + " fields but the header has " +
-                      std::to_string(reader.header().size()),
-                  loc, {}, "the same number of fields as the header");
-    if (f.kind == Failure::Kind::nul) {
-      loc.column = f.column;
-      throw Error(ErrorKind::input, "the input holds a NUL byte", loc, {}, "text (is this a binary file?)");
-    }
     loc.column = options.score_column + 1;
     loc.column_name = reader.header()[options.score_column];
     if (blank(f.value))

@@ -11,6 +11,7 @@
 #endif
 
 #include "io/byte_source.hpp"
+#include "io/csv_errors.hpp"
 #include "plumb/error.hpp"
 
 namespace plumb::io {
@@ -45,9 +46,60 @@ std::string printable(std::string_view name) {
   return out;
 }
 
+// Exact powers of ten: every one up to 1e22 is a double (5^22 < 2^53).
+constexpr double exact_powers_of_ten[] = {1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1e7,  1e8,  1e9,  1e10, 1e11,
+                                          1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22};
+
+// A plain decimal ("0.123456", "-3", "12.5": digits, then optionally a point
+// and digits) read exactly: when its digits as an integer m fit in 53 bits
+// and it has at most 22 decimals, m and 10^k are both doubles and one
+// correctly rounded division gives the correctly rounded value (Clinger,
+// "How to read floating point numbers accurately", PLDI 1990), the double
+// std::from_chars gives. False for anything else, left to from_chars.
+bool read_plain_decimal(const char* p, const char* e, double& value) noexcept {
+  const bool negative = p < e && *p == '-';
+  if (negative) ++p;
+  std::uint64_t m = 0;
+  int digits = 0, decimals = 0;
+  const char* const int_start = p;
+  for (; p < e && static_cast<unsigned>(*p - '0') < 10; ++p, ++digits) m = m * 10 + static_cast<unsigned>(*p - '0');
+  if (p == int_start) return false;
+  if (p < e && *p == '.') {
+    const char* const frac_start = ++p;
+    for (; p < e && static_cast<unsigned>(*p - '0') < 10; ++p, ++digits)
+      m = m * 10 + static_cast<unsigned>(*p - '0');
+    decimals = static_cast<int>(p - frac_start);
+    if (decimals == 0) return false;
+  }
+  if (p != e || digits > 19 || decimals > 22 || m > (std::uint64_t{1} << 53)) return false;
+  const double v = static_cast<double>(m) / exact_powers_of_ten[decimals];
+  value = negative ? -v : v;
+  return true;
+}
+
 }  // namespace
 
+Error ragged_row(const std::string& file, std::uint64_t line, std::size_t fields, std::size_t header_fields) {
+  Location loc;
+  loc.file = file;
+  loc.line = line;
+  return Error(ErrorKind::input,
+               "row has " + std::to_string(fields) + " fields but the header has " + std::to_string(header_fields),
+               loc, {}, "the same number of fields as the header");
+}
+
+Error nul_byte(const std::string& file, std::uint64_t line, std::size_t column) {
+  Location loc;
+  loc.file = file;
+  loc.line = line;
+  loc.column = column;
+  return Error(ErrorKind::input, "the input holds a NUL byte", loc, {}, "text (is this a binary file?)");
+}
+
 std::optional<double> parse_number(std::string_view text) noexcept {
+  // The common case first: a plain decimal with nothing around it.
+  double fast = 0.0;
+  if (read_plain_decimal(text.data(), text.data() + text.size(), fast)) return fast;
   text = trim_blanks(text);
   if (!text.empty() && text.front() == '+') {
     text.remove_prefix(1);
@@ -247,15 +299,8 @@ bool CsvReader::next(Record& record) {
   for (;;) {
     if (!read_record(record)) return false;
     if (record.raw.empty()) continue;  // blank line
-    if (record.fields.size() != header_.size()) {
-      Location loc;
-      loc.file = name_;
-      loc.line = record.line;
-      throw Error(ErrorKind::input,
-                  "row has " + std::to_string(record.fields.size()) + " fields but the header has " +
-                      std::to_string(header_.size()),
-                  loc, {}, "the same number of fields as the header");
-    }
+    if (record.fields.size() != header_.size())
+      throw ragged_row(name_, record.line, record.fields.size(), header_.size());
     return true;
   }
 }
@@ -305,7 +350,7 @@ bool CsvReader::read_record(Record& record) {
             break;
           }
           if (c == '\n') ++newlines;
-          if (c == '\0') fail_at("the input holds a NUL byte", {}, "text (is this a binary file?)");
+          if (c == '\0') throw nul_byte(name_, line_ + newlines, spans_.size() + 1);
           scratch_ += c;
           ++p;
         }
@@ -348,7 +393,7 @@ bool CsvReader::read_record(Record& record) {
       // Unquoted field: up to the delimiter or the line end.
       const char* f = p;
       while (p < e && *p != delimiter_ && *p != '\n') {
-        if (*p == '\0') fail_at("the input holds a NUL byte", {}, "text (is this a binary file?)");
+        if (*p == '\0') throw nul_byte(name_, line_ + newlines, spans_.size() + 1);
         ++p;
       }
       if (p == e && !eof_) break;
