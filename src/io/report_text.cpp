@@ -933,7 +933,7 @@ void render_gates(Document& doc, const Painter& p, const Report& report) {
   for (const GateResult& g : report.gates) breached += g.exceeded ? 1 : 0;
   doc.heading("gates");
   doc.line("  " + std::to_string(breached) + " of " + std::to_string(report.gates.size()) +
-           (breached == 1 ? " limit" : " limits") + " breached");
+           (report.gates.size() == 1 ? " limit" : " limits") + " breached");
   std::vector<Column> columns = {{"", false, 0, 0},    {"column", false, 0, 6},
                                  {"metric", false, 0, 0}, {"value", true, 0, 0},
                                  {"", false, 0, 0},    {"limit", true, 0, 0}};

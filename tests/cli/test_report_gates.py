@@ -266,6 +266,10 @@ class ReportGates(PlumbCase):
         auc = doc["scores"][0]["auc"]
         self.assertIn(f"{auc:.6g}", out)
         self.assertRegex(out, r"auc\s+" + re.escape(f"{auc:.6g}") + r"\s+>=\s+0\.5")
+        # One failed of two: the count agrees with the total ("of 2 limits"), not with the failures.
+        out, _ = self.report("holdout.csv", "--score", "risk", "--min", "auc=0.999", "--max", "ece=0.5",
+                             code=THRESHOLD)
+        self.assertNotRegex(out, r"\b1 of 2 limit\b")
         with open(md) as f:
             text = f.read()
         self.assertIn("at least 0.5", text)
