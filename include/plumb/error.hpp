@@ -14,7 +14,7 @@ enum class ErrorKind : std::uint8_t {
   artifact = 4,  // a map artifact that is truncated, tampered, or of an unknown version
   io = 5,        // a file that cannot be opened, read or written
   fit = 6,       // data that cannot support the requested fit (one class, no rows)
-  threshold = 7, // a --max gate was exceeded (the report is still written)
+  threshold = 7, // a report gate (--max or --min) failed (the report is still written)
 };
 
 // Where an error was found. Line numbers are 1-based physical lines of the

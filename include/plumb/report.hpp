@@ -9,6 +9,7 @@
 #include <optional>
 #include <span>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "plumb/binning.hpp"
@@ -89,17 +90,23 @@ struct ScoreReport {
   std::vector<SegmentSummary> segments;
 };
 
-// --max METRIC=VALUE, optionally for one column: --max risk_cal:ece=0.02.
+// Which side a gate bounds: --max fails above its limit, --min below it.
+enum class GateBound { max, min };
+
+// --max METRIC=VALUE or --min METRIC=VALUE, optionally for one column:
+// --max risk:ece=0.02. Which columns an unnamed gate reads is the caller's
+// choice (plumb report: the mapped columns when there are maps).
 struct Gate {
-  std::string column;  // empty: every score column
-  std::string metric;  // one of gate_metrics()
+  std::string column;  // empty: every score column (build_report)
+  std::string metric;  // a name of gate_metrics() or an older spelling (find_gate_metric)
   double limit = 0.0;
+  GateBound bound = GateBound::max;
 };
 struct GateResult {
   Gate gate;
   std::string column;  // the column it was checked on
   double value = 0.0;
-  bool exceeded = false;
+  bool exceeded = false;  // failed: beyond its limit, or a value that could not be computed
 };
 
 struct Report {
@@ -114,12 +121,36 @@ struct Report {
   bool any_gate_exceeded() const noexcept;
 };
 
-// The names --max accepts, with what each reads: ece (equal-width plug-in),
-// ece_mass, mce, l2_debiased, brier, log_loss, mcb (CORP Brier), mcb_log,
-// citl (|calibration in the large|), slope_gap (|1 - slope|).
-std::span<const std::string_view> gate_metrics() noexcept;
-// The value a gate reads from a summary. Precondition: metric is in gate_metrics().
+// A figure a gate can read: its name (the report's JSON key, or the key
+// with its group: ece_mass is calibration_error.equal_mass.ece), which
+// bounds make sense for it and what it reads, in words.
+struct GateMetric {
+  std::string_view name;
+  bool max;  // may be bounded above (--max)
+  bool min;  // may be bounded below (--min)
+  std::string_view reads;
+};
+// The gate metrics, in the order help lists them: ece, ece_mass, mce,
+// l2_debiased, brier, log_loss, mcb, mcb_log (--max only);
+// calibration_in_the_large (signed), slope (both bounds); auc,
+// hosmer_lemeshow_p, spiegelhalter_p (--min only).
+std::span<const GateMetric> gate_metrics() noexcept;
+// The metric called `name`: a name of gate_metrics(), or one of the older
+// spellings still read (citl: |calibration in the large|, --max only;
+// slope_gap: |1 - slope|, --max only; hl_p: hosmer_lemeshow_p). nullptr
+// for any other name.
+const GateMetric* find_gate_metric(std::string_view name) noexcept;
+// The value a gate reads from a summary (NaN when it cannot be computed).
+// Precondition: find_gate_metric(metric) is not null.
 double gate_value(const ScoreSummary& summary, std::string_view metric);
+// The gate checked on one column: exceeded when the value lies beyond the
+// limit on the gate's side, or is not a number (a pipeline must not pass
+// on a figure it does not have).
+GateResult check_gate(const Gate& gate, const ScoreSummary& summary);
+// The comparison a gate result shows: ">" or "<=" for --max, "<" or ">="
+// for --min (the value against the limit); empty when the value is not a
+// number.
+std::string_view gate_comparison(const GateResult& result) noexcept;
 
 // One forecast column with its name, for build_report.
 struct ForecastColumn {

@@ -48,7 +48,7 @@ int run_apply(const ApplyOptions& o) {
   csv.delimiter = parse_separator(o.separator);
   csv.keep_sha256 = false;
   io::CsvReader reader(o.file, csv);
-  const std::string score_spec = o.score.empty() ? artifact.score_column : o.score;
+  const std::string score_spec = map_score_column(artifact, o.score);
   const std::size_t score_col = reader.column(score_spec, "score");
   const std::string new_name = o.as.empty() ? reader.header()[score_col] + "_calibrated" : o.as;
   for (const std::string& h : reader.header())

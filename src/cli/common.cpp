@@ -138,6 +138,10 @@ void Progress::finish() {
   drawn_ = false;
 }
 
+std::string map_score_column(const Artifact& artifact, const std::string& given) {
+  return given.empty() ? artifact.score_column : given;
+}
+
 io::LabelledRows read_rows_with_progress(const std::string& what, const InputOptions& o,
                                          const io::LabelledColumns& columns) {
   Progress progress(what, o.quiet);

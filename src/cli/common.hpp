@@ -69,6 +69,11 @@ class Progress {
   std::chrono::steady_clock::time_point start_, last_;
 };
 
+// The column a map reads, as apply's --score and report's --map-score name
+// it: `given` (a name or 1-based index) when not empty, else the column the
+// map was fitted on.
+std::string map_score_column(const Artifact& artifact, const std::string& given);
+
 // Reads labelled rows with a progress line headed `what` on stderr.
 io::LabelledRows read_rows_with_progress(const std::string& what, const InputOptions& options,
                                          const io::LabelledColumns& columns);

@@ -25,7 +25,7 @@ int main(int argc, char** argv) {
       "plumb"};
   app.footer(
       "Exit codes: 0 ok, 1 internal error, 2 usage, 3 bad input data, 4 bad map artifact,\n"
-      "5 file I/O, 6 data cannot support the fit, 7 a --max threshold was exceeded.\n"
+      "5 file I/O, 6 data cannot support the fit, 7 a report gate (--max or --min) failed.\n"
       "Errors are one line on stderr: FILE:LINE:COLUMN (column 'NAME'): what went wrong.");
   app.set_version_flag("--version", std::string("plumb ") + plumb::version_string);
   app.require_subcommand(1);

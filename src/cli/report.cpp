@@ -2,6 +2,7 @@
 // labelled rows, for a terminal, a pipeline gate and a review page.
 #include <unistd.h>
 
+#include <cmath>
 #include <cstdio>
 #include <cstdlib>
 #include <filesystem>
@@ -24,6 +25,7 @@ struct ReportCliOptions {
   InputOptions input;
   std::vector<std::string> scores;
   std::vector<std::string> maps;
+  std::vector<std::string> map_scores;  // the column each --map reads, in order (none: their own)
   std::string by;
   std::size_t bins = 10;
   std::string binning = "width";
@@ -33,7 +35,7 @@ struct ReportCliOptions {
   double confidence = 0.95;
   std::size_t hl_groups = 10;
   double min_segment = 100;
-  std::vector<std::string> max;
+  std::vector<std::string> max, min;
   std::string json_path, svg_path, markdown_path;
   bool ascii = false;
   std::string tally;               // report on this tally instead of rows
@@ -56,7 +58,7 @@ io::LabelledRows rows_of_tally(const ReportCliOptions& o, const io::LabelledColu
   for (const io::ScoreColumn& c : columns.scores) {
     if (c.column != t.score_column)
       throw Error(ErrorKind::usage, "the tally holds column '" + t.score_column + "', not the column asked for", loc,
-                  c.column, "--score " + t.score_column + ", or a --map fitted on that column");
+                  c.column, "--score " + t.score_column + ", or --map-score " + t.score_column);
     if (c.scale != t.scale)
       throw Error(ErrorKind::usage,
                   "the tally holds scores on the " + std::string(to_string(t.scale)) + " scale, not the " +
@@ -87,31 +89,110 @@ io::LabelledRows rows_of_tally(const ReportCliOptions& o, const io::LabelledColu
 // Below this many scores outside the fitted range a mapped column is quiet.
 constexpr double outside_share_caution = 0.01;
 
-Gate parse_gate(const std::string& text) {
+std::string_view bound_option(GateBound bound) { return bound == GateBound::max ? "--max" : "--min"; }
+
+// The metrics `bound` may read, for messages.
+std::string gate_names(GateBound bound) {
+  std::string names;
+  for (const GateMetric& m : gate_metrics())
+    if (bound == GateBound::max ? m.max : m.min) names += (names.empty() ? "" : ", ") + std::string(m.name);
+  return names;
+}
+
+// --max or --min TEXT: METRIC=VALUE or COLUMN:METRIC=VALUE.
+Gate parse_gate(const std::string& text, GateBound bound) {
+  const std::string option(bound_option(bound));
   const auto eq = text.find('=');
-  const std::string expected = "METRIC=VALUE or COLUMN:METRIC=VALUE, METRIC one of " + [] {
-    std::string names;
-    for (std::string_view m : gate_metrics()) names += (names.empty() ? "" : ", ") + std::string(m);
-    return names;
-  }();
-  if (eq == std::string::npos) throw Error(ErrorKind::usage, "--max needs a value", {}, text, expected);
+  const std::string expected = "METRIC=VALUE or COLUMN:METRIC=VALUE, METRIC one of " + gate_names(bound);
+  if (eq == std::string::npos) throw Error(ErrorKind::usage, option + " needs a value", {}, text, expected);
   Gate g;
+  g.bound = bound;
   std::string lhs = text.substr(0, eq);
   const auto colon = lhs.rfind(':');
   if (colon != std::string::npos) {
     g.column = lhs.substr(0, colon);
     lhs = lhs.substr(colon + 1);
+    if (g.column.empty())
+      throw Error(ErrorKind::usage, option + " has an empty column before ':'", {}, text, expected);
   }
-  bool known = false;
-  for (std::string_view m : gate_metrics()) known = known || m == lhs;
-  if (!known) throw Error(ErrorKind::usage, "--max names an unknown metric", {}, lhs, expected);
-  g.metric = lhs;
+  const GateMetric* metric = find_gate_metric(lhs);
+  if (metric == nullptr) throw Error(ErrorKind::usage, option + " names an unknown metric", {}, lhs, expected);
+  if (!(bound == GateBound::max ? metric->max : metric->min)) {
+    const std::string other(bound_option(bound == GateBound::max ? GateBound::min : GateBound::max));
+    throw Error(ErrorKind::usage,
+                option + " cannot bound " + std::string(metric->name) + " (" + std::string(metric->reads) +
+                    "): only " + other + " can",
+                {}, text, other + " " + text + ", or " + option + " with one of " + gate_names(bound));
+  }
+  g.metric = metric->name;
   const std::string value = text.substr(eq + 1);
   char* end = nullptr;
   g.limit = std::strtod(value.c_str(), &end);
   if (value.empty() || *end != '\0' || !std::isfinite(g.limit))
-    throw Error(ErrorKind::usage, "--max has a limit that is not a number", {}, value, expected);
+    throw Error(ErrorKind::usage, option + " has a limit that is not a number", {}, value, expected);
   return g;
+}
+
+// One reported column as gates see it: its name in the report, the --map
+// it came through (empty for a --score column).
+struct GateTarget {
+  std::string name;
+  std::string map;
+};
+
+// The columns of the report each gate reads, as indices into `targets`. A
+// gate without a column reads what was calibrated: the mapped columns when
+// there are maps, else every column. A named gate reads the columns of that
+// name, or of that --map FILE as given; '*' reads every column.
+std::vector<std::vector<std::size_t>> gate_columns(const std::vector<Gate>& gates,
+                                                   const std::vector<GateTarget>& targets) {
+  bool any_map = false;
+  for (const GateTarget& t : targets) any_map = any_map || !t.map.empty();
+  std::vector<std::vector<std::size_t>> out;
+  for (const Gate& g : gates) {
+    std::vector<std::size_t> picked;
+    for (std::size_t k = 0; k < targets.size(); ++k) {
+      const GateTarget& t = targets[k];
+      const bool take = g.column.empty()
+                            ? (!any_map || !t.map.empty())
+                            : (g.column == "*" || g.column == t.name || (!t.map.empty() && g.column == t.map));
+      if (take) picked.push_back(k);
+    }
+    if (picked.empty()) {
+      std::string names;
+      for (const GateTarget& t : targets) {
+        names += (names.empty() ? "'" : ", '") + t.name + "'";
+        if (!t.map.empty()) names += " (or '" + t.map + "')";
+      }
+      throw Error(ErrorKind::usage,
+                  std::string(bound_option(g.bound)) + " names a column that is not reported", {}, g.column,
+                  "COLUMN:METRIC=VALUE with COLUMN one of " + names + ", or * for every column");
+    }
+    out.push_back(std::move(picked));
+  }
+  return out;
+}
+
+// The failed gates, for the one line on stderr.
+std::string failed_gates_line(const std::vector<GateResult>& results) {
+  std::size_t failed = 0;
+  std::string detail;
+  for (const GateResult& g : results) {
+    if (!g.exceeded) continue;
+    ++failed;
+    char value[32], limit[32];
+    std::snprintf(value, sizeof value, "%.6g", g.value);
+    std::snprintf(limit, sizeof limit, "%.6g", g.gate.limit);
+    detail += (detail.empty() ? "" : "; ") + g.column + ": " + g.gate.metric;
+    if (std::isfinite(g.value))
+      detail += " = " + std::string(value) + " " + std::string(gate_comparison(g)) + " " + limit;
+    else
+      detail += " could not be computed, which fails";
+    detail += " (" + std::string(bound_option(g.gate.bound)) +
+              (std::isfinite(g.value) ? ")" : " " + std::string(limit) + ")");
+  }
+  return "plumb report: " + std::to_string(failed) + " of " + std::to_string(results.size()) +
+         (results.size() == 1 ? " gate" : " gates") + " failed: " + detail;
 }
 
 void write_file(const std::string& path, const std::string& text) {
@@ -122,7 +203,8 @@ void write_file(const std::string& path, const std::string& text) {
 
 int run_report(const ReportCliOptions& o) {
   std::vector<Gate> gates;
-  for (const std::string& m : o.max) gates.push_back(parse_gate(m));
+  for (const std::string& m : o.max) gates.push_back(parse_gate(m, GateBound::max));
+  for (const std::string& m : o.min) gates.push_back(parse_gate(m, GateBound::min));
   ReportOptions ro;
   ro.bins = o.bins;
   ro.binning = o.binning == "mass" ? BinningKind::equal_mass : BinningKind::equal_width;
@@ -139,7 +221,15 @@ int run_report(const ReportCliOptions& o) {
   for (const std::string& path : o.maps) artifacts.push_back(load_artifact(path));
   io::LabelledColumns columns;
   for (const std::string& s : o.scores) columns.scores.push_back({s, Scale::probability});
-  for (const Artifact& a : artifacts) columns.scores.push_back({a.score_column, a.map->scale()});
+  if (!o.map_scores.empty() && o.map_scores.size() != o.maps.size())
+    throw Error(ErrorKind::usage,
+                "--map-score given " + std::to_string(o.map_scores.size()) + " times for " +
+                    std::to_string(o.maps.size()) + " --map",
+                {}, {}, "one --map-score per --map, in the same order, or none (each map reads its own column)");
+  for (std::size_t m = 0; m < artifacts.size(); ++m)
+    columns.scores.push_back(
+        {map_score_column(artifacts[m], o.map_scores.empty() ? std::string() : o.map_scores[m]),
+         artifacts[m].map->scale()});
   if (columns.scores.empty())
     throw Error(ErrorKind::usage, "nothing to report", {}, {}, "at least one --score or --map");
   columns.label = o.input.label;
@@ -151,9 +241,20 @@ int run_report(const ReportCliOptions& o) {
   if (o.tally.empty() && o.input.label.empty())
     throw Error(ErrorKind::usage, "report needs --label (or --tally FILE)", {}, {}, "--label COL FILE, or --tally FILE");
 
-  const io::LabelledRows rows = o.tally.empty()
-                                    ? read_rows_with_progress("plumb report: reading", o.input, columns)
-                                    : rows_of_tally(o, columns);
+  const io::LabelledRows rows = [&] {
+    try {
+      return o.tally.empty() ? read_rows_with_progress("plumb report: reading", o.input, columns)
+                             : rows_of_tally(o, columns);
+    } catch (const Error& e) {
+      // A map's own column is missing: say how to point the map at another.
+      if (e.kind() == ErrorKind::input && e.message() == "no score column" && o.map_scores.empty())
+        for (const Artifact& a : artifacts)
+          if (e.value() == a.score_column)
+            throw Error(e.kind(), "no column '" + a.score_column + "', which the map was fitted on", e.where(),
+                        e.value(), e.expected() + ", or --map-score COLUMN for the column the map should read");
+      throw;
+    }
+  }();
 
   std::vector<std::vector<double>> mapped;
   std::vector<ForecastColumn> forecasts;
@@ -179,7 +280,14 @@ int run_report(const ReportCliOptions& o) {
   }
   for (std::size_t m = 0; m < mapped.size(); ++m) forecasts[o.scores.size() + m].forecast = mapped[m];
 
-  Report report = build_report(forecasts, rows.label, rows.weight, rows.segment, rows.segment_names, gates, ro);
+  std::vector<GateTarget> targets;
+  for (std::size_t k = 0; k < forecasts.size(); ++k)
+    targets.push_back({forecasts[k].name, k < o.scores.size() ? std::string() : o.maps[k - o.scores.size()]});
+  const std::vector<std::vector<std::size_t>> gate_reads = gate_columns(gates, targets);
+
+  Report report = build_report(forecasts, rows.label, rows.weight, rows.segment, rows.segment_names, {}, ro);
+  for (std::size_t g = 0; g < gates.size(); ++g)
+    for (std::size_t k : gate_reads[g]) report.gates.push_back(check_gate(gates[g], report.scores[k].overall));
   report.source = rows.source;
   report.label_column = rows.label_column;
   report.weight_column = rows.weight_column;
@@ -199,12 +307,7 @@ int run_report(const ReportCliOptions& o) {
     out.commit();
   }
   if (report.any_gate_exceeded()) {
-    std::fprintf(stderr, "plumb report: a --max threshold was exceeded:");
-    for (const GateResult& g : report.gates)
-      if (g.exceeded)
-        std::fprintf(stderr, " %s %s = %s > %s;", g.column.c_str(), g.gate.metric.c_str(), shortest(g.value).c_str(),
-                     shortest(g.gate.limit).c_str());
-    std::fprintf(stderr, "\n");
+    std::fprintf(stderr, "%s\n", failed_gates_line(report.gates).c_str());
     return static_cast<int>(ErrorKind::threshold);
   }
   return 0;
@@ -218,14 +321,22 @@ Command add_report_command(CLI::App& app) {
       "report", "Reliability diagnostics of forecasts against outcomes: scores, decompositions, calibration "
                 "error with intervals, a reliability chart, segments, pass/fail gates");
   cmd->footer(
-      "Gates (--max, repeatable) read one figure per score column: ece, ece_mass, mce, l2_debiased,\n"
-      "brier, log_loss, mcb (CORP miscalibration of the Brier score), mcb_log, citl (|mean forecast -\n"
-      "observed rate|), slope_gap (|1 - calibration slope|). 'risk_cal:ece=0.02' checks one column only.\n"
-      "When a gate is exceeded every requested output is still written, then plumb exits with code 7.\n\n"
+      "Columns: --score names columns reported as they are; each --map is applied on the fly to the\n"
+      "column it was fitted on, or to the column its --map-score names (as apply's --score does).\n\n"
+      "Gates (repeatable): --max METRIC=VALUE fails when the figure is above VALUE, --min when below.\n"
+      "  --max: " + gate_names(GateBound::max) + "\n"
+      "  --min: " + gate_names(GateBound::min) + "\n"
+      "The names are those of the JSON report (docs/report-format.md). A gate reads what was\n"
+      "calibrated: the --map columns when there are maps, else every --score column. To read one\n"
+      "column, name it: risk:ece=0.05 (the raw scores), late.map.json:ece=0.02 (a map's column),\n"
+      "*:ece=0.02 (every column). A figure that cannot be computed fails its gate. When a gate fails\n"
+      "every requested output is still written, then plumb exits with code 7.\n\n"
       "Examples:\n"
       "  plumb report --score risk --score risk_cal --label missed --by depot scored.csv\n"
       "  plumb report --map late.map.json --score risk --label missed holdout.csv --svg reliability.svg\n"
+      "  plumb report --map late.map.json --map-score risk_v2 --label missed holdout.csv\n"
       "  plumb report --score risk_cal --label missed --max ece=0.02 --max mcb=0.004 -q scored.csv || page-the-on-call\n"
+      "  plumb report --map late.map.json --score risk --label missed --max ece=0.02 --min auc=0.7 -q holdout.csv\n"
       "  plumb report --score risk --map late.map.json --tally all.tally.json\n\n"
       "With --tally the report is that of the tallied rows (the figures are sums over rows, which the\n"
       "tally keeps per score; the bootstrap resamples the rows the tally stands for, holding them in\n"
@@ -234,11 +345,17 @@ Command add_report_command(CLI::App& app) {
       "model validation; credit, insurance and health uses follow local rules and licensed practice.");
   cmd->add_option("file", o->input.file, "CSV or TSV file with a header row, plain or gzip; - or nothing reads standard input")
       ->default_str("-");
-  cmd->add_option("--score", o->scores, "Forecast column to report, a probability in [0, 1] (repeatable; side by side)")
+  cmd->add_option("--score", o->scores,
+                  "Forecast column to report as it is, a probability in [0, 1] (name or 1-based index; "
+                  "repeatable; side by side)")
       ->allow_extra_args(false);
   cmd->add_option("--map", o->maps,
-                  "Map artifact to apply on the fly to the column it was fitted on, reported beside the raw "
-                  "scores (repeatable)")
+                  "Map artifact to apply on the fly, reported after the --score columns (repeatable); it reads "
+                  "the column it was fitted on unless --map-score names another")
+      ->allow_extra_args(false);
+  cmd->add_option("--map-score", o->map_scores,
+                  "Column the --map of the same position reads (name or 1-based index), as apply's --score; "
+                  "one per --map, in order (default: the column each map was fitted on)")
       ->allow_extra_args(false);
   cmd->add_option("--label", o->input.label,
                   "Column holding the observed outcome (name or 1-based index); required unless --tally");
@@ -273,7 +390,11 @@ Command add_report_command(CLI::App& app) {
   cmd->add_option("--min-segment", o->min_segment, "Segments of less weight say 'too few rows' instead of figures")
       ->check(CLI::Range(1.0, 1e12))
       ->default_str("100");
-  cmd->add_option("--max", o->max, "Gate: fail (exit 7) when METRIC exceeds VALUE, e.g. ece=0.02 (repeatable)")
+  cmd->add_option("--max", o->max,
+                  "Gate: fail (exit 7) when METRIC is above VALUE, e.g. ece=0.02 or risk:ece=0.05 (repeatable)")
+      ->allow_extra_args(false);
+  cmd->add_option("--min", o->min,
+                  "Gate: fail (exit 7) when METRIC is below VALUE, e.g. auc=0.7 or hosmer_lemeshow_p=0.05 (repeatable)")
       ->allow_extra_args(false);
   cmd->add_option("--json", o->json_path, "Also write every number as JSON (docs/report-format.md)");
   cmd->add_option("--svg", o->svg_path, "Also write reliability diagrams as SVG");

@@ -14,8 +14,26 @@
 namespace plumb {
 namespace {
 
-constexpr std::array<std::string_view, 10> gate_names{"ece",   "ece_mass", "mce", "l2_debiased", "brier",
-                                                      "log_loss", "mcb",   "mcb_log", "citl", "slope_gap"};
+constexpr std::array<GateMetric, 13> gate_table{{
+    {"ece", true, false, "expected calibration error, equal-width bins"},
+    {"ece_mass", true, false, "expected calibration error, equal-mass bins"},
+    {"mce", true, false, "maximum calibration error, equal-width bins"},
+    {"l2_debiased", true, false, "debiased L2 calibration error"},
+    {"brier", true, false, "Brier score"},
+    {"log_loss", true, false, "log loss in nats"},
+    {"mcb", true, false, "CORP miscalibration of the Brier score"},
+    {"mcb_log", true, false, "CORP miscalibration of the log loss"},
+    {"calibration_in_the_large", true, true, "mean forecast - observed rate, signed"},
+    {"slope", true, true, "calibration slope (Cox)"},
+    {"auc", false, true, "area under the ROC curve"},
+    {"hosmer_lemeshow_p", false, true, "Hosmer-Lemeshow p-value"},
+    {"spiegelhalter_p", false, true, "Spiegelhalter p-value"},
+}};
+// Older spellings, still read so that existing gates keep working.
+constexpr std::array<GateMetric, 2> older_gate_table{{
+    {"citl", true, false, "|mean forecast - observed rate|"},
+    {"slope_gap", true, false, "|1 - calibration slope|"},
+}};
 
 // Below these the report says its bins are thin (common practice: about 10
 // positives and 10 negatives per bin for a stable observed frequency).
@@ -210,7 +228,16 @@ bool Report::any_gate_exceeded() const noexcept {
   return std::any_of(gates.begin(), gates.end(), [](const GateResult& g) { return g.exceeded; });
 }
 
-std::span<const std::string_view> gate_metrics() noexcept { return gate_names; }
+std::span<const GateMetric> gate_metrics() noexcept { return gate_table; }
+
+const GateMetric* find_gate_metric(std::string_view name) noexcept {
+  if (name == "hl_p") name = "hosmer_lemeshow_p";
+  for (const GateMetric& m : gate_table)
+    if (m.name == name) return &m;
+  for (const GateMetric& m : older_gate_table)
+    if (m.name == name) return &m;
+  return nullptr;
+}
 
 double gate_value(const ScoreSummary& s, std::string_view metric) {
   if (metric == "ece") return s.ece_equal_width.ece;
@@ -221,9 +248,26 @@ double gate_value(const ScoreSummary& s, std::string_view metric) {
   if (metric == "log_loss") return s.log_loss;
   if (metric == "mcb") return s.corp_brier.mcb;
   if (metric == "mcb_log") return s.corp_log_loss.mcb;
+  if (metric == "calibration_in_the_large") return s.calibration_in_the_large;
+  if (metric == "slope") return s.regression.slope;
+  if (metric == "auc") return s.auc;
+  if (metric == "hosmer_lemeshow_p" || metric == "hl_p") return s.hosmer_lemeshow.p_value;
+  if (metric == "spiegelhalter_p") return s.spiegelhalter.p_value;
   if (metric == "citl") return std::fabs(s.calibration_in_the_large);
   if (metric == "slope_gap") return std::fabs(1.0 - s.regression.slope);
   throw Error(ErrorKind::internal, "gate_value: unknown metric " + std::string(metric));
+}
+
+GateResult check_gate(const Gate& g, const ScoreSummary& s) {
+  GateResult result{g, s.name, gate_value(s, g.metric), false};
+  result.exceeded = g.bound == GateBound::max ? !(result.value <= g.limit) : !(result.value >= g.limit);
+  return result;
+}
+
+std::string_view gate_comparison(const GateResult& r) noexcept {
+  if (!std::isfinite(r.value)) return {};
+  if (r.gate.bound == GateBound::max) return r.exceeded ? ">" : "<=";
+  return r.exceeded ? "<" : ">=";
 }
 
 Report build_report(std::span<const ForecastColumn> columns, std::span<const double> label,
@@ -246,11 +290,7 @@ Report build_report(std::span<const ForecastColumn> columns, std::span<const dou
     for (const ScoreReport& sr : r.scores) {
       if (!g.column.empty() && g.column != sr.overall.name) continue;
       matched = true;
-      GateResult result{g, sr.overall.name, gate_value(sr.overall, g.metric), false};
-      // A value that cannot be computed fails the gate: a pipeline must not
-      // pass on a number it does not have.
-      result.exceeded = !(result.value <= g.limit);
-      r.gates.push_back(result);
+      r.gates.push_back(check_gate(g, sr.overall));
     }
     if (!matched)
       throw Error(ErrorKind::usage, "--max names a column that is not reported", {}, g.column,

@@ -153,6 +153,7 @@ json report_to_json(const Report& r) {
   for (const GateResult& g : r.gates)
     gates.push_back({{"column", g.column},
                      {"metric", g.gate.metric},
+                     {"bound", g.gate.bound == GateBound::max ? "max" : "min"},
                      {"limit", num(g.gate.limit)},
                      {"value", num(g.value)},
                      {"exceeded", g.exceeded}});

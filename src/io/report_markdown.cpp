@@ -37,6 +37,8 @@ std::string to_chars_or_na(double x, std::chars_format format, int precision) {
 // Four significant digits: enough to compare two runs, few enough to read.
 // (std::to_chars ignores the C locale, so the decimal point is always '.'.)
 std::string num(double x) { return to_chars_or_na(x, std::chars_format::general, 4); }
+// Gate limits and values: six significant digits, to tell a value from a limit it is close to.
+std::string gate_num(double x) { return to_chars_or_na(x, std::chars_format::general, 6); }
 // Probabilities and frequencies in tables: fixed, so the column lines up.
 std::string prob(double x) { return to_chars_or_na(x, std::chars_format::fixed, 4); }
 std::string signed_prob(double x) {
@@ -245,7 +247,9 @@ void gates(std::string& out, const Report& report) {
   std::size_t failed = 0;
   for (const GateResult& g : report.gates) {
     failed += g.exceeded ? 1 : 0;
-    t.row({md(g.column), md(g.gate.metric), num(g.gate.limit), num(g.value), g.exceeded ? "**FAIL**" : "pass"});
+    t.row({md(g.column), md(g.gate.metric),
+           (g.gate.bound == GateBound::max ? "at most " : "at least ") + gate_num(g.gate.limit), gate_num(g.value),
+           g.exceeded ? "**FAIL**" : "pass"});
   }
   out += failed == 0 ? "Every gate passed.\n\n"
                      : std::to_string(failed) + " of " + std::to_string(report.gates.size()) + " gates failed.\n\n";

@@ -166,6 +166,10 @@ std::string metric(double x) {
 
 std::string stat(double x) { return fixed(x, 2); }
 
+// Gate values and limits: six significant digits, enough to tell a value
+// from a limit it is close to.
+std::string gate_number(double x) { return std::isfinite(x) ? printf_double("%.*g", 6, x) : "n/a"; }
+
 std::string p_value(double p) {
   if (!std::isfinite(p)) return "n/a";
   if (p >= 1e-4) return fixed(p, 4);
@@ -929,15 +933,15 @@ void render_gates(Document& doc, const Painter& p, const Report& report) {
   for (const GateResult& g : report.gates) breached += g.exceeded ? 1 : 0;
   doc.heading("gates");
   doc.line("  " + std::to_string(breached) + " of " + std::to_string(report.gates.size()) +
-           (breached == 1 ? " limit" : " limits") + " breached");
+           (report.gates.size() == 1 ? " limit" : " limits") + " breached");
   std::vector<Column> columns = {{"", false, 0, 0},    {"column", false, 0, 6},
                                  {"metric", false, 0, 0}, {"value", true, 0, 0},
                                  {"", false, 0, 0},    {"limit", true, 0, 0}};
   std::vector<Row> rows;
   for (const GateResult& g : report.gates) {
     Row r;
-    r.cells = {g.exceeded ? "BREACHED" : "held", g.column, g.gate.metric, metric(g.value),
-               !std::isfinite(g.value) ? "" : g.exceeded ? ">" : "<=", metric(g.gate.limit)};
+    r.cells = {g.exceeded ? "BREACHED" : "held", g.column, g.gate.metric, gate_number(g.value),
+               std::string(gate_comparison(g)), gate_number(g.gate.limit)};
     r.tone = g.exceeded ? Tone::red : Tone::green;
     rows.push_back(std::move(r));
   }
