@@ -36,7 +36,7 @@ TEST_CASE("the default rule reads 1/0, 1.0/0.0 and true/false and nothing else",
   CHECK(rule.describe() == "1/0 or true/false");
 }
 
-TEST_CASE("--positive alone: missing spellings are refused, not negatives", "[labels]") {
+TEST_CASE("a positive value alone: missing spellings are refused, not negatives", "[labels]") {
   const LabelRule rule(std::string("yes"));
   CHECK(rule.read("yes") == std::optional<double>(1.0));
   CHECK(rule.read("Yes") == std::optional<double>(0.0));  // exact text decides
@@ -48,7 +48,7 @@ TEST_CASE("--positive alone: missing spellings are refused, not negatives", "[la
   CHECK(rule.describe() == "'yes' is positive, any other value negative");
 }
 
-TEST_CASE("--negative alone makes every other value positive", "[labels]") {
+TEST_CASE("a negative value alone makes every other value positive", "[labels]") {
   const LabelRule rule(std::nullopt, std::string("on_time"));
   CHECK(rule.read("on_time") == std::optional<double>(0.0));
   CHECK(rule.read("late") == std::optional<double>(1.0));
@@ -56,7 +56,7 @@ TEST_CASE("--negative alone makes every other value positive", "[labels]") {
   CHECK(rule.describe() == "'on_time' is negative, any other value positive");
 }
 
-TEST_CASE("--positive and --negative together refuse a third value", "[labels]") {
+TEST_CASE("positive and negative values together refuse a third value", "[labels]") {
   const LabelRule rule(std::string("yes"), std::string("no"));
   CHECK(rule.read("yes") == std::optional<double>(1.0));
   CHECK(rule.read("no") == std::optional<double>(0.0));
