@@ -16,13 +16,16 @@
 
 #include "plumb/calibration_map.hpp"
 #include "plumb/csv.hpp"
+#include "plumb/labelled_input.hpp"
 #include "plumb/output.hpp"
 
 namespace plumb::io {
 
 struct ApplyStreamOptions {
   std::size_t score_column = 0;  // 0-based index in the reader's header
-  bool missing_is_empty = false;  // a blank score: empty probability (else an error)
+  // A missing score (is_missing_value): refuse (an error), skip (the record
+  // is left out of the output) or empty (an empty probability).
+  MissingPolicy missing = MissingPolicy::refuse;
   unsigned threads = 1;           // worker threads; 1 parses on the calling thread
   std::size_t block_bytes = std::size_t{1} << 20;
   // The fitted score range, for counting scores outside it.
@@ -30,20 +33,27 @@ struct ApplyStreamOptions {
 };
 
 struct ApplyCounts {
-  std::uint64_t rows = 0, outside = 0, clamped = 0, clipped = 0, missing = 0;
+  // rows: records written (missing: those of them with an empty
+  // probability); skipped: records left out.
+  std::uint64_t rows = 0, outside = 0, clamped = 0, clipped = 0, missing = 0, skipped = 0;
 };
 
 using ApplyProgress = std::function<void(std::uint64_t rows, std::uint64_t bytes,
                                          std::optional<std::uint64_t> total_bytes)>;
 
 // Writes every data record of `reader` to `out` as: its raw bytes, the
-// delimiter, the shortest text of map(score) (or nothing for a blank score
-// with missing_is_empty), its line end. Blank lines are dropped. The header
+// delimiter, the shortest text of map(score) (or nothing for a missing score
+// under MissingPolicy::empty), its line end; a record with a missing score
+// under MissingPolicy::skip is left out. Blank lines are dropped, except in
+// a one-column file, where they are records with an empty score. The header
 // is the caller's to write. Throws plumb::Error(input), located by file,
 // line and column, for the first bad record in input order: a ragged row, a
-// NUL byte, a quoting error, a score that is blank, not a decimal number or
+// NUL byte, a quoting error, a score that is missing (under
+// MissingPolicy::refuse, with the message missing_score_expected), not a decimal number or
 // not valid on the map's scale; the records before it may have been written
 // to `out` (an OutputFile that is never committed leaves no file).
+inline constexpr const char* missing_score_expected =
+    "a score (or --missing skip to leave the row out, or --missing empty to write an empty probability)";
 ApplyCounts apply_stream(CsvReader& reader, const CalibrationMap& map, OutputFile& out,
                          const ApplyStreamOptions& options, const ApplyProgress& progress = {});
 

@@ -21,7 +21,11 @@ struct Provenance {
   double weight_total = 0.0;
   std::string label_column;
   std::string weight_column;   // empty when unweighted
-  std::string positive_rule;   // how labels were read, e.g. "1/true" or "value 'late'"
+  std::string positive_rule;   // how labels were read, e.g. "1/0 or true/false" (LabelRule::describe)
+  // Rows left out for a missing score or label when fitted with --missing
+  // skip; nullopt when the fit refused missing values (and in artifacts
+  // written before the option existed).
+  std::optional<std::uint64_t> rows_skipped;
   double score_min = 0.0, score_max = 0.0;
   std::string tool;            // "plumb 0.1.0"
   std::string created_utc;     // ISO 8601, empty when written with --no-timestamp

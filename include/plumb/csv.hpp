@@ -62,7 +62,8 @@ class CsvReader {
   std::size_t column(std::string_view spec, std::string_view role) const;
 
   // Next data record, with exactly header().size() fields; false at the end.
-  // Blank lines are skipped. The record's views stay valid until the next
+  // Blank lines are skipped, except when the header has one column: there
+  // a blank line is a record with one empty field. The record's views stay valid until the next
   // call. Throws plumb::Error(input) on a ragged row, an unclosed quote,
   // stray text after a closing quote, a NUL byte or an over-long record.
   bool next(Record& record);
@@ -71,7 +72,7 @@ class CsvReader {
   // over, appended to `out`, the unread bytes up to the last line end among
   // the next `max_bytes` (or up to the end of the input), when those lines
   // hold no quote character, and sets `first_line` to the physical line they
-  // start on. Blank lines, field counts and NUL bytes in them are not
+  // start on. Blank lines (records when the header has one column), field counts and NUL bytes in them are not
   // checked: that is the caller's job. Bulk and next() may alternate.
   enum class Bulk { lines, quoted, end };
   // lines: bytes were appended. quoted: the next line holds a quote (or is

@@ -114,6 +114,9 @@ struct Report {
   std::string label_column;
   std::string weight_column;   // empty when unweighted
   std::string segment_column;  // empty without --by
+  // Rows left out for a missing score or label under --missing skip;
+  // nullopt when missing values were refused.
+  std::optional<std::uint64_t> rows_skipped;
   ReportOptions options;
   std::vector<ScoreReport> scores;
   std::vector<GateResult> gates;

@@ -23,7 +23,7 @@ struct ApplyOptions {
   std::string score;  // empty: the artifact's score column
   std::string as;     // empty: <score column>_calibrated
   std::string output = "-";
-  std::string missing = "stop";
+  std::string missing = "refuse";
   std::string separator = "auto";
   unsigned threads = 0;
   bool quiet = false;
@@ -70,7 +70,7 @@ int run_apply(const ApplyOptions& o) {
 
   io::ApplyStreamOptions stream;
   stream.score_column = score_col;
-  stream.missing_is_empty = o.missing == "empty";
+  stream.missing = parse_missing(o.missing);
   stream.threads = o.threads == 0 ? std::max(1u, std::thread::hardware_concurrency()) : o.threads;
   stream.fitted_min = artifact.provenance.score_min;
   stream.fitted_max = artifact.provenance.score_max;
@@ -82,15 +82,19 @@ int run_apply(const ApplyOptions& o) {
   out.commit();
   progress.finish();
   const std::uint64_t rows = counts.rows, outside = counts.outside, clamped = counts.clamped,
-                      clipped = counts.clipped, missing = counts.missing;
+                      clipped = counts.clipped, missing = counts.missing, skipped = counts.skipped;
   const double fitted_min = stream.fitted_min, fitted_max = stream.fitted_max;
 
   if (!o.quiet) {
+    const std::string missing_part =
+        stream.missing == io::MissingPolicy::skip
+            ? grouped(skipped) + (skipped == 1 ? " row" : " rows") + " with a missing score left out"
+            : grouped(missing) + " missing scores left empty";
     std::fprintf(stderr, "plumb apply: %s rows, %s outside the fitted scores [%s, %s] (%s held at the map's end "
-                         "values), %s clipped near 0 or 1, %s missing scores left empty; written to %s\n",
+                         "values), %s clipped near 0 or 1, %s; written to %s\n",
                  grouped(rows).c_str(), grouped(outside).c_str(), shortest(fitted_min).c_str(),
                  shortest(fitted_max).c_str(), grouped(clamped).c_str(), grouped(clipped).c_str(),
-                 grouped(missing).c_str(), out.name().c_str());
+                 missing_part.c_str(), out.name().c_str());
     if (rows > 0 && outside * 100 > rows)
       std::fprintf(stderr, "plumb apply: caution: more than 1%% of the scores lie outside the range the map was "
                            "fitted on; has the model or the population changed since the fit?\n");
@@ -117,10 +121,7 @@ Command add_apply_command(CLI::App& app) {
   cmd->add_option("--score", o->score, "Column holding the raw score (default: the column the map was fitted on)");
   cmd->add_option("--as", o->as, "Name of the new column (default: the score column's name + _calibrated)");
   cmd->add_option("-o,--output", o->output, "Where to write the rows (- for standard output)")->default_str("-");
-  cmd->add_option("--missing", o->missing,
-                  "A blank score: stop with an error, or write an empty probability and count the row")
-      ->check(CLI::IsMember({"stop", "empty"}))
-      ->default_str("stop");
+  add_missing_option(*cmd, o->missing, true);
   cmd->add_option("--threads", o->threads,
                   "Threads parsing and mapping rows (0: one per core); the output is the same for any count")
       ->check(CLI::Range(0, 1024))

@@ -30,10 +30,8 @@ void add_input_options(CLI::App& command, InputOptions& o, bool with_label) {
     command.add_option("--label", o.label, "Column holding the observed outcome (name or 1-based index)")
         ->required();
     command.add_option("--weight", o.weight, "Column of non-negative row weights (default: every row weighs 1)");
-    command.add_option("--positive", o.positive,
-                       "Label value that counts as the positive outcome; every other value is then negative "
-                       "(default: labels must be 1/0 or true/false)")
-        ->each([&o](const std::string&) { o.positive_given = true; });
+    add_label_value_options(command, o);
+    add_missing_option(command, o.missing, false);
   }
   command
       .add_option("--scale", o.scale,
@@ -43,6 +41,52 @@ void add_input_options(CLI::App& command, InputOptions& o, bool with_label) {
       ->default_str("probability");
   add_separator_option(command, o.separator);
   add_quiet_option(command, o.quiet);
+}
+
+void add_label_value_options(CLI::App& command, InputOptions& o) {
+  command
+      .add_option("--positive", o.positive,
+                  "Label value that counts as the positive outcome; alone, every other value is negative "
+                  "(default: labels must be 1/0, 1.0/0.0 or true/false)")
+      ->each([&o](const std::string&) { o.positive_given = true; });
+  command
+      .add_option("--negative", o.negative,
+                  "Label value that counts as the negative outcome; alone, every other value is positive; "
+                  "with --positive, any third value is refused")
+      ->each([&o](const std::string&) { o.negative_given = true; });
+}
+
+void add_missing_option(CLI::App& command, std::string& missing, bool with_empty) {
+  const std::string about =
+      "A missing score or label (empty, NA, NaN, null, n/a, None): refuse (stop with its location) or skip "
+      "(leave the row out and count it)";
+  command
+      .add_option("--missing", missing,
+                  with_empty ? "A missing score (empty, NA, NaN, null, n/a, None): refuse (stop with its location), "
+                               "skip (leave the row out of the output and count it) or empty (write the row with "
+                               "an empty probability)"
+                             : about)
+      ->check(CLI::Validator(
+          [with_empty](std::string& value) -> std::string {
+            // "stop" is apply's earlier spelling of refuse, kept working but not shown.
+            if (value == "refuse" || value == "skip" || (with_empty && (value == "empty" || value == "stop")))
+              return {};
+            return "--missing is " + std::string(with_empty ? "refuse, skip or empty" : "refuse or skip") +
+                   ", not '" + value + "'";
+          },
+          with_empty ? "{refuse,skip,empty}" : "{refuse,skip}"))
+      ->default_str("refuse");
+}
+
+io::MissingPolicy parse_missing(const std::string& text) {
+  if (text == "skip") return io::MissingPolicy::skip;
+  if (text == "empty") return io::MissingPolicy::empty;
+  return io::MissingPolicy::refuse;  // refuse, or apply's old spelling "stop"
+}
+
+std::string skipped_note(const InputOptions& o, std::uint64_t skipped) {
+  if (parse_missing(o.missing) != io::MissingPolicy::skip) return {};
+  return "; " + grouped(skipped) + (skipped == 1 ? " row" : " rows") + " with a missing score or label left out";
 }
 
 MapOptions MapChoices::map_options() const {
@@ -100,7 +144,11 @@ Scale parse_scale_option(const std::string& text) {
 }
 
 io::LabelRule label_rule(const InputOptions& o) {
-  return o.positive_given ? io::LabelRule(o.positive) : io::LabelRule();
+  if (o.positive_given && o.negative_given && o.positive == o.negative)
+    throw Error(ErrorKind::usage, "--positive and --negative name the same value", {}, o.positive,
+                "two different label values");
+  return io::LabelRule(o.positive_given ? std::optional<std::string>(o.positive) : std::nullopt,
+                       o.negative_given ? std::optional<std::string>(o.negative) : std::nullopt);
 }
 
 Progress::Progress(std::string what, bool quiet) : what_(std::move(what)) {
@@ -145,8 +193,10 @@ std::string map_score_column(const Artifact& artifact, const std::string& given)
 io::LabelledRows read_rows_with_progress(const std::string& what, const InputOptions& o,
                                          const io::LabelledColumns& columns) {
   Progress progress(what, o.quiet);
+  io::LabelledColumns with_policy = columns;
+  with_policy.missing = parse_missing(o.missing);
   io::LabelledRows rows = io::read_labelled(
-      o.file, columns, label_rule(o), parse_separator(o.separator),
+      o.file, with_policy, label_rule(o), parse_separator(o.separator),
       [&progress](std::uint64_t r, std::uint64_t b, std::optional<std::uint64_t> t) { progress.update(r, b, t); });
   progress.finish();
   return rows;
@@ -162,6 +212,7 @@ Provenance provenance_of(const io::LabelledRows& rows, const InputOptions& o, bo
   p.label_column = rows.label_column;
   p.weight_column = rows.weight_column;
   p.positive_rule = label_rule(o).describe();
+  if (parse_missing(o.missing) == io::MissingPolicy::skip) p.rows_skipped = rows.skipped;
   p.score_min = rows.score_min;
   p.score_max = rows.score_max;
   p.tool = std::string("plumb ") + version_string;

@@ -21,6 +21,9 @@ struct InputOptions {
   std::string weight;
   std::string positive;  // empty: 1/0, true/false
   bool positive_given = false;
+  std::string negative;  // named negative value, when negative_given
+  bool negative_given = false;
+  std::string missing = "refuse";  // --missing: refuse or skip
   std::string scale = "probability";
   std::string separator = "auto";
   bool quiet = false;
@@ -40,16 +43,29 @@ struct MapChoices {
 // --between, --platt-targets, --beta-form, --bins.
 void add_map_options(CLI::App& command, MapChoices& choices);
 
-// --score, --label, --weight, --positive, --scale, --sep, --quiet and the
-// positional FILE. `with_label` false leaves out --label, --weight and
-// --positive (for commands that read unlabelled rows).
+// --score, --label, --weight, --positive, --negative, --missing, --scale,
+// --sep, --quiet and the positional FILE. `with_label` false leaves out
+// --label, --weight, --positive, --negative and --missing (for commands that
+// read unlabelled rows).
 void add_input_options(CLI::App& command, InputOptions& options, bool with_label);
 void add_separator_option(CLI::App& command, std::string& separator);
+// --positive and --negative (add_input_options adds them with the label).
+void add_label_value_options(CLI::App& command, InputOptions& options);
+// --missing: refuse or skip, and empty when `with_empty` (apply). The old
+// apply spelling "stop" is still accepted, as refuse.
+void add_missing_option(CLI::App& command, std::string& missing, bool with_empty);
+// The --missing text as a policy (after add_missing_option's check).
+io::MissingPolicy parse_missing(const std::string& text);
+// "; 3 rows with a missing score or label left out" under --missing skip,
+// empty otherwise: the summary lines' wording.
+std::string skipped_note(const InputOptions& options, std::uint64_t skipped);
 void add_quiet_option(CLI::App& command, bool& quiet);
 
 // The separator option as a character (0 = detect). Throws Error(usage).
 char parse_separator(const std::string& text);
 Scale parse_scale_option(const std::string& text);
+// The label rule of --positive/--negative; Error(usage) when both name the
+// same value.
 io::LabelRule label_rule(const InputOptions& options);
 
 // Progress lines on stderr, only when stderr is a terminal and not quiet;
@@ -74,7 +90,8 @@ class Progress {
 // map was fitted on.
 std::string map_score_column(const Artifact& artifact, const std::string& given);
 
-// Reads labelled rows with a progress line headed `what` on stderr.
+// Reads labelled rows with a progress line headed `what` on stderr, under
+// the label rule and the --missing policy of `options`.
 io::LabelledRows read_rows_with_progress(const std::string& what, const InputOptions& options,
                                          const io::LabelledColumns& columns);
 

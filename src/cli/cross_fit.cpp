@@ -139,9 +139,9 @@ nlohmann::json evidence_json(const CrossFitResult& r, const Split& split, const 
           {"reason", r.reason}};
 }
 
-void print_evidence(const CrossFitResult& r) {
-  std::fprintf(stderr, "plumb cross-fit: %zu folds (%s), %s rows scored out of fold\n", r.folds.count,
-               std::string(to_string(r.folds.kind)).c_str(), grouped(r.scored_rows).c_str());
+void print_evidence(const CrossFitResult& r, const std::string& skipped) {
+  std::fprintf(stderr, "plumb cross-fit: %zu folds (%s), %s rows scored out of fold%s\n", r.folds.count,
+               std::string(to_string(r.folds.kind)).c_str(), grouped(r.scored_rows).c_str(), skipped.c_str());
   std::fprintf(stderr, "  %-14s %9s %9s %8s %8s %9s  %s\n", "map", "log loss", "Brier", "ECE", "MCB", "fold sd",
                "vs best (se)");
   auto row = [](const char* name, const OutOfFoldFigures& f, const std::string& versus) {
@@ -180,9 +180,14 @@ void write_oof(const CrossFitOptions& o, const io::LabelledRows& rows, const Cro
   }
   out.write(line_end);
   io::Record record;
-  std::size_t i = 0;
+  std::size_t i = 0, skipped = 0;
   char number[32];
   while (reader.next(record)) {
+    // Rows left out under --missing skip are left out here too.
+    if (skipped < rows.skipped_lines.size() && rows.skipped_lines[skipped] == record.line) {
+      ++skipped;
+      continue;
+    }
     if (i >= rows.rows) throw Error(ErrorKind::io, "the input changed while cross-fit was reading it");
     out.write(record.raw);
     out.put(d);
@@ -258,7 +263,7 @@ int run_cross_fit(const CrossFitOptions& o) {
   out.commit();
 
   if (!o.input.quiet) {
-    print_evidence(result);
+    print_evidence(result, skipped_note(o.input, rows.skipped));
     if (split.kind == SplitKind::time)
       std::fprintf(stderr, "plumb cross-fit: note: the earliest time block (fold 1) is never scored: no earlier "
                            "rows exist to fit its map on\n");

@@ -120,6 +120,9 @@ int write_and_summarise(const FitOptions& o, const Artifact& artifact, const std
     const FitDiagnostics& d = artifact.map->diagnostics();
     std::string notes;
     for (const std::string& n : d.notes) notes += "; " + n;
+    if (rows.rows_skipped)
+      notes += "; " + grouped(*rows.rows_skipped) + (*rows.rows_skipped == 1 ? " row" : " rows") +
+               " with a missing score or label left out";
     std::fprintf(stderr, "plumb fit: %s map from %s (weight of positives %s of %s), log loss %.6f%s; written to %s\n",
                  o.kind.c_str(), from.c_str(), shortest(rows.positives).c_str(),
                  shortest(rows.weight_total).c_str(), d.log_loss, notes.c_str(), out.name().c_str());
@@ -175,14 +178,15 @@ Command add_fit_command(CLI::App& app) {
   cmd->get_option("--label")->required(false)->description("Column holding the observed outcome (name or 1-based index); required unless --tally");
   cmd->add_option("--tally", o->tally,
                   "Fit on a tally from plumb tally or merge instead of rows (no FILE, --score, --label, --weight, "
-                  "--positive, --scale or --sep: the tally records them)");
+                  "--positive, --negative, --missing, --scale or --sep: the tally records them)");
   cmd->add_option("-o,--output", o->output, "Where to write the map artifact (- for standard output)")
       ->default_str("-");
   add_map_options(*cmd, o->choices);
   cmd->add_flag("--no-timestamp", o->no_timestamp,
                 "Leave the creation time out, so the same input gives a byte-identical artifact");
   return [o, cmd] {
-    for (const char* name : {"file", "--score", "--label", "--weight", "--positive", "--scale", "--sep"})
+    for (const char* name :
+         {"file", "--score", "--label", "--weight", "--positive", "--negative", "--missing", "--scale", "--sep"})
       if (cmd->count(name) > 0) o->given.push_back(name[0] == '-' ? name : "a FILE of rows");
     return run_fit(*o);
   };

@@ -292,6 +292,7 @@ int run_report(const ReportCliOptions& o) {
   report.label_column = rows.label_column;
   report.weight_column = rows.weight_column;
   report.segment_column = rows.segment_column;
+  if (o.tally.empty() && parse_missing(o.input.missing) == io::MissingPolicy::skip) report.rows_skipped = rows.skipped;
   report.cautions.insert(report.cautions.end(), extra_cautions.begin(), extra_cautions.end());
 
   // Files first, each whole or not at all; then the terminal report.
@@ -361,11 +362,10 @@ Command add_report_command(CLI::App& app) {
                   "Column holding the observed outcome (name or 1-based index); required unless --tally");
   cmd->add_option("--tally", o->tally,
                   "Report on a tally of unweighted rows (from plumb tally or merge) instead of rows; --score "
-                  "names its column. No FILE, --label, --weight, --positive, --by or --sep");
+                  "names its column. No FILE, --label, --weight, --positive, --negative, --missing, --by or --sep");
   cmd->add_option("--weight", o->input.weight, "Column of non-negative row weights (default: every row weighs 1)");
-  cmd->add_option("--positive", o->input.positive,
-                  "Label value that counts as the positive outcome; every other value is then negative")
-      ->each([o](const std::string&) { o->input.positive_given = true; });
+  add_label_value_options(*cmd, o->input);
+  add_missing_option(*cmd, o->input.missing, false);
   cmd->add_option("--by", o->by, "Segment column: repeat the key figures per value, most miscalibrated first");
   cmd->add_option("--bins", o->bins, "Bins of the reliability table, the ECE and the Murphy decomposition")
       ->check(CLI::Range(1, 10000))
@@ -403,7 +403,7 @@ Command add_report_command(CLI::App& app) {
   add_separator_option(*cmd, o->input.separator);
   cmd->add_flag("-q,--quiet", o->input.quiet, "No terminal report and no progress (files and gates still work)");
   return [o, cmd] {
-    for (const char* name : {"file", "--label", "--weight", "--positive", "--by", "--sep"})
+    for (const char* name : {"file", "--label", "--weight", "--positive", "--negative", "--missing", "--by", "--sep"})
       if (cmd->count(name) > 0) o->given.push_back(name[0] == '-' ? name : "a FILE of rows");
     return run_report(*o);
   };

@@ -59,11 +59,11 @@ int run_tally(TallyOptions o) {
   out.write(tally_to_text(t));
   out.commit();
   if (!o.input.quiet)
-    std::fprintf(stderr, "plumb tally: %s rows of %s (weight of positives %s of %s) in %s distinct %sscores; "
+    std::fprintf(stderr, "plumb tally: %s rows of %s (weight of positives %s of %s) in %s distinct %sscores%s; "
                          "written to %s\n",
                  grouped(rows.rows).c_str(), rows.source.c_str(), shortest(rows.positives).c_str(),
                  shortest(rows.weight_total).c_str(), grouped(t.score.size()).c_str(),
-                 on_grid ? "grid " : "", out.name().c_str());
+                 on_grid ? "grid " : "", skipped_note(o.input, rows.skipped).c_str(), out.name().c_str());
   return 0;
 }
 

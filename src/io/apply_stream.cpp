@@ -23,8 +23,6 @@
 namespace plumb::io {
 namespace {
 
-bool blank(std::string_view t) noexcept { return t.find_first_not_of(" \t") == std::string_view::npos; }
-
 // What stopped a block: the first bad record in it.
 struct Failure {
   enum class Kind { none, ragged, nul, score } kind = Kind::none;
@@ -134,8 +132,12 @@ class Mapper {
   }
 
  private:
-  // One record's new field; false (with block.failure set) for a bad score.
-  bool append_probability(Block& block, char*& w, std::string_view text, std::uint64_t line) const {
+  enum class Field { written, skipped, failed };
+  // One record's new field: written (a probability, or nothing for a
+  // missing score under MissingPolicy::empty), skipped (a missing score
+  // under MissingPolicy::skip: the caller takes the record back out) or
+  // failed (block.failure set).
+  Field append_probability(Block& block, char*& w, std::string_view text, std::uint64_t line) const {
     const std::optional<double> parsed = parse_number(text);
     const double score = parsed.value_or(0.0);
     // valid_on_scale(), written out: this runs once per row.
@@ -145,16 +147,20 @@ class Mapper {
       block.counts.clamped += m.outside_fit_range ? 1 : 0;
       block.counts.clipped += m.clipped ? 1 : 0;
       w = block.text.write(w, m.probability);
-      return true;
+      return Field::written;
     }
-    if (o_.missing_is_empty && blank(text)) {
+    if (o_.missing != MissingPolicy::refuse && is_missing_value(text)) {
+      if (o_.missing == MissingPolicy::skip) {
+        ++block.counts.skipped;
+        return Field::skipped;
+      }
       ++block.counts.missing;
-      return true;
+      return Field::written;
     }
     block.failure.kind = Failure::Kind::score;
     block.failure.line = line;
     block.failure.value.assign(text);
-    return false;
+    return Field::failed;
   }
 
   void run_lines(Block& block) const {
@@ -213,7 +219,7 @@ class Mapper {
       const char* raw_end = p;
       if (raw_end > start && raw_end[-1] == '\r') --raw_end;
       const char* const next = p < end ? p + 1 : p;
-      if (raw_end == start) {  // a blank line
+      if (raw_end == start && fields_ != 1) {  // a blank line (in a one-column file, an empty score)
         line += p < end ? 1 : 0;
         p = next;
         continue;
@@ -225,15 +231,21 @@ class Mapper {
         break;
       }
       if (!field_end) field_end = raw_end;  // the score is the last field
-      ++block.counts.rows;
       const std::size_t raw_length = static_cast<std::size_t>(raw_end - start);
       reserve(block, w, raw_length);
+      char* const row_start = w;
       std::memcpy(w, start, raw_length);
       w += raw_length;
       *w++ = d;
-      if (!append_probability(block, w, std::string_view(field, static_cast<std::size_t>(field_end - field)), line))
-        break;
-      for (const char* q = raw_end; q < next; ++q) *w++ = *q;
+      const Field f =
+          append_probability(block, w, std::string_view(field, static_cast<std::size_t>(field_end - field)), line);
+      if (f == Field::failed) break;
+      if (f == Field::skipped) {
+        w = row_start;
+      } else {
+        ++block.counts.rows;
+        for (const char* q = raw_end; q < next; ++q) *w++ = *q;
+      }
       line += p < end ? 1 : 0;
       p = next;
     }
@@ -243,14 +255,19 @@ class Mapper {
   void run_parsed(Block& block) const {
     char* w = block.out.data();
     for (const Block::Parsed& r : block.records) {
-      ++block.counts.rows;
       reserve(block, w, r.raw_length + r.end_length);
+      char* const row_start = w;
       std::memcpy(w, block.in.data() + r.raw_offset, r.raw_length);
       w += r.raw_length;
       *w++ = delimiter_;
-      if (!append_probability(block, w, std::string_view(block.scores.data() + r.score_offset, r.score_length),
-                              r.line))
-        break;
+      const Field f =
+          append_probability(block, w, std::string_view(block.scores.data() + r.score_offset, r.score_length), r.line);
+      if (f == Field::failed) break;
+      if (f == Field::skipped) {
+        w = row_start;
+        continue;
+      }
+      ++block.counts.rows;
       std::memcpy(w, block.in.data() + r.raw_offset + r.raw_length, r.end_length);
       w += r.end_length;
     }
@@ -378,6 +395,7 @@ ApplyCounts apply_stream(CsvReader& reader, const CalibrationMap& map, OutputFil
     total.clamped += block.counts.clamped;
     total.clipped += block.counts.clipped;
     total.missing += block.counts.missing;
+    total.skipped += block.counts.skipped;
     const Failure& f = block.failure;
     if (f.kind == Failure::Kind::none) {
       if (block.read_error) std::rethrow_exception(block.read_error);
@@ -391,9 +409,8 @@ ApplyCounts apply_stream(CsvReader& reader, const CalibrationMap& map, OutputFil
     loc.line = f.line;
     loc.column = options.score_column + 1;
     loc.column_name = reader.header()[options.score_column];
-    if (blank(f.value))
-      throw Error(ErrorKind::input, "the score is missing", loc, f.value,
-                  "a score (or --missing empty to write an empty probability and go on)");
+    if (is_missing_value(f.value))
+      throw Error(ErrorKind::input, "the score is missing", loc, f.value, missing_score_expected);
     const ScoreProblem why = score_problem(f.value, map.scale());
     throw Error(ErrorKind::input,
                 why.message + " (the map was fitted on the " + std::string(to_string(map.scale())) + " scale)", loc,

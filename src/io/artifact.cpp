@@ -54,6 +54,7 @@ json artifact_to_json(const Artifact& a) {
                        {"score_max", p.score_max},
                        {"tool", p.tool},
                        {"created_utc", p.created_utc.empty() ? json(nullptr) : json(p.created_utc)}};
+  if (p.rows_skipped) doc["provenance"]["rows_skipped"] = *p.rows_skipped;
   if (!a.cross_fit.is_null()) doc["cross_fit"] = a.cross_fit;
   return doc;
 }
@@ -166,6 +167,8 @@ Artifact artifact_from_text(const std::string& text, const std::string& where) {
     jf::fail(where, "provenance.weight_column", "is neither a string nor null", "a column name, or null");
   pr.weight_column = wc.is_string() ? wc.get<std::string>() : std::string();
   pr.positive_rule = jf::require_string(p, "positive_rule", where, "provenance.positive_rule");
+  if (p.contains("rows_skipped"))
+    pr.rows_skipped = jf::require_count(p, "rows_skipped", where, "provenance.rows_skipped");
   pr.score_min = jf::require_finite(p, "score_min", where, "provenance.score_min");
   pr.score_max = jf::require_finite(p, "score_max", where, "provenance.score_max");
   pr.tool = jf::require_string(p, "tool", where, "provenance.tool");

@@ -298,7 +298,13 @@ bool CsvReader::quote_ahead(std::size_t bytes) const noexcept {
 bool CsvReader::next(Record& record) {
   for (;;) {
     if (!read_record(record)) return false;
-    if (record.raw.empty()) continue;  // blank line
+    if (record.raw.empty()) {
+      // A blank line is skipped, except in a one-column file, where it is
+      // a record whose one value is empty (a missing value, not nothing).
+      if (header_.size() != 1) continue;
+      record.fields.assign(1, record.raw);
+      return true;
+    }
     if (record.fields.size() != header_.size())
       throw ragged_row(name_, record.line, record.fields.size(), header_.size());
     return true;

@@ -27,18 +27,56 @@ Location cell(const CsvReader& reader, const Record& record, std::size_t column)
 
 }  // namespace
 
-std::optional<double> LabelRule::read(std::string_view text) const noexcept {
-  if (positive_) {
-    if (text.empty()) return std::nullopt;
-    return text == *positive_ ? 1.0 : 0.0;
+bool is_missing_value(std::string_view text) noexcept {
+  while (!text.empty() && (text.front() == ' ' || text.front() == '\t')) text.remove_prefix(1);
+  while (!text.empty() && (text.back() == ' ' || text.back() == '\t')) text.remove_suffix(1);
+  if (text.empty()) return true;
+  if (text.size() > 4) return false;
+  char lower[4];
+  for (std::size_t i = 0; i < text.size(); ++i)
+    lower[i] = static_cast<char>(std::tolower(static_cast<unsigned char>(text[i])));
+  const std::string_view t(lower, text.size());
+  return t == "na" || t == "nan" || t == "-nan" || t == "+nan" || t == "null" || t == "n/a" || t == "none";
+}
+
+namespace {
+
+// 1 or 0, alone or followed by a point and one or more zeros ("1.0", "0.000").
+std::optional<double> one_or_zero(std::string_view text) noexcept {
+  if (text.empty() || (text[0] != '0' && text[0] != '1')) return std::nullopt;
+  if (text.size() > 1) {
+    if (text[1] != '.' || text.size() == 2) return std::nullopt;
+    for (char c : text.substr(2))
+      if (c != '0') return std::nullopt;
   }
-  if (text == "1" || equals_ignoring_case(text, "true")) return 1.0;
-  if (text == "0" || equals_ignoring_case(text, "false")) return 0.0;
+  return text[0] == '1' ? 1.0 : 0.0;
+}
+
+}  // namespace
+
+std::optional<double> LabelRule::read(std::string_view text) const noexcept {
+  if (positive_ && text == *positive_) return 1.0;
+  if (negative_ && text == *negative_) return 0.0;
+  if (positive_ || negative_) {
+    if (is_missing_value(text) || (positive_ && negative_)) return std::nullopt;
+    return positive_ ? 0.0 : 1.0;
+  }
+  if (const std::optional<double> v = one_or_zero(text)) return v;
+  if (equals_ignoring_case(text, "true")) return 1.0;
+  if (equals_ignoring_case(text, "false")) return 0.0;
   return std::nullopt;
 }
 
+bool LabelRule::missing(std::string_view text) const noexcept {
+  if ((positive_ && text == *positive_) || (negative_ && text == *negative_)) return false;
+  return is_missing_value(text);
+}
+
 std::string LabelRule::describe() const {
+  if (positive_ && negative_)
+    return "'" + *positive_ + "' is positive, '" + *negative_ + "' negative, any other value refused";
   if (positive_) return "'" + *positive_ + "' is positive, any other value negative";
+  if (negative_) return "'" + *negative_ + "' is negative, any other value positive";
   return "1/0 or true/false";
 }
 
@@ -76,12 +114,27 @@ LabelledRows read_labelled(const std::string& path, const LabelledColumns& colum
   if (segmented) out.segment_column = reader.header()[segment_col];
   std::unordered_map<std::string, std::uint32_t> segment_index;
 
+  const bool skip = columns.missing == MissingPolicy::skip;
+  const std::string skip_hint = "or --missing skip to leave the row out";
   Record record;
   while (reader.next(record)) {
+    if (skip) {
+      bool missing = rule.missing(record.fields[label_col]);
+      for (std::size_t k = 0; k < score_cols.size() && !missing; ++k)
+        missing = is_missing_value(record.fields[score_cols[k]]);
+      if (missing) {
+        ++out.skipped;
+        out.skipped_lines.push_back(record.line);
+        continue;
+      }
+    }
     for (std::size_t k = 0; k < score_cols.size(); ++k) {
       const std::string_view s = record.fields[score_cols[k]];
       const std::optional<double> score = parse_number(s);
       if (!score || !valid_on_scale(*score, columns.scores[k].scale)) {
+        if (is_missing_value(s))
+          throw Error(ErrorKind::input, "the score is missing", cell(reader, record, score_cols[k]), std::string(s),
+                      "a score (" + skip_hint + ")");
         const ScoreProblem why = score_problem(s, columns.scores[k].scale);
         throw Error(ErrorKind::input, why.message, cell(reader, record, score_cols[k]), std::string(s), why.expected);
       }
@@ -89,10 +142,14 @@ LabelledRows read_labelled(const std::string& path, const LabelledColumns& colum
     }
     const std::string_view l = record.fields[label_col];
     const std::optional<double> label = rule.read(l);
-    if (!label)
-      throw Error(ErrorKind::input, l.empty() ? "the label is empty" : "the label is neither positive nor negative",
-                  cell(reader, record, label_col), std::string(l),
-                  rule.describe() + " (or name the positive value with --positive)");
+    if (!label) {
+      if (rule.missing(l))
+        throw Error(ErrorKind::input, "the label is missing", cell(reader, record, label_col), std::string(l),
+                    rule.describe() + " (" + skip_hint + ")");
+      const bool named = rule.positive_named() || rule.negative_named();
+      throw Error(ErrorKind::input, "the label is neither positive nor negative", cell(reader, record, label_col),
+                  std::string(l), rule.describe() + (named ? "" : " (or name the positive value with --positive)"));
+    }
     double w = 1.0;
     if (weighted) {
       const std::string_view t = record.fields[weight_col];
@@ -128,6 +185,10 @@ LabelledRows read_labelled(const std::string& path, const LabelledColumns& colum
   if (out.rows == 0) {
     Location loc;
     loc.file = reader.name();
+    if (out.skipped > 0)
+      throw Error(ErrorKind::input,
+                  "every row has a missing score or label (" + std::to_string(out.skipped) + " rows left out)", loc,
+                  {}, "at least one labelled row with a score");
     throw Error(ErrorKind::input, "the file has a header but no data rows", loc, {}, "at least one labelled row");
   }
   const auto [lo, hi] = std::minmax_element(out.scores[0].begin(), out.scores[0].end());

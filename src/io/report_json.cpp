@@ -164,6 +164,7 @@ json report_to_json(const Report& r) {
           {"label_column", r.label_column},
           {"weight_column", r.weight_column.empty() ? json(nullptr) : json(r.weight_column)},
           {"segment_column", r.segment_column.empty() ? json(nullptr) : json(r.segment_column)},
+          {"rows_skipped", r.rows_skipped ? json(*r.rows_skipped) : json(nullptr)},
           {"options",
            {{"bins", o.bins},
             {"binning", std::string(to_string(o.binning))},

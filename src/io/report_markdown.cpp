@@ -264,6 +264,8 @@ std::string render_markdown(const Report& report) {
   out += "# Reliability report: " + md(report.source) + "\n\n";
   const std::uint64_t rows = report.scores.empty() ? 0 : report.scores.front().overall.rows;
   out += "- Rows: " + std::to_string(rows) + "\n";
+  if (report.rows_skipped)
+    out += "- Rows left out for a missing score or label: " + std::to_string(*report.rows_skipped) + "\n";
   out += "- Label column: " + md(report.label_column) + "\n";
   out += "- Weight column: " + (report.weight_column.empty() ? std::string("none") : md(report.weight_column)) + "\n";
   out +=

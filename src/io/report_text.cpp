@@ -959,6 +959,8 @@ void render_heading(Document& doc, const Painter& p, const Report& report) {
   doc.line(p.paint("plumb report", Tone::bold) + std::string(p.dot_sep()) + report.source);
   std::vector<std::string> facts;
   if (!report.scores.empty()) facts.push_back(count(report.scores[0].overall.rows) + " rows");
+  if (report.rows_skipped)
+    facts.push_back(count(*report.rows_skipped) + " left out for a missing score or label");
   facts.push_back("label " + report.label_column);
   if (report.weight_column.empty()) {
     facts.push_back("unweighted");

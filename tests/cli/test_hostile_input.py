@@ -249,8 +249,9 @@ class HostileCsv(PlumbCase):
         self.refused_by_both(text, INPUT, "in.csv:3:1", "(column 'risk')", *fragments)
 
     def test_scores_that_are_not_decimal_numbers(self):
-        self.score_refused("nan", "NaN")
-        self.score_refused("-NaN", "NaN")
+        # NaN is one of the spellings of a missing value (docs/cli.md, Missing values).
+        self.score_refused("nan", "score is missing", "'nan'")
+        self.score_refused("-NaN", "score is missing", "'-NaN'")
         self.score_refused("inf", "not finite")
         self.score_refused("Infinity", "not finite")
         self.score_refused("1e400", "out of the range of a double")
@@ -260,7 +261,8 @@ class HostileCsv(PlumbCase):
 
     def test_an_empty_score(self):
         path = self.put("risk,missed\n0.2,1\n,0\n")
-        self.assert_refused(self.fit_args(path), INPUT, "in.csv:3:1", "score is empty", output=self.out)
+        self.assert_refused(self.fit_args(path), INPUT, "in.csv:3:1", "score is missing", "--missing skip",
+                            output=self.out)
         self.assert_refused(self.apply_args(path), INPUT, "in.csv:3:1", "score is missing", "--missing empty",
                             output=self.out)
 
@@ -287,7 +289,10 @@ class HostileCsv(PlumbCase):
     def test_labels_that_are_neither_class(self):
         self.label_refused("yes", "got 'yes'")
         self.label_refused("2", "got '2'")
-        self.label_refused("1.0", "got '1.0'")
+        # 1.0 and 0.0 are labels (float dumps write them); other spellings of 1 are not.
+        self.label_refused("1.", "got '1.'")
+        self.label_refused("01", "got '01'")
+        self.label_refused("1e0", "got '1e0'")
 
     def test_labels_are_not_trimmed_and_the_message_shows_the_blank(self):
         # The reader keeps a field's bytes as they are: ' 1' is not '1', and

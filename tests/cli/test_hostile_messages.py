@@ -62,7 +62,7 @@ class ExactMessages(PlumbCase):
         self.apply_refused(b"risk,missed\n0.3,0\x00\n", INPUT, nul)
 
     def test_scores(self):
-        cases = (("nan", "is not a number (NaN)"), ("inf", "is not finite"),
+        cases = (("inf", "is not finite"),
                  ("1e400", "is out of the range of a double"), ("0x1p-3", "is not a decimal number"))
         for value, what in cases:
             data = f"risk,missed\n0.2,1\n{value},0\n0.7,1\n".encode()
@@ -71,10 +71,13 @@ class ExactMessages(PlumbCase):
             self.apply_refused(data, INPUT,
                                f":3:1 (column 'risk'): the score {what} (the map was fitted on the probability "
                                f"scale){tail}")
-        data = b"risk,missed\n0.2,1\n,0\n0.7,1\n"
-        self.fit_refused(data, INPUT, ":3:1 (column 'risk'): the score is empty; expected a decimal number in [0, 1]")
-        self.apply_refused(data, INPUT, ":3:1 (column 'risk'): the score is missing; expected a score (or "
-                                        "--missing empty to write an empty probability and go on)")
+        for value, shown in (("", ""), ("nan", ": got 'nan'"), ("NA", ": got 'NA'")):
+            data = f"risk,missed\n0.2,1\n{value},0\n0.7,1\n".encode()
+            self.fit_refused(data, INPUT, f":3:1 (column 'risk'): the score is missing{shown}; expected a score (or "
+                                          "--missing skip to leave the row out)")
+            self.apply_refused(data, INPUT, f":3:1 (column 'risk'): the score is missing{shown}; expected a score "
+                                            "(or --missing skip to leave the row out, or --missing empty to write an "
+                                            "empty probability)")
 
     def test_labels(self):
         for label in (" 1", "yes", "2"):

@@ -48,7 +48,7 @@ class Refusals(PlumbCase):
     def test_label_neither_positive_nor_negative(self):
         self.fit_refused("risk,missed\n0.2,1\n0.3,2\n", INPUT, "bad.csv:3:2", "(column 'missed')", "'2'",
                          "1/0 or true/false")
-        self.fit_refused("risk,missed\n0.2,1\n0.3,\n", INPUT, "bad.csv:3:2", "label is empty")
+        self.fit_refused("risk,missed\n0.2,1\n0.3,\n", INPUT, "bad.csv:3:2", "label is missing", "--missing skip")
 
     def test_negative_weight(self):
         self.fit_refused("risk,missed,w\n0.2,1,1\n0.3,0,-0.5\n", INPUT, "bad.csv:3:3", "(column 'w')", "negative",

@@ -4,13 +4,14 @@
 // Input layout: byte 0 chooses the options (bits 0-1: threads 1 to 4;
 // bit 2: --missing empty; bits 3-7: the block size, 16 + 24 * value bytes,
 // so that even small inputs are cut into many blocks), byte 1 the score
-// column (modulo the header's width); the rest is the text.
+// column (bits 0-6, modulo the header's width) and, without bit 2 of byte 0,
+// --missing skip (bit 7); the rest is the text.
 //
 // The reference reads the same text with CsvReader::next() and, for every
 // record, writes its raw bytes, the separator, std::to_chars of the map's
-// value of parse_number(score) (nothing for a blank score with --missing
-// empty) and its line end; the first record it cannot take ends it with
-// the message apply gives.
+// value of parse_number(score) (nothing for a missing score with --missing
+// empty; the record is left out with --missing skip) and its line end; the
+// first record it cannot take ends it with the message apply gives.
 //
 // Invariants beyond "no crash":
 //  - only plumb::Error escapes;
@@ -55,8 +56,6 @@ const plumb::CalibrationMap& the_map() {
   return *map;
 }
 
-bool blank(std::string_view t) { return t.find_first_not_of(" \t") == std::string_view::npos; }
-
 struct Outcome {
   std::string bytes;
   plumb::io::ApplyCounts counts;
@@ -72,9 +71,9 @@ std::string score_message(const plumb::io::CsvReader& reader, const plumb::io::R
   loc.line = r.line;
   loc.column = col + 1;
   loc.column_name = reader.header()[col];
-  if (blank(text))
+  if (plumb::io::is_missing_value(text))
     return plumb::Error(plumb::ErrorKind::input, "the score is missing", loc, std::string(text),
-                        "a score (or --missing empty to write an empty probability and go on)")
+                        plumb::io::missing_score_expected)
         .what();
   const plumb::io::ScoreProblem why = plumb::io::score_problem(text, plumb::Scale::probability);
   return plumb::Error(plumb::ErrorKind::input, why.message + " (the map was fitted on the probability scale)", loc,
@@ -82,7 +81,9 @@ std::string score_message(const plumb::io::CsvReader& reader, const plumb::io::R
       .what();
 }
 
-Outcome reference(const std::string& path, std::size_t col_choice, bool missing_empty) {
+using plumb::io::MissingPolicy;
+
+Outcome reference(const std::string& path, std::size_t col_choice, MissingPolicy missing) {
   Outcome o;
   try {
     plumb::io::CsvReader reader(path);
@@ -99,9 +100,12 @@ Outcome reference(const std::string& path, std::size_t col_choice, bool missing_
         field.assign(text, std::to_chars(text, text + sizeof text, m.probability).ptr);
         ++o.counts.rows;
         o.counts.clamped += m.outside_fit_range ? 1 : 0;
-      } else if (missing_empty && blank(s)) {
+      } else if (missing == MissingPolicy::empty && plumb::io::is_missing_value(s)) {
         ++o.counts.rows;
         ++o.counts.missing;
+      } else if (missing == MissingPolicy::skip && plumb::io::is_missing_value(s)) {
+        ++o.counts.skipped;
+        continue;
       } else {
         o.error = score_message(reader, r, col, s);
         return o;
@@ -118,7 +122,7 @@ Outcome reference(const std::string& path, std::size_t col_choice, bool missing_
   return o;
 }
 
-Outcome streamed(const std::string& path, const std::string& out_path, std::size_t col_choice, bool missing_empty,
+Outcome streamed(const std::string& path, const std::string& out_path, std::size_t col_choice, MissingPolicy missing,
                  unsigned threads, std::size_t block_bytes) {
   Outcome o;
   plumb::Error caught(plumb::ErrorKind::internal, "");
@@ -127,7 +131,7 @@ Outcome streamed(const std::string& path, const std::string& out_path, std::size
         plumb::io::CsvReader reader(path);
         plumb::io::ApplyStreamOptions options;
         options.score_column = col_choice % reader.header().size();
-        options.missing_is_empty = missing_empty;
+        options.missing = missing;
         options.threads = threads;
         options.block_bytes = block_bytes;
         options.fitted_min = 0.0;
@@ -164,17 +168,20 @@ const std::string& scratch_dir() {
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {
   if (size < 2) return 0;
   const unsigned threads = 1 + (data[0] & 3);
-  const bool missing_empty = (data[0] & 4) != 0;
+  const MissingPolicy missing = (data[0] & 4)    ? MissingPolicy::empty
+                                : (data[1] & 128) ? MissingPolicy::skip
+                                                  : MissingPolicy::refuse;
   const std::size_t block_bytes = 16 + 24 * static_cast<std::size_t>(data[0] >> 3);
-  const std::size_t col_choice = data[1];
+  const std::size_t col_choice = data[1] & 127;
   const std::string text(reinterpret_cast<const char*>(data) + 2, size - 2);
   const plumb::fuzz::MemoryFile file(text);
 
-  const Outcome want = reference(file.path(), col_choice, missing_empty);
-  const Outcome got = streamed(file.path(), scratch_dir() + "/out.csv", col_choice, missing_empty, threads,
-                               block_bytes);
+  const Outcome want = reference(file.path(), col_choice, missing);
+  const Outcome got = streamed(file.path(), scratch_dir() + "/out.csv", col_choice, missing, threads, block_bytes);
   const std::string options = "threads " + std::to_string(threads) + ", block " + std::to_string(block_bytes) +
-                              (missing_empty ? ", missing empty" : "");
+                              (missing == MissingPolicy::empty  ? ", missing empty"
+                               : missing == MissingPolicy::skip ? ", missing skip"
+                                                                : "");
   if (want.error || got.error) {
     FUZZ_CHECK(want.error && got.error, "one side refused the text and the other did not (" + options +
                                             "): reference " + shown(want.error.value_or("-")) + ", apply " +
@@ -187,7 +194,7 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   FUZZ_CHECK(got.bytes == want.bytes, "different output (" + options + "): reference " + shown(want.bytes) +
                                           ", apply " + shown(got.bytes));
   FUZZ_CHECK(got.counts.rows == want.counts.rows && got.counts.missing == want.counts.missing &&
-                 got.counts.clamped == want.counts.clamped,
+                 got.counts.skipped == want.counts.skipped && got.counts.clamped == want.counts.clamped,
              "different counts (" + options + ")");
   return 0;
 }

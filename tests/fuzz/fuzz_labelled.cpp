@@ -5,7 +5,7 @@
 // probability, logit or margin; bit 2: weighted by the column "weight";
 // bit 3: labels read with --positive "late" instead of 1/0, true/false;
 // bit 4: a segment column "segment"; bit 5: tab-separated instead of
-// detected); the rest is the text.
+// detected; bit 6: --missing skip); the rest is the text.
 //
 // Invariants beyond "no crash":
 //  - only plumb::Error escapes;
@@ -14,7 +14,8 @@
 //    probability scale); labels are 0 or 1; weights are finite and >= 0;
 //    the totals, score range and segments agree with the rows;
 //  - the rows are the CSV reader's records, one for one, and the label of
-//    each is what LabelRule::read says of its text.
+//    each is what LabelRule::read says of its text; under --missing skip,
+//    the records left out are exactly those with a missing score or label.
 #include <algorithm>
 #include <cmath>
 #include <string>
@@ -41,6 +42,7 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   }
   const plumb::io::LabelRule rule = (flags & 8) ? plumb::io::LabelRule(std::string("late")) : plumb::io::LabelRule();
   const char delimiter = (flags & 32) ? '\t' : 0;
+  if (flags & 64) columns.missing = plumb::io::MissingPolicy::skip;
 
   const plumb::fuzz::MemoryFile file(text);
   plumb::io::LabelledRows rows;
@@ -81,8 +83,16 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   const std::size_t label_col = reader.column("label", "label");
   const std::size_t score_col = reader.column("score", "score");
   plumb::io::Record record;
-  std::size_t i = 0;
+  std::size_t i = 0, skipped = 0;
   while (reader.next(record)) {
+    const bool missing =
+        rule.missing(record.fields[label_col]) || plumb::io::is_missing_value(record.fields[score_col]);
+    if (skipped < rows.skipped_lines.size() && rows.skipped_lines[skipped] == record.line) {
+      FUZZ_CHECK((flags & 64) && missing, "a record without a missing value was left out");
+      ++skipped;
+      continue;
+    }
+    FUZZ_CHECK(!missing, "a record with a missing score or label was read as a row");
     FUZZ_CHECK(i < n, "read_labelled returned fewer rows than the file has records");
     FUZZ_CHECK(rule.read(record.fields[label_col]) == rows.label[i], "a label is not what LabelRule reads");
     FUZZ_CHECK(plumb::io::parse_number(record.fields[score_col]) == rows.scores[0][i],
@@ -90,5 +100,6 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
     ++i;
   }
   FUZZ_CHECK(i == n, "read_labelled returned more rows than the file has records");
+  FUZZ_CHECK(skipped == rows.skipped_lines.size() && rows.skipped == skipped, "the rows left out disagree");
   return 0;
 }
