@@ -55,9 +55,11 @@ struct LabelledRows {
   std::vector<double> label, weight;        // weight empty when unweighted
   std::vector<std::uint32_t> segment;       // per row, an index into segment_names (empty without segments)
   std::vector<std::string> segment_names;   // in order of first appearance
+  std::vector<std::uint64_t> segment_lines; // the physical line of each segment value's first row
   std::string source;                       // file name in messages, "<stdin>" for standard input
   std::string source_sha256;                // SHA-256 of the input bytes
   std::string label_column, weight_column, segment_column;  // resolved header names
+  std::size_t segment_column_number = 0;    // 1-based; 0 without segments
   std::uint64_t rows = 0;
   double positives = 0.0;     // weight of positive rows
   double weight_total = 0.0;

@@ -64,12 +64,15 @@ void print_cross_fit(const nlohmann::json& e) {
   std::string split = e.contains("split") && e["split"].is_object() && e["split"].contains("kind")
                           ? scalar_text(e["split"]["kind"])
                           : std::string("?");
+  // Artifacts of the first release call the column split "given".
+  if (split == "given") split = "column";
+  split += " split";
   if (e.contains("split") && e["split"].is_object() && e["split"].contains("column"))
-    split += " by '" + scalar_text(e["split"]["column"]) + "'";
-  std::printf("\ncross-fit      %s folds, %s split, seed %s, %s rows scored out of fold, shipped: %s\n",
+    split += " on '" + scalar_text(e["split"]["column"]) + "'";
+  std::printf("\ncross-fit      %s folds, %s, seed %s, %s rows scored out of fold, shipped: %s\n",
               text("folds").c_str(), split.c_str(), text("seed").c_str(), text("scored_rows").c_str(),
               text("final").c_str());
-  std::printf("  %-14s %s\n", "chosen", text("reason").c_str());
+  std::printf("  %-14s %s. %s.\n", "chosen", text("chosen").c_str(), text("reason").c_str());
   if (!e.contains("candidates") || !e["candidates"].is_array()) return;
   std::printf("  %-14s %12s %12s %10s\n", "candidate", "oof log loss", "oof Brier", "oof ECE");
   auto row = [](const std::string& name, const nlohmann::json& c) {

@@ -1,7 +1,7 @@
 """plumb cross-fit end to end: folds as promised, out-of-fold values equal
 to fitting each fold with plumb fit and applying it, the choice on seeded
 simulations with a known truth, the shipped artifact, and Platt out of fold
-against R's glm on MASS::biopsy with a given fold column."""
+against R's glm on MASS::biopsy with folds from a column."""
 import csv
 import json
 import math
@@ -194,7 +194,7 @@ class CrossFit(PlumbCase):
         ref = read_rows(os.path.join(r_dir, "biopsy.csv"))
         h = ref[0]
         oof_file = self.path("oof.csv")
-        rc, _, err = run("cross-fit", "--score", "score", "--label", "label", "--split", "given=fold", "--map",
+        rc, _, err = run("cross-fit", "--score", "score", "--label", "label", "--split", "column=fold", "--map",
                          "platt", "--platt-targets", "labels", "--oof", oof_file, "-o", self.path("b.json"),
                          os.path.join(r_dir, "biopsy.csv"))
         self.assertEqual(rc, 0, err)
