@@ -144,7 +144,7 @@ void print_evidence(const CrossFitResult& r) {
     const std::string name = (k == r.chosen ? "* " : "  ") + c.kind;
     row(name.c_str(), c.figures, versus);
   }
-  std::fprintf(stderr, "  chosen: %s\n", r.reason.c_str());
+  std::fprintf(stderr, "  chosen: %s. %s.\n", r.candidates[r.chosen].kind.c_str(), r.reason.c_str());
 }
 
 void write_oof(const CrossFitOptions& o, const io::LabelledRows& rows, const CrossFitResult& r, char separator) {
@@ -250,9 +250,18 @@ int run_cross_fit(const CrossFitOptions& o) {
     if (split.kind == SplitKind::time)
       std::fprintf(stderr, "plumb cross-fit: note: the earliest time block (fold 1) is never scored: no earlier "
                            "rows exist to fit its map on\n");
-    if (chosen.kind == "isotonic" && rows.weight_total < few_rows_for_isotonic)
-      std::fprintf(stderr, "plumb cross-fit: caution: isotonic chosen on %s rows (common practice: about 1,000 or "
-                           "more for a nonparametric map)\n", shortest(rows.weight_total).c_str());
+    if (chosen.kind == "isotonic" && rows.weight_total < few_rows_for_isotonic) {
+      char amount[64];
+      if (rows.weight.empty()) std::snprintf(amount, sizeof amount, "only %s rows", grouped(rows.rows).c_str());
+      else std::snprintf(amount, sizeof amount, "a total weight of only %.6g", rows.weight_total);
+      std::fprintf(stderr,
+                   "plumb cross-fit: caution: isotonic was chosen on %s; a nonparametric map usually needs about "
+                   "1,000 rows or more (common practice)%s\n",
+                   amount,
+                   result.candidates.size() == 1
+                       ? ". It was the only candidate: compare it with the other kinds, --map auto."
+                       : ", and its out-of-fold lead may not hold on new rows.");
+    }
     std::fprintf(stderr, "plumb cross-fit: %s map (%s) written to %s\n", chosen.kind.c_str(),
                  o.final_kind == "folds" ? "the fold maps, averaged" : "refitted on all rows", out.name().c_str());
   }

@@ -1,4 +1,5 @@
 // plumb inspect: a readable summary of a map artifact, after full validation.
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <iostream>
@@ -26,12 +27,31 @@ std::string scalar_text(const nlohmann::json& v) {
   return v.dump();
 }
 
+// The parameters' keys in display order. The artifact's objects keep their
+// keys sorted (so its bytes and hash do not depend on the writer's order),
+// which puts NAME_hi before NAME_lo; a range reads lo, then hi.
+std::vector<std::string> display_order(const nlohmann::json& params) {
+  std::vector<std::string> keys;
+  for (const auto& item : params.items()) keys.push_back(item.key());
+  auto ends_with = [](const std::string& s, std::string_view tail) {
+    return s.size() >= tail.size() && s.compare(s.size() - tail.size(), tail.size(), tail) == 0;
+  };
+  for (std::size_t i = 0; i + 1 < keys.size(); ++i) {
+    if (!ends_with(keys[i], "_hi")) continue;
+    const std::string lo = keys[i].substr(0, keys[i].size() - 3) + "_lo";
+    const auto at = std::find(keys.begin() + static_cast<std::ptrdiff_t>(i) + 1, keys.end(), lo);
+    if (at != keys.end()) std::rotate(keys.begin() + static_cast<std::ptrdiff_t>(i), at, at + 1);
+  }
+  return keys;
+}
+
 // Parameters are printed without knowing the kind: scalars one per line,
 // arrays of equal length side by side as a table.
 void print_parameters(const nlohmann::json& params, bool all) {
   std::vector<std::string> columns;
   std::size_t length = 0;
-  for (const auto& [key, value] : params.items()) {
+  for (const std::string& key : display_order(params)) {
+    const nlohmann::json& value = params[key];
     if (value.is_array()) {
       if (columns.empty() || value.size() == length) {
         columns.push_back(key);

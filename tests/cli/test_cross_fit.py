@@ -165,7 +165,9 @@ class CrossFit(PlumbCase):
     def test_small_data_guard_for_isotonic(self):
         data = self.write_rows("tiny.csv", simulate(300, 9, staircase))
         _, _, _, err = self.cross_fit(data, "--map", "isotonic")
-        self.assertIn("caution: isotonic chosen on 300 rows", err)
+        self.assertIn("caution: isotonic was chosen on only 300 rows; a nonparametric map usually needs about 1,000 "
+                      "rows or more (common practice). It was the only candidate: compare it with the other kinds, "
+                      "--map auto.", err)
 
     def test_platt_out_of_fold_matches_r_glm_on_biopsy(self):
         r_dir = self.path("r")
