@@ -41,7 +41,8 @@ struct CrossFitResult {
   std::size_t scored_rows = 0;
   std::size_t best = 0;    // lowest out-of-fold log loss
   std::size_t chosen = 0;  // the simplest candidate within one standard error of the best
-  std::string reason;      // why, in one sentence
+  std::string reason;      // why, in plain clauses without the chosen kind's name in front
+                           // ("beta has the lowest out-of-fold log loss; platt is simpler and ...")
 };
 
 // Rank of a kind's flexibility, lower is simpler: temperature 1, platt 2,

@@ -3,13 +3,19 @@
 // on and which rows it scores, so that no row is scored by a map that saw it.
 #include <cstddef>
 #include <cstdint>
+#include <functional>
 #include <span>
 #include <string>
+#include <string_view>
 #include <vector>
+
+#include "plumb/error.hpp"
 
 namespace plumb {
 
-enum class SplitKind { stratified, group, time, given };
+// `column`: folds read from a column of the input. Artifacts written before
+// this name was chosen record the split as "given"; readers take both.
+enum class SplitKind { stratified, group, time, column };
 std::string_view to_string(SplitKind kind) noexcept;
 
 struct Folds {
@@ -47,9 +53,34 @@ Folds group_folds(std::span<const std::uint32_t> group, std::size_t groups, std:
 // block 0 is never scored. Requires 2 <= k <= distinct times.
 Folds time_folds(std::span<const std::uint64_t> time_rank, std::size_t k);
 
-// Given: fold[i] < count, as produced elsewhere (a model's own
+// From a column: fold[i] < count, as produced elsewhere (a model's own
 // cross-validation). Every fold must hold a row.
-Folds given_folds(std::span<const std::uint32_t> fold, std::size_t count);
+Folds column_folds(std::span<const std::uint32_t> fold, std::size_t count);
+
+// Where the first row holding time value v was read, for refusals.
+using TimeLocator = std::function<Location(std::size_t value)>;
+
+// The time rank of each row, for time_folds: row i holds the time
+// values[value_of_row[i]] (each index < values.size(); `values` are the
+// column's distinct texts in order of first appearance). Equal times get
+// equal ranks and an earlier time a lower rank.
+// A time column holds one form of time throughout, fixed by its first value:
+//   - decimal numbers (a night number, a Unix time, 20261130): by value;
+//     surrounding blanks and a leading '+' are allowed, as for scores;
+//   - ISO 8601 calendar dates, YYYY-MM-DD;
+//   - ISO 8601 date-times without an offset, YYYY-MM-DDThh:mm[:ss[.fff...]]
+//     ('T' or one space between date and time), compared as written;
+//   - the same with an offset, 'Z' or +hh:mm / -hh:mm, compared as instants
+//     (2026-11-30T10:00+01:00 equals 2026-11-30T09:00Z); fractions of a
+//     second are compared exactly, whatever their number of digits.
+// Anything else (empty, NA, text, an impossible date such as 2026-02-30, a
+// second of 60) and any value of another form than the first's (a date among
+// numbers, a date among date-times, a date-time without an offset among ones
+// with an offset) throws plumb::Error(input) located by `where(v)` for the
+// first such value, with the value and what was expected (the form of the
+// first value, which is located by `where(0)`).
+std::vector<std::uint64_t> time_ranks(std::span<const std::string> values, std::span<const std::uint32_t> value_of_row,
+                                      const TimeLocator& where);
 
 // The generator every seeded split uses: splitmix64 (Steele, Lea and Flood
 // 2014), so assignments depend only on (rows, seed), not the standard library.

@@ -84,9 +84,11 @@ struct LabelledRows {
   std::vector<double> label, weight;        // weight empty when unweighted
   std::vector<std::uint32_t> segment;       // per row, an index into segment_names (empty without segments)
   std::vector<std::string> segment_names;   // in order of first appearance
+  std::vector<std::uint64_t> segment_lines; // the physical line of each segment value's first row
   std::string source;                       // file name in messages, "<stdin>" for standard input
   std::string source_sha256;                // SHA-256 of the input bytes
   std::string label_column, weight_column, segment_column;  // resolved header names
+  std::size_t segment_column_number = 0;    // 1-based; 0 without segments
   std::uint64_t rows = 0;
   // Rows left out under MissingPolicy::skip, and their physical lines in
   // input order (for a second pass over the same file).

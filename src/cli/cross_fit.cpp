@@ -51,11 +51,12 @@ Split parse_split(const std::string& text) {
     s.column = text.substr(eq + 1);
     if (name == "group") s.kind = SplitKind::group;
     else if (name == "time") s.kind = SplitKind::time;
-    else if (name == "given") s.kind = SplitKind::given;
+    // `given` is the first release's spelling of `column`, kept for one release.
+    else if (name == "column" || name == "given") s.kind = SplitKind::column;
     else s.column.clear();
     if (!s.column.empty()) return s;
   }
-  throw Error(ErrorKind::usage, "unknown --split", {}, text, "stratified, group=COLUMN, time=COLUMN or given=COLUMN");
+  throw Error(ErrorKind::usage, "unknown --split", {}, text, "stratified, group=COLUMN, time=COLUMN or column=COLUMN");
 }
 
 std::vector<std::string> parse_kinds(const std::string& text, Scale scale) {
@@ -82,30 +83,16 @@ std::vector<std::string> parse_kinds(const std::string& text, Scale scale) {
   return kinds;
 }
 
-// Rank of each row's time value: numbers by value when every value is a
-// number, otherwise text order (ISO 8601 dates sort correctly as text).
-std::vector<std::uint64_t> time_ranks(const io::LabelledRows& rows) {
-  const std::vector<std::string>& names = rows.segment_names;
-  std::vector<double> numeric(names.size());
-  bool all_numbers = true;
-  for (std::size_t v = 0; v < names.size() && all_numbers; ++v) {
-    const auto n = io::parse_number(names[v]);
-    all_numbers = n.has_value();
-    if (n) numeric[v] = *n;
-  }
-  std::vector<std::uint32_t> order(names.size());
-  for (std::uint32_t v = 0; v < order.size(); ++v) order[v] = v;
-  std::sort(order.begin(), order.end(), [&](std::uint32_t a, std::uint32_t b) {
-    return all_numbers ? numeric[a] < numeric[b] : names[a] < names[b];
-  });
-  std::vector<std::uint64_t> rank_of_value(names.size());
-  for (std::size_t r = 0; r < order.size(); ++r) {
-    const bool tie = r > 0 && (all_numbers ? numeric[order[r]] == numeric[order[r - 1]] : false);
-    rank_of_value[order[r]] = tie ? rank_of_value[order[r - 1]] : r;
-  }
-  std::vector<std::uint64_t> out(rows.segment.size());
-  for (std::size_t i = 0; i < out.size(); ++i) out[i] = rank_of_value[rows.segment[i]];
-  return out;
+// Refusals of a time value point at the first row holding it.
+TimeLocator time_locator(const io::LabelledRows& rows) {
+  return [&rows](std::size_t v) {
+    Location loc;
+    loc.file = rows.source;
+    loc.line = rows.segment_lines[v];
+    loc.column = rows.segment_column_number;
+    loc.column_name = rows.segment_column;
+    return loc;
+  };
 }
 
 nlohmann::json figures_json(const OutOfFoldFigures& f) {
@@ -157,7 +144,7 @@ void print_evidence(const CrossFitResult& r, const std::string& skipped) {
     const std::string name = (k == r.chosen ? "* " : "  ") + c.kind;
     row(name.c_str(), c.figures, versus);
   }
-  std::fprintf(stderr, "  chosen: %s\n", r.reason.c_str());
+  std::fprintf(stderr, "  chosen: %s. %s.\n", r.candidates[r.chosen].kind.c_str(), r.reason.c_str());
 }
 
 void write_oof(const CrossFitOptions& o, const io::LabelledRows& rows, const CrossFitResult& r, char separator) {
@@ -191,8 +178,8 @@ void write_oof(const CrossFitOptions& o, const io::LabelledRows& rows, const Cro
     if (i >= rows.rows) throw Error(ErrorKind::io, "the input changed while cross-fit was reading it");
     out.write(record.raw);
     out.put(d);
-    // A given fold column keeps its own values; made folds are numbered from 1.
-    if (r.folds.kind == SplitKind::given) out.write(rows.segment_names[rows.segment[i]]);
+    // Folds read from a column keep its values; made folds are numbered from 1.
+    if (r.folds.kind == SplitKind::column) out.write(rows.segment_names[rows.segment[i]]);
     else out.write(std::to_string(r.folds.fold_of_row[i] + 1));
     for (const Candidate& c : r.candidates) {
       out.put(d);
@@ -225,8 +212,9 @@ int run_cross_fit(const CrossFitOptions& o) {
   switch (split.kind) {
     case SplitKind::stratified: folds = stratified_folds(rows.label, o.folds, o.seed); break;
     case SplitKind::group: folds = group_folds(rows.segment, rows.segment_names.size(), o.folds, o.seed); break;
-    case SplitKind::time: folds = time_folds(time_ranks(rows), o.folds); break;
-    case SplitKind::given: folds = given_folds(rows.segment, rows.segment_names.size()); break;
+    case SplitKind::time: folds = time_folds(time_ranks(rows.segment_names, rows.segment, time_locator(rows)), o.folds);
+      break;
+    case SplitKind::column: folds = column_folds(rows.segment, rows.segment_names.size()); break;
   }
   const FitData data{rows.scores[0], rows.label, rows.weight, scale};
   const MapOptions map_options = o.choices.map_options();
@@ -267,9 +255,18 @@ int run_cross_fit(const CrossFitOptions& o) {
     if (split.kind == SplitKind::time)
       std::fprintf(stderr, "plumb cross-fit: note: the earliest time block (fold 1) is never scored: no earlier "
                            "rows exist to fit its map on\n");
-    if (chosen.kind == "isotonic" && rows.weight_total < few_rows_for_isotonic)
-      std::fprintf(stderr, "plumb cross-fit: caution: isotonic chosen on %s rows (common practice: about 1,000 or "
-                           "more for a nonparametric map)\n", shortest(rows.weight_total).c_str());
+    if (chosen.kind == "isotonic" && rows.weight_total < few_rows_for_isotonic) {
+      char amount[64];
+      if (rows.weight.empty()) std::snprintf(amount, sizeof amount, "only %s rows", grouped(rows.rows).c_str());
+      else std::snprintf(amount, sizeof amount, "a total weight of only %.6g", rows.weight_total);
+      std::fprintf(stderr,
+                   "plumb cross-fit: caution: isotonic was chosen on %s; a nonparametric map usually needs about "
+                   "1,000 rows or more (common practice)%s\n",
+                   amount,
+                   result.candidates.size() == 1
+                       ? ". It was the only candidate: compare it with the other kinds, --map auto."
+                       : ", and its out-of-fold lead may not hold on new rows.");
+    }
     std::fprintf(stderr, "plumb cross-fit: %s map (%s) written to %s\n", chosen.kind.c_str(),
                  o.final_kind == "folds" ? "the fold maps, averaged" : "refitted on all rows", out.name().c_str());
   }
@@ -284,11 +281,12 @@ Command add_cross_fit_command(CLI::App& app) {
       "cross-fit", "Out-of-fold calibration: compare candidate maps on rows they were not fitted on, choose one, "
                    "and write it with the evidence");
   cmd->footer(
-      "Splits:\n"
-      "  stratified      folds with equal shares of positives (default)\n"
-      "  group=COLUMN    rows of one group (a customer, a route) never in two folds\n"
-      "  time=COLUMN     forward chaining: each fold's map sees only earlier rows; fold 1 is never scored\n"
-      "  given=COLUMN    folds from a column (say, the model's own cross-validation)\n\n"
+      "Splits (--split):\n"
+      "  stratified      positives and negatives dealt evenly over the folds (default)\n"
+      "  group=COLUMN    every row with one value of COLUMN (a customer, a route) lands in the same fold\n"
+      "  time=COLUMN     forward chaining: each fold's map is fitted on earlier times only, and fold 1 is\n"
+      "                  never scored; COLUMN holds numbers or ISO 8601 dates/date-times, one form throughout\n"
+      "  column=COLUMN   the folds are COLUMN's values, made elsewhere (say, by the model's own cross-validation)\n\n"
       "With --map auto every kind that accepts the scale is a candidate. The choice is the simplest map\n"
       "(temperature, platt, beta, histogram, isotonic) whose out-of-fold log loss is within one standard\n"
       "error of the best (a paired per-row comparison). The evidence table goes to stderr; --json writes it.\n\n"
@@ -305,10 +303,10 @@ Command add_cross_fit_command(CLI::App& app) {
                   "Not accepted: folds split rows and a tally has merged them (see the message it gives)");
   cmd->add_option("--map", o->maps, "Candidates: auto, or a comma list such as isotonic,platt,beta")
       ->default_str("auto");
-  cmd->add_option("--folds", o->folds, "Number of folds (with --split given=COLUMN, the column decides)")
+  cmd->add_option("--folds", o->folds, "Number of folds (with --split column=COLUMN, the column decides)")
       ->check(CLI::Range(2, 1000))
       ->default_str("5");
-  cmd->add_option("--split", o->split, "stratified, group=COLUMN, time=COLUMN or given=COLUMN")
+  cmd->add_option("--split", o->split, "stratified, group=COLUMN, time=COLUMN or column=COLUMN")
       ->default_str("stratified");
   cmd->add_option("--seed", o->seed, "Seed of the stratified and grouped splits")->default_str("1");
   cmd->add_option("--oof", o->oof,

@@ -1,4 +1,5 @@
 // plumb inspect: a readable summary of a map artifact, after full validation.
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <iostream>
@@ -26,12 +27,31 @@ std::string scalar_text(const nlohmann::json& v) {
   return v.dump();
 }
 
+// The parameters' keys in display order. The artifact's objects keep their
+// keys sorted (so its bytes and hash do not depend on the writer's order),
+// which puts NAME_hi before NAME_lo; a range reads lo, then hi.
+std::vector<std::string> display_order(const nlohmann::json& params) {
+  std::vector<std::string> keys;
+  for (const auto& item : params.items()) keys.push_back(item.key());
+  auto ends_with = [](const std::string& s, std::string_view tail) {
+    return s.size() >= tail.size() && s.compare(s.size() - tail.size(), tail.size(), tail) == 0;
+  };
+  for (std::size_t i = 0; i + 1 < keys.size(); ++i) {
+    if (!ends_with(keys[i], "_hi")) continue;
+    const std::string lo = keys[i].substr(0, keys[i].size() - 3) + "_lo";
+    const auto at = std::find(keys.begin() + static_cast<std::ptrdiff_t>(i) + 1, keys.end(), lo);
+    if (at != keys.end()) std::rotate(keys.begin() + static_cast<std::ptrdiff_t>(i), at, at + 1);
+  }
+  return keys;
+}
+
 // Parameters are printed without knowing the kind: scalars one per line,
 // arrays of equal length side by side as a table.
 void print_parameters(const nlohmann::json& params, bool all) {
   std::vector<std::string> columns;
   std::size_t length = 0;
-  for (const auto& [key, value] : params.items()) {
+  for (const std::string& key : display_order(params)) {
+    const nlohmann::json& value = params[key];
     if (value.is_array()) {
       if (columns.empty() || value.size() == length) {
         columns.push_back(key);
@@ -64,12 +84,15 @@ void print_cross_fit(const nlohmann::json& e) {
   std::string split = e.contains("split") && e["split"].is_object() && e["split"].contains("kind")
                           ? scalar_text(e["split"]["kind"])
                           : std::string("?");
+  // Artifacts of the first release call the column split "given".
+  if (split == "given") split = "column";
+  split += " split";
   if (e.contains("split") && e["split"].is_object() && e["split"].contains("column"))
-    split += " by '" + scalar_text(e["split"]["column"]) + "'";
-  std::printf("\ncross-fit      %s folds, %s split, seed %s, %s rows scored out of fold, shipped: %s\n",
+    split += " on '" + scalar_text(e["split"]["column"]) + "'";
+  std::printf("\ncross-fit      %s folds, %s, seed %s, %s rows scored out of fold, shipped: %s\n",
               text("folds").c_str(), split.c_str(), text("seed").c_str(), text("scored_rows").c_str(),
               text("final").c_str());
-  std::printf("  %-14s %s\n", "chosen", text("reason").c_str());
+  std::printf("  %-14s %s. %s.\n", "chosen", text("chosen").c_str(), text("reason").c_str());
   if (!e.contains("candidates") || !e["candidates"].is_array()) return;
   std::printf("  %-14s %12s %12s %10s\n", "candidate", "oof log loss", "oof Brier", "oof ECE");
   auto row = [](const std::string& name, const nlohmann::json& c) {

@@ -150,16 +150,26 @@ CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::sp
     if (complexity(c.kind) < complexity(cur.kind)) r.chosen = k;
   }
   const Candidate& chosen = r.candidates[r.chosen];
+  // Two plain clauses: what was best, and why the choice is that one.
   char text[256];
-  if (r.chosen == r.best) {
-    std::snprintf(text, sizeof text, "%s has the lowest out-of-fold log loss (%.6f)%s", chosen.kind.c_str(),
-                  chosen.figures.log_loss,
-                  r.candidates.size() > 1 ? "; no simpler candidate is within one standard error of it" : "");
+  bool simpler_exists = false;
+  for (const Candidate& c : r.candidates) simpler_exists = simpler_exists || complexity(c.kind) < complexity(best.kind);
+  if (r.candidates.size() == 1) {
+    std::snprintf(text, sizeof text, "%s is the only candidate (out-of-fold log loss %.6f)", chosen.kind.c_str(),
+                  chosen.figures.log_loss);
+  } else if (r.chosen == r.best && !simpler_exists) {
+    std::snprintf(text, sizeof text, "%s has the lowest out-of-fold log loss (%.6f) and is the simplest candidate",
+                  chosen.kind.c_str(), chosen.figures.log_loss);
+  } else if (r.chosen == r.best) {
+    std::snprintf(text, sizeof text,
+                  "%s has the lowest out-of-fold log loss (%.6f); no simpler candidate comes within one standard "
+                  "error of it",
+                  chosen.kind.c_str(), chosen.figures.log_loss);
   } else {
     std::snprintf(text, sizeof text,
-                  "%s is simpler than %s, the lowest out-of-fold log loss, and within one standard error of it "
-                  "(%+.6f, standard error %.6f)",
-                  chosen.kind.c_str(), best.kind.c_str(), chosen.diff_vs_best, chosen.diff_se);
+                  "%s has the lowest out-of-fold log loss; %s is simpler and within one standard error of it "
+                  "(%+.6f, se %.6f)",
+                  best.kind.c_str(), chosen.kind.c_str(), chosen.diff_vs_best, chosen.diff_se);
   }
   r.reason = text;
   return r;

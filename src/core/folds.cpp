@@ -1,8 +1,11 @@
 #include "plumb/folds.hpp"
 
 #include <algorithm>
+#include <cctype>
+#include <charconv>
 #include <cmath>
 #include <numeric>
+#include <optional>
 
 #include "plumb/error.hpp"
 
@@ -26,14 +29,182 @@ void shuffle(std::vector<T>& v, std::uint64_t& state) {
   }
 }
 
+// The forms a time column may take; one per column.
+enum class TimeForm { number, date, local_date_time, zoned_date_time };
+
+std::string form_name(TimeForm form) {
+  switch (form) {
+    case TimeForm::number: return "a number";
+    case TimeForm::date: return "a date";
+    case TimeForm::local_date_time: return "a date-time without an offset";
+    case TimeForm::zoned_date_time: return "a date-time with an offset";
+  }
+  return "a number";
+}
+
+std::string form_example(TimeForm form) {
+  switch (form) {
+    case TimeForm::number: return "a decimal number";
+    case TimeForm::date: return "a date as YYYY-MM-DD";
+    case TimeForm::local_date_time: return "a date-time as YYYY-MM-DDThh:mm[:ss[.fff]] without an offset";
+    case TimeForm::zoned_date_time: return "a date-time as YYYY-MM-DDThh:mm[:ss[.fff]] with Z or +hh:mm";
+  }
+  return "a decimal number";
+}
+
+struct TimeValue {
+  TimeForm form = TimeForm::number;
+  double number = 0.0;         // numbers
+  std::int64_t seconds = 0;    // the rest: seconds since 1970-01-01T00:00 (UTC when zoned); dates at midnight
+  std::string fraction;        // digits of the second's fraction, trailing zeros dropped
+};
+
+bool digits(std::string_view t, std::size_t at, std::size_t n, int& out) {
+  if (at + n > t.size()) return false;
+  out = 0;
+  for (std::size_t i = at; i < at + n; ++i) {
+    if (t[i] < '0' || t[i] > '9') return false;
+    out = out * 10 + (t[i] - '0');
+  }
+  return true;
+}
+
+// Days from 1970-01-01 to a proleptic Gregorian date (Hinnant's
+// days_from_civil, "chrono-Compatible Low-Level Date Algorithms", 2013).
+std::int64_t days_from_civil(std::int64_t y, int m, int d) {
+  y -= m <= 2 ? 1 : 0;
+  const std::int64_t era = (y >= 0 ? y : y - 399) / 400;
+  const std::int64_t yoe = y - era * 400;
+  const std::int64_t doy = (153 * (m + (m > 2 ? -3 : 9)) + 2) / 5 + d - 1;
+  const std::int64_t doe = yoe * 365 + yoe / 4 - yoe / 100 + doy;
+  return era * 146097 + doe - 719468;
+}
+
+int days_in_month(int y, int m) {
+  static constexpr int days[] = {31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31};
+  const bool leap = (y % 4 == 0 && y % 100 != 0) || y % 400 == 0;
+  return m == 2 && leap ? 29 : days[m - 1];
+}
+
+// Reads one time cell. On failure returns why, in a few words.
+std::optional<std::string> read_time(std::string_view text, TimeValue& out) {
+  while (!text.empty() && (text.front() == ' ' || text.front() == '\t')) text.remove_prefix(1);
+  while (!text.empty() && (text.back() == ' ' || text.back() == '\t')) text.remove_suffix(1);
+  if (text.empty()) return "the time is empty";
+  int year = 0, month = 0, day = 0;
+  if (text.size() >= 10 && digits(text, 0, 4, year) && text[4] == '-' && digits(text, 5, 2, month) &&
+      text[7] == '-' && digits(text, 8, 2, day)) {
+    if (month < 1 || month > 12 || day < 1 || day > days_in_month(year, month)) return "the date does not exist";
+    const std::int64_t days = days_from_civil(year, month, day);
+    out.seconds = days * 86400;
+    out.fraction.clear();
+    if (text.size() == 10) {
+      out.form = TimeForm::date;
+      return std::nullopt;
+    }
+    const char* not_iso = "the time is not an ISO 8601 date or date-time";
+    int hour = 0, minute = 0, second = 0;
+    if (!(text[10] == 'T' || text[10] == 't' || text[10] == ' ') || !digits(text, 11, 2, hour) ||
+        text.size() < 16 || text[13] != ':' || !digits(text, 14, 2, minute))
+      return not_iso;
+    std::size_t at = 16;
+    if (at < text.size() && text[at] == ':') {
+      if (!digits(text, at + 1, 2, second)) return not_iso;
+      at += 3;
+      if (at < text.size() && text[at] == '.') {
+        const std::size_t first = ++at;
+        while (at < text.size() && text[at] >= '0' && text[at] <= '9') ++at;
+        if (at == first) return not_iso;
+        out.fraction.assign(text.substr(first, at - first));
+        while (!out.fraction.empty() && out.fraction.back() == '0') out.fraction.pop_back();
+      }
+    }
+    if (hour > 23 || minute > 59 || second > 59) return "the time of day is out of range";
+    out.seconds += hour * 3600 + minute * 60 + second;
+    out.form = TimeForm::local_date_time;
+    if (at == text.size()) return std::nullopt;
+    if ((text[at] == 'Z' || text[at] == 'z') && at + 1 == text.size()) {
+      out.form = TimeForm::zoned_date_time;
+      return std::nullopt;
+    }
+    int off_hour = 0, off_minute = 0;
+    if (!(text[at] == '+' || text[at] == '-') || at + 6 != text.size() || !digits(text, at + 1, 2, off_hour) ||
+        text[at + 3] != ':' || !digits(text, at + 4, 2, off_minute))
+      return not_iso;
+    if (off_hour > 23 || off_minute > 59) return "the offset is out of range";
+    // 10:00+01:00 is 09:00 in UTC.
+    const std::int64_t offset = off_hour * 3600 + off_minute * 60;
+    out.seconds += text[at] == '+' ? -offset : offset;
+    out.form = TimeForm::zoned_date_time;
+    return std::nullopt;
+  }
+  // A decimal number, read as scores are: an optional sign, no nan or inf.
+  std::string_view t = text;
+  if (t.front() == '+') {
+    t.remove_prefix(1);
+    if (!t.empty() && t.front() == '-') t = {};
+  }
+  const char c0 = !t.empty() && t.front() == '-' && t.size() > 1 ? t[1] : (t.empty() ? 'x' : t.front());
+  double v = 0.0;
+  if (std::isdigit(static_cast<unsigned char>(c0)) || c0 == '.') {
+    const auto [ptr, ec] = std::from_chars(t.data(), t.data() + t.size(), v, std::chars_format::general);
+    if (ec == std::errc() && ptr == t.data() + t.size() && std::isfinite(v)) {
+      out.form = TimeForm::number;
+      out.number = v;
+      return std::nullopt;
+    }
+  }
+  return "the time is neither a number nor an ISO 8601 date or date-time";
+}
+
+bool earlier(const TimeValue& a, const TimeValue& b) {
+  if (a.form == TimeForm::number) return a.number < b.number;
+  if (a.seconds != b.seconds) return a.seconds < b.seconds;
+  // Digit strings without trailing zeros compare as the fractions they spell.
+  return a.fraction < b.fraction;
+}
+
+bool same_time(const TimeValue& a, const TimeValue& b) { return !earlier(a, b) && !earlier(b, a); }
+
 }  // namespace
+
+std::vector<std::uint64_t> time_ranks(std::span<const std::string> values, std::span<const std::uint32_t> value_of_row,
+                                      const TimeLocator& where) {
+  std::vector<TimeValue> times(values.size());
+  for (std::size_t v = 0; v < values.size(); ++v) {
+    const std::optional<std::string> problem = read_time(values[v], times[v]);
+    const bool mixed = !problem && v > 0 && times[v].form != times[0].form;
+    if (!problem && !mixed) continue;
+    std::string expected;
+    if (v == 0) {
+      expected = "a decimal number, or an ISO 8601 date (2026-11-30) or date-time (2026-11-30T21:00:00Z)";
+    } else {
+      expected = form_example(times[0].form) + ", as the column's first time '" + values[0] + "' (line " +
+                 std::to_string(where(0).line) + ") is";
+    }
+    const std::string message =
+        mixed ? "the time column mixes forms: this time is " + form_name(times[v].form) + ", the first is " +
+                    form_name(times[0].form)
+              : *problem;
+    throw Error(ErrorKind::input, message, where(v), values[v], expected);
+  }
+  std::vector<std::size_t> order(values.size());
+  std::iota(order.begin(), order.end(), std::size_t{0});
+  std::sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return earlier(times[a], times[b]); });
+  std::vector<std::uint64_t> rank(values.size(), 0);
+  for (std::size_t r = 1; r < order.size(); ++r)
+    rank[order[r]] = rank[order[r - 1]] + (same_time(times[order[r]], times[order[r - 1]]) ? 0 : 1);
+  std::vector<std::uint64_t> out(value_of_row.size());
+  for (std::size_t i = 0; i < out.size(); ++i) out[i] = rank[value_of_row[i]];
+  return out;
+}
 
 std::string_view to_string(SplitKind kind) noexcept {
   switch (kind) {
     case SplitKind::stratified: return "stratified";
     case SplitKind::group: return "group";
     case SplitKind::time: return "time";
-    case SplitKind::given: return "given";
+    case SplitKind::column: return "column";
   }
   return "stratified";
 }
@@ -123,10 +294,10 @@ Folds time_folds(std::span<const std::uint64_t> time_rank, std::size_t k) {
   return f;
 }
 
-Folds given_folds(std::span<const std::uint32_t> fold, std::size_t count) {
+Folds column_folds(std::span<const std::uint32_t> fold, std::size_t count) {
   if (count < 2) throw Error(ErrorKind::usage, "the fold column holds fewer than two folds", {}, {}, "at least two folds");
   Folds f;
-  f.kind = SplitKind::given;
+  f.kind = SplitKind::column;
   f.count = count;
   f.fold_of_row.assign(fold.begin(), fold.end());
   return f;

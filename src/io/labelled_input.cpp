@@ -111,7 +111,10 @@ LabelledRows read_labelled(const std::string& path, const LabelledColumns& colum
   for (std::size_t c : score_cols) out.score_columns.push_back(reader.header()[c]);
   out.label_column = reader.header()[label_col];
   if (weighted) out.weight_column = reader.header()[weight_col];
-  if (segmented) out.segment_column = reader.header()[segment_col];
+  if (segmented) {
+    out.segment_column = reader.header()[segment_col];
+    out.segment_column_number = segment_col + 1;
+  }
   std::unordered_map<std::string, std::uint32_t> segment_index;
 
   const bool skip = columns.missing == MissingPolicy::skip;
@@ -173,6 +176,7 @@ LabelledRows read_labelled(const std::string& path, const LabelledColumns& colum
                                             " distinct values",
                       cell(reader, record, segment_col), std::string(v), "a column of groups, not of ids");
         out.segment_names.emplace_back(v);
+        out.segment_lines.push_back(record.line);
       }
       out.segment.push_back(it->second);
     }

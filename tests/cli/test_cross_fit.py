@@ -1,7 +1,7 @@
 """plumb cross-fit end to end: folds as promised, out-of-fold values equal
 to fitting each fold with plumb fit and applying it, the choice on seeded
 simulations with a known truth, the shipped artifact, and Platt out of fold
-against R's glm on MASS::biopsy with a given fold column."""
+against R's glm on MASS::biopsy with folds from a column."""
 import csv
 import json
 import math
@@ -165,7 +165,9 @@ class CrossFit(PlumbCase):
     def test_small_data_guard_for_isotonic(self):
         data = self.write_rows("tiny.csv", simulate(300, 9, staircase))
         _, _, _, err = self.cross_fit(data, "--map", "isotonic")
-        self.assertIn("caution: isotonic chosen on 300 rows", err)
+        self.assertIn("caution: isotonic was chosen on only 300 rows; a nonparametric map usually needs about 1,000 "
+                      "rows or more (common practice). It was the only candidate: compare it with the other kinds, "
+                      "--map auto.", err)
 
     def test_platt_out_of_fold_matches_r_glm_on_biopsy(self):
         r_dir = self.path("r")
@@ -194,7 +196,7 @@ class CrossFit(PlumbCase):
         ref = read_rows(os.path.join(r_dir, "biopsy.csv"))
         h = ref[0]
         oof_file = self.path("oof.csv")
-        rc, _, err = run("cross-fit", "--score", "score", "--label", "label", "--split", "given=fold", "--map",
+        rc, _, err = run("cross-fit", "--score", "score", "--label", "label", "--split", "column=fold", "--map",
                          "platt", "--platt-targets", "labels", "--oof", oof_file, "-o", self.path("b.json"),
                          os.path.join(r_dir, "biopsy.csv"))
         self.assertEqual(rc, 0, err)
