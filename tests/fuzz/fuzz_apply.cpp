@@ -4,13 +4,16 @@
 // Input layout: byte 0 chooses the options (bits 0-1: threads 1 to 4;
 // bit 2: --missing empty; bits 3-7: the block size, 16 + 24 * value bytes,
 // so that even small inputs are cut into many blocks), byte 1 the score
-// column (modulo the header's width); the rest is the text.
+// column (bits 0-4, modulo the header's width), --replace (bit 5) and
+// --digits (bits 6-7: shortest, 1, 3, 17); the rest is the text.
 //
 // The reference reads the same text with CsvReader::next() and, for every
-// record, writes its raw bytes, the separator, std::to_chars of the map's
-// value of parse_number(score) (nothing for a blank score with --missing
-// empty) and its line end; the first record it cannot take ends it with
-// the message apply gives.
+// record, writes its raw bytes, the separator, the text of the map's value
+// of parse_number(score) (std::to_chars, or snprintf "%.Ng" with --digits;
+// nothing for a blank score with --missing empty) and its line end; with
+// --replace, the raw bytes with the score field's stored bytes (found by
+// its own scan of the record) replaced by that text. The first record it
+// cannot take ends it with the message apply gives.
 //
 // Invariants beyond "no crash":
 //  - only plumb::Error escapes;
@@ -21,6 +24,7 @@
 //    which of a corrupt stream and an earlier bad record is met first can
 //    depend on how far each reads ahead: then both must refuse.
 #include <charconv>
+#include <cstdio>
 #include <cstdlib>
 #include <cstring>
 #include <fstream>
@@ -82,7 +86,27 @@ std::string score_message(const plumb::io::CsvReader& reader, const plumb::io::R
       .what();
 }
 
-Outcome reference(const std::string& path, std::size_t col_choice, bool missing_empty) {
+// The stored bytes of field `col` of a well-formed record: a field opening
+// with a quote ends at its closing (undoubled) quote, any other at the next
+// delimiter.
+std::pair<std::size_t, std::size_t> field_bytes(std::string_view raw, std::size_t col, char delimiter) {
+  std::size_t begin = 0;
+  for (std::size_t k = 0;; ++k) {
+    std::size_t end = begin;
+    if (end < raw.size() && raw[end] == '"') {
+      ++end;
+      while (end < raw.size() && !(raw[end] == '"' && (end + 1 == raw.size() || raw[end + 1] != '"'))) {
+        end += raw[end] == '"' ? 2 : 1;
+      }
+      ++end;
+    }
+    while (end < raw.size() && raw[end] != delimiter) ++end;
+    if (k == col) return {begin, end - begin};
+    begin = end + 1;
+  }
+}
+
+Outcome reference(const std::string& path, std::size_t col_choice, bool missing_empty, bool replace, int digits) {
   Outcome o;
   try {
     plumb::io::CsvReader reader(path);
@@ -95,8 +119,11 @@ Outcome reference(const std::string& path, std::size_t col_choice, bool missing_
       std::string field;
       if (v && plumb::valid_on_scale(*v, plumb::Scale::probability)) {
         const plumb::Mapped m = map.map(*v);
-        char text[32];
-        field.assign(text, std::to_chars(text, text + sizeof text, m.probability).ptr);
+        char text[64];
+        if (digits == 0)
+          field.assign(text, std::to_chars(text, text + sizeof text, m.probability).ptr);
+        else
+          field.assign(text, static_cast<std::size_t>(std::snprintf(text, sizeof text, "%.*g", digits, m.probability)));
         ++o.counts.rows;
         o.counts.clamped += m.outside_fit_range ? 1 : 0;
       } else if (missing_empty && blank(s)) {
@@ -106,9 +133,16 @@ Outcome reference(const std::string& path, std::size_t col_choice, bool missing_
         o.error = score_message(reader, r, col, s);
         return o;
       }
-      o.bytes.append(r.raw);
-      o.bytes += reader.delimiter();
-      o.bytes += field;
+      if (replace) {
+        const auto [at, length] = field_bytes(r.raw, col, reader.delimiter());
+        o.bytes.append(r.raw.substr(0, at));
+        o.bytes += field;
+        o.bytes.append(r.raw.substr(at + length));
+      } else {
+        o.bytes.append(r.raw);
+        o.bytes += reader.delimiter();
+        o.bytes += field;
+      }
       o.bytes.append(r.line_end);
     }
   } catch (const plumb::Error& e) {
@@ -119,7 +153,7 @@ Outcome reference(const std::string& path, std::size_t col_choice, bool missing_
 }
 
 Outcome streamed(const std::string& path, const std::string& out_path, std::size_t col_choice, bool missing_empty,
-                 unsigned threads, std::size_t block_bytes) {
+                 bool replace, int digits, unsigned threads, std::size_t block_bytes) {
   Outcome o;
   plumb::Error caught(plumb::ErrorKind::internal, "");
   const bool ok = plumb::fuzz::only_plumb_errors(
@@ -128,6 +162,8 @@ Outcome streamed(const std::string& path, const std::string& out_path, std::size
         plumb::io::ApplyStreamOptions options;
         options.score_column = col_choice % reader.header().size();
         options.missing_is_empty = missing_empty;
+        options.replace = replace;
+        options.digits = digits;
         options.threads = threads;
         options.block_bytes = block_bytes;
         options.fitted_min = 0.0;
@@ -166,15 +202,19 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   const unsigned threads = 1 + (data[0] & 3);
   const bool missing_empty = (data[0] & 4) != 0;
   const std::size_t block_bytes = 16 + 24 * static_cast<std::size_t>(data[0] >> 3);
-  const std::size_t col_choice = data[1];
+  const std::size_t col_choice = data[1] & 0x1F;
+  const bool replace = (data[1] & 0x20) != 0;
+  static constexpr int digit_choices[4] = {0, 1, 3, 17};
+  const int digits = digit_choices[data[1] >> 6];
   const std::string text(reinterpret_cast<const char*>(data) + 2, size - 2);
   const plumb::fuzz::MemoryFile file(text);
 
-  const Outcome want = reference(file.path(), col_choice, missing_empty);
-  const Outcome got = streamed(file.path(), scratch_dir() + "/out.csv", col_choice, missing_empty, threads,
-                               block_bytes);
+  const Outcome want = reference(file.path(), col_choice, missing_empty, replace, digits);
+  const Outcome got = streamed(file.path(), scratch_dir() + "/out.csv", col_choice, missing_empty, replace, digits,
+                               threads, block_bytes);
   const std::string options = "threads " + std::to_string(threads) + ", block " + std::to_string(block_bytes) +
-                              (missing_empty ? ", missing empty" : "");
+                              (missing_empty ? ", missing empty" : "") + (replace ? ", replace" : "") +
+                              ", digits " + std::to_string(digits);
   if (want.error || got.error) {
     FUZZ_CHECK(want.error && got.error, "one side refused the text and the other did not (" + options +
                                             "): reference " + shown(want.error.value_or("-")) + ", apply " +
