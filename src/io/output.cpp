@@ -22,9 +22,7 @@ namespace {
   throw Error(ErrorKind::io, what + ": " + std::strerror(errno), loc);
 }
 
-bool ends_with_gz(const std::string& path) {
-  return path.size() > 3 && path.compare(path.size() - 3, 3, ".gz") == 0;
-}
+bool ends_with_gz(const std::string& path) { return path.size() > 3 && path.compare(path.size() - 3, 3, ".gz") == 0; }
 
 }  // namespace
 
@@ -105,8 +103,7 @@ void OutputFile::write_bytes(std::string_view bytes) {
     z.next_out = gzip_->out.data();
     z.avail_out = static_cast<uInt>(gzip_->out.size());
     if (deflate(&z, Z_NO_FLUSH) == Z_STREAM_ERROR) throw Error(ErrorKind::internal, "zlib refused to compress");
-    write_through(std::string_view(reinterpret_cast<const char*>(gzip_->out.data()),
-                                   gzip_->out.size() - z.avail_out));
+    write_through(std::string_view(reinterpret_cast<const char*>(gzip_->out.data()), gzip_->out.size() - z.avail_out));
   } while (z.avail_in > 0 || z.avail_out == 0);
 }
 
@@ -149,8 +146,8 @@ void OutputFile::commit() {
       z.avail_out = static_cast<uInt>(gzip_->out.size());
       rc = deflate(&z, Z_FINISH);
       if (rc == Z_STREAM_ERROR) throw Error(ErrorKind::internal, "zlib refused to compress");
-      write_through(std::string_view(reinterpret_cast<const char*>(gzip_->out.data()),
-                                     gzip_->out.size() - z.avail_out));
+      write_through(
+          std::string_view(reinterpret_cast<const char*>(gzip_->out.data()), gzip_->out.size() - z.avail_out));
     }
     gzip_.reset();
   }
