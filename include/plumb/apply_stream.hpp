@@ -13,6 +13,8 @@
 #include <functional>
 #include <optional>
 #include <string>
+#include <string_view>
+#include <utility>
 
 #include "plumb/calibration_map.hpp"
 #include "plumb/csv.hpp"
@@ -26,6 +28,12 @@ struct ApplyStreamOptions {
   // A missing score (is_missing_value): refuse (an error), skip (the record
   // is left out of the output) or empty (an empty probability).
   MissingPolicy missing = MissingPolicy::refuse;
+  // The probability's text: 0 for the shortest that reads back to the same
+  // double, 1 to 17 for that many significant digits (probability_text()).
+  int digits = 0;
+  // Write the probability in place of the score field (else append it as a
+  // new last field).
+  bool replace = false;
   unsigned threads = 1;           // worker threads; 1 parses on the calling thread
   std::size_t block_bytes = std::size_t{1} << 20;
   // The fitted score range, for counting scores outside it.
@@ -41,11 +49,25 @@ struct ApplyCounts {
 using ApplyProgress = std::function<void(std::uint64_t rows, std::uint64_t bytes,
                                          std::optional<std::uint64_t> total_bytes)>;
 
+// The text of probability `p` at [first, last) (room for 32 bytes), and the
+// end of what was written: with digits 0, the shortest decimal that reads
+// back to the same double (std::to_chars); with digits 1 to 17, `digits`
+// significant digits as printf's "%.{digits}g" writes them (trailing zeros
+// dropped, an exponent below 1e-4).
+char* probability_text(char* first, char* last, double p, int digits);
+
+// The byte offset and length of field `index` (0-based) of a record as
+// stored, quotes included, as a well-formed RFC 4180 record is split by
+// `delimiter`; (record.size(), 0) when it has fewer fields.
+std::pair<std::size_t, std::size_t> stored_field(std::string_view record, std::size_t index, char delimiter);
+
 // Writes every data record of `reader` to `out` as: its raw bytes, the
-// delimiter, the shortest text of map(score) (or nothing for a missing score
-// under MissingPolicy::empty), its line end; a record with a missing score
-// under MissingPolicy::skip is left out. Blank lines are dropped, except in
-// a one-column file, where they are records with an empty score. The header
+// delimiter, probability_text(map(score)) (or nothing for a missing score
+// under MissingPolicy::empty), its line end; with `replace`, the record's raw
+// bytes with the score field's stored bytes replaced by that text. A record
+// with a missing score under MissingPolicy::skip is left out. Blank lines are
+// dropped, except in a one-column file, where they are records with an empty
+// score. The header
 // is the caller's to write. Throws plumb::Error(input), located by file,
 // line and column, for the first bad record in input order: a ragged row, a
 // NUL byte, a quoting error, a score that is missing (under

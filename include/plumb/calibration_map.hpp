@@ -73,6 +73,17 @@ class CalibrationMap {
   // logistic function, up to its rounding (between neighbouring doubles the
   // probability may fall by an ulp or two, as e / (1 + e) rounds).
   virtual bool monotone() const noexcept = 0;
+  // True when the map decreases as a whole, not merely somewhere (the sign a
+  // reversed score or a wrong positive label leaves). By default: not
+  // monotone(), which is exact for the kinds that are monotone one way or the
+  // other (platt, temperature). A histogram map decreases as a whole when the
+  // weighted rank correlation of score and bin frequency over the fitted rows
+  // is negative (HistogramMap::decreases_overall()).
+  virtual bool decreases_overall() const noexcept { return !monotone(); }
+  // True when map() returns exactly 0 or exactly 1 for some fitted score (a
+  // bin or block holding rows of one class only): the log loss of any later
+  // row with the contrary outcome there is infinite.
+  virtual bool reaches_zero_or_one() const noexcept { return false; }
 
   const FitDiagnostics& diagnostics() const noexcept { return diagnostics_; }
   // Used when a map is read back from an artifact, whose diagnostics were
@@ -82,6 +93,10 @@ class CalibrationMap {
  protected:
   FitDiagnostics diagnostics_;
 };
+
+// The kind with its indefinite article, for messages: "an isotonic",
+// "a platt" (a vowel letter first takes "an").
+std::string kind_with_article(std::string_view kind);
 
 // The kinds plumb can fit, in the order the help text lists them (kinds that
 // are only ever loaded, such as fold_average, are not among them).

@@ -5,6 +5,12 @@
 // target only by commit(); if the object is destroyed without commit() (an
 // error, an exception), the temporary file is removed and any previous file
 // at the target is left as it was. "-" writes to standard output.
+//
+// A name ending in ".gz" is written as one gzip member (RFC 1952) of the
+// same bytes: compression level 6, no file name, modification time 0, so
+// that the same bytes written always give the same file, however they were
+// cut into write() calls. Standard output is never compressed.
+#include <memory>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -20,9 +26,8 @@ class OutputFile {
   OutputFile& operator=(const OutputFile&) = delete;
 
   void write(std::string_view bytes) {
-    if (buffer_.size() + bytes.size() > capacity_) flush_buffer();
-    if (bytes.size() > capacity_) {
-      write_through(bytes);
+    if (buffer_.size() + bytes.size() > capacity_) {
+      write_slow(bytes);
       return;
     }
     buffer_.insert(buffer_.end(), bytes.begin(), bytes.end());
@@ -38,10 +43,14 @@ class OutputFile {
 
   const std::string& name() const noexcept { return name_; }
   bool is_stdout() const noexcept { return fd_ == 1; }
+  bool is_gzip() const noexcept { return gzip_ != nullptr; }
 
  private:
+  struct Gzip;
+  void write_slow(std::string_view bytes);
   void flush_buffer();
   void write_through(std::string_view bytes);
+  void write_bytes(std::string_view bytes);
 
   std::string name_;
   std::string temp_path_;
@@ -49,6 +58,7 @@ class OutputFile {
   bool committed_ = false;
   std::size_t capacity_;
   std::vector<char> buffer_;
+  std::unique_ptr<Gzip> gzip_;
 };
 
 }  // namespace plumb::io

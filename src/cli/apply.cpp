@@ -1,5 +1,6 @@
 // plumb apply: stream rows through a map artifact, appending the calibrated
-// probability to every row and passing every input column through unchanged.
+// probability to every row (or writing it in place of the score with
+// --replace) and passing every other input column through unchanged.
 #include <charconv>
 #include <cstdio>
 #include <string>
@@ -26,6 +27,8 @@ struct ApplyOptions {
   std::string missing = "refuse";
   std::string separator = "auto";
   unsigned threads = 0;
+  int digits = 0;  // 0: shortest round trip
+  bool replace = false;
   bool quiet = false;
 };
 
@@ -50,9 +53,11 @@ int run_apply(const ApplyOptions& o) {
   io::CsvReader reader(o.file, csv);
   const std::string score_spec = map_score_column(artifact, o.score);
   const std::size_t score_col = reader.column(score_spec, "score");
-  const std::string new_name = o.as.empty() ? reader.header()[score_col] + "_calibrated" : o.as;
-  for (const std::string& h : reader.header())
-    if (h == new_name) {
+  // With --replace the column keeps its name unless --as renames it.
+  const std::string new_name =
+      !o.as.empty() ? o.as : o.replace ? reader.header()[score_col] : reader.header()[score_col] + "_calibrated";
+  for (std::size_t c = 0; c < reader.header().size(); ++c)
+    if (reader.header()[c] == new_name && !(o.replace && c == score_col)) {
       Location loc;
       loc.file = reader.name();
       loc.line = 1;
@@ -63,14 +68,24 @@ int run_apply(const ApplyOptions& o) {
   const std::string line_end(reader.header_record().line_end);
 
   io::OutputFile out(o.output);
-  out.write(reader.header_record().raw);
-  out.put(delim);
-  out.write(quoted_if_needed(new_name, delim));
+  const std::string_view header = reader.header_record().raw;
+  if (o.replace) {
+    const auto [at, length] = io::stored_field(header, score_col, delim);
+    out.write(header.substr(0, at));
+    out.write(o.as.empty() ? header.substr(at, length) : std::string_view(quoted_if_needed(new_name, delim)));
+    out.write(header.substr(at + length));
+  } else {
+    out.write(header);
+    out.put(delim);
+    out.write(quoted_if_needed(new_name, delim));
+  }
   out.write(line_end);
 
   io::ApplyStreamOptions stream;
   stream.score_column = score_col;
   stream.missing = parse_missing(o.missing);
+  stream.digits = o.digits;
+  stream.replace = o.replace;
   stream.threads = o.threads == 0 ? std::max(1u, std::thread::hardware_concurrency()) : o.threads;
   stream.fitted_min = artifact.provenance.score_min;
   stream.fitted_max = artifact.provenance.score_max;
@@ -110,8 +125,10 @@ Command add_apply_command(CLI::App& app) {
       "apply", "Append calibrated probabilities to every row of a score file, streaming, in input order");
   cmd->footer(
       "Every input column is passed through byte for byte; the calibrated probability is appended as a new\n"
-      "last column, written with the shortest digits that read back to the same double. With -o the output\n"
-      "appears only when the whole input has been read without error.\n\n"
+      "last column (with --replace, written in place of the score column, which keeps its name unless --as\n"
+      "gives one), in the shortest digits that read back to the same double unless --digits says how many.\n"
+      "With -o the output appears only when the whole input has been read without error; a name ending in\n"
+      ".gz is written as gzip.\n\n"
       "Examples:\n"
       "  plumb apply late.map.json tonight.csv -o tonight.calibrated.csv\n"
       "  plumb apply late.map.json big.csv.gz --as p_late | next-step");
@@ -119,8 +136,18 @@ Command add_apply_command(CLI::App& app) {
   cmd->add_option("file", o->file, "CSV or TSV file with a header row, plain or gzip; - or nothing reads standard input")
       ->default_str("-");
   cmd->add_option("--score", o->score, "Column holding the raw score (default: the column the map was fitted on)");
-  cmd->add_option("--as", o->as, "Name of the new column (default: the score column's name + _calibrated)");
-  cmd->add_option("-o,--output", o->output, "Where to write the rows (- for standard output)")->default_str("-");
+  cmd->add_option("--as", o->as,
+                  "Name of the new column (default: the score column's name + _calibrated; with --replace, the "
+                  "score column's own name)");
+  cmd->add_flag("--replace", o->replace,
+                "Write the probability in place of the score, in the score column's position, instead of appending "
+                "a column");
+  cmd->add_option("--digits", o->digits,
+                  "Significant digits of the probability, 1 to 17 (default: the shortest text that reads back to "
+                  "the same double)")
+      ->check(CLI::Range(1, 17));
+  cmd->add_option("-o,--output", o->output, "Where to write the rows (- for standard output; a name ending in .gz "
+                  "is written as gzip)")->default_str("-");
   add_missing_option(*cmd, o->missing, true);
   cmd->add_option("--threads", o->threads,
                   "Threads parsing and mapping rows (0: one per core); the output is the same for any count")

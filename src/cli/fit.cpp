@@ -130,17 +130,31 @@ int write_and_summarise(const FitOptions& o, const Artifact& artifact, const std
       std::fprintf(stderr, "plumb fit: warning: the fit did not converge after %d iterations (are the labels "
                            "separated by the score?); the map is usable but its parameters are not a maximum\n",
                    d.iterations);
-    if (!artifact.map->monotone())
+    const CalibrationMap& map = *artifact.map;
+    if (map.decreases_overall())
       std::fprintf(stderr, "plumb fit: warning: the fitted map decreases (higher scores get lower probabilities); "
                            "is the score oriented the other way, or the label's positive value wrong?\n");
+    else if (!map.monotone())
+      std::fprintf(stderr, "plumb fit: note: the fitted map is not monotone: it rises with the score as a whole "
+                           "but falls between some neighbouring %s; %s\n",
+                   o.kind == "histogram" ? "bins (noise in bins of few rows)" : "scores",
+                   o.kind == "histogram" ? "fewer --bins, or --map isotonic, gives a monotone map"
+                                         : "--map isotonic gives a monotone map");
+    if (map.reaches_zero_or_one())
+      std::fprintf(stderr, "plumb fit: caution: the map gives a probability of exactly 0 or 1 for some scores "
+                           "(%s whose rows all have one outcome), so any row there with the other outcome has infinite log "
+                           "loss; %s\n",
+                   o.kind == "histogram" ? "bins" : "blocks",
+                   o.kind == "histogram" ? "use fewer --bins, or --map platt or beta"
+                                         : "--map platt or beta keeps every probability strictly between 0 and 1");
     if (d.clipped > 0)
       std::fprintf(stderr, "plumb fit: note: %s rows had probability scores within 1e-12 of 0 or 1 and were "
                            "clipped there before taking log-odds\n",
                    grouped(d.clipped).c_str());
     if ((o.kind == "isotonic" || o.kind == "histogram") && rows.weight_total < few_rows_for_nonparametric)
-      std::fprintf(stderr, "plumb fit: caution: %s rows is few for a %s map (common practice: about 1,000 or "
+      std::fprintf(stderr, "plumb fit: caution: %s rows is few for %s map (common practice: about 1,000 or "
                            "more); a platt or beta map is less likely to overfit\n",
-                   shortest(rows.weight_total).c_str(), o.kind.c_str());
+                   shortest(rows.weight_total).c_str(), kind_with_article(o.kind).c_str());
   }
   return 0;
 }

@@ -5,6 +5,11 @@
 
 namespace plumb {
 
+std::string kind_with_article(std::string_view kind) {
+  const bool vowel = !kind.empty() && std::string_view("aeiouAEIOU").find(kind.front()) != std::string_view::npos;
+  return (vowel ? "an " : "a ") + std::string(kind);
+}
+
 double mean_log_loss(const CalibrationMap& map, const FitData& data) {
   double loss = 0.0, total = 0.0;
   for (std::size_t i = 0; i < data.score.size(); ++i) {

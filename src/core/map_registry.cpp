@@ -137,7 +137,7 @@ std::unique_ptr<CalibrationMap> load_map(std::string_view kind, Scale scale, con
   if (!e) throw Error(ErrorKind::artifact, "unknown map kind", loc, std::string(kind), "one of " + kind_list());
   if (!e->accepts(scale))
     throw Error(ErrorKind::artifact,
-                "a " + std::string(kind) + " map cannot hold scores on the " + std::string(to_string(scale)) +
+                kind_with_article(kind) + " map cannot hold scores on the " + std::string(to_string(scale)) +
                     " scale",
                 loc);
   return e->load(scale, parameters, where);

@@ -32,20 +32,22 @@ struct Failure {
   std::string value;       // the score text (score)
 };
 
-// The text of recently written probabilities, by their bits. Shortest
-// round-trip formatting is the costliest step per row; a piecewise-constant
-// map (isotonic within its blocks, histogram) writes a few values over and
-// over, and a hit copies the same bytes std::to_chars would write.
+// The text of recently written probabilities, by their bits and the text
+// rule (digits). Formatting is the costliest step per row; a
+// piecewise-constant map (isotonic within its blocks, histogram) writes a
+// few values over and over, and a hit copies the same bytes
+// probability_text() would write.
 class ProbabilityText {
  public:
   ProbabilityText() : entries_(std::size_t{1} << bits_) {}
-  char* write(char* w, double p) {
+  char* write(char* w, double p, int digits) {
     std::uint64_t key;
     std::memcpy(&key, &p, sizeof key);
     Entry& e = entries_[(key * 0x9E3779B97F4A7C15ull) >> (64 - bits_)];
-    if (e.key != key) {
+    if (e.key != key || e.digits != digits) {
       e.key = key;
-      e.length = static_cast<std::uint8_t>(std::to_chars(e.text, e.text + sizeof e.text, p).ptr - e.text);
+      e.digits = digits;
+      e.length = static_cast<std::uint8_t>(probability_text(e.text, e.text + sizeof e.text, p, digits) - e.text);
     }
     std::memcpy(w, e.text, sizeof e.text);  // the caller has room for a whole entry
     return w + e.length;
@@ -55,6 +57,7 @@ class ProbabilityText {
   static constexpr int bits_ = 12;
   struct Entry {
     std::uint64_t key = ~std::uint64_t{0};  // a NaN's bits: no probability has them
+    int digits = 0;
     char text[32];
     std::uint8_t length = 0;
   };
@@ -67,8 +70,10 @@ struct Block {
   std::uint64_t first_line = 0;
   // Records read by CsvReader::next() (blocks with quotes): where each lies
   // in `in`, and its score field unescaped into `scores`.
+  // field_offset and field_length: the score field's bytes as stored
+  // (quotes included) within the record, for --replace.
   struct Parsed {
-    std::size_t raw_offset, raw_length, end_length, score_offset, score_length;
+    std::size_t raw_offset, raw_length, end_length, score_offset, score_length, field_offset, field_length;
     std::uint64_t line;
   };
   bool parsed = false;
@@ -146,7 +151,7 @@ class Mapper {
       block.counts.outside += (score < o_.fitted_min || score > o_.fitted_max) ? 1 : 0;
       block.counts.clamped += m.outside_fit_range ? 1 : 0;
       block.counts.clipped += m.clipped ? 1 : 0;
-      w = block.text.write(w, m.probability);
+      w = block.text.write(w, m.probability, o_.digits);
       return Field::written;
     }
     if (o_.missing != MissingPolicy::refuse && is_missing_value(text)) {
@@ -234,11 +239,22 @@ class Mapper {
       const std::size_t raw_length = static_cast<std::size_t>(raw_end - start);
       reserve(block, w, raw_length);
       char* const row_start = w;
-      std::memcpy(w, start, raw_length);
-      w += raw_length;
-      *w++ = d;
-      const Field f =
-          append_probability(block, w, std::string_view(field, static_cast<std::size_t>(field_end - field)), line);
+      const std::string_view score(field, static_cast<std::size_t>(field_end - field));
+      Field f;
+      if (o_.replace) {  // the fields before the score, its probability, the fields after
+        std::memcpy(w, start, static_cast<std::size_t>(field - start));
+        w += field - start;
+        f = append_probability(block, w, score, line);
+        if (f == Field::written) {
+          std::memcpy(w, field_end, static_cast<std::size_t>(raw_end - field_end));
+          w += raw_end - field_end;
+        }
+      } else {
+        std::memcpy(w, start, raw_length);
+        w += raw_length;
+        *w++ = d;
+        f = append_probability(block, w, score, line);
+      }
       if (f == Field::failed) break;
       if (f == Field::skipped) {
         w = row_start;
@@ -257,11 +273,24 @@ class Mapper {
     for (const Block::Parsed& r : block.records) {
       reserve(block, w, r.raw_length + r.end_length);
       char* const row_start = w;
-      std::memcpy(w, block.in.data() + r.raw_offset, r.raw_length);
-      w += r.raw_length;
-      *w++ = delimiter_;
-      const Field f =
-          append_probability(block, w, std::string_view(block.scores.data() + r.score_offset, r.score_length), r.line);
+      const char* const raw = block.in.data() + r.raw_offset;
+      const std::string_view score(block.scores.data() + r.score_offset, r.score_length);
+      Field f;
+      if (o_.replace) {
+        std::memcpy(w, raw, r.field_offset);
+        w += r.field_offset;
+        f = append_probability(block, w, score, r.line);
+        if (f == Field::written) {
+          const std::size_t after = r.field_offset + r.field_length;
+          std::memcpy(w, raw + after, r.raw_length - after);
+          w += r.raw_length - after;
+        }
+      } else {
+        std::memcpy(w, raw, r.raw_length);
+        w += r.raw_length;
+        *w++ = delimiter_;
+        f = append_probability(block, w, score, r.line);
+      }
       if (f == Field::failed) break;
       if (f == Field::skipped) {
         w = row_start;
@@ -358,8 +387,10 @@ bool read_block(CsvReader& reader, Block& block, std::size_t score_column, std::
     Record record;
     while (block.in.size() < block_bytes && reader.next(record)) {
       const std::string_view score = record.fields[score_column];
+      const auto [field_offset, field_length] = stored_field(record.raw, score_column, reader.delimiter());
       block.records.push_back(Block::Parsed{block.in.size(), record.raw.size(), record.line_end.size(),
-                                            block.scores.size(), score.size(), record.line});
+                                            block.scores.size(), score.size(), field_offset, field_length,
+                                            record.line});
       block.in.append(record.raw);
       block.in.append(record.line_end);
       block.scores.append(score);
@@ -373,6 +404,36 @@ bool read_block(CsvReader& reader, Block& block, std::size_t score_column, std::
 }
 
 }  // namespace
+
+char* probability_text(char* first, char* last, double p, int digits) {
+  if (digits <= 0) return std::to_chars(first, last, p).ptr;
+  return std::to_chars(first, last, p, std::chars_format::general, std::min(digits, 17)).ptr;
+}
+
+std::pair<std::size_t, std::size_t> stored_field(std::string_view record, std::size_t index, char delimiter) {
+  // As CsvReader splits: a field opening with a quote runs to the quote that
+  // is not doubled; any other field runs to the next delimiter (quotes
+  // inside it are text).
+  std::size_t i = 0;
+  for (std::size_t field = 0;; ++field) {
+    const std::size_t begin = i;
+    if (i < record.size() && record[i] == '"') {
+      for (++i; i < record.size(); ++i) {
+        if (record[i] != '"') continue;
+        if (i + 1 < record.size() && record[i + 1] == '"') {
+          ++i;
+          continue;
+        }
+        ++i;
+        break;
+      }
+    }
+    while (i < record.size() && record[i] != delimiter) ++i;
+    if (field == index) return {begin, i - begin};
+    if (i == record.size()) return {record.size(), 0};
+    ++i;
+  }
+}
 
 ApplyCounts apply_stream(CsvReader& reader, const CalibrationMap& map, OutputFile& out,
                          const ApplyStreamOptions& options, const ApplyProgress& progress) {

@@ -180,7 +180,9 @@ Artifact artifact_from_text(const std::string& text, const std::string& where) {
 }
 
 Artifact load_artifact(const std::string& path) {
-  io::ByteSource source(path);
+  io::ByteSourceOptions read_options;
+  read_options.decompress = true;  // an artifact written with -o NAME.gz
+  io::ByteSource source(path, read_options);
   std::string text;
   char chunk[1 << 16];
   for (std::size_t n; (n = source.read(chunk, sizeof chunk)) > 0;) {

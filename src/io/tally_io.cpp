@@ -198,7 +198,9 @@ Tally tally_from_text(const std::string& text, const std::string& where) {
 }
 
 Tally load_tally(const std::string& path, std::string* sha256) {
-  io::ByteSource source(path);
+  io::ByteSourceOptions read_options;
+  read_options.decompress = true;  // an artifact written with -o NAME.gz
+  io::ByteSource source(path, read_options);
   std::string text;
   char chunk[1 << 16];
   for (std::size_t n; (n = source.read(chunk, sizeof chunk)) > 0;) text.append(chunk, n);

@@ -4,14 +4,18 @@
 // Input layout: byte 0 chooses the options (bits 0-1: threads 1 to 4;
 // bit 2: --missing empty; bits 3-7: the block size, 16 + 24 * value bytes,
 // so that even small inputs are cut into many blocks), byte 1 the score
-// column (bits 0-6, modulo the header's width) and, without bit 2 of byte 0,
+// column (bits 0-3, modulo the header's width), --replace (bit 4),
+// --digits (bits 5-6: shortest, 1, 3, 17) and, without bit 2 of byte 0,
 // --missing skip (bit 7); the rest is the text.
 //
 // The reference reads the same text with CsvReader::next() and, for every
-// record, writes its raw bytes, the separator, std::to_chars of the map's
-// value of parse_number(score) (nothing for a missing score with --missing
-// empty; the record is left out with --missing skip) and its line end; the
-// first record it cannot take ends it with the message apply gives.
+// record, writes its raw bytes, the separator, the text of the map's value
+// of parse_number(score) (std::to_chars, or snprintf "%.Ng" with --digits;
+// nothing for a missing score with --missing empty; the record is left out
+// with --missing skip) and its line end; with --replace, the raw bytes with
+// the score field's stored bytes (found by its own scan of the record)
+// replaced by that text. The first record it cannot take ends it with the
+// message apply gives.
 //
 // Invariants beyond "no crash":
 //  - only plumb::Error escapes;
@@ -22,6 +26,7 @@
 //    which of a corrupt stream and an earlier bad record is met first can
 //    depend on how far each reads ahead: then both must refuse.
 #include <charconv>
+#include <cstdio>
 #include <cstdlib>
 #include <cstring>
 #include <fstream>
@@ -83,7 +88,27 @@ std::string score_message(const plumb::io::CsvReader& reader, const plumb::io::R
 
 using plumb::io::MissingPolicy;
 
-Outcome reference(const std::string& path, std::size_t col_choice, MissingPolicy missing) {
+// The stored bytes of field `col` of a well-formed record: a field opening
+// with a quote ends at its closing (undoubled) quote, any other at the next
+// delimiter.
+std::pair<std::size_t, std::size_t> field_bytes(std::string_view raw, std::size_t col, char delimiter) {
+  std::size_t begin = 0;
+  for (std::size_t k = 0;; ++k) {
+    std::size_t end = begin;
+    if (end < raw.size() && raw[end] == '"') {
+      ++end;
+      while (end < raw.size() && !(raw[end] == '"' && (end + 1 == raw.size() || raw[end + 1] != '"'))) {
+        end += raw[end] == '"' ? 2 : 1;
+      }
+      ++end;
+    }
+    while (end < raw.size() && raw[end] != delimiter) ++end;
+    if (k == col) return {begin, end - begin};
+    begin = end + 1;
+  }
+}
+
+Outcome reference(const std::string& path, std::size_t col_choice, MissingPolicy missing, bool replace, int digits) {
   Outcome o;
   try {
     plumb::io::CsvReader reader(path);
@@ -96,8 +121,11 @@ Outcome reference(const std::string& path, std::size_t col_choice, MissingPolicy
       std::string field;
       if (v && plumb::valid_on_scale(*v, plumb::Scale::probability)) {
         const plumb::Mapped m = map.map(*v);
-        char text[32];
-        field.assign(text, std::to_chars(text, text + sizeof text, m.probability).ptr);
+        char text[64];
+        if (digits == 0)
+          field.assign(text, std::to_chars(text, text + sizeof text, m.probability).ptr);
+        else
+          field.assign(text, static_cast<std::size_t>(std::snprintf(text, sizeof text, "%.*g", digits, m.probability)));
         ++o.counts.rows;
         o.counts.clamped += m.outside_fit_range ? 1 : 0;
       } else if (missing == MissingPolicy::empty && plumb::io::is_missing_value(s)) {
@@ -110,9 +138,16 @@ Outcome reference(const std::string& path, std::size_t col_choice, MissingPolicy
         o.error = score_message(reader, r, col, s);
         return o;
       }
-      o.bytes.append(r.raw);
-      o.bytes += reader.delimiter();
-      o.bytes += field;
+      if (replace) {
+        const auto [at, length] = field_bytes(r.raw, col, reader.delimiter());
+        o.bytes.append(r.raw.substr(0, at));
+        o.bytes += field;
+        o.bytes.append(r.raw.substr(at + length));
+      } else {
+        o.bytes.append(r.raw);
+        o.bytes += reader.delimiter();
+        o.bytes += field;
+      }
       o.bytes.append(r.line_end);
     }
   } catch (const plumb::Error& e) {
@@ -123,7 +158,7 @@ Outcome reference(const std::string& path, std::size_t col_choice, MissingPolicy
 }
 
 Outcome streamed(const std::string& path, const std::string& out_path, std::size_t col_choice, MissingPolicy missing,
-                 unsigned threads, std::size_t block_bytes) {
+                 bool replace, int digits, unsigned threads, std::size_t block_bytes) {
   Outcome o;
   plumb::Error caught(plumb::ErrorKind::internal, "");
   const bool ok = plumb::fuzz::only_plumb_errors(
@@ -132,6 +167,8 @@ Outcome streamed(const std::string& path, const std::string& out_path, std::size
         plumb::io::ApplyStreamOptions options;
         options.score_column = col_choice % reader.header().size();
         options.missing = missing;
+        options.replace = replace;
+        options.digits = digits;
         options.threads = threads;
         options.block_bytes = block_bytes;
         options.fitted_min = 0.0;
@@ -172,16 +209,22 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
                                 : (data[1] & 128) ? MissingPolicy::skip
                                                   : MissingPolicy::refuse;
   const std::size_t block_bytes = 16 + 24 * static_cast<std::size_t>(data[0] >> 3);
-  const std::size_t col_choice = data[1] & 127;
+  const std::size_t col_choice = data[1] & 0x0F;
+  const bool replace = (data[1] & 0x10) != 0;
+  static constexpr int digit_choices[4] = {0, 1, 3, 17};
+  const int digits = digit_choices[(data[1] >> 5) & 3];
   const std::string text(reinterpret_cast<const char*>(data) + 2, size - 2);
   const plumb::fuzz::MemoryFile file(text);
 
-  const Outcome want = reference(file.path(), col_choice, missing);
-  const Outcome got = streamed(file.path(), scratch_dir() + "/out.csv", col_choice, missing, threads, block_bytes);
+  const Outcome want = reference(file.path(), col_choice, missing, replace, digits);
+  const Outcome got = streamed(file.path(), scratch_dir() + "/out.csv", col_choice, missing, replace, digits,
+                               threads, block_bytes);
   const std::string options = "threads " + std::to_string(threads) + ", block " + std::to_string(block_bytes) +
                               (missing == MissingPolicy::empty  ? ", missing empty"
                                : missing == MissingPolicy::skip ? ", missing skip"
-                                                                : "");
+                                                                : "") +
+                              (replace ? ", replace" : "") + ", digits " + std::to_string(digits);
+
   if (want.error || got.error) {
     FUZZ_CHECK(want.error && got.error, "one side refused the text and the other did not (" + options +
                                             "): reference " + shown(want.error.value_or("-")) + ", apply " +

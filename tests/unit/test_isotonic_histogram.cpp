@@ -667,3 +667,67 @@ TEST_CASE("isotonic and histogram registry: one-class data, unknown kinds, scale
   CHECK(std::find(kinds.begin(), kinds.end(), "isotonic") != kinds.end());
   CHECK(std::find(kinds.begin(), kinds.end(), "histogram") != kinds.end());
 }
+
+namespace {
+
+std::unique_ptr<plumb::CalibrationMap> histogram_of(std::vector<double> value, std::vector<double> weight) {
+  std::vector<plumb::HistogramBin> bins;
+  for (std::size_t i = 0; i < value.size(); ++i)
+    bins.push_back({0.1 * static_cast<double>(i), 0.1 * static_cast<double>(i) + 0.05, value[i], weight[i]});
+  return std::make_unique<plumb::HistogramMap>(Scale::probability, std::move(bins));
+}
+
+}  // namespace
+
+TEST_CASE("histogram: a dip between bins is not monotone, only a falling whole decreases", "[histogram]") {
+  // The rule is the sign of Spearman's rank correlation of score and
+  // frequency over the rows, ties within a bin given their mid-rank
+  // (Kendall and Gibbons, Rank Correlation Methods, 1990, ch. 3): the sign
+  // of sum w_b (R_b - W/2)(v_b - v_mean). The covariances below are by hand.
+  const auto dip = histogram_of({0.1, 0.3, 0.25, 0.5}, {5, 5, 5, 5});
+  CHECK_FALSE(dip->monotone());
+  CHECK_FALSE(dip->decreases_overall());
+  const auto falling = histogram_of({0.6, 0.4, 0.45, 0.2}, {5, 5, 5, 5});
+  CHECK_FALSE(falling->monotone());
+  CHECK(falling->decreases_overall());
+  // Weights count: one light bin of 0.9 before two heavy bins that rise.
+  // v_mean = 3.9/21; mid-ranks 0.5, 6, 16 around 10.5: covariance
+  // -10(0.9 - 0.186) + 10(-4.5)(0.1 - 0.186) + 10(5.5)(0.2 - 0.186) = -2.5 < 0.
+  CHECK(histogram_of({0.9, 0.1, 0.2}, {1, 10, 10})->decreases_overall());
+  // With 0.3 in the last bin: v_mean = 4.9/21, covariance
+  // -10(0.667) + 10(-4.5)(-0.133) + 10(5.5)(0.067) = +3.0 > 0.
+  CHECK_FALSE(histogram_of({0.9, 0.1, 0.3}, {1, 10, 10})->decreases_overall());
+  CHECK_FALSE(histogram_of({0.1, 0.2, 0.3}, {1, 1, 1})->decreases_overall());
+}
+
+TEST_CASE("histogram and isotonic maps say when they give exactly 0 or 1", "[histogram][isotonic]") {
+  CHECK(histogram_of({0.0, 0.5}, {1, 1})->reaches_zero_or_one());
+  CHECK(histogram_of({0.2, 1.0}, {1, 1})->reaches_zero_or_one());
+  CHECK_FALSE(histogram_of({0.2, 0.9}, {1, 1})->reaches_zero_or_one());
+  // 16 bins on 16 rows: every bin one row, so every frequency is 0 or 1.
+  std::vector<double> score, label;
+  for (int i = 0; i < 16; ++i) {
+    score.push_back((i + 0.5) / 16);
+    label.push_back(i % 3 == 0 ? 1.0 : 0.0);
+  }
+  MapOptions opt;
+  opt.histogram_bins = 16;
+  CHECK(plumb::fit_map("histogram", FitData{score, label, {}, Scale::probability}, opt)->reaches_zero_or_one());
+  opt.histogram_bins = 2;  // 6 positives in 16 rows: 3 of 8 in each half
+  CHECK_FALSE(plumb::fit_map("histogram", FitData{score, label, {}, Scale::probability}, opt)->reaches_zero_or_one());
+  // PAV on labels 0,0,1,1 gives blocks of value 0 and 1 (no violators to pool).
+  const std::vector<double> s4{0.1, 0.2, 0.3, 0.4}, y4{0, 0, 1, 1}, y4b{0, 1, 0, 1};
+  CHECK(plumb::fit_map("isotonic", FitData{s4, y4, {}, Scale::probability}, {})->reaches_zero_or_one());
+  // Labels 0,1,0,1: PAV pools the middle pair, 0 | 1/2 | 1, with 0 and 1 at the ends.
+  CHECK(plumb::fit_map("isotonic", FitData{s4, y4b, {}, Scale::probability}, {})->reaches_zero_or_one());
+  const std::vector<double> y4c{1, 0, 1, 0};  // PAV pools every row: one block of 1/2
+  CHECK_FALSE(plumb::fit_map("isotonic", FitData{s4, y4c, {}, Scale::probability}, {})->reaches_zero_or_one());
+}
+
+TEST_CASE("kind_with_article: an isotonic, a platt", "[maps]") {
+  CHECK(plumb::kind_with_article("isotonic") == "an isotonic");
+  CHECK(plumb::kind_with_article("histogram") == "a histogram");
+  CHECK(plumb::kind_with_article("platt") == "a platt");
+  CHECK(plumb::kind_with_article("beta") == "a beta");
+  CHECK(plumb::kind_with_article("temperature") == "a temperature");
+}

@@ -29,6 +29,8 @@ class FoldAverageMap final : public CalibrationMap {
   Mapped map(double score) const noexcept override;
   nlohmann::json parameters() const override;
   bool monotone() const noexcept override;
+  // When every fold map decreases as a whole.
+  bool decreases_overall() const noexcept override;
 
   const std::vector<std::unique_ptr<CalibrationMap>>& maps() const noexcept { return maps_; }
 

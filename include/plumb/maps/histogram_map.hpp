@@ -36,6 +36,13 @@ class HistogramMap final : public CalibrationMap {
   Mapped map(double score) const noexcept override;
   nlohmann::json parameters() const override;
   bool monotone() const noexcept override { return monotone_; }
+  // Bin frequencies fall by noise between neighbouring bins; the map as a
+  // whole decreases only when the weighted rank correlation of score and
+  // frequency is negative: sum over bins of w_b (R_b - W/2)(v_b - v_mean) < 0,
+  // with R_b the mid-rank of the bin's rows (the weight before it plus half
+  // its own), W the total weight and v_mean the weighted mean frequency.
+  bool decreases_overall() const noexcept override { return decreases_; }
+  bool reaches_zero_or_one() const noexcept override { return certain_; }
 
   const std::vector<HistogramBin>& bins() const noexcept { return bins_; }
 
@@ -44,6 +51,8 @@ class HistogramMap final : public CalibrationMap {
   std::vector<HistogramBin> bins_;
   std::vector<double> upper_;  // decision boundary to the right of each bin but the last
   bool monotone_ = true;
+  bool decreases_ = false;
+  bool certain_ = false;
 };
 
 }  // namespace plumb

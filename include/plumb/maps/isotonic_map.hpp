@@ -29,6 +29,7 @@ class IsotonicMap final : public CalibrationMap {
   Mapped map(double score) const noexcept override;
   nlohmann::json parameters() const override;
   bool monotone() const noexcept override { return true; }
+  bool reaches_zero_or_one() const noexcept override;
 
   const std::vector<PavBlock>& blocks() const noexcept { return blocks_; }
 

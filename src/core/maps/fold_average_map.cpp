@@ -37,6 +37,12 @@ bool FoldAverageMap::monotone() const noexcept {
   return true;
 }
 
+bool FoldAverageMap::decreases_overall() const noexcept {
+  for (const auto& m : maps_)
+    if (!m->decreases_overall()) return false;
+  return !maps_.empty();
+}
+
 std::unique_ptr<CalibrationMap> FoldAverageMap::from_parameters(Scale scale, const nlohmann::json& p,
                                                                 const std::string& where) {
   namespace jf = json_fields;

@@ -18,6 +18,21 @@ HistogramMap::HistogramMap(Scale scale, std::vector<HistogramBin> bins) : scale_
     upper_.push_back(mid);
     if (bins_[i + 1].value < bins_[i].value) monotone_ = false;
   }
+  double total = 0.0, positive = 0.0;
+  for (const HistogramBin& b : bins_) {
+    total += b.weight;
+    positive += b.weight * b.value;
+    if (b.value == 0.0 || b.value == 1.0) certain_ = true;
+  }
+  if (!monotone_ && total > 0.0) {
+    const double mean = positive / total;
+    double before = 0.0, covariance = 0.0;
+    for (const HistogramBin& b : bins_) {
+      covariance += b.weight * (before + 0.5 * b.weight - 0.5 * total) * (b.value - mean);
+      before += b.weight;
+    }
+    decreases_ = covariance < 0.0;
+  }
 }
 
 std::unique_ptr<CalibrationMap> HistogramMap::fit(const FitData& data, const MapOptions& options) {

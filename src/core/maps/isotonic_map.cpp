@@ -67,6 +67,12 @@ std::unique_ptr<CalibrationMap> IsotonicMap::fit(const FitData& data, const MapO
   return map;
 }
 
+bool IsotonicMap::reaches_zero_or_one() const noexcept {
+  for (const PavBlock& b : blocks_)
+    if (b.value == 0.0 || b.value == 1.0) return true;
+  return false;
+}
+
 Mapped IsotonicMap::map(double score) const noexcept {
   if (score < blocks_.front().score_lo) return {blocks_.front().value, true, false};
   if (score > blocks_.back().score_hi) return {blocks_.back().value, true, false};
