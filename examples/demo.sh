@@ -9,10 +9,13 @@ root=$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)
 source "$root/cmake/setup.sh"
 plumb_setup build "$root/build-demo" >/dev/null
 
-plumb="$root/build-demo/plumb"
-out="$root/build-demo/demo"
-mkdir -p "$out"
+# From the repository root with relative paths: the commands shown, and the
+# file names written into the report, the chart's title and the maps, are
+# the same on every machine.
 cd "$root"
+plumb=build-demo/plumb
+out=build-demo/demo
+mkdir -p "$out"
 
 say() { printf '\n$ %s\n' "$*"; "$@"; }
 

@@ -83,8 +83,18 @@ struct SegmentSummary {
   bool flagged = false;     // p_adjusted < segment_alpha
 };
 
+// Where a column mapped on the fly came from (plumb report --map): the
+// source column, the map file as named and the map's kind. Set by the
+// caller after build_report; the renderers name the column from it.
+struct MapOrigin {
+  std::string column;  // the score column the map was applied to
+  std::string file;    // the map file as given
+  std::string kind;    // "isotonic", "platt", ...
+};
+
 struct ScoreReport {
   ScoreSummary overall;
+  std::optional<MapOrigin> map;  // absent for a column reported as read
   // Sorted by how far off each segment is: |calibration_in_the_large|
   // descending; too-few segments last, by value. Empty without --by.
   std::vector<SegmentSummary> segments;

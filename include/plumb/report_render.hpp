@@ -17,22 +17,26 @@ struct TextStyle {
 
 // The terminal report: per score column the headline metrics with their
 // intervals, the reliability table and a reliability chart; segments; gates;
-// cautions. Every line fits style.width columns.
+// cautions. Every line fits style.width columns. Sections open with a title
+// after a left bar ("\u258c title"; "[title]" in ASCII). A segment table shows
+// at most 20 rows (every flagged segment, then the largest by weight) and
+// says how many it left out. Figures carry the names of src/io/report_names.hpp.
 std::string render_text(const Report& report, const TextStyle& style);
 
-// Every number of the report (docs/report-format.md, docs/report.schema.json).
-// Non-finite numbers are written as null.
+// Every number of the report (docs/report-format.md, docs/report.schema.json),
+// every segment included. Non-finite numbers are written as null.
 nlohmann::json report_to_json(const Report& report);
 
 // A standalone SVG document: one reliability diagram per score column
 // (forecast probability against observed frequency: the diagonal, the
-// consistency band, the PAV curve, bin points with Wilson intervals) with a
+// consistency band, the PAV (CORP) curve, bin points with Wilson intervals) with a
 // histogram of the forecasts beneath. Well-formed XML, no scripts, prints
 // on one page per few columns.
 std::string render_svg(const Report& report);
 
 // A Markdown document to paste into a review: headline tables, reliability
-// tables, segments, gates, cautions.
+// tables, segments (capped as in the text), gates, cautions. Numbers follow
+// the text report's formats, one per column.
 std::string render_markdown(const Report& report);
 
 }  // namespace plumb

@@ -294,6 +294,9 @@ int run_report(const ReportCliOptions& o) {
   report.segment_column = rows.segment_column;
   if (o.tally.empty() && parse_missing(o.input.missing) == io::MissingPolicy::skip) report.rows_skipped = rows.skipped;
   report.cautions.insert(report.cautions.end(), extra_cautions.begin(), extra_cautions.end());
+  for (std::size_t m = 0; m < artifacts.size(); ++m)
+    report.scores[o.scores.size() + m].map =
+        MapOrigin{rows.score_columns[o.scores.size() + m], o.maps[m], std::string(artifacts[m].map->kind())};
 
   // Files first, each whole or not at all; then the terminal report.
   if (!o.json_path.empty()) write_file(o.json_path, report_to_json(report).dump(2) + "\n");

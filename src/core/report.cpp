@@ -213,13 +213,33 @@ void add_cautions(Report& r) {
     if (static_cast<double>(s.at_zero_or_one) > extreme_share * static_cast<double>(s.rows))
       r.cautions.push_back(s.name + ": " + std::to_string(s.at_zero_or_one) + " forecasts are exactly 0 or 1; the log "
                            "loss counts each confident miss as about 27.6 nats (clipped at 1e-12)");
-    for (const SegmentSummary& g : sr.segments)
-      if (g.flagged)
-        r.cautions.push_back(s.name + ": segment '" + g.value + "' is miscalibrated: mean forecast " +
-                             format_fixed(g.mean_forecast) + " against observed " + format_fixed(g.observed_rate) +
-                             " (Spiegelhalter Z " + format_fixed(g.spiegelhalter.z, 2) + ", Holm-adjusted p " +
-                             (g.p_adjusted > 0.0 ? format_g(g.p_adjusted, 2) : std::string("< 1e-300")) + ")");
   }
+  // One caution per flagged segment value, naming every column it is
+  // flagged on, in the order the segments are first found.
+  std::vector<std::string> values;
+  std::vector<std::string> observed;
+  std::vector<std::string> details;
+  for (const ScoreReport& sr : r.scores)
+    for (const SegmentSummary& g : sr.segments) {
+      if (!g.flagged) continue;
+      // The observed rate is the segment's own (the same rows and labels
+      // for every column), so it is said once.
+      const std::string detail =
+          sr.overall.name + " (mean forecast " + format_fixed(g.mean_forecast) + ", Spiegelhalter Z " +
+          format_fixed(g.spiegelhalter.z, 2) + ", Holm-adjusted p " +
+          (g.p_adjusted > 0.0 ? format_g(g.p_adjusted, 2) : std::string("< 1e-300")) + ")";
+      const auto at = std::find(values.begin(), values.end(), g.value);
+      if (at == values.end()) {
+        values.push_back(g.value);
+        observed.push_back(format_fixed(g.observed_rate));
+        details.push_back(detail);
+      } else {
+        details[static_cast<std::size_t>(at - values.begin())] += "; " + detail;
+      }
+    }
+  for (std::size_t i = 0; i < values.size(); ++i)
+    r.cautions.push_back("segment '" + values[i] + "' (observed rate " + observed[i] + ") is miscalibrated in " +
+                         details[i]);
 }
 
 }  // namespace

@@ -11,7 +11,9 @@ namespace {
 
 using nlohmann::json;
 
-constexpr int report_format_version = 1;
+// 2: scores[i].column is the source column and the map has its own member
+// (`map`), the display name moved to `name` (docs/report-format.md).
+constexpr int report_format_version = 2;
 
 json num(double v) { return std::isfinite(v) ? json(v) : json(nullptr); }
 
@@ -145,7 +147,9 @@ json report_to_json(const Report& r) {
     json segments = json::array();
     for (const SegmentSummary& g : sr.segments) segments.push_back(segment_json(g));
     json entry = summary_json(sr.overall);
-    entry["column"] = sr.overall.name;
+    entry["name"] = sr.overall.name;
+    entry["column"] = sr.map ? sr.map->column : sr.overall.name;
+    entry["map"] = sr.map ? json{{"file", sr.map->file}, {"kind", sr.map->kind}} : json(nullptr);
     entry["segments"] = segments;
     scores.push_back(std::move(entry));
   }

@@ -17,6 +17,7 @@
 #include <vector>
 
 #include "plumb/report_render.hpp"
+#include "report_names.hpp"
 
 namespace plumb {
 namespace {
@@ -34,11 +35,16 @@ std::string to_chars_or_na(double x, std::chars_format format, int precision) {
   return s;
 }
 
-// Four significant digits: enough to compare two runs, few enough to read.
-// (std::to_chars ignores the C locale, so the decimal point is always '.'.)
-std::string num(double x) { return to_chars_or_na(x, std::chars_format::general, 4); }
+// Scores, calibration errors and interval ends: the text report's metric
+// format (report_names.hpp), so a column has one format and the two
+// documents print the same digits.
+std::string num(double x) { return report_names::metric_text(x); }
+// Test statistics (Z, Hosmer-Lemeshow): 2 decimals.
+std::string stat(double x) { return report_names::stat_text(x); }
+// Other quantities (effective sizes, levels): significant digits.
+std::string general(double x, int digits) { return to_chars_or_na(x, std::chars_format::general, digits); }
 // Gate limits and values: six significant digits, to tell a value from a limit it is close to.
-std::string gate_num(double x) { return to_chars_or_na(x, std::chars_format::general, 6); }
+std::string gate_num(double x) { return general(x, 6); }
 // Probabilities and frequencies in tables: fixed, so the column lines up.
 std::string prob(double x) { return to_chars_or_na(x, std::chars_format::fixed, 4); }
 std::string signed_prob(double x) {
@@ -46,13 +52,8 @@ std::string signed_prob(double x) {
   if (finite(x) && x > 0 && s.find_first_not_of("0.") != std::string::npos) s.insert(0, "+");
   return s;
 }
-// p-values: three significant digits, and tiny ones as a bound rather than
-// a spuriously precise number.
-std::string p_value(double p) {
-  if (!finite(p)) return "n/a";
-  if (p < 1e-4) return "< 0.0001";
-  return to_chars_or_na(p, std::chars_format::general, 3);
-}
+// p-values: the text report's rule (fixed above a floor, scientific below).
+std::string p_value(double p) { return report_names::p_value_text(p); }
 // Weights: whole numbers as such (the unweighted case), others with 6 digits.
 std::string weight_text(double w) {
   if (finite(w) && w == std::floor(w) && std::fabs(w) < 1e15) return to_chars_or_na(w, std::chars_format::fixed, 0);
@@ -117,7 +118,9 @@ std::string interval_text(const BootstrapInterval& i) {
   return num(i.lo) + " to " + num(i.hi);
 }
 
-std::string binning_name(BinningKind kind) { return kind == BinningKind::equal_mass ? "equal mass" : "equal width"; }
+std::string binning_name(BinningKind kind) {
+  return std::string(kind == BinningKind::equal_mass ? report_names::equal_mass.display : report_names::equal_width.display);
+}
 
 void headline(std::string& out, const Report& report, const ScoreSummary& s) {
   const bool boot = s.bootstrap.has_value();
@@ -156,18 +159,21 @@ void headline(std::string& out, const Report& report, const ScoreSummary& s) {
     add("debiased l2 error, " + binning_name(e->binning), num(e->l2_debiased),
         b && matches ? &b->l2_debiased : nullptr);
   }
-  add("calibration in the large (mean forecast - observed)", signed_prob(s.calibration_in_the_large));
+  namespace rn = report_names;
+  add(std::string(rn::calibration_in_the_large.display) + " (mean forecast - observed)",
+      signed_prob(s.calibration_in_the_large));
   const std::string caveat = s.regression.converged ? "" : " (fit did not converge)";
-  add("calibration slope" + caveat, num(s.regression.slope));
-  add("intercept, slope free" + caveat, num(s.regression.intercept_free));
-  add("intercept, slope fixed at 1" + caveat, num(s.regression.intercept_at_unit_slope));
+  add(std::string(rn::calibration_slope.display) + caveat, rn::fixed_text(s.regression.slope, 4));
+  add(std::string(rn::intercept_slope_free.display) + caveat, signed_prob(s.regression.intercept_free));
+  add(std::string(rn::calibration_intercept.display) + " (slope fixed at 1)" + caveat,
+      signed_prob(s.regression.intercept_at_unit_slope));
   const HosmerLemeshow& hl = s.hosmer_lemeshow;
   add("Hosmer-Lemeshow statistic (" + std::to_string(hl.used_groups) + " of " + std::to_string(hl.groups_requested) +
           " groups)",
-      num(hl.statistic));
-  add("Hosmer-Lemeshow df", num(hl.df));
+      stat(hl.statistic));
+  add("Hosmer-Lemeshow df", rn::fixed_text(hl.df, 0));
   add("Hosmer-Lemeshow p-value", p_value(hl.p_value));
-  add("Spiegelhalter Z", num(s.spiegelhalter.z));
+  add("Spiegelhalter Z", stat(s.spiegelhalter.z));
   add("Spiegelhalter p-value", p_value(s.spiegelhalter.p_value));
   add("AUC", num(s.auc), b ? &b->auc : nullptr);
   if (s.at_zero_or_one > 0) add("forecasts exactly 0 or 1", std::to_string(s.at_zero_or_one));
@@ -191,7 +197,7 @@ void reliability(std::string& out, const Report& report, const ScoreSummary& s) 
     const std::string range =
         finite(bin.edge_lo) && finite(bin.edge_hi) ? prob(bin.edge_lo) + " to " + prob(bin.edge_hi) : "empty";
     std::vector<std::string> cells{std::to_string(b + 1), range, std::to_string(bin.rows)};
-    if (weighted) cells.insert(cells.end(), {weight_text(bin.weight), num(bin.effective_size)});
+    if (weighted) cells.insert(cells.end(), {weight_text(bin.weight), general(bin.effective_size, 4)});
     const bool has = bin.weight > 0;
     cells.push_back(has ? prob(bin.mean_forecast) : "n/a");
     cells.push_back(has ? prob(bin.observed) : "n/a");
@@ -215,12 +221,16 @@ void segments(std::string& out, const Report& report, const ScoreReport& r) {
   out +=
       "Sorted by |calibration in the large|. A segment is flagged when its Spiegelhalter p-value, Holm-adjusted "
       "over the segments, is below " +
-      num(report.options.segment_alpha) + "; segments under " + weight_text(report.options.min_segment_weight) +
+      general(report.options.segment_alpha, 4) + "; segments under " + weight_text(report.options.min_segment_weight) +
       " weight have too few rows for figures.\n\n";
+  const std::vector<bool> shown = report_names::segments_shown(r.segments);
+  const auto left_out = static_cast<std::size_t>(std::count(shown.begin(), shown.end(), false));
   Table t({"segment", "rows", "weight", "positives", "mean forecast", "observed", "calibration in the large", "ECE",
            "Brier", "log loss", "Spiegelhalter Z", "Holm p", "flag"},
           {false, true, true, true, true, true, true, true, true, true, true, true, false});
-  for (const SegmentSummary& g : r.segments) {
+  for (std::size_t i = 0; i < r.segments.size(); ++i) {
+    if (!shown[i]) continue;
+    const SegmentSummary& g = r.segments[i];
     std::vector<std::string> cells{md(g.value), std::to_string(g.rows), weight_text(g.weight),
                                    weight_text(g.positives)};
     if (g.too_few) {
@@ -229,12 +239,15 @@ void segments(std::string& out, const Report& report, const ScoreReport& r) {
       cells.push_back("too few rows");
     } else {
       cells.insert(cells.end(), {prob(g.mean_forecast), prob(g.observed_rate), signed_prob(g.calibration_in_the_large),
-                                 num(g.ece), num(g.brier), num(g.log_loss), num(g.spiegelhalter.z),
+                                 num(g.ece), num(g.brier), num(g.log_loss), stat(g.spiegelhalter.z),
                                  p_value(g.p_adjusted), g.flagged ? "**flagged**" : "no"});
     }
     t.row(std::move(cells));
   }
   t.write(out);
+  if (left_out > 0)
+    out += std::to_string(left_out) + " smaller segment" + (left_out == 1 ? "" : "s") +
+           " not shown (none flagged; every segment is in the JSON report).\n\n";
 }
 
 void gates(std::string& out, const Report& report) {

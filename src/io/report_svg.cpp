@@ -20,6 +20,7 @@
 #include <vector>
 
 #include "plumb/report_render.hpp"
+#include "report_names.hpp"
 
 namespace plumb {
 namespace {
@@ -39,9 +40,13 @@ constexpr double kTitleHeight = 58.0;  // document title and source line, above 
 constexpr std::size_t kPerRow = 2;
 constexpr std::size_t kMaxTitleChars = 64;  // longer names are cut with an ellipsis
 
-// Palette: a dark slate for data points, a burnt orange for the isotonic
+// Palette: a dark slate for data points, a burnt orange for the PAV (CORP)
 // curve, a pale violet band and warm greys. Every series also differs in
 // line weight or dash pattern so the chart reads in greyscale.
+// Fonts: common system sans faces in an order of our own, ending in the
+// generic family so every viewer has one.
+constexpr std::string_view kFontStack = "Noto Sans, Liberation Sans, Helvetica, Arial, sans-serif";
+
 constexpr std::string_view kInk = "#222222";
 constexpr std::string_view kGrid = "#e4e4e0";
 constexpr std::string_view kDiagonal = "#7a7a7a";
@@ -365,11 +370,11 @@ double draw_legend(Svg& svg, const Report& report, double left, double y, double
     switch (e.kind) {
       case 0:
         svg.line(x, y, x + 26, y, kDiagonal, 1.2, "6 4");
-        svg.text(x + 32, y + 4, "perfect calibration", 11.0);
+        svg.text(x + 32, y + 4, report_names::diagonal.display, 11.0);
         break;
       case 1:
         svg.line(x, y, x + 26, y, kCurve, 2.2);
-        svg.text(x + 32, y + 4, "isotonic (PAV) fit", 11.0);
+        svg.text(x + 32, y + 4, report_names::pav_curve.display, 11.0);
         break;
       case 2:
         svg.line(x + 8, y - 8, x + 8, y + 8, kPoint, 1.2);
@@ -379,7 +384,7 @@ double draw_legend(Svg& svg, const Report& report, double left, double y, double
         break;
       default:
         svg.rect(x + 2, y - 8, 12, 16, kBandFill, kBandEdge, 0.8, {}, "3 2");
-        svg.text(x + 20, y + 4, level + " band if calibrated", 11.0);
+        svg.text(x + 20, y + 4, level + " " + std::string(report_names::consistency_band.display), 11.0);
     }
     x += e.width;
   }
@@ -426,7 +431,7 @@ std::string render_svg(const Report& report) {
   doc += "<?xml version=\"1.0\" encoding=\"UTF-8\" standalone=\"no\"?>\n";
   doc += "<svg xmlns=\"http://www.w3.org/2000/svg\" version=\"1.1\" width=\"" + coord(width) + "\" height=\"" +
          coord(height) + "\" viewBox=\"0 0 " + coord(width) + " " + coord(height) +
-         "\" font-family=\"DejaVu Sans, Helvetica, Arial, sans-serif\">\n";
+         "\" font-family=\"" + std::string(kFontStack) + "\">\n";
   doc += "<title>Reliability diagrams: " + xml_escape(report.source) + "</title>\n";
   doc += "<rect x=\"0\" y=\"0\" width=\"" + coord(width) + "\" height=\"" + coord(height) + "\" fill=\"#ffffff\"/>\n";
   doc += svg.out;

@@ -18,6 +18,7 @@
 #include <vector>
 
 #include "plumb/report_render.hpp"
+#include "report_names.hpp"
 
 namespace plumb {
 namespace {
@@ -117,12 +118,6 @@ std::string pad(std::string_view s, std::size_t width, bool right_align) {
   return right_align ? fill + std::string(s) : std::string(s) + fill;
 }
 
-std::string repeat(std::string_view unit, std::size_t count) {
-  std::string out;
-  for (std::size_t i = 0; i < count; ++i) out += unit;
-  return out;
-}
-
 // ---------------------------------------------------------------------------
 // Numbers. Probabilities, scores and calibration errors get 4 decimals (the
 // figures people compare across runs line up); test statistics 2 decimals;
@@ -156,26 +151,14 @@ std::string signed_fixed(double x, int decimals) {
   return s;
 }
 
-// Small but non-zero values keep three significant digits instead of
-// collapsing to 0.0000 (an ECE of 3e-5 is not an ECE of 0).
-std::string metric(double x) {
-  if (!std::isfinite(x)) return "n/a";
-  if (x != 0.0 && std::fabs(x) < 1e-3) return printf_double("%.*e", 2, x);
-  return fixed(x, 4);
-}
-
-std::string stat(double x) { return fixed(x, 2); }
+// The shared formats (report_names.hpp): one per kind of figure.
+std::string metric(double x) { return report_names::metric_text(x); }
+std::string stat(double x) { return report_names::stat_text(x); }
+std::string p_value(double p) { return report_names::p_value_text(p); }
 
 // Gate values and limits: six significant digits, enough to tell a value
 // from a limit it is close to.
 std::string gate_number(double x) { return std::isfinite(x) ? printf_double("%.*g", 6, x) : "n/a"; }
-
-std::string p_value(double p) {
-  if (!std::isfinite(p)) return "n/a";
-  if (p >= 1e-4) return fixed(p, 4);
-  if (p > 0.0) return printf_double("%.*e", 1, p);
-  return "<1e-300";  // underflowed: smaller than any double we could print
-}
 
 std::string count(std::uint64_t n) { return std::to_string(n); }
 
@@ -205,15 +188,11 @@ class Document {
     if (!lines_.empty() && !lines_.back().empty()) lines_.emplace_back();
   }
 
-  // A section title followed by a rule to the right edge (at most 78
-  // columns: a rule across a 200-column terminal reads as noise).
+  // A section title: a blank line, then a heavy left bar and the title in
+  // bold ("[title]" in ASCII). Nothing runs to the right edge.
   void heading(std::string_view title) {
     blank();
-    const std::string lead = repeat(p_.rule(), 2) + " ";
-    std::string text = lead + std::string(title) + " ";
-    const std::size_t target = std::min<std::size_t>(p_.width, 78);
-    const std::size_t used = visible_width(text);
-    if (used < target) text += repeat(p_.rule(), target - used);
+    const std::string text = p_.unicode ? "\u258c " + std::string(title) : "[" + std::string(title) + "]";
     line(p_.paint(clip(text, p_.width, p_), Tone::bold));
   }
 
@@ -406,7 +385,7 @@ std::vector<Headline> headline_rows(const Report& report) {
 
   add("observed rate", [](const ScoreSummary& s) { return prob(s.observed_rate); });
   add("mean forecast", [](const ScoreSummary& s) { return prob(s.mean_forecast); });
-  add("calib. in the large",
+  add(std::string(report_names::calibration_in_the_large.display),
       [](const ScoreSummary& s) { return signed_fixed(s.calibration_in_the_large, 4); });
   add("Brier score",
       [&](const ScoreSummary& s) { return boot(s, &BootstrapResult::brier, metric(s.brier)); });
@@ -431,10 +410,11 @@ std::vector<Headline> headline_rows(const Report& report) {
   add("l2 debiased | plug-in", [](const ScoreSummary& s) {
     return metric(s.ece_equal_width.l2_debiased) + " | " + metric(s.ece_equal_width.l2_plugin);
   });
-  add("Cox slope", [](const ScoreSummary& s) { return fixed(s.regression.slope, 4); });
-  add("  intercept, free",
+  add(std::string(report_names::calibration_slope.display),
+      [](const ScoreSummary& s) { return fixed(s.regression.slope, 4); });
+  add("  " + std::string(report_names::intercept_slope_free.display),
       [](const ScoreSummary& s) { return signed_fixed(s.regression.intercept_free, 4); });
-  add("  intercept, slope 1", [](const ScoreSummary& s) {
+  add(std::string(report_names::calibration_intercept.display), [](const ScoreSummary& s) {
     return signed_fixed(s.regression.intercept_at_unit_slope, 4);
   });
   add("H-L, " + std::to_string(hl_groups) + " groups", [](const ScoreSummary& s) {
@@ -469,6 +449,10 @@ void render_headlines(Document& doc, const Painter& p, const Report& report) {
   for (const Headline& h : rows) label_width = std::max(label_width, visible_width(h.label));
   constexpr std::size_t indent = 2;
   constexpr std::size_t gap = 2;
+  // One space after the labels: every label but the longest ("calibration
+  // in the large") leaves more, and it keeps three columns with intervals
+  // inside 100 columns.
+  constexpr std::size_t label_gap = 1;
 
   std::vector<std::size_t> cell_width(scores.size(), 0);
   for (const Headline& h : rows)
@@ -481,7 +465,7 @@ void render_headlines(Document& doc, const Painter& p, const Report& report) {
     const std::size_t w = std::max<std::size_t>(cell_width[i], 8);
     names.push_back(clip(scores[i].overall.name, w, p));
     cell_width[i] = std::max(cell_width[i], visible_width(names.back()));
-    total += gap + cell_width[i];
+    total += (i == 0 ? label_gap : gap) + cell_width[i];
   }
   const bool side_by_side = scores.size() > 1 && scores.size() <= 3 && total <= p.width;
 
@@ -491,21 +475,24 @@ void render_headlines(Document& doc, const Painter& p, const Report& report) {
   if (side_by_side) {
     std::string header = std::string(indent + label_width, ' ');
     for (std::size_t i = 0; i < scores.size(); ++i)
-      header += std::string(gap, ' ') + pad(p.paint(names[i], Tone::bold), cell_width[i], false);
+      header += std::string(i == 0 ? label_gap : gap, ' ') +
+                pad(p.paint(names[i], Tone::bold), cell_width[i], false);
     while (!header.empty() && header.back() == ' ') header.pop_back();
     doc.line(header);
     for (const Headline& h : rows) {
       std::string l = label_cell(h.label);
       for (std::size_t i = 0; i < scores.size(); ++i)
-        l += std::string(gap, ' ') + pad(h.cells[i], cell_width[i], false);
+        l += std::string(i == 0 ? label_gap : gap, ' ') + pad(h.cells[i], cell_width[i], false);
       while (!l.empty() && l.back() == ' ') l.pop_back();
       doc.line(l);
     }
   } else {
     for (std::size_t i = 0; i < scores.size(); ++i) {
       if (i > 0) doc.blank();
-      doc.line(p.paint(scores[i].overall.name, Tone::bold));
-      for (const Headline& h : rows) doc.line(label_cell(h.label) + "  " + h.cells[i]);
+      // The name stands over the figures, where the values begin.
+      doc.line(std::string(indent + label_width + label_gap, ' ') +
+               p.paint(scores[i].overall.name, Tone::bold));
+      for (const Headline& h : rows) doc.line(label_cell(h.label) + std::string(label_gap, ' ') + h.cells[i]);
     }
   }
 
@@ -513,7 +500,8 @@ void render_headlines(Document& doc, const Painter& p, const Report& report) {
   for (const ScoreReport& s : scores) {
     const ScoreSummary& o = s.overall;
     if (!o.regression.converged)
-      doc.wrap(o.name + ": the Cox fit did not converge; slope and intercepts are not meaningful",
+      doc.wrap(o.name + ": the " + std::string(report_names::calibration_slope.display) +
+                   " fit did not converge; slope and intercepts are not meaningful",
                "  ", "    ");
     if (o.hosmer_lemeshow.degenerate_groups > 0)
       doc.wrap(o.name + ": Hosmer-Lemeshow left out " +
@@ -870,9 +858,9 @@ void render_chart(Document& doc, const Painter& p, const Report& report, const S
                      percent_level(report.options.confidence) +
                      " range of a calibrated forecaster");
   }
-  legend.push_back(p.unicode ? "dotted: diagonal" : ". diagonal");
+  legend.push_back((p.unicode ? "dotted: " : ". ") + std::string(report_names::diagonal.display));
   if (!s.pav_curve.empty())
-    legend.push_back(p.unicode ? "solid: PAV (CORP) curve" : "- PAV (CORP) curve");
+    legend.push_back((p.unicode ? "solid: " : "- ") + std::string(report_names::pav_curve.display));
   if (!s.histogram.empty())
     legend.push_back(p.unicode ? "bars under the axis: forecast histogram"
                                : "strip under the axis: forecast histogram");
@@ -897,10 +885,17 @@ void render_segments(Document& doc, const Painter& p, const Report& report,
   std::vector<Column> columns = {
       {by, false, 0, 6},         {"rows", true, 0, 0}, {"forecast", true, 0, 0},
       {"observed", true, 0, 0},  {"gap", true, 0, 0},  {"ECE", true, 1, 0},
-      {"Z", true, 2, 0},         {"p Holm", true, 0, 0},
+      {"Z", true, 2, 0},         {"Holm p", true, 0, 0},
   };
+  const std::vector<bool> shown = report_names::segments_shown(score.segments);
+  std::size_t left_out = 0;
   std::vector<Row> rows;
-  for (const SegmentSummary& seg : score.segments) {
+  for (std::size_t i = 0; i < score.segments.size(); ++i) {
+    const SegmentSummary& seg = score.segments[i];
+    if (!shown[i]) {
+      ++left_out;
+      continue;
+    }
     Row r;
     r.cells = {seg.value, count(seg.rows)};
     if (seg.too_few) {
@@ -922,6 +917,10 @@ void render_segments(Document& doc, const Painter& p, const Report& report,
     rows.push_back(std::move(r));
   }
   render_table(doc, p, std::move(columns), std::move(rows));
+  if (left_out > 0)
+    doc.wrap(std::to_string(left_out) + " smaller segment" + (left_out == 1 ? "" : "s") +
+                 " not shown (none flagged; every segment is in --json)",
+             "  ", "  ");
 }
 
 // ---------------------------------------------------------------------------

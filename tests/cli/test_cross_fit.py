@@ -94,7 +94,9 @@ class CrossFit(PlumbCase):
         self.assertEqual(rc, 0, err)
         with open(self.path("r.json")) as f:
             rep = json.load(f)
-        self.assertEqual(rep["scores"][1]["column"], "risk via cf.map.json")
+        self.assertEqual(rep["scores"][1]["name"], "risk via cf.map.json")
+        self.assertEqual(rep["scores"][1]["column"], "risk")
+        self.assertEqual(rep["scores"][1]["map"]["kind"], "fold_average")  # the artifact's kind, as inspect says
         mean_averaged = sum(averaged) / len(averaged)
         self.assertAlmostEqual(rep["scores"][1]["mean_forecast"], mean_averaged, delta=1e-12)
 

@@ -66,7 +66,8 @@ class Report(PlumbCase):
         self.assertEqual(s["segments"][-1]["value"], "tiny")
         self.assertTrue(s["segments"][-1]["too_few_rows"])
         self.assertNotIn("ece", s["segments"][-1])
-        self.assertTrue(any("segment 'c' is miscalibrated" in c for c in doc["cautions"]))
+        self.assertTrue(any(c.startswith("segment 'c' (observed rate ") and " is miscalibrated in risk (" in c
+                            for c in doc["cautions"]), doc["cautions"])
         self.assertLessEqual(s["bootstrap"]["ece"]["lo"], s["bootstrap"]["ece"]["hi"])
 
     def test_bootstrap_same_seed_same_intervals(self):
@@ -121,7 +122,14 @@ class Report(PlumbCase):
         self.assertEqual(rc, 0, err)
         with open(self.path("r2.json")) as f:
             first = json.load(f)
-        self.assertEqual(on_the_fly["scores"][1]["column"], "risk via late.map.json")
+        # Format 2: the source column, the map in its own member, and the
+        # display name the text and the gates use.
+        self.assertEqual(on_the_fly["format_version"], 2)
+        self.assertEqual(on_the_fly["scores"][1]["column"], "risk")
+        self.assertEqual(on_the_fly["scores"][1]["map"], {"file": art, "kind": "platt"})
+        self.assertEqual(on_the_fly["scores"][1]["name"], "risk via late.map.json")
+        self.assertEqual(on_the_fly["scores"][0]["column"], "risk")
+        self.assertIsNone(on_the_fly["scores"][0]["map"])
         for key in ("brier", "log_loss", "auc"):
             self.assertAlmostEqual(on_the_fly["scores"][1][key], first["scores"][1][key], delta=1e-15)
         # Recalibration kept the ranking (Platt is strictly increasing here).
@@ -179,6 +187,58 @@ class Report(PlumbCase):
                 self.assertLessEqual(len(line), 80, line)
             if extra:
                 self.assertTrue(out.isascii())
+
+    def test_no_line_of_the_text_is_a_title_between_rules(self):
+        # Our section titles are "\u258c title" (Unicode) or "[title]" (ASCII),
+        # never a title between two runs of box dashes or hyphens.
+        import re
+        old_rule = re.compile(r"^\s*(\u2500\u2500|--) .*\S (\u2500|-){3,}\s*$")
+        for extra in ((), ("--ascii",)):
+            out, _ = self.report("--score", "risk", "--by", "depot", "--max", "ece=0.5", *extra)
+            for line in out.splitlines():
+                self.assertIsNone(old_rule.match(line), line)
+            titles = [l for l in out.splitlines() if l.startswith("[" if extra else "\u258c ")]
+            self.assertIn("[headline figures]" if extra else "\u258c headline figures", titles)
+            self.assertTrue(any("segments by depot" in t for t in titles), titles)
+
+    def test_many_segments_are_capped_in_text_and_markdown_and_kept_in_json(self):
+        # 300 segments: 'big' and 'off' with enough rows, 'off' far off
+        # (flagged), and 298 one-row segments that have too few rows.
+        g = Lcg(11)
+        lines = ["risk,missed,shop"]
+        for i in range(4000):
+            z = 4.0 * g.uniform() - 2.0
+            shop = "off" if i % 2 else "big"
+            shift = 1.5 if shop == "off" else 0.0
+            lines.append(f"{round(sigmoid(z), 6)},{1 if g.uniform() < sigmoid(z + shift) else 0},{shop}")
+        for i in range(298):
+            lines.append(f"0.5,{i % 2},s{i:03d}")
+        write(self.path("many.csv"), "\n".join(lines) + "\n")
+        md = self.path("many.md")
+        js = self.path("many.json")
+        rc, out, err = run("report", "--label", "missed", "--score", "risk", "--score", "risk", "--by", "shop",
+                           "--bootstrap", "0", "--markdown", md, "--json", js, self.path("many.csv"))
+        self.assertEqual(rc, 0, err)
+        with open(js) as f:
+            doc = json.load(f)
+        self.assertEqual([e.message for e in self.validator.iter_errors(doc)], [])
+        self.assertEqual(len(doc["scores"][0]["segments"]), 300)  # JSON keeps all
+        flagged = [s["value"] for s in doc["scores"][0]["segments"] if s.get("flagged")]
+        self.assertIn("off", flagged)
+        # Text: at most 20 segment rows per column (the default cap), the
+        # flagged one among them, and the count of those left out.
+        too_few = [l for l in out.splitlines() if "too few rows" in l]
+        self.assertLessEqual(len(too_few), 2 * 20)
+        self.assertEqual(out.count("280 smaller segments not shown"), 2)
+        self.assertEqual(sum(1 for l in out.splitlines() if l.lstrip().startswith("! off")), 2)
+        with open(md) as f:
+            text = f.read()
+        self.assertLessEqual(text.count("too few rows"), 2 * 20)
+        self.assertEqual(text.count("280 smaller segments not shown"), 2)
+        # One caution per flagged segment, naming both columns.
+        cautions = [c for c in doc["cautions"] if "segment 'off'" in c]
+        self.assertEqual(len(cautions), 1, doc["cautions"])
+        self.assertEqual(cautions[0].count("risk ("), 2)
 
     def test_refusals(self):
         rc, _, err = run("report", "--label", "missed", self.path("scored.csv"))

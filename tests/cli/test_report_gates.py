@@ -91,7 +91,7 @@ class ReportGates(PlumbCase):
         return doc, err
 
     def columns(self, doc):
-        return {s["column"]: s for s in doc["scores"]}
+        return {s["name"]: s for s in doc["scores"]}
 
     # -- item: --map reads another column with --map-score ------------------
 
@@ -107,17 +107,20 @@ class ReportGates(PlumbCase):
             ref = json.load(f)["scores"][0]
         for spec in ("risk_v2", "3"):  # a name or a 1-based index, as apply's --score
             doc, _ = self.json_report("v2.csv", "--map", self.map, "--map-score", spec)
-            self.assertEqual([s["column"] for s in doc["scores"]], ["risk_v2 via late.map.json"])
+            self.assertEqual([s["name"] for s in doc["scores"]], ["risk_v2 via late.map.json"])
             got = doc["scores"][0]
+            # Report format 2: the column the map read, and the map in its own member.
+            self.assertEqual(got["column"], "risk_v2")
+            self.assertEqual(got["map"]["file"], self.map)
             for key in ("brier", "log_loss", "auc", "mean_forecast"):
                 self.assertAlmostEqual(got[key], ref[key], delta=1e-15, msg=key)
         # The raw column beside it is asked for with --score, as before.
         doc, _ = self.json_report("v2.csv", "--score", "risk_v2", "--map", self.map, "--map-score", "risk_v2")
-        self.assertEqual([s["column"] for s in doc["scores"]], ["risk_v2", "risk_v2 via late.map.json"])
+        self.assertEqual([s["name"] for s in doc["scores"]], ["risk_v2", "risk_v2 via late.map.json"])
 
     def test_existing_map_command_lines_keep_their_meaning(self):
         doc, _ = self.json_report("holdout.csv", "--score", "risk", "--map", self.map)
-        self.assertEqual([s["column"] for s in doc["scores"]], ["risk", "risk via late.map.json"])
+        self.assertEqual([s["name"] for s in doc["scores"]], ["risk", "risk via late.map.json"])
 
     def test_map_score_refusals(self):
         # One per --map, or none.

@@ -497,3 +497,77 @@ TEST_CASE("Markdown prints non-finite numbers as n/a and leaves out absent inter
   CHECK(std::stod(headline["Brier score"]) == Approx(report.scores[0].overall.brier).epsilon(1e-3));
   CHECK_FALSE(std::regex_search(md, non_finite_word()));
 }
+
+TEST_CASE("The SVG legend says forecast = observed and PAV (CORP) curve, in a font stack of our own",
+          "[report_svg]") {
+  const Data d = simulate(3000, 1, 31, false);
+  const std::string svg = plumb::render_svg(build(d, {}, small_options()));
+  // Our words for the diagonal and the curve (the same as the text report's).
+  CHECK(count(svg, ">forecast = observed<") == 1);
+  CHECK(count(svg, ">PAV (CORP) curve<") == 1);
+  CHECK(count(svg, "perfect calibration") == 0);
+  CHECK(count(svg, "isotonic (PAV) fit") == 0);
+  // Generic system faces in our order: not led by DejaVu Sans, ending in
+  // the generic family.
+  std::vector<Element> elements;
+  REQUIRE(check_xml(svg, &elements) == "");
+  const std::string fonts = elements.front().attributes["font-family"];
+  CHECK_FALSE(fonts.starts_with("DejaVu"));
+  CHECK(fonts.ends_with(", sans-serif"));
+}
+
+TEST_CASE("Markdown p-values and figures have one format per column, the text report's", "[report_markdown]") {
+  const Data d = simulate(3000, 1, 13, false);
+  const plumb::Report report = build(d, {}, small_options());
+  const auto all = tables(plumb::render_markdown(report));
+  REQUIRE(all.size() == 3);
+  // p-values: 4 decimals down to 1e-4, then 2 significant digits in
+  // scientific notation (the text report's rule), never "< 0.0001".
+  const std::regex p_format(R"(\d\.\d{4}|\d\.\de-\d+|<1e-300|n/a)");
+  // Scores and calibration errors: 4 decimals, or 3 significant digits in
+  // scientific notation below 1e-3. Z: 2 decimals.
+  const std::regex metric_format(R"(-?\d\.\d{4}|-?\d\.\d{2}e-\d+|n/a)");
+  const std::regex stat_format(R"(-?\d+\.\d{2}|n/a)");
+  for (const auto& row : all[0]) {
+    if (row[0].find("p-value") != std::string::npos) CHECK(std::regex_match(row[1], p_format));
+    if (row[0] == "Brier score" || row[0].starts_with("ECE") || row[0] == "AUC")
+      CHECK(std::regex_match(row[1], metric_format));
+    if (row[0] == "Spiegelhalter Z") CHECK(std::regex_match(row[1], stat_format));
+  }
+  const auto& seg = all[2];
+  const std::vector<std::string>& header = seg[0];
+  const auto col = [&](const std::string& name) {
+    return static_cast<std::size_t>(std::find(header.begin(), header.end(), name) - header.begin());
+  };
+  REQUIRE(col("Holm p") < header.size());
+  std::size_t checked = 0;
+  for (std::size_t k = 2; k < seg.size(); ++k) {
+    if (seg[k][4] == "too few rows") continue;
+    CHECK(std::regex_match(seg[k][col("Holm p")], p_format));
+    CHECK(std::regex_match(seg[k][col("ECE")], metric_format));
+    CHECK(std::regex_match(seg[k][col("Brier")], metric_format));
+    CHECK(std::regex_match(seg[k][col("log loss")], metric_format));
+    CHECK(std::regex_match(seg[k][col("Spiegelhalter Z")], stat_format));
+    ++checked;
+  }
+  CHECK(checked == 2);
+}
+
+TEST_CASE("Markdown and SVG call each concept by the text report's name", "[report_markdown]") {
+  const Data d = simulate(3000, 1, 17, false);
+  const plumb::Report report = build(d, {}, small_options());
+  const std::string md = plumb::render_markdown(report);
+  const std::string text = plumb::render_text(report, {true, false, 100});
+  for (const char* name : {"calibration slope", "calibration intercept", "intercept, slope free",
+                                 "calibration in the large"}) {
+    CHECK(count(md, name) >= 1);
+    CHECK(count(text, name) >= 1);
+  }
+  for (const std::string& doc : {md, text, plumb::render_svg(report)}) {
+    CHECK(count(doc, "Cox slope") == 0);
+    CHECK(count(doc, "calib. in the large") == 0);
+    CHECK(count(doc, "p Holm") == 0);
+  }
+  CHECK(count(md, "equal-width") >= 1);
+  CHECK(count(md, "equal width") == 0);
+}

@@ -11,6 +11,7 @@
 #include <cstdlib>
 #include <random>
 #include <sstream>
+#include <regex>
 #include <string>
 #include <vector>
 
@@ -128,7 +129,8 @@ std::string section(const std::string& text, const std::string& title) {
   std::string out;
   bool inside = false;
   for (const std::string& l : lines_of(text)) {
-    const bool heading = l.rfind("--", 0) == 0 || l.rfind("\u2500\u2500", 0) == 0;
+    // Section titles: "\u258c title" in Unicode, "[title]" in ASCII.
+    const bool heading = l.rfind("[", 0) == 0 || l.rfind("\u258c ", 0) == 0;
     if (heading) inside = l.find(title) != std::string::npos;
     if (inside) out += l + "\n";
   }
@@ -348,7 +350,7 @@ TEST_CASE("headline numbers are the report's values to the printed precision", "
     REQUIRE(z.size() == 4);
     CHECK(std::fabs(z[0] - raw.spiegelhalter.z) <= 5e-3);
 
-    const std::string slope_line = line_starting(text, "Cox slope");
+    const std::string slope_line = line_starting(text, "calibration slope");
     const std::vector<double> slope = numbers_in(slope_line);
     REQUIRE(slope.size() == 2);
     CHECK(std::fabs(slope[0] - raw.regression.slope) <= 5e-5);
@@ -439,7 +441,7 @@ TEST_CASE("three score columns sit side by side at 100 columns, one after anothe
   };
   const std::string wide = plumb::render_text(r, {true, false, 100});
   CHECK(ece_numbers(wide) == std::vector<std::size_t>{9});
-  const std::vector<double> v = numbers_in(line_starting(wide, "Cox slope"));
+  const std::vector<double> v = numbers_in(line_starting(wide, "calibration slope"));
   REQUIRE(v.size() == 3);
   for (std::size_t i = 0; i < 3; ++i)
     CHECK(std::fabs(v[i] - r.scores[i].overall.regression.slope) <= 5e-5);
@@ -488,5 +490,40 @@ TEST_CASE("equal-mass bins show their own forecast ranges and fit the width", "[
       std::snprintf(range, sizeof range, "%.4f-%.4f", b.edge_lo, b.edge_hi);
       CHECK_FALSE(line_starting(text, range).empty());
     }
+  }
+}
+
+TEST_CASE("a single column's name stands over its values", "[report_text]") {
+  const Simulation& s = shared_simulation();
+  const std::vector<plumb::ForecastColumn> columns = {{"risk_cal", s.calibrated}};
+  plumb::ReportOptions options;
+  options.bootstrap = 0;
+  const plumb::Report r = plumb::build_report(columns, s.label, {}, {}, {}, {}, options);
+  for (bool unicode : {true, false}) {
+    const std::string text = section(plumb::render_text(r, {unicode, false, 80}), "headline figures");
+    const std::vector<std::string> lines = lines_of(text);
+    REQUIRE(lines.size() > 2);
+    const std::string& name = lines[1];
+    const std::string observed = line_starting(text, "observed rate");
+    REQUIRE_FALSE(observed.empty());
+    // The value begins where the name begins.
+    const std::size_t value_at = observed.find("0.", observed.find("rate"));
+    CHECK(name.find_first_not_of(' ') == value_at);
+    CHECK(name.substr(value_at) == "risk_cal");
+  }
+}
+
+TEST_CASE("section titles are a left bar or brackets, never a title between rules", "[report_text]") {
+  const plumb::Report r = make_report(shared_simulation(), {{"", "ece", 0.02}});
+  for (bool unicode : {true, false}) {
+    const std::string text = plumb::render_text(r, {unicode, false, 100});
+    const std::regex old_rule(unicode ? "^\\s*\u2500\u2500 .*\\S \u2500{3,}\\s*$" : "^\\s*-- .*\\S -{3,}\\s*$");
+    std::size_t titles = 0;
+    for (const std::string& l : lines_of(text)) {
+      CHECK_FALSE(std::regex_match(l, old_rule));
+      if (l.rfind(unicode ? "\u258c " : "[", 0) == 0) ++titles;
+    }
+    CHECK(text.find(unicode ? "\u258c headline figures\n" : "[headline figures]\n") != std::string::npos);
+    CHECK(titles >= 5);  // headline, two reliability, segments, gates, cautions
   }
 }
