@@ -74,6 +74,10 @@ int run_apply(const ApplyOptions& o) {
   stream.threads = o.threads == 0 ? std::max(1u, std::thread::hardware_concurrency()) : o.threads;
   stream.fitted_min = artifact.provenance.score_min;
   stream.fitted_max = artifact.provenance.score_max;
+  // apply has no --scale: the map's scale is the one the scores must be on.
+  stream.other_scales_hint =
+      "this map was fitted on probabilities; for log-odds or margins, use a map fitted with plumb fit --scale logit "
+      "or --scale margin";
   Progress progress("plumb apply", o.quiet);
   const io::ApplyCounts counts =
       io::apply_stream(reader, map, out, stream, [&](std::uint64_t rows, std::uint64_t bytes, auto total) {

@@ -99,6 +99,8 @@ Scale parse_scale_option(const std::string& text) {
   return *scale;
 }
 
+std::string scale_option_hint() { return "for log-odds or margins, give --scale logit or --scale margin"; }
+
 io::LabelRule label_rule(const InputOptions& o) {
   return o.positive_given ? io::LabelRule(o.positive) : io::LabelRule();
 }

@@ -218,6 +218,7 @@ int run_cross_fit(const CrossFitOptions& o) {
 
   io::LabelledColumns columns{{{o.input.score, scale}}, o.input.label, o.input.weight, split.column};
   columns.max_segment_values = std::numeric_limits<std::uint32_t>::max();  // one group or time per row is fine
+  columns.other_scales_hint = scale_option_hint();
   const io::LabelledRows rows = read_rows_with_progress("plumb cross-fit: reading", o.input, columns);
 
   Folds folds;

@@ -92,8 +92,9 @@ int run_fit(const FitOptions& o) {
   check_scale(o, scale, o.input.scale);
   const MapOptions map_options = o.choices.map_options();
 
-  const io::LabelledRows rows = read_rows_with_progress(
-      "plumb fit: reading", o.input, {{{o.input.score, scale}}, o.input.label, o.input.weight, {}});
+  io::LabelledColumns columns{{{o.input.score, scale}}, o.input.label, o.input.weight, {}};
+  columns.other_scales_hint = scale_option_hint();
+  const io::LabelledRows rows = read_rows_with_progress("plumb fit: reading", o.input, columns);
 
   Artifact artifact;
   try {

@@ -27,7 +27,7 @@ int main(int argc, char** argv) {
       "plumb"};
   app.footer(
       "Exit codes: 0 ok, 1 internal error, 2 usage, 3 bad input data, 4 bad map artifact,\n"
-      "5 file I/O, 6 data cannot support the fit, 7 a --max threshold was exceeded.\n"
+      "5 file I/O, 6 data cannot support the fit, 7 a plumb report --max threshold was exceeded.\n"
       "Errors are one line on stderr: FILE:LINE:COLUMN (column 'NAME'): what went wrong.");
   // Before the commands are added: each takes the formatter and help flag of the app.
   app.formatter(std::make_shared<plumb::cli::HelpFormatter>());

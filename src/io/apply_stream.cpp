@@ -394,7 +394,7 @@ ApplyCounts apply_stream(CsvReader& reader, const CalibrationMap& map, OutputFil
     if (blank(f.value))
       throw Error(ErrorKind::input, "the score is missing", loc, f.value,
                   "a score (or --missing empty to write an empty probability and go on)");
-    const ScoreProblem why = score_problem(f.value, map.scale());
+    const ScoreProblem why = score_problem(f.value, map.scale(), options.other_scales_hint);
     throw Error(ErrorKind::input,
                 why.message + " (the map was fitted on the " + std::string(to_string(map.scale())) + " scale)", loc,
                 f.value, why.expected);
