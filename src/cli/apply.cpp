@@ -49,7 +49,14 @@ int run_apply(const ApplyOptions& o) {
   csv.keep_sha256 = false;
   io::CsvReader reader(o.file, csv);
   const std::string score_spec = o.score.empty() ? artifact.score_column : o.score;
-  const std::size_t score_col = reader.column(score_spec, "score");
+  std::size_t score_col = 0;
+  try {
+    score_col = reader.column(score_spec, "score");
+  } catch (const Error& e) {
+    if (!o.score.empty() || e.kind() != ErrorKind::input) throw;
+    throw Error(e.kind(), e.message() + " (the map was fitted on column '" + score_spec + "')", e.where(), e.value(),
+                e.expected() + "; or name the column to map with --score NAME");
+  }
   const std::string new_name = o.as.empty() ? reader.header()[score_col] + "_calibrated" : o.as;
   for (const std::string& h : reader.header())
     if (h == new_name) {

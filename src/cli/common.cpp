@@ -13,8 +13,8 @@ namespace plumb::cli {
 
 void add_separator_option(CLI::App& command, std::string& separator) {
   command.add_option("--sep", separator,
-                     "Field separator: auto (tab for .tsv/.tab files or a tab-only header, else comma), "
-                     "comma, tab, semicolon, or one character")
+                     "Field separator: auto (tab for .tsv/.tab files, else the one of comma, tab and "
+                     "semicolon the header holds), comma, tab, semicolon, or one character")
       ->default_str("auto");
 }
 
