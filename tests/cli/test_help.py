@@ -6,7 +6,7 @@ import os
 import re
 import unittest
 
-from plumbtest import COMMANDS, SOURCE_DIR, help_options, run
+from plumbtest import COMMANDS, PLUMB, SOURCE_DIR, help_options, run
 
 KINDS = ("isotonic", "platt", "beta", "temperature", "histogram")
 
@@ -63,6 +63,17 @@ class Help(unittest.TestCase):
             self.assertIn("--score" if command not in ("inspect", "merge") else "--help", options)
             for option in options:
                 self.assertIn(option, reference, f"plumb {command} {option} is not in docs/cli.md")
+
+    def test_reference_shows_the_help_as_printed(self):
+        import importlib.util
+        spec = importlib.util.spec_from_file_location("refresh", os.path.join(SOURCE_DIR, "docs", "refresh_cli_help.py"))
+        refresh = importlib.util.module_from_spec(spec)
+        spec.loader.exec_module(refresh)
+        with open(os.path.join(SOURCE_DIR, "docs", "cli.md")) as f:
+            reference = f.read()
+        self.assertEqual(reference.count("```\nusage\n") + reference.count("\n\nusage\n  plumb"), len(COMMANDS))
+        self.assertEqual(refresh.refreshed(reference, PLUMB), reference,
+                         "docs/cli.md differs from --help: run python3 docs/refresh_cli_help.py build/plumb")
 
     def test_top_level_help(self):
         rc, out, _ = run("--help")
