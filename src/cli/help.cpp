@@ -23,7 +23,8 @@ std::string wrapped(std::string_view text, std::string_view indent) {
   std::size_t start = 0;
   while (start <= text.size()) {
     const std::size_t nl = text.find('\n', start);
-    const std::string_view line = text.substr(start, nl == std::string_view::npos ? std::string_view::npos : nl - start);
+    const std::string_view line =
+        text.substr(start, nl == std::string_view::npos ? std::string_view::npos : nl - start);
     std::string current(indent);
     bool empty = true;
     std::size_t p = 0;
@@ -62,7 +63,8 @@ std::string reflowed(std::string_view text) {
   std::size_t start = 0;
   while (start <= text.size()) {
     const std::size_t nl = text.find('\n', start);
-    const std::string_view line = text.substr(start, nl == std::string_view::npos ? std::string_view::npos : nl - start);
+    const std::string_view line =
+        text.substr(start, nl == std::string_view::npos ? std::string_view::npos : nl - start);
     if (line.empty() || line.front() == ' ') {
       flush();
       out += std::string(line) + "\n";
@@ -114,7 +116,8 @@ struct Accepts {
 Accepts plain(const std::string& description) {
   Accepts a;
   if (description.size() >= 2 && description.front() == '{' && description.back() == '}') {
-    for (char c : description.substr(1, description.size() - 2)) a.choices += c == ',' ? std::string(", ") : std::string(1, c);
+    for (char c : description.substr(1, description.size() - 2))
+      a.choices += c == ',' ? std::string(", ") : std::string(1, c);
     a.words = "one of: " + a.choices;
     return a;
   }
@@ -146,10 +149,9 @@ bool is_flag(const CLI::Option& option) { return option.get_expected_max() == 0;
 // What a value stands for, by option name: the same word on every command.
 std::string_view value_word(std::string_view long_name) {
   static constexpr std::pair<std::string_view, std::string_view> words[] = {
-      {"score", "COLUMN"}, {"label", "COLUMN"}, {"weight", "COLUMN"}, {"by", "COLUMN"},
-      {"output", "FILE"},  {"json", "FILE"},    {"svg", "FILE"},      {"markdown", "FILE"},
-      {"tally", "FILE"},   {"oof", "FILE"},     {"map", "FILE"},      {"positive", "VALUE"},
-      {"negative", "VALUE"}, {"sep", "CHAR"},   {"as", "NAME"},
+      {"score", "COLUMN"},   {"label", "COLUMN"},   {"weight", "COLUMN"}, {"by", "COLUMN"},  {"output", "FILE"},
+      {"json", "FILE"},      {"svg", "FILE"},       {"markdown", "FILE"}, {"tally", "FILE"}, {"oof", "FILE"},
+      {"positive", "VALUE"}, {"negative", "VALUE"}, {"sep", "CHAR"},      {"as", "NAME"},
   };
   for (const auto& [name, word] : words)
     if (name == long_name) return word;
@@ -339,8 +341,10 @@ int handle_parse_error(CLI::App& app, const CLI::ParseError& error, int argc, ch
       if (o->get_required() && o->count() == 0) {
         std::string fix = "give " + (o->get_positional() ? metavar(*o) : typed_name(*o) + " " + metavar(*o));
         const std::string choices = choices_of(*o);
-        if (!choices.empty()) fix += ", one of: " + choices;
-        else if (!o->get_description().empty()) fix += ", " + lower_first(o->get_description());
+        if (!choices.empty())
+          fix += ", one of: " + choices;
+        else if (!o->get_description().empty())
+          fix += ", " + lower_first(o->get_description());
         return usage_error(prefix + typed_name(*o) + " is required: " + fix + see);
       }
   }
