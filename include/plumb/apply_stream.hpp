@@ -38,6 +38,9 @@ struct ApplyStreamOptions {
   std::size_t block_bytes = std::size_t{1} << 20;
   // The fitted score range, for counting scores outside it.
   double fitted_min = 0.0, fitted_max = 0.0;
+  // Advice appended to the refusal of a score outside the map's scale (see
+  // io::score_problem); the caller's words, naming its own options.
+  std::string other_scales_hint{};
 };
 
 struct ApplyCounts {

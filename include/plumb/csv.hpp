@@ -27,8 +27,10 @@ struct Record {
 };
 
 struct CsvOptions {
-  // 0: detect (tab for *.tsv / *.tab files, or a header with tabs and no
-  // commas; comma otherwise).
+  // 0: detect: tab for *.tsv / *.tab files; otherwise the one of comma, tab
+  // and semicolon that the header line holds outside quotes (none: comma, a
+  // file of one column). A header holding more than one of them is refused
+  // as ambiguous (Error(input) at line 1) rather than guessed.
   char delimiter = 0;
   // Longest record accepted; a longer one is an input error, not an
   // unbounded allocation.
@@ -58,7 +60,8 @@ class CsvReader {
 
   // Resolve a column given by name or by 1-based index ("3"); names win over
   // indexes when a column is literally named "3". Throws plumb::Error(input)
-  // naming the available columns. `role` ("score", "label") goes in the message.
+  // naming the available columns, and suggesting --sep when the header is one
+  // column whose name holds ';', ',', a tab or '|'. `role` ("score", "label") goes in the message.
   std::size_t column(std::string_view spec, std::string_view role) const;
 
   // Next data record, with exactly header().size() fields; false at the end.

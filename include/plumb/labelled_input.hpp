@@ -76,6 +76,10 @@ struct LabelledColumns {
   // A row with a missing score (in any requested score column) or a missing
   // label: refuse or skip (empty is apply's alone and reads as refuse here).
   MissingPolicy missing = MissingPolicy::refuse;
+  // Appended to the refusal of a probability score outside [0, 1]: how the
+  // calling command reads other scores ("give --scale logit ..."), in terms
+  // of that command's own options. Empty: no advice.
+  std::string other_scales_hint{};
 };
 
 struct LabelledRows {
@@ -115,11 +119,13 @@ LabelledRows read_labelled(const std::string& path, const LabelledColumns& colum
                            char delimiter = 0, const ProgressCallback& progress = {});
 
 // The message part for a score refused on `scale` ("is not a decimal
-// number", "lies outside [0, 1]"), and what would have been accepted.
+// number", "lies outside [0, 1]"), and what would have been accepted. For a
+// number outside [0, 1], `other_scales_hint` (the caller's advice, naming
+// options of its own command; may be empty) follows in parentheses.
 struct ScoreProblem {
   std::string message;
   std::string expected;
 };
-ScoreProblem score_problem(std::string_view text, Scale scale);
+ScoreProblem score_problem(std::string_view text, Scale scale, std::string_view other_scales_hint = {});
 
 }  // namespace plumb::io

@@ -52,7 +52,14 @@ int run_apply(const ApplyOptions& o) {
   csv.keep_sha256 = false;
   io::CsvReader reader(o.file, csv);
   const std::string score_spec = map_score_column(artifact, o.score);
-  const std::size_t score_col = reader.column(score_spec, "score");
+  std::size_t score_col = 0;
+  try {
+    score_col = reader.column(score_spec, "score");
+  } catch (const Error& e) {
+    if (!o.score.empty() || e.kind() != ErrorKind::input) throw;
+    throw Error(e.kind(), e.message() + " (the map was fitted on column '" + score_spec + "')", e.where(), e.value(),
+                e.expected() + "; or name the column to map with --score NAME");
+  }
   // With --replace the column keeps its name unless --as renames it.
   const std::string new_name =
       !o.as.empty() ? o.as : o.replace ? reader.header()[score_col] : reader.header()[score_col] + "_calibrated";
@@ -89,6 +96,10 @@ int run_apply(const ApplyOptions& o) {
   stream.threads = o.threads == 0 ? std::max(1u, std::thread::hardware_concurrency()) : o.threads;
   stream.fitted_min = artifact.provenance.score_min;
   stream.fitted_max = artifact.provenance.score_max;
+  // apply has no --scale: the map's scale is the one the scores must be on.
+  stream.other_scales_hint =
+      "this map was fitted on probabilities; for log-odds or margins, use a map fitted with plumb fit --scale logit "
+      "or --scale margin";
   Progress progress("plumb apply", o.quiet);
   const io::ApplyCounts counts =
       io::apply_stream(reader, map, out, stream, [&](std::uint64_t rows, std::uint64_t bytes, auto total) {

@@ -13,8 +13,8 @@ namespace plumb::cli {
 
 void add_separator_option(CLI::App& command, std::string& separator) {
   command.add_option("--sep", separator,
-                     "Field separator: auto (tab for .tsv/.tab files or a tab-only header, else comma), "
-                     "comma, tab, semicolon, or one character")
+                     "Field separator: auto (tab for .tsv/.tab files, else the one of comma, tab and "
+                     "semicolon the header holds), comma, tab, semicolon, or one character")
       ->default_str("auto");
 }
 
@@ -142,6 +142,8 @@ Scale parse_scale_option(const std::string& text) {
   if (!scale) throw Error(ErrorKind::usage, "unknown --scale", {}, text, "probability, logit or margin");
   return *scale;
 }
+
+std::string scale_option_hint() { return "for log-odds or margins, give --scale logit or --scale margin"; }
 
 io::LabelRule label_rule(const InputOptions& o) {
   if (o.positive_given && o.negative_given && o.positive == o.negative)

@@ -64,6 +64,9 @@ void add_quiet_option(CLI::App& command, bool& quiet);
 // The separator option as a character (0 = detect). Throws Error(usage).
 char parse_separator(const std::string& text);
 Scale parse_scale_option(const std::string& text);
+// The advice for a probability score outside [0, 1] on the commands that
+// have --scale (fit, cross-fit, tally).
+std::string scale_option_hint();
 // The label rule of --positive/--negative; Error(usage) when both name the
 // same value.
 io::LabelRule label_rule(const InputOptions& options);

@@ -72,7 +72,11 @@ std::vector<std::string> parse_kinds(const std::string& text, Scale scale) {
     const std::string k = text.substr(start, comma == std::string::npos ? std::string::npos : comma - start);
     const auto known = std::find(map_kinds().begin(), map_kinds().end(), k);
     if (known == map_kinds().end())
-      throw Error(ErrorKind::usage, "unknown map kind in --map", {}, k, "auto, or a comma list of fittable kinds");
+      throw Error(ErrorKind::usage, "unknown map kind in --map", {}, k, "auto, or a comma list of " + [] {
+        std::string names;
+        for (std::string_view known : map_kinds()) names += (names.empty() ? "" : ", ") + std::string(known);
+        return names;
+      }());
     if (!accepts_scale(k, scale))
       throw Error(ErrorKind::usage, "the " + k + " map does not accept scores on the " +
                                         std::string(to_string(scale)) + " scale", {}, {}, "another --map list");
@@ -206,6 +210,7 @@ int run_cross_fit(const CrossFitOptions& o) {
 
   io::LabelledColumns columns{{{o.input.score, scale}}, o.input.label, o.input.weight, split.column};
   columns.max_segment_values = std::numeric_limits<std::uint32_t>::max();  // one group or time per row is fine
+  columns.other_scales_hint = scale_option_hint();
   const io::LabelledRows rows = read_rows_with_progress("plumb cross-fit: reading", o.input, columns);
 
   Folds folds;

@@ -92,8 +92,9 @@ int run_fit(const FitOptions& o) {
   check_scale(o, scale, o.input.scale);
   const MapOptions map_options = o.choices.map_options();
 
-  const io::LabelledRows rows = read_rows_with_progress(
-      "plumb fit: reading", o.input, {{{o.input.score, scale}}, o.input.label, o.input.weight, {}});
+  io::LabelledColumns columns{{{o.input.score, scale}}, o.input.label, o.input.weight, {}};
+  columns.other_scales_hint = scale_option_hint();
+  const io::LabelledRows rows = read_rows_with_progress("plumb fit: reading", o.input, columns);
 
   Artifact artifact;
   try {
@@ -179,13 +180,10 @@ Command add_fit_command(CLI::App& app) {
       "every kind fits on the per-score sums, which a tally keeps. Only the recorded source (the tally\n"
       "file and its SHA-256) differs in the artifact.\n\n"
       "The artifact records the input's SHA-256, row counts and the fit's diagnostics; see docs/artifact-format.md.");
-  std::string kinds;
-  for (std::string_view k : map_kinds()) kinds += (kinds.empty() ? "" : "|") + std::string(k);
-  cmd->add_option("--map", o->kind, "Kind of map: " + kinds)->required()->check([](const std::string& k) {
-    for (std::string_view known : map_kinds())
-      if (known == k) return std::string();
-    return std::string("unknown map kind '") + k + "'";
-  });
+  // The kinds come from the map registry; the help and the refusal list them from the check.
+  const std::vector<std::string> kinds(map_kinds().begin(), map_kinds().end());
+  cmd->add_option("--map", o->kind, "Kind of map (each is described below)")->required()->check(CLI::IsMember(kinds))
+      ->option_text("KIND");
   add_input_options(*cmd, o->input, true);
   // Required unless --tally is given; run_fit checks.
   cmd->get_option("--score")->required(false)->description("Column holding the raw score (name or 1-based index); required unless --tally");

@@ -124,7 +124,7 @@ int run_inspect(const InspectOptions& o) {
               shortest(p.weight_total).c_str(), shortest(p.positives).c_str(),
               p.weight_total > 0 ? 100.0 * p.positives / p.weight_total : 0.0);
   if (p.rows_skipped)
-    std::printf("  %-14s %s %s with a missing score or label left out (--missing skip)\n", "",
+    std::printf("  %-14s %s %s with a missing score or label left out (fitted with missing values skipped)\n", "",
                 grouped(*p.rows_skipped).c_str(), *p.rows_skipped == 1 ? "row" : "rows");
   std::printf("  %-14s label column '%s': %s%s\n", "", p.label_column.c_str(), p.positive_rule.c_str(),
               p.weight_column.empty() ? "" : (", weights from '" + p.weight_column + "'").c_str());

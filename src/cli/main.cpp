@@ -3,10 +3,12 @@
 #include <cstdio>
 #include <exception>
 #include <map>
+#include <memory>
 #include <new>
 #include <string>
 
 #include "cli/commands.hpp"
+#include "cli/help.hpp"
 #include "plumb/error.hpp"
 #include "plumb/version.hpp"
 
@@ -25,9 +27,12 @@ int main(int argc, char** argv) {
       "plumb"};
   app.footer(
       "Exit codes: 0 ok, 1 internal error, 2 usage, 3 bad input data, 4 bad map artifact,\n"
-      "5 file I/O, 6 data cannot support the fit, 7 a report gate (--max or --min) failed.\n"
+      "5 file I/O, 6 data cannot support the fit, 7 a gate of plumb report --max or --min failed.\n"
       "Errors are one line on stderr: FILE:LINE:COLUMN (column 'NAME'): what went wrong.");
-  app.set_version_flag("--version", std::string("plumb ") + plumb::version_string);
+  // Before the commands are added: each takes the formatter and help flag of the app.
+  app.formatter(std::make_shared<plumb::cli::HelpFormatter>());
+  app.set_help_flag("-h,--help", "Show this help");
+  app.set_version_flag("--version", std::string("plumb ") + plumb::version_string, "Show plumb's version");
   app.require_subcommand(1);
 
   std::map<CLI::App*, plumb::cli::Command> commands;
@@ -47,14 +52,17 @@ int main(int argc, char** argv) {
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
-    const int code = app.exit(e);
-    return code == 0 ? 0 : static_cast<int>(plumb::ErrorKind::usage);
+    return plumb::cli::handle_parse_error(app, e, argc, argv);
   }
   try {
     for (CLI::App* sub : app.get_subcommands()) return commands.at(sub)();
     return static_cast<int>(plumb::ErrorKind::usage);
   } catch (const plumb::Error& e) {
-    std::fprintf(stderr, "plumb: %s\n", plumb::format_error(e).c_str());
+    // A usage error names the command it belongs to; errors in the data start with their location.
+    const std::string command = plumb::cli::command_of(app);
+    const std::string prefix =
+        e.kind() == plumb::ErrorKind::usage && !command.empty() ? "plumb " + command + ": " : "plumb: ";
+    std::fprintf(stderr, "%s%s\n", prefix.c_str(), plumb::format_error(e).c_str());
     return e.exit_code();
   } catch (const std::bad_alloc&) {
     std::fprintf(stderr, "plumb: out of memory\n");

@@ -51,8 +51,8 @@ Command add_merge_command(CLI::App& app) {
   CLI::App* cmd = app.add_subcommand("merge", "Combine tallies written by plumb tally (or merge) into one tally");
   cmd->footer(
       "Scores are matched exactly; row counts and weights are added. Tallies of unweighted rows merge\n"
-      "exactly, so any order and any grouping of merges give the same bytes. With a --weight column\n"
-      "the weights are added as doubles, whose sums can differ in the last digit with the order.\n"
+      "exactly, so any order and any grouping of merges give the same bytes. With tallies made with\n"
+      "plumb tally --weight the weights are added as doubles, whose sums can differ in the last digit with the order.\n"
       "Tallies of different score columns, scales, label columns, label rules, weight columns or\n"
       "grids are refused.\n\n"
       "Examples:\n"

@@ -232,6 +232,10 @@ int run_report(const ReportCliOptions& o) {
          artifacts[m].map->scale()});
   if (columns.scores.empty())
     throw Error(ErrorKind::usage, "nothing to report", {}, {}, "at least one --score or --map");
+  // report has no --scale: a --score column is a probability, a --map's column is on the map's scale.
+  columns.other_scales_hint =
+      "report reads a --score column as probabilities; for log-odds or margins, report them through --map with a "
+      "map fitted by plumb fit --scale logit or --scale margin";
   columns.label = o.input.label;
   columns.weight = o.input.weight;
   columns.segment = o.by;

@@ -25,8 +25,9 @@ int run_tally(TallyOptions o) {
   if (on_grid && scale == Scale::margin)
     throw Error(ErrorKind::usage, "--logit-grid needs scores on the probability or logit scale", {}, {},
                 "--scale probability or logit (a margin has no log-odds to round), or no --logit-grid");
-  io::LabelledRows rows = read_rows_with_progress(
-      "plumb tally: reading", o.input, {{{o.input.score, scale}}, o.input.label, o.input.weight, {}});
+  io::LabelledColumns columns{{{o.input.score, scale}}, o.input.label, o.input.weight, {}};
+  columns.other_scales_hint = scale_option_hint();
+  io::LabelledRows rows = read_rows_with_progress("plumb tally: reading", o.input, columns);
 
   Tally t;
   t.score_column = rows.score_columns[0];

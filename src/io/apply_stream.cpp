@@ -472,7 +472,7 @@ ApplyCounts apply_stream(CsvReader& reader, const CalibrationMap& map, OutputFil
     loc.column_name = reader.header()[options.score_column];
     if (is_missing_value(f.value))
       throw Error(ErrorKind::input, "the score is missing", loc, f.value, missing_score_expected);
-    const ScoreProblem why = score_problem(f.value, map.scale());
+    const ScoreProblem why = score_problem(f.value, map.scale(), options.other_scales_hint);
     throw Error(ErrorKind::input,
                 why.message + " (the map was fitted on the " + std::string(to_string(map.scale())) + " scale)", loc,
                 f.value, why.expected);

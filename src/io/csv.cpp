@@ -31,6 +31,31 @@ std::string_view trim_blanks(std::string_view t) noexcept {
 
 // A column name as it can stand in a one-line message: control characters
 // (a quoted name may hold a line break) as \xNN.
+// The --sep spelling of a separator character.
+std::string sep_option(char c) {
+  if (c == ',') return "--sep comma";
+  if (c == '\t') return "--sep tab";
+  if (c == ';') return "--sep semicolon";
+  return std::string("--sep '") + c + "'";
+}
+
+// The separators the header line holds outside double quotes, of comma,
+// tab and semicolon, in that order.
+std::string separators_in_header(std::string_view line) {
+  bool quoted = false;
+  bool seen[3] = {false, false, false};
+  static constexpr char candidates[3] = {',', '\t', ';'};
+  for (char c : line) {
+    if (c == '"') quoted = !quoted;
+    if (quoted) continue;
+    for (int k = 0; k < 3; ++k) seen[k] = seen[k] || c == candidates[k];
+  }
+  std::string out;
+  for (int k = 0; k < 3; ++k)
+    if (seen[k]) out += candidates[k];
+  return out;
+}
+
 std::string printable(std::string_view name) {
   static const char* hex = "0123456789abcdef";
   std::string out;
@@ -155,11 +180,25 @@ CsvReader::CsvReader(const std::string& path, const CsvOptions& options)
         ends_with(name_, ".tab.gz")) {
       delimiter_ = '\t';
     } else {
-      // Look at the first line only.
+      // Look at the first line only: the one of comma, tab and semicolon it
+      // holds outside quotes; none, a comma (one column); more than one is
+      // ambiguous and refused rather than guessed.
       const char* b = buffer_.data() + begin_;
       const char* nl = static_cast<const char*>(std::memchr(b, '\n', end_ - begin_));
       const std::string_view first(b, nl ? static_cast<std::size_t>(nl - b) : end_ - begin_);
-      delimiter_ = (first.find('\t') != std::string_view::npos && first.find(',') == std::string_view::npos) ? '\t' : ',';
+      const std::string found = separators_in_header(first);
+      if (found.size() > 1) {
+        std::string names, options;
+        for (char c : found) {
+          names += (names.empty() ? "" : " and ") + std::string(c == '\t' ? "tab" : std::string("'") + c + "'");
+          options += (options.empty() ? "" : " or ") + sep_option(c);
+        }
+        Location at = loc;
+        at.line = 1;
+        throw Error(ErrorKind::input, "the header row holds both " + names + ", so the separator is ambiguous", at, {},
+                    options + " to name it");
+      }
+      delimiter_ = found.empty() ? ',' : found[0];
     }
   }
 
@@ -217,8 +256,17 @@ std::size_t CsvReader::column(std::string_view spec, std::string_view role) cons
   Location loc;
   loc.file = name_;
   loc.line = 1;
-  throw Error(ErrorKind::input, "no " + std::string(role) + " column", loc, std::string(spec),
-              "a column name or 1-based index among " + names);
+  std::string expected = "a column name or 1-based index among " + names;
+  // One column whose name holds a separator: the file is likely split by another one.
+  if (header_.size() == 1)
+    for (char c : {';', ',', '\t', '|'})
+      if (c != delimiter_ && header_[0].find(c) != std::string::npos) {
+        expected += "; the header reads as one column holding " +
+                    std::string(c == '\t' ? "tabs" : std::string("'") + c + "'") + ": name the separator with " +
+                    sep_option(c);
+        break;
+      }
+  throw Error(ErrorKind::input, "no " + std::string(role) + " column", loc, std::string(spec), expected);
 }
 
 bool CsvReader::fill() {

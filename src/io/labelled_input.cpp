@@ -80,7 +80,7 @@ std::string LabelRule::describe() const {
   return "1/0 or true/false";
 }
 
-ScoreProblem score_problem(std::string_view text, Scale scale) {
+ScoreProblem score_problem(std::string_view text, Scale scale, std::string_view other_scales_hint) {
   const std::optional<double> v = parse_number(text);
   if (!v) {
     std::string expected = "a decimal number";
@@ -88,8 +88,9 @@ ScoreProblem score_problem(std::string_view text, Scale scale) {
     return {"the score " + std::string(number_problem(text)), expected};
   }
   // parse_number only returns finite numbers, so the scale's range is left.
-  return {"the score lies outside [0, 1]",
-          "a probability in [0, 1] (for log-odds or margins, give --scale logit or --scale margin)"};
+  std::string expected = "a probability in [0, 1]";
+  if (!other_scales_hint.empty()) expected += " (" + std::string(other_scales_hint) + ")";
+  return {"the score lies outside [0, 1]", expected};
 }
 
 LabelledRows read_labelled(const std::string& path, const LabelledColumns& columns, const LabelRule& rule,
@@ -138,7 +139,7 @@ LabelledRows read_labelled(const std::string& path, const LabelledColumns& colum
         if (is_missing_value(s))
           throw Error(ErrorKind::input, "the score is missing", cell(reader, record, score_cols[k]), std::string(s),
                       "a score (" + skip_hint + ")");
-        const ScoreProblem why = score_problem(s, columns.scores[k].scale);
+        const ScoreProblem why = score_problem(s, columns.scores[k].scale, columns.other_scales_hint);
         throw Error(ErrorKind::input, why.message, cell(reader, record, score_cols[k]), std::string(s), why.expected);
       }
       out.scores[k].push_back(*score);

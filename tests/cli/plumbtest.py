@@ -4,6 +4,7 @@ import io
 import json
 import math
 import os
+import re
 import subprocess
 import tempfile
 import unittest
@@ -88,3 +89,22 @@ class PlumbCase(unittest.TestCase):
     def load_json(self, path):
         with open(path) as f:
             return json.load(f)
+
+
+COMMANDS = ("fit", "apply", "cross-fit", "report", "inspect", "tally", "merge")
+
+
+def help_options(command):
+    """The option spellings a command's --help lists ("--score", "-o", ...):
+    each option stands at the start of its own line, indented two spaces,
+    short and long names separated by ", "."""
+    rc, out, err = run(command, "--help")
+    if rc != 0:
+        raise AssertionError(f"plumb {command} --help exited {rc}: {err}")
+    options = set()
+    for line in out.splitlines():
+        m = re.match(r"^  (-\w|--[\w-]+)((?:, --?[\w-]+)*)(?: |$)", line)
+        if m:
+            options.add(m.group(1))
+            options.update(n.strip() for n in m.group(2).split(",") if n.strip())
+    return options
