@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <exception>
 #include <limits>
 #include <numeric>
 
@@ -9,34 +10,26 @@
 #include "plumb/corp.hpp"
 #include "plumb/error.hpp"
 #include "plumb/scores.hpp"
+#include "plumb/tally.hpp"
 
 namespace plumb {
 namespace {
 
 double weight_at(const FitData& d, std::size_t i) { return d.weight.empty() ? 1.0 : d.weight[i]; }
 
-struct Subset {
-  std::vector<double> score, label, weight;
-};
-
-Subset gather(const FitData& d, const std::vector<std::size_t>& rows) {
-  Subset s;
-  s.score.reserve(rows.size());
-  s.label.reserve(rows.size());
-  for (std::size_t i : rows) {
-    s.score.push_back(d.score[i]);
-    s.label.push_back(d.label[i]);
-    if (!d.weight.empty()) s.weight.push_back(d.weight[i]);
-  }
-  return s;
-}
-
-// Figures of `forecast` (one per row) on the scored rows.
-OutOfFoldFigures figures(const std::vector<double>& forecast, const FitData& d, const Folds& folds,
-                         const std::vector<std::size_t>& scored) {
+// Figures of a forecast on the scored rows, in sorted-row order:
+// `forecast(k)` is the forecast of sorted row k. The rows are visited in the
+// order (and the sums added in the order) of a plain pass over them.
+template <class Forecast>
+OutOfFoldFigures figures(const Forecast& forecast, const FitData& d, const Folds& folds, std::size_t scored_rows) {
+  const std::size_t n = d.score.size();
   std::vector<double> f, y, w;
-  for (std::size_t i : scored) {
-    f.push_back(forecast[i]);
+  f.reserve(scored_rows);
+  y.reserve(scored_rows);
+  if (!d.weight.empty()) w.reserve(scored_rows);
+  for (std::size_t i = 0; i < n; ++i) {
+    if (!folds.scored(i)) continue;
+    f.push_back(forecast(i));
     y.push_back(d.label[i]);
     if (!d.weight.empty()) w.push_back(d.weight[i]);
   }
@@ -46,19 +39,20 @@ OutOfFoldFigures figures(const std::vector<double>& forecast, const FitData& d, 
   out.ece = calibration_error(f, y, w, BinningKind::equal_width, 10).ece;
   out.mcb = corp_decomposition(f, y, w).brier.mcb;
   std::vector<double> loss(folds.count, 0.0), weight(folds.count, 0.0);
-  for (std::size_t i : scored) {
+  for (std::size_t i = 0, k = 0; i < n; ++i) {
+    if (!folds.scored(i)) continue;
     const double wi = weight_at(d, i);
-    loss[folds.fold_of_row[i]] += wi * log_loss_term(forecast[i], d.label[i]);
+    loss[folds.fold_of_row[i]] += wi * log_loss_term(f[k++], d.label[i]);
     weight[folds.fold_of_row[i]] += wi;
   }
   for (std::size_t j = 0; j < folds.count; ++j)
     if (weight[j] > 0.0) out.fold_log_loss.push_back(loss[j] / weight[j]);
-  const double n = static_cast<double>(out.fold_log_loss.size());
-  if (n > 1) {
-    const double mean = std::accumulate(out.fold_log_loss.begin(), out.fold_log_loss.end(), 0.0) / n;
+  const double m = static_cast<double>(out.fold_log_loss.size());
+  if (m > 1) {
+    const double mean = std::accumulate(out.fold_log_loss.begin(), out.fold_log_loss.end(), 0.0) / m;
     double ss = 0.0;
     for (double v : out.fold_log_loss) ss += (v - mean) * (v - mean);
-    out.fold_log_loss_sd = std::sqrt(ss / (n - 1));
+    out.fold_log_loss_sd = std::sqrt(ss / (m - 1));
   }
   return out;
 }
@@ -75,49 +69,120 @@ int complexity(std::string_view kind) noexcept {
 
 namespace {
 
-// cross_fit on rows already in score order: every fold's training rows are
-// then gathered in score order, so no fit sorts them again.
-CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::span<const std::string> kinds,
-                                const MapOptions& options) {
+// The training sums of fold j, in the form tally_scores gives them: per
+// distinct score (rows in score order, -0 and +0 one score), the count and
+// the weights of negatives and positives of the fold's training rows of
+// positive weight, added in row order. They are the same numbers, added in
+// the same order, as tally_scores on those rows gathered in score order, so
+// each fold's map is bit for bit the one fit_map gives on its rows.
+void fold_training_sums(const FitData& d, const Folds& folds, std::size_t j, Tally& out) {
+  out.score.clear();
+  out.count.clear();
+  out.negative.clear();
+  out.positive.clear();
+  const std::size_t n = d.score.size();
+  const bool weighted = !d.weight.empty();
+  for (std::size_t k = 0; k < n;) {
+    const double s = d.score[k] + 0.0;
+    double positive = 0.0, negative = 0.0;
+    std::uint64_t count = 0;
+    for (; k < n && d.score[k] == s; ++k) {
+      if (!folds.trains(k, j)) continue;
+      const double w = weighted ? d.weight[k] : 1.0;
+      if (!(w > 0.0)) continue;
+      (d.label[k] > 0.5 ? positive : negative) += w;
+      ++count;
+    }
+    if (count == 0) continue;
+    out.score.push_back(s);
+    out.count.push_back(count);
+    out.negative.push_back(negative);
+    out.positive.push_back(positive);
+  }
+}
+
+// cross_fit on rows already in score order. `order[k]` is the input row of
+// sorted row k (empty: the rows were given sorted); each candidate's
+// out-of-fold vector is written in input order.
+CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::span<const std::size_t> order,
+                                std::span<const std::string> kinds, const MapOptions& options) {
   const std::size_t n = data.score.size();
+  auto input_row = [&](std::size_t k) { return order.empty() ? k : order[k]; };
   CrossFitResult r;
   r.folds = folds;
-  std::vector<std::vector<std::size_t>> train(folds.count), test(folds.count);
-  std::vector<std::size_t> scored;
-  for (std::size_t i = 0; i < n; ++i) {
-    for (std::size_t j = 0; j < folds.count; ++j)
-      if (folds.trains(i, j)) train[j].push_back(i);
+  std::vector<std::size_t> tested(folds.count, 0);
+  std::size_t scored = 0;
+  for (std::size_t i = 0; i < n; ++i)
     if (folds.scored(i)) {
-      test[folds.fold_of_row[i]].push_back(i);
-      scored.push_back(i);
+      ++tested[folds.fold_of_row[i]];
+      ++scored;
     }
-  }
-  r.scored_rows = scored.size();
-  if (scored.empty()) throw Error(ErrorKind::fit, "no row is scored out of fold");
+  r.scored_rows = scored;
+  if (scored == 0) throw Error(ErrorKind::fit, "no row is scored out of fold");
 
-  for (const std::string& kind : kinds) {
-    Candidate c;
-    c.kind = kind;
-    c.oof.assign(n, std::numeric_limits<double>::quiet_NaN());
-    c.fold_maps.resize(folds.count);
-    for (std::size_t j = 0; j < folds.count; ++j) {
-      if (test[j].empty()) continue;  // time split: the first block is never scored
-      const Subset s = gather(data, train[j]);
-      try {
-        c.fold_maps[j] = fit_map(kind, FitData{s.score, s.label, s.weight, data.scale}, options);
-      } catch (const Error& e) {
-        if (e.kind() != ErrorKind::fit) throw;
-        throw Error(ErrorKind::fit, "fold " + std::to_string(j + 1) + " of the " + kind + " map: " + e.message(), {},
-                    e.value(), e.expected());
-      }
-      for (std::size_t i : test[j]) c.oof[i] = c.fold_maps[j]->map(data.score[i]).probability;
-    }
-    c.figures = figures(c.oof, data, folds, scored);
-    r.candidates.push_back(std::move(c));
+  r.candidates.resize(kinds.size());
+  for (std::size_t c = 0; c < kinds.size(); ++c) {
+    r.candidates[c].kind = kinds[c];
+    r.candidates[c].oof.assign(n, std::numeric_limits<double>::quiet_NaN());
+    r.candidates[c].fold_maps.resize(folds.count);
   }
+  // One fold at a time: its training sums once, fitted by every candidate.
+  // A failed fit is kept and, once every fold is done, the first failure in
+  // candidate-major order is raised, as fitting candidate by candidate would.
+  std::vector<std::exception_ptr> failure(kinds.size() * folds.count);
+  Tally sums;
+  sums.scale = data.scale;
+  for (std::size_t j = 0; j < folds.count; ++j) {
+    if (tested[j] == 0) continue;  // time split: the first block is never scored
+    fold_training_sums(data, folds, j, sums);
+    for (std::size_t c = 0; c < kinds.size(); ++c) {
+      Candidate& cand = r.candidates[c];
+      try {
+        cand.fold_maps[j] = fit_map_on_tally(cand.kind, sums, options);
+      } catch (const Error& e) {
+        failure[c * folds.count + j] =
+            e.kind() != ErrorKind::fit
+                ? std::current_exception()
+                : std::make_exception_ptr(Error(ErrorKind::fit,
+                                                "fold " + std::to_string(j + 1) + " of the " + cand.kind +
+                                                    " map: " + e.message(),
+                                                {}, e.value(), e.expected()));
+      } catch (...) {
+        failure[c * folds.count + j] = std::current_exception();
+      }
+    }
+  }
+  for (const std::exception_ptr& e : failure)
+    if (e) std::rethrow_exception(e);
+
+  // Every scored row by its fold's map, in one pass. Rows of one score in
+  // one fold share their probability, so each (candidate, fold) keeps the
+  // last score it mapped.
+  struct Last {
+    bool have = false;
+    double score = 0.0, probability = 0.0;
+  };
+  std::vector<Last> last(kinds.size() * folds.count);
+  for (std::size_t i = 0; i < n; ++i) {
+    if (!folds.scored(i)) continue;
+    const std::size_t j = folds.fold_of_row[i];
+    const double s = data.score[i];
+    for (std::size_t c = 0; c < kinds.size(); ++c) {
+      Candidate& cand = r.candidates[c];
+      Last& m = last[c * folds.count + j];
+      if (!m.have || !(s == m.score) || std::signbit(s) != std::signbit(m.score)) {
+        m.probability = cand.fold_maps[j]->map(s).probability;
+        m.score = s;
+        m.have = true;
+      }
+      cand.oof[input_row(i)] = m.probability;
+    }
+  }
+  for (Candidate& c : r.candidates)
+    c.figures = figures([&](std::size_t k) { return c.oof[input_row(k)]; }, data, folds, scored);
   if (data.scale == Scale::probability) {
     r.has_raw = true;
-    r.raw = figures(std::vector<double>(data.score.begin(), data.score.end()), data, folds, scored);
+    r.raw = figures([&](std::size_t k) { return data.score[k]; }, data, folds, scored);
   }
 
   // Best by out-of-fold log loss; then paired differences against it.
@@ -126,15 +191,19 @@ CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::sp
   const Candidate& best = r.candidates[r.best];
   for (Candidate& c : r.candidates) {
     double w_total = 0.0, sum = 0.0;
-    for (std::size_t i : scored) {
+    for (std::size_t i = 0; i < n; ++i) {
+      if (!folds.scored(i)) continue;
       const double w = weight_at(data, i);
-      sum += w * (log_loss_term(c.oof[i], data.label[i]) - log_loss_term(best.oof[i], data.label[i]));
+      const std::size_t row = input_row(i);
+      sum += w * (log_loss_term(c.oof[row], data.label[i]) - log_loss_term(best.oof[row], data.label[i]));
       w_total += w;
     }
     const double mean = sum / w_total;
     double ss = 0.0;
-    for (std::size_t i : scored) {
-      const double d = log_loss_term(c.oof[i], data.label[i]) - log_loss_term(best.oof[i], data.label[i]);
+    for (std::size_t i = 0; i < n; ++i) {
+      if (!folds.scored(i)) continue;
+      const std::size_t row = input_row(i);
+      const double d = log_loss_term(c.oof[row], data.label[i]) - log_loss_term(best.oof[row], data.label[i]);
       ss += weight_at(data, i) * (d - mean) * (d - mean);
     }
     c.diff_vs_best = mean;
@@ -172,7 +241,7 @@ CrossFitResult cross_fit(const FitData& data, const Folds& folds, std::span<cons
   if (kinds.empty()) throw Error(ErrorKind::usage, "no candidate maps", {}, {}, "at least one kind in --map");
   const std::size_t n = data.score.size();
   if (folds.fold_of_row.size() != n) throw Error(ErrorKind::internal, "cross_fit: folds made for other rows");
-  if (std::is_sorted(data.score.begin(), data.score.end())) return cross_fit_sorted(data, folds, kinds, options);
+  if (std::is_sorted(data.score.begin(), data.score.end())) return cross_fit_sorted(data, folds, {}, kinds, options);
   // Sort once, stably (ties keep their input order, so sums over ties are
   // added in the same order as a plain fit of the same rows would add them).
   std::vector<std::size_t> order(n);
@@ -186,13 +255,8 @@ CrossFitResult cross_fit(const FitData& data, const Folds& folds, std::span<cons
     if (!data.weight.empty()) weight[k] = data.weight[order[k]];
     sorted_folds.fold_of_row[k] = folds.fold_of_row[order[k]];
   }
-  CrossFitResult r = cross_fit_sorted(FitData{score, label, weight, data.scale}, sorted_folds, kinds, options);
+  CrossFitResult r = cross_fit_sorted(FitData{score, label, weight, data.scale}, sorted_folds, order, kinds, options);
   r.folds = folds;
-  for (Candidate& c : r.candidates) {
-    std::vector<double> oof(n);
-    for (std::size_t k = 0; k < n; ++k) oof[order[k]] = c.oof[k];
-    c.oof = std::move(oof);
-  }
   return r;
 }
 
