@@ -17,8 +17,7 @@ namespace {
 
 double weight_at(const FitData& d, std::size_t i) { return d.weight.empty() ? 1.0 : d.weight[i]; }
 
-// Figures of a forecast on the scored rows, in sorted-row order:
-// `forecast(k)` is the forecast of sorted row k. The rows are visited in the
+// Figures of a forecast on the scored rows: `forecast(i)` is row i's. The rows are visited in the
 // order (and the sums added in the order) of a plain pass over them.
 template <class Forecast>
 OutOfFoldFigures figures(const Forecast& forecast, const FitData& d, const Folds& folds, std::size_t scored_rows) {
@@ -101,13 +100,11 @@ void fold_training_sums(const FitData& d, const Folds& folds, std::size_t j, Tal
   }
 }
 
-// cross_fit on rows already in score order. `order[k]` is the input row of
-// sorted row k (empty: the rows were given sorted); each candidate's
-// out-of-fold vector is written in input order.
-CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::span<const std::size_t> order,
-                                std::span<const std::string> kinds, const MapOptions& options) {
+// cross_fit on rows already in score order (out-of-fold vectors in that
+// order too: every pass below reads and writes them in sequence).
+CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::span<const std::string> kinds,
+                                const MapOptions& options) {
   const std::size_t n = data.score.size();
-  auto input_row = [&](std::size_t k) { return order.empty() ? k : order[k]; };
   CrossFitResult r;
   r.folds = folds;
   std::vector<std::size_t> tested(folds.count, 0);
@@ -175,11 +172,11 @@ CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::sp
         m.score = s;
         m.have = true;
       }
-      cand.oof[input_row(i)] = m.probability;
+      cand.oof[i] = m.probability;
     }
   }
   for (Candidate& c : r.candidates)
-    c.figures = figures([&](std::size_t k) { return c.oof[input_row(k)]; }, data, folds, scored);
+    c.figures = figures([&](std::size_t k) { return c.oof[k]; }, data, folds, scored);
   if (data.scale == Scale::probability) {
     r.has_raw = true;
     r.raw = figures([&](std::size_t k) { return data.score[k]; }, data, folds, scored);
@@ -194,16 +191,14 @@ CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::sp
     for (std::size_t i = 0; i < n; ++i) {
       if (!folds.scored(i)) continue;
       const double w = weight_at(data, i);
-      const std::size_t row = input_row(i);
-      sum += w * (log_loss_term(c.oof[row], data.label[i]) - log_loss_term(best.oof[row], data.label[i]));
+      sum += w * (log_loss_term(c.oof[i], data.label[i]) - log_loss_term(best.oof[i], data.label[i]));
       w_total += w;
     }
     const double mean = sum / w_total;
     double ss = 0.0;
     for (std::size_t i = 0; i < n; ++i) {
       if (!folds.scored(i)) continue;
-      const std::size_t row = input_row(i);
-      const double d = log_loss_term(c.oof[row], data.label[i]) - log_loss_term(best.oof[row], data.label[i]);
+      const double d = log_loss_term(c.oof[i], data.label[i]) - log_loss_term(best.oof[i], data.label[i]);
       ss += weight_at(data, i) * (d - mean) * (d - mean);
     }
     c.diff_vs_best = mean;
@@ -241,7 +236,7 @@ CrossFitResult cross_fit(const FitData& data, const Folds& folds, std::span<cons
   if (kinds.empty()) throw Error(ErrorKind::usage, "no candidate maps", {}, {}, "at least one kind in --map");
   const std::size_t n = data.score.size();
   if (folds.fold_of_row.size() != n) throw Error(ErrorKind::internal, "cross_fit: folds made for other rows");
-  if (std::is_sorted(data.score.begin(), data.score.end())) return cross_fit_sorted(data, folds, {}, kinds, options);
+  if (std::is_sorted(data.score.begin(), data.score.end())) return cross_fit_sorted(data, folds, kinds, options);
   // Sort once, stably (ties keep their input order, so sums over ties are
   // added in the same order as a plain fit of the same rows would add them).
   std::vector<std::size_t> order(n);
@@ -255,8 +250,19 @@ CrossFitResult cross_fit(const FitData& data, const Folds& folds, std::span<cons
     if (!data.weight.empty()) weight[k] = data.weight[order[k]];
     sorted_folds.fold_of_row[k] = folds.fold_of_row[order[k]];
   }
-  CrossFitResult r = cross_fit_sorted(FitData{score, label, weight, data.scale}, sorted_folds, order, kinds, options);
+  CrossFitResult r = cross_fit_sorted(FitData{score, label, weight, data.scale}, sorted_folds, kinds, options);
   r.folds = folds;
+  // The sorted copies are done with: give their memory back before each
+  // out-of-fold vector is put in input order.
+  std::vector<double>().swap(score);
+  std::vector<double>().swap(label);
+  std::vector<double>().swap(weight);
+  std::vector<std::uint32_t>().swap(sorted_folds.fold_of_row);
+  for (Candidate& c : r.candidates) {
+    std::vector<double> oof(n);
+    for (std::size_t k = 0; k < n; ++k) oof[order[k]] = c.oof[k];
+    c.oof = std::move(oof);
+  }
   return r;
 }
 
