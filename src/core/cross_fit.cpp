@@ -17,20 +17,28 @@ namespace {
 
 double weight_at(const FitData& d, std::size_t i) { return d.weight.empty() ? 1.0 : d.weight[i]; }
 
-// Figures of a forecast on the scored rows: `forecast(i)` is row i's. The rows are visited in the
-// order (and the sums added in the order) of a plain pass over them.
-template <class Forecast>
-OutOfFoldFigures figures(const Forecast& forecast, const FitData& d, const Folds& folds, std::size_t scored_rows) {
+// Figures of a forecast (one per row) on the scored rows, visited in row
+// order, so every sum is added in the order of a plain pass over them. When
+// every row is scored the columns are read in place, else the scored rows
+// are gathered first.
+OutOfFoldFigures figures(std::span<const double> forecast, const FitData& d, const Folds& folds,
+                         std::size_t scored_rows) {
   const std::size_t n = d.score.size();
-  std::vector<double> f, y, w;
-  f.reserve(scored_rows);
-  y.reserve(scored_rows);
-  if (!d.weight.empty()) w.reserve(scored_rows);
-  for (std::size_t i = 0; i < n; ++i) {
-    if (!folds.scored(i)) continue;
-    f.push_back(forecast(i));
-    y.push_back(d.label[i]);
-    if (!d.weight.empty()) w.push_back(d.weight[i]);
+  std::vector<double> gathered_f, gathered_y, gathered_w;
+  std::span<const double> f = forecast, y = d.label, w = d.weight;
+  if (scored_rows != n) {
+    gathered_f.reserve(scored_rows);
+    gathered_y.reserve(scored_rows);
+    if (!d.weight.empty()) gathered_w.reserve(scored_rows);
+    for (std::size_t i = 0; i < n; ++i) {
+      if (!folds.scored(i)) continue;
+      gathered_f.push_back(forecast[i]);
+      gathered_y.push_back(d.label[i]);
+      if (!d.weight.empty()) gathered_w.push_back(d.weight[i]);
+    }
+    f = gathered_f;
+    y = gathered_y;
+    w = gathered_w;
   }
   OutOfFoldFigures out;
   out.log_loss = log_loss(f, y, w);
@@ -176,10 +184,10 @@ CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::sp
     }
   }
   for (Candidate& c : r.candidates)
-    c.figures = figures([&](std::size_t k) { return c.oof[k]; }, data, folds, scored);
+    c.figures = figures(c.oof, data, folds, scored);
   if (data.scale == Scale::probability) {
     r.has_raw = true;
-    r.raw = figures([&](std::size_t k) { return data.score[k]; }, data, folds, scored);
+    r.raw = figures(data.score, data, folds, scored);
   }
 
   // Best by out-of-fold log loss; then paired differences against it.
@@ -229,19 +237,16 @@ CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::sp
   return r;
 }
 
-}  // namespace
-
-CrossFitResult cross_fit(const FitData& data, const Folds& folds, std::span<const std::string> kinds,
-                         const MapOptions& options) {
-  if (kinds.empty()) throw Error(ErrorKind::usage, "no candidate maps", {}, {}, "at least one kind in --map");
+// cross_fit on rows in any order: sorted once, stably (ties keep their input
+// order, so sums over ties are added in the same order as a plain fit of the
+// same rows would add them), cross-fitted in score order, put back.
+template <class Index>
+CrossFitResult cross_fit_reordered(const FitData& data, const Folds& folds, std::span<const std::string> kinds,
+                                   const MapOptions& options) {
   const std::size_t n = data.score.size();
-  if (folds.fold_of_row.size() != n) throw Error(ErrorKind::internal, "cross_fit: folds made for other rows");
-  if (std::is_sorted(data.score.begin(), data.score.end())) return cross_fit_sorted(data, folds, kinds, options);
-  // Sort once, stably (ties keep their input order, so sums over ties are
-  // added in the same order as a plain fit of the same rows would add them).
-  std::vector<std::size_t> order(n);
-  std::iota(order.begin(), order.end(), std::size_t{0});
-  std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return data.score[a] < data.score[b]; });
+  std::vector<Index> order(n);
+  std::iota(order.begin(), order.end(), Index{0});
+  std::stable_sort(order.begin(), order.end(), [&](Index a, Index b) { return data.score[a] < data.score[b]; });
   std::vector<double> score(n), label(n), weight(data.weight.empty() ? 0 : n);
   Folds sorted_folds = folds;
   for (std::size_t k = 0; k < n; ++k) {
@@ -264,6 +269,19 @@ CrossFitResult cross_fit(const FitData& data, const Folds& folds, std::span<cons
     c.oof = std::move(oof);
   }
   return r;
+}
+
+}  // namespace
+
+CrossFitResult cross_fit(const FitData& data, const Folds& folds, std::span<const std::string> kinds,
+                         const MapOptions& options) {
+  if (kinds.empty()) throw Error(ErrorKind::usage, "no candidate maps", {}, {}, "at least one kind in --map");
+  const std::size_t n = data.score.size();
+  if (folds.fold_of_row.size() != n) throw Error(ErrorKind::internal, "cross_fit: folds made for other rows");
+  if (std::is_sorted(data.score.begin(), data.score.end())) return cross_fit_sorted(data, folds, kinds, options);
+  // 32-bit row numbers where they suffice: half the memory and the traffic.
+  if (n <= std::numeric_limits<std::uint32_t>::max()) return cross_fit_reordered<std::uint32_t>(data, folds, kinds, options);
+  return cross_fit_reordered<std::size_t>(data, folds, kinds, options);
 }
 
 }  // namespace plumb
