@@ -5,6 +5,7 @@
 #include <cstdint>
 #include <functional>
 #include <optional>
+#include <span>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -113,10 +114,20 @@ struct LabelledRows {
 // weight that is empty, not a number or negative, and more than
 // columns.max_segment_values distinct segment values. `progress` (may be empty)
 // is called every 65536 rows, for progress reports.
+//
+// `rows_sink` (may be empty) takes the rows instead of the result: it is
+// called, in input order, with blocks of at most 65536 rows (the first score
+// column and the labels), and each block is then dropped, so the result's
+// per-row vectors (scores, label, weight, segment) come back empty while
+// every total, name, range and the hash are as without it. Only for a read
+// of one score column, unweighted and without segments (Error(internal)
+// otherwise). A throw from the sink ends the read and propagates.
 using ProgressCallback =
     std::function<void(std::uint64_t rows, std::uint64_t bytes, std::optional<std::uint64_t> total_bytes)>;
+using RowsSink = std::function<void(std::span<const double> score, std::span<const double> label)>;
 LabelledRows read_labelled(const std::string& path, const LabelledColumns& columns, const LabelRule& rule,
-                           char delimiter = 0, const ProgressCallback& progress = {});
+                           char delimiter = 0, const ProgressCallback& progress = {},
+                           const RowsSink& rows_sink = {});
 
 // The message part for a score refused on `scale` ("is not a decimal
 // number", "lies outside [0, 1]"), and what would have been accepted. For a

@@ -7,6 +7,7 @@
 #include <cstdint>
 #include <memory>
 #include <optional>
+#include <span>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -56,6 +57,30 @@ struct Tally {
 // after a stable sort, exactly as tally_by_score does; -0 is kept as +0).
 // Fills score, count, negative and positive only.
 void tally_scores(const FitData& data, Tally& out);
+
+// The per-score sums of unweighted rows handed over block by block (a
+// reader can parse the next block while this one is counted). finish()
+// fills score, count, negative and positive exactly as tally_scores does on
+// all the rows added, whatever the blocks were: every sum is a count, the
+// same in any order. Each block's scores are sorted and counted, and the
+// counted runs are merged pairwise as they pile up (a binary counter), so
+// the work is that of one merge sort and the memory that of the distinct
+// scores, not of the rows. Labels are read as tally_scores reads them
+// (> 0.5 is positive). Not thread-safe: one thread adds.
+class UnweightedTallyBuilder {
+ public:
+  void add(std::span<const double> score, std::span<const double> label);
+  void finish(Tally& out);
+
+ private:
+  struct Run {
+    std::vector<double> score;
+    std::vector<std::uint64_t> negative, positive;
+  };
+  static Run merge(const Run& a, const Run& b);
+  void carry(Run run);
+  std::vector<Run> levels_;  // levels_[k]: empty, or the merged runs of 2^k blocks
+};
 
 // Round a score to the nearest multiple of `step` in log-odds: on the logit
 // scale the score itself, on the probability scale logit(p), mapped back

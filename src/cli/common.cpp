@@ -3,6 +3,11 @@
 #include <unistd.h>
 
 #include <charconv>
+#include <condition_variable>
+#include <deque>
+#include <exception>
+#include <mutex>
+#include <thread>
 #include <cstdio>
 #include <ctime>
 
@@ -201,6 +206,78 @@ io::LabelledRows read_rows_with_progress(const std::string& what, const InputOpt
       o.file, with_policy, label_rule(o), parse_separator(o.separator),
       [&progress](std::uint64_t r, std::uint64_t b, std::optional<std::uint64_t> t) { progress.update(r, b, t); });
   progress.finish();
+  return rows;
+}
+
+io::LabelledRows read_and_tally_with_progress(const std::string& what, const InputOptions& o,
+                                              const io::LabelledColumns& columns, Tally& sums) {
+  // The reading thread parses; this worker counts the blocks it is handed.
+  // A few blocks may wait between them, so memory stays a few blocks.
+  struct Block {
+    std::vector<double> score, label;
+  };
+  constexpr std::size_t max_waiting = 4;
+  std::mutex mutex;
+  std::condition_variable changed;
+  std::deque<Block> waiting;
+  bool done = false, failed = false;
+  std::exception_ptr failure;
+  UnweightedTallyBuilder builder;
+  std::thread counter([&] {
+    try {
+      for (;;) {
+        Block b;
+        {
+          std::unique_lock lock(mutex);
+          changed.wait(lock, [&] { return !waiting.empty() || done; });
+          if (waiting.empty()) return;
+          b = std::move(waiting.front());
+          waiting.pop_front();
+        }
+        changed.notify_all();
+        builder.add(b.score, b.label);
+      }
+    } catch (...) {
+      std::lock_guard lock(mutex);
+      failure = std::current_exception();
+      failed = true;
+      waiting.clear();
+      changed.notify_all();
+    }
+  });
+  auto stop = [&] {
+    {
+      std::lock_guard lock(mutex);
+      done = true;
+    }
+    changed.notify_all();
+    counter.join();
+  };
+  io::LabelledColumns with_policy = columns;
+  with_policy.missing = parse_missing(o.missing);
+  io::LabelledRows rows;
+  try {
+    Progress progress(what, o.quiet);
+    rows = io::read_labelled(
+        o.file, with_policy, label_rule(o), parse_separator(o.separator),
+        [&progress](std::uint64_t r, std::uint64_t b, std::optional<std::uint64_t> t) { progress.update(r, b, t); },
+        [&](std::span<const double> score, std::span<const double> label) {
+          Block b{{score.begin(), score.end()}, {label.begin(), label.end()}};
+          std::unique_lock lock(mutex);
+          changed.wait(lock, [&] { return waiting.size() < max_waiting || failed; });
+          if (failed) std::rethrow_exception(failure);  // ends the read
+          waiting.push_back(std::move(b));
+          lock.unlock();
+          changed.notify_all();
+        });
+    progress.finish();
+  } catch (...) {
+    stop();
+    throw;
+  }
+  stop();
+  if (failure) std::rethrow_exception(failure);
+  builder.finish(sums);
   return rows;
 }
 

@@ -10,6 +10,7 @@
 #include "plumb/artifact.hpp"
 #include "plumb/calibration_map.hpp"
 #include "plumb/labelled_input.hpp"
+#include "plumb/tally.hpp"
 #include "plumb/scale.hpp"
 
 namespace plumb::cli {
@@ -97,6 +98,15 @@ std::string map_score_column(const Artifact& artifact, const std::string& given)
 // the label rule and the --missing policy of `options`.
 io::LabelledRows read_rows_with_progress(const std::string& what, const InputOptions& options,
                                          const io::LabelledColumns& columns);
+
+// Reads unweighted labelled rows (one score column, no weight, no segment)
+// with a progress line, counting them into per-score sums on a second thread
+// while the next block is parsed: `sums` gets score, count, negative and
+// positive exactly as tally_scores on the rows gives them (counts, so the
+// blocks and the threads leave no trace). The returned rows hold every
+// total, name, range and the hash, but no per-row vectors.
+io::LabelledRows read_and_tally_with_progress(const std::string& what, const InputOptions& options,
+                                              const io::LabelledColumns& columns, Tally& sums);
 
 // The provenance of an artifact fitted on `rows` (the first score column).
 Provenance provenance_of(const io::LabelledRows& rows, const InputOptions& options, bool no_timestamp);

@@ -92,13 +92,22 @@ int run_fit(const FitOptions& o) {
   check_scale(o, scale, o.input.scale);
   const MapOptions map_options = o.choices.map_options();
 
+  // Unweighted rows are counted by score while the file is still being
+  // parsed (the sums are counts, the same whatever the blocks); weighted rows
+  // are summed in input order after the read, as tally_scores does.
   io::LabelledColumns columns{{{o.input.score, scale}}, o.input.label, o.input.weight, {}};
   columns.other_scales_hint = scale_option_hint();
-  const io::LabelledRows rows = read_rows_with_progress("plumb fit: reading", o.input, columns);
+  Tally sums;
+  sums.scale = scale;
+  const io::LabelledRows rows = o.input.weight.empty()
+                                    ? read_and_tally_with_progress("plumb fit: reading", o.input, columns, sums)
+                                    : read_rows_with_progress("plumb fit: reading", o.input, columns);
 
   Artifact artifact;
   try {
-    artifact.map = fit_map(o.kind, FitData{rows.scores[0], rows.label, rows.weight, scale}, map_options);
+    artifact.map = o.input.weight.empty()
+                       ? fit_map_on_tally(o.kind, sums, map_options)
+                       : fit_map(o.kind, FitData{rows.scores[0], rows.label, rows.weight, scale}, map_options);
   } catch (const Error& e) {
     if (e.kind() != ErrorKind::fit || !e.where().file.empty()) throw;
     Location loc;

@@ -12,11 +12,46 @@
 namespace plumb {
 namespace {
 
-// log(1 + exp(x)) without overflow for large x and without losing the small
+// softplus(x) = log(1 + exp(x)), computed as x > 0 ? x + log1p(exp(-x)) :
+// log1p(exp(x)) so that it neither overflows for large x nor loses the small
 // value for very negative x (Lin, Lin and Weng 2007, section 3).
-double softplus(double x) noexcept {
-  return x > 0 ? x + std::log1p(std::exp(-x)) : std::log1p(std::exp(x));
-}
+// softplus(e), softplus(-e), sigmoid(e) and sigmoid(-e) (scale.hpp) all come
+// from a = exp(-|e|): each expression below equals, bit for bit, that
+// formula (both branch on the sign and exponentiate the non-positive side),
+// so one exp and one log1p serve all four. The entries the maps fit on
+// come in pairs of one score (a negative and a positive sum), so the last
+// value is kept and reused when the next entry has the same linear predictor.
+class Terms {
+ public:
+  void at(double e) noexcept {
+    if (valid_ && same(e, e_)) return;
+    valid_ = true;
+    e_ = e;
+    a_ = std::exp(-std::abs(e));
+    l_ = std::log1p(a_);
+  }
+  // As at(e), taking a_ and l_ from (e, a, l) when e is that value exactly.
+  void at(double e, double cached_e, double cached_a, double cached_l) noexcept {
+    if (valid_ && same(e, e_)) return;
+    if (!same(e, cached_e)) return at(e);
+    valid_ = true;
+    e_ = e;
+    a_ = cached_a;
+    l_ = cached_l;
+  }
+  double e() const noexcept { return e_; }
+  double a() const noexcept { return a_; }
+  double l() const noexcept { return l_; }
+  static bool same(double x, double y) noexcept { return x == y && std::signbit(x) == std::signbit(y); }
+  double softplus_pos() const noexcept { return e_ > 0 ? e_ + l_ : l_; }    // softplus(e)
+  double softplus_neg() const noexcept { return -e_ > 0 ? -e_ + l_ : l_; }  // softplus(-e)
+  double sigmoid_pos() const noexcept { return e_ >= 0 ? 1.0 / (1.0 + a_) : a_ / (1.0 + a_); }  // sigmoid(e)
+  double sigmoid_neg() const noexcept { return -e_ >= 0 ? 1.0 / (1.0 + a_) : a_ / (1.0 + a_); }  // sigmoid(-e)
+
+ private:
+  bool valid_ = false;
+  double e_ = 0.0, a_ = 0.0, l_ = 0.0;
+};
 
 // Everything one Newton iteration needs at the current coefficients.
 struct Evaluation {
@@ -43,13 +78,18 @@ class Problem {
 
   // (1-t) softplus(eta) + t softplus(-eta) equals softplus(eta) - t eta but
   // stays accurate and non-negative when |eta| is large.
-  double loss(const Eigen::VectorXd& beta) const noexcept {
+  double loss(const Eigen::VectorXd& beta) const {
     double total = 0.0;
+    Terms terms;
+    cache_.resize(3 * n_);
     for (std::size_t i = 0; i < n_; ++i) {
       const double w = weight(i);
       if (!(w > 0.0)) continue;
-      const double e = eta(beta, i);
-      total += w * ((1.0 - t_[i]) * softplus(e) + t_[i] * softplus(-e));
+      terms.at(eta(beta, i));
+      cache_[3 * i] = terms.e();
+      cache_[3 * i + 1] = terms.a();
+      cache_[3 * i + 2] = terms.l();
+      total += w * ((1.0 - t_[i]) * terms.softplus_pos() + t_[i] * terms.softplus_neg());
     }
     return total;
   }
@@ -60,15 +100,19 @@ class Problem {
     ev.gradient = Eigen::VectorXd::Zero(d);
     ev.hessian = Eigen::MatrixXd::Zero(d, d);
     Eigen::VectorXd row(d);
+    Terms terms;
     for (std::size_t i = 0; i < n_; ++i) {
       const double w = weight(i);
       if (!(w > 0.0)) continue;
       for (Eigen::Index j = 0; j < d; ++j) row[j] = feature(static_cast<std::size_t>(j), i);
-      const double e = row.dot(beta);
-      const double p = sigmoid(e), q = sigmoid(-e);
+      if (cache_.empty())
+        terms.at(row.dot(beta));
+      else
+        terms.at(row.dot(beta), cache_[3 * i], cache_[3 * i + 1], cache_[3 * i + 2]);
+      const double p = terms.sigmoid_pos(), q = terms.sigmoid_neg();
       // p - t written so that it does not cancel to zero when p rounds to 1.
       const double residual = (1.0 - t_[i]) * p - t_[i] * q;
-      ev.loss += w * ((1.0 - t_[i]) * softplus(e) + t_[i] * softplus(-e));
+      ev.loss += w * ((1.0 - t_[i]) * terms.softplus_pos() + t_[i] * terms.softplus_neg());
       ev.gradient += (w * residual) * row;
       ev.hessian.selfadjointView<Eigen::Lower>().rankUpdate(row, w * p * q);
     }
@@ -106,6 +150,11 @@ class Problem {
   std::span<const double> t_;
   std::span<const double> w_;
   bool intercept_;
+  // Per entry, the linear predictor of the last loss() and its exp(-|e|)
+  // and log1p of that: the accepted step of a line search is the next
+  // point evaluate() visits, so its terms are taken from here when the
+  // predictor comes out the same (compared exactly, so nothing changes).
+  mutable std::vector<double> cache_;
 };
 
 }  // namespace

@@ -76,6 +76,76 @@ void tally_scores(const FitData& data, Tally& out) {
   }
 }
 
+UnweightedTallyBuilder::Run UnweightedTallyBuilder::merge(const Run& a, const Run& b) {
+  Run m;
+  const std::size_t na = a.score.size(), nb = b.score.size();
+  m.score.reserve(na + nb);
+  m.negative.reserve(na + nb);
+  m.positive.reserve(na + nb);
+  std::size_t i = 0, j = 0;
+  while (i < na || j < nb) {
+    if (j == nb || (i < na && a.score[i] < b.score[j])) {
+      m.score.push_back(a.score[i]);
+      m.negative.push_back(a.negative[i]);
+      m.positive.push_back(a.positive[i]);
+      ++i;
+    } else if (i == na || b.score[j] < a.score[i]) {
+      m.score.push_back(b.score[j]);
+      m.negative.push_back(b.negative[j]);
+      m.positive.push_back(b.positive[j]);
+      ++j;
+    } else {
+      m.score.push_back(a.score[i]);
+      m.negative.push_back(a.negative[i] + b.negative[j]);
+      m.positive.push_back(a.positive[i] + b.positive[j]);
+      ++i;
+      ++j;
+    }
+  }
+  return m;
+}
+
+void UnweightedTallyBuilder::carry(Run run) {
+  std::size_t k = 0;
+  for (; k < levels_.size() && !levels_[k].score.empty(); ++k) {
+    run = merge(levels_[k], run);
+    levels_[k] = Run{};
+  }
+  if (k == levels_.size()) levels_.emplace_back();
+  levels_[k] = std::move(run);
+}
+
+void UnweightedTallyBuilder::add(std::span<const double> score, std::span<const double> label) {
+  if (score.empty()) return;
+  Tally t;
+  tally_unweighted(FitData{score, label, {}, Scale::probability}, t);
+  Run run;
+  run.score = std::move(t.score);
+  run.negative.reserve(run.score.size());
+  run.positive.reserve(run.score.size());
+  for (std::size_t i = 0; i < run.score.size(); ++i) {
+    run.negative.push_back(static_cast<std::uint64_t>(t.negative[i]));
+    run.positive.push_back(static_cast<std::uint64_t>(t.positive[i]));
+  }
+  carry(std::move(run));
+}
+
+void UnweightedTallyBuilder::finish(Tally& out) {
+  Run all;
+  for (Run& r : levels_)
+    if (!r.score.empty()) all = all.score.empty() ? std::move(r) : merge(r, all);
+  levels_.clear();
+  out.score = std::move(all.score);
+  out.count.resize(out.score.size());
+  out.negative.resize(out.score.size());
+  out.positive.resize(out.score.size());
+  for (std::size_t i = 0; i < out.score.size(); ++i) {
+    out.count[i] = all.negative[i] + all.positive[i];
+    out.negative[i] = static_cast<double>(all.negative[i]);
+    out.positive[i] = static_cast<double>(all.positive[i]);
+  }
+}
+
 double round_to_logit_grid(double score, Scale scale, double step) noexcept {
   if (scale == Scale::logit) {
     // Beyond about 1e300 log-odds the quotient overflows; such a score is

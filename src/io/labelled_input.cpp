@@ -94,7 +94,9 @@ ScoreProblem score_problem(std::string_view text, Scale scale, std::string_view 
 }
 
 LabelledRows read_labelled(const std::string& path, const LabelledColumns& columns, const LabelRule& rule,
-                           char delimiter, const ProgressCallback& progress) {
+                           char delimiter, const ProgressCallback& progress, const RowsSink& rows_sink) {
+  if (rows_sink && (columns.scores.size() != 1 || !columns.weight.empty() || !columns.segment.empty()))
+    throw Error(ErrorKind::internal, "read_labelled: a rows sink takes one unweighted score column only");
   CsvOptions options;
   options.delimiter = delimiter;
   CsvReader reader(path, options);
@@ -120,6 +122,21 @@ LabelledRows read_labelled(const std::string& path, const LabelledColumns& colum
 
   const bool skip = columns.missing == MissingPolicy::skip;
   const std::string skip_hint = "or --missing skip to leave the row out";
+  // With a sink the rows leave block by block; the score range is then kept
+  // as std::minmax_element reports it (the first smallest, the last largest).
+  double lo = 0.0, hi = 0.0;
+  auto hand_over = [&] {
+    if (out.label.empty()) return;
+    for (const double s : out.scores[0]) {
+      if (s < lo) lo = s;
+      if (!(s < hi)) hi = s;
+    }
+    rows_sink(out.scores[0], out.label);
+    out.scores[0].clear();
+    out.label.clear();
+  };
+  constexpr std::size_t block_rows = 65536;
+
   Record record;
   while (reader.next(record)) {
     if (skip) {
@@ -184,9 +201,12 @@ LabelledRows read_labelled(const std::string& path, const LabelledColumns& colum
     out.label.push_back(*label);
     out.positives += w * *label;
     out.weight_total += w;
+    if (out.rows == 0 && rows_sink) lo = hi = out.scores[0][0];
     ++out.rows;
+    if (rows_sink && out.label.size() == block_rows) hand_over();
     if (progress && (out.rows & 0xFFFF) == 0) progress(out.rows, reader.bytes_read(), reader.total_bytes());
   }
+  if (rows_sink) hand_over();
   if (out.rows == 0) {
     Location loc;
     loc.file = reader.name();
@@ -196,9 +216,14 @@ LabelledRows read_labelled(const std::string& path, const LabelledColumns& colum
                   {}, "at least one labelled row with a score");
     throw Error(ErrorKind::input, "the file has a header but no data rows", loc, {}, "at least one labelled row");
   }
-  const auto [lo, hi] = std::minmax_element(out.scores[0].begin(), out.scores[0].end());
-  out.score_min = *lo;
-  out.score_max = *hi;
+  if (rows_sink) {
+    out.score_min = lo;
+    out.score_max = hi;
+  } else {
+    const auto [first_lo, last_hi] = std::minmax_element(out.scores[0].begin(), out.scores[0].end());
+    out.score_min = *first_lo;
+    out.score_max = *last_hi;
+  }
   out.source_sha256 = reader.content_sha256();
   return out;
 }
