@@ -46,6 +46,11 @@ Binning make_binning_sorted(std::span<const double> forecast, std::span<const do
                             BinningKind kind, std::size_t bins);
 
 // Weighted sums of one bin. Weights act as frequency weights throughout.
+// The same with the rows' order by forecast given (a stable order, as
+// ForecastCells::order), so equal_mass needs no sort of its own.
+Binning make_binning_ordered(std::span<const double> forecast, std::span<const double> weight,
+                             BinningKind kind, std::size_t bins, const std::vector<std::size_t>& order);
+
 struct BinSums {
   std::size_t rows = 0;     // rows in the bin (zero-weight rows included)
   double weight = 0.0;      // sum w

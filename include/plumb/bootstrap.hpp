@@ -8,6 +8,7 @@
 #include <vector>
 
 #include "plumb/binning.hpp"
+#include "plumb/forecast_cells.hpp"
 #include "plumb/reliability.hpp"
 
 namespace plumb {
@@ -60,6 +61,12 @@ BootstrapResult bootstrap_metrics(std::span<const double> forecast,
                                   std::span<const double> label,
                                   std::span<const double> weight,
                                   const BootstrapOptions& options);
+// The same with the rows' cells (forecast_cells.hpp) made for these rows
+// already: no sort of its own; same numbers.
+BootstrapResult bootstrap_metrics(std::span<const double> forecast,
+                                  std::span<const double> label,
+                                  std::span<const double> weight,
+                                  const BootstrapOptions& options, const ForecastCells& cells);
 
 // Consistency band under calibration (Broecker and Smith 2007): keep the
 // forecasts and weights (hence the bins), redraw every label as
@@ -72,5 +79,10 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
                                        std::span<const double> weight,
                                        const Binning& binning,
                                        const BootstrapOptions& options);
+// The same with the rows' cells made already: no sort; same numbers.
+std::vector<Interval> consistency_band(std::span<const double> forecast,
+                                       std::span<const double> weight,
+                                       const Binning& binning,
+                                       const BootstrapOptions& options, const ForecastCells& cells);
 
 }  // namespace plumb

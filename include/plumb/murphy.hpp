@@ -35,4 +35,12 @@ MurphyDecomposition murphy_decomposition(std::span<const double> forecast,
                                          std::span<const double> weight,
                                          const Binning& binning);
 
+// The same with the bins' sums (bin_sums over the same rows and binning) and
+// the Brier score (brier_score over the same rows) already at hand.
+MurphyDecomposition murphy_decomposition(std::span<const double> forecast,
+                                         std::span<const double> label,
+                                         std::span<const double> weight,
+                                         const Binning& binning, std::span<const BinSums> sums,
+                                         double brier);
+
 }  // namespace plumb

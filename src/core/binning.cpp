@@ -46,6 +46,13 @@ Binning make_binning(std::span<const double> forecast, std::span<const double> w
   return make_binning_in_order(forecast, weight, kind, bins, &order);
 }
 
+Binning make_binning_ordered(std::span<const double> forecast, std::span<const double> weight,
+                             BinningKind kind, std::size_t bins, const std::vector<std::size_t>& order) {
+  if (order.size() != forecast.size())
+    throw Error(ErrorKind::internal, "make_binning: the order was made for other rows");
+  return make_binning_in_order(forecast, weight, kind, bins, kind == BinningKind::equal_mass ? &order : nullptr);
+}
+
 Binning make_binning_sorted(std::span<const double> forecast, std::span<const double> weight,
                             BinningKind kind, std::size_t bins) {
   return make_binning_in_order(forecast, weight, kind, bins, nullptr);

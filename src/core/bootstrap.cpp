@@ -204,11 +204,18 @@ BootstrapResult bootstrap_metrics(std::span<const double> forecast,
                                   const BootstrapOptions& options) {
   detail::check_metric_input("bootstrap_metrics", forecast, label, weight);
   check_options(options);
+  return bootstrap_metrics(forecast, label, weight, options, make_forecast_cells(forecast, label, weight));
+}
+
+BootstrapResult bootstrap_metrics(std::span<const double> forecast,
+                                  std::span<const double> label,
+                                  std::span<const double> weight,
+                                  const BootstrapOptions& options, const ForecastCells& forecast_cells) {
+  detail::check_metric_input("bootstrap_metrics", forecast, label, weight);
+  check_options(options);
   const std::size_t n = forecast.size();
-  std::vector<std::size_t> order(n);
-  std::iota(order.begin(), order.end(), std::size_t{0});
-  std::stable_sort(order.begin(), order.end(),
-                   [&](std::size_t a, std::size_t b) { return forecast[a] < forecast[b]; });
+  const std::vector<std::size_t>& order = forecast_cells.order;
+  if (order.size() != n) throw Error(ErrorKind::internal, "bootstrap_metrics: the cells were made for other rows");
   // Cells in forecast order: without weights, the rows of one forecast and
   // label are one cell of `count` rows (a replicate draws its total weight
   // as one Poisson(count), the sum of their Poisson(1) counts); with
@@ -286,6 +293,15 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
                                        std::span<const double> weight,
                                        const Binning& binning,
                                        const BootstrapOptions& options) {
+  return consistency_band(forecast, weight, binning, options,
+                          weight.empty() ? make_forecast_cells(forecast, std::vector<double>(forecast.size(), 0.0), weight)
+                                         : ForecastCells{});
+}
+
+std::vector<Interval> consistency_band(std::span<const double> forecast,
+                                       std::span<const double> weight,
+                                       const Binning& binning,
+                                       const BootstrapOptions& options, const ForecastCells& forecast_cells) {
   check_options(options);
   const std::size_t n = forecast.size();
   if ((!weight.empty() && weight.size() != n) || binning.bin_of_row.size() != n)
@@ -303,14 +319,13 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
   };
   std::vector<Cell> cells;
   if (weight.empty()) {
-    std::vector<std::pair<double, std::uint32_t>> rows(n);
-    for (std::size_t i = 0; i < n; ++i) rows[i] = {forecast[i], binning.bin_of_row[i]};
-    std::sort(rows.begin(), rows.end());
-    for (std::size_t k = 0; k < n;) {
-      std::size_t e = k;
-      while (e < n && rows[e] == rows[k]) ++e;
-      cells.push_back({BinomialCell(e - k, rows[k].first), rows[k].second});
-      k = e;
+    // One cell per distinct forecast, ascending (a forecast has one bin).
+    if (forecast_cells.order.size() != n)
+      throw Error(ErrorKind::internal, "consistency_band: the cells were made for other rows");
+    cells.reserve(forecast_cells.size());
+    for (std::size_t c = 0; c < forecast_cells.size(); ++c) {
+      const std::size_t row = forecast_cells.order[forecast_cells.first[c]];
+      cells.push_back({BinomialCell(forecast_cells.rows[c], forecast_cells.forecast[c]), binning.bin_of_row[row]});
     }
   }
 

@@ -12,6 +12,16 @@ MurphyDecomposition murphy_decomposition(std::span<const double> forecast,
                                          std::span<const double> weight,
                                          const Binning& binning) {
   const std::vector<BinSums> sums = bin_sums(forecast, label, weight, binning);
+  return murphy_decomposition(forecast, label, weight, binning, sums, brier_score(forecast, label, weight));
+}
+
+MurphyDecomposition murphy_decomposition(std::span<const double> forecast,
+                                         std::span<const double> label,
+                                         std::span<const double> weight,
+                                         const Binning& binning, std::span<const BinSums> sums,
+                                         double brier) {
+  if (sums.size() != binning.bin_count || binning.bin_of_row.size() != forecast.size())
+    throw Error(ErrorKind::internal, "murphy_decomposition: the bins were made for other rows");
   double total = 0.0, positives = 0.0;
   for (const BinSums& s : sums) {
     total += s.weight;
@@ -21,7 +31,7 @@ MurphyDecomposition murphy_decomposition(std::span<const double> forecast,
   const double rate = positives / total;
 
   MurphyDecomposition out;
-  out.brier = brier_score(forecast, label, weight);
+  out.brier = brier;
   out.uncertainty = rate * (1.0 - rate);
   for (const BinSums& s : sums) {
     if (!(s.weight > 0.0)) continue;

@@ -9,6 +9,7 @@
 #include "core/metric_input.hpp"
 #include "plumb/auc.hpp"
 #include "plumb/error.hpp"
+#include "plumb/forecast_cells.hpp"
 #include "plumb/scores.hpp"
 
 namespace plumb {
@@ -81,20 +82,50 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
   s.mean_forecast = t.weighted_forecast / s.weight;
   s.brier = brier_score(f, y, w);
   s.log_loss = log_loss(f, y, w);
-  s.auc = auc(f, y, w);
   s.calibration_in_the_large = s.mean_forecast - s.observed_rate;
-  s.regression = calibration_regression(f, y, w);
 
-  const Binning binning = make_binning(f, w, o.binning, o.bins);
-  s.murphy = murphy_decomposition(f, y, w, binning);
-  s.table = reliability_table(f, y, w, o.binning, o.bins, o.confidence);
-  const CorpDecomposition corp = corp_decomposition(f, y, w);
-  s.corp_brier = corp.brier;
-  s.corp_log_loss = corp.log_loss;
-  s.pav_curve = pav_fit(f, y, w);
-  s.ece_equal_width = calibration_error(f, y, w, BinningKind::equal_width, o.bins);
-  s.ece_equal_mass = calibration_error(f, y, w, BinningKind::equal_mass, o.bins);
-  s.hosmer_lemeshow = hosmer_lemeshow(f, y, w, o.hl_groups);
+  // One sort of the rows into one cell per distinct forecast; everything
+  // that needs the rows in forecast order reads these.
+  const ForecastCells cells = make_forecast_cells(f, y, w);
+  s.auc = auc_cells(cells.positives, cells.negatives);
+  s.regression = calibration_regression(cells);
+
+  // PAV once, from the cells: the CORP curve, and each row's recalibrated
+  // forecast for the CORP sums (taken in row order, as corp_decomposition does).
+  s.pav_curve = pav_fit_cells(cells.forecast, cells.positives, cells.weight);
+  {
+    std::vector<double> recalibrated(f.size());
+    std::size_t j = 0;
+    for (std::size_t c = 0; c < cells.size(); ++c) {
+      // The block whose range holds the cell's forecast; a cell of zero
+      // weight with no block takes the block to its left (or the first),
+      // as pav_values does.
+      while (j + 1 < s.pav_curve.size() && s.pav_curve[j + 1].score_lo <= cells.forecast[c]) ++j;
+      const double v = s.pav_curve.empty() ? 0.0 : s.pav_curve[j].value;
+      for (std::size_t k = cells.first[c]; k < cells.first[c + 1]; ++k) recalibrated[cells.order[k]] = v;
+    }
+    const CorpDecomposition corp = corp_decomposition_given(f, y, w, std::move(recalibrated));
+    s.corp_brier = corp.brier;
+    s.corp_log_loss = corp.log_loss;
+  }
+
+  // Each binning made once, and its sums taken once.
+  const Binning width = make_binning_ordered(f, w, BinningKind::equal_width, o.bins, cells.order);
+  const std::vector<BinSums> width_sums = bin_sums(f, y, w, width);
+  const Binning mass = make_binning_ordered(f, w, BinningKind::equal_mass, o.bins, cells.order);
+  const std::vector<BinSums> mass_sums = bin_sums(f, y, w, mass);
+  const Binning& binning = o.binning == BinningKind::equal_mass ? mass : width;
+  const std::vector<BinSums>& sums = o.binning == BinningKind::equal_mass ? mass_sums : width_sums;
+  s.murphy = murphy_decomposition(f, y, w, binning, sums, s.brier);
+  s.table = reliability_table(binning, sums, o.confidence);
+  s.ece_equal_width = calibration_error(width_sums, BinningKind::equal_width);
+  s.ece_equal_mass = calibration_error(mass_sums, BinningKind::equal_mass);
+  if (o.hl_groups == o.bins) {
+    s.hosmer_lemeshow = hosmer_lemeshow(mass_sums, o.hl_groups);
+  } else {
+    const Binning groups = make_binning_ordered(f, w, BinningKind::equal_mass, o.hl_groups, cells.order);
+    s.hosmer_lemeshow = hosmer_lemeshow(bin_sums(f, y, w, groups), o.hl_groups);
+  }
   s.spiegelhalter = spiegelhalter_z(f, y, w);
   s.histogram = forecast_histogram(f, w, o.histogram_bins);
   if (o.bootstrap > 0) {
@@ -105,9 +136,9 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
     b.confidence = o.confidence;
     b.binning = BinningKind::equal_width;
     b.bins = o.bins;
-    s.bootstrap = bootstrap_metrics(f, y, w, b);
+    s.bootstrap = bootstrap_metrics(f, y, w, b, cells);
     b.binning = o.binning;
-    s.band = consistency_band(f, w, binning, b);
+    s.band = consistency_band(f, w, binning, b, cells);
   }
   return s;
 }
