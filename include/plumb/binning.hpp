@@ -37,6 +37,10 @@ struct Binning {
 // or of the same length, finite and >= 0. `bins` >= 1.
 // Throws plumb::Error(usage) on bins == 0 and Error(internal) on mismatched
 // lengths. Cost: equal_width O(n), equal_mass one sort O(n log n).
+// The equal-width bin of one forecast among `bins`: floor(bins * p), with
+// p = 1 in the last bin (and anything not above 0 in the first).
+std::uint32_t equal_width_bin(double forecast, std::size_t bins) noexcept;
+
 Binning make_binning(std::span<const double> forecast, std::span<const double> weight,
                      BinningKind kind, std::size_t bins);
 

@@ -26,6 +26,20 @@ struct ForecastCells {
   std::size_t size() const noexcept { return forecast.size(); }
 };
 
+// Rows given as cells, in the order of the rows they stand for (report
+// --tally): cell c is rows[c] rows of forecast[c] and label[c] (0 or 1)
+// whose weights sum to weight[c] and their squares to weight_sq[c]. With
+// unit_weights every row weighs 1 (weight[c] == rows[c]) and a sum over the
+// rows is taken row by row, in the same order and with the same rounding as
+// over the rows themselves; otherwise a cell enters a sum once, with its
+// weight.
+struct LabelCells {
+  std::vector<double> forecast, label, weight, weight_sq;
+  std::vector<std::uint64_t> rows;
+  bool unit_weights = true;
+  std::size_t size() const noexcept { return forecast.size(); }
+};
+
 // Sorts the rows (an LSD radix sort of the forecasts' bit patterns, stable)
 // and gathers the cells. `label` 0/1 (or in [0, 1]), `weight` empty (all 1)
 // or one per row; forecasts must be in [0, 1] (check_metric_input's rule).

@@ -49,4 +49,8 @@ struct SpiegelhalterZ {
 SpiegelhalterZ spiegelhalter_z(std::span<const double> forecast, std::span<const double> label,
                                std::span<const double> weight = {});
 
+// The statistic from its sums over the rows: numerator sum w (y - p)(1 - 2p)
+// and variance sum w (1 - 2p)^2 p (1 - p).
+SpiegelhalterZ spiegelhalter_from_sums(double numerator, double variance);
+
 }  // namespace plumb

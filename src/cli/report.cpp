@@ -40,12 +40,9 @@ struct ReportCliOptions {
   std::vector<std::string> given;  // row-reading options given on the command line
 };
 
-// The rows a tally of unweighted rows stands for, in score order (at each
-// score its negatives, then its positives): a reordering of the rows it was
-// built from, which is all the report needs (its figures and its bootstrap
-// treat the rows as a set). Every requested column is the tally's score.
-io::LabelledRows rows_of_tally(const ReportCliOptions& o, const io::LabelledColumns& columns) {
-  const Tally t = load_tally(o.tally);
+// The tally named by --tally, checked against the columns asked for.
+Tally load_report_tally(const ReportCliOptions& o, const io::LabelledColumns& columns) {
+  Tally t = load_tally(o.tally);
   Location loc;
   loc.file = o.tally;
   if (!t.unit_weights)
@@ -63,25 +60,35 @@ io::LabelledRows rows_of_tally(const ReportCliOptions& o, const io::LabelledColu
                       std::string(to_string(c.scale)) + " scale asked for",
                   loc, c.column, "--score for probability tallies, --map of a map fitted on the tally's scale");
   }
-  io::LabelledRows rows;
-  std::vector<double> score;
-  score.reserve(t.rows);
-  rows.label.reserve(t.rows);
+  return t;
+}
+
+// The rows a tally stands for as cells, in score order (at each score its
+// negatives, then its positives): a reordering of the rows it was built
+// from, which is all the report needs (its figures and its bootstrap treat
+// the rows as a set). `map` (may be null) turns each score into the
+// forecast; `outside` counts the rows whose score the map held at an end.
+LabelCells cells_of_tally(const Tally& t, const CalibrationMap* map, std::uint64_t* outside) {
+  LabelCells cells;
+  cells.unit_weights = t.unit_weights;
   for (std::size_t i = 0; i < t.score.size(); ++i) {
-    score.insert(score.end(), t.count[i], t.score[i]);
-    rows.label.insert(rows.label.end(), static_cast<std::size_t>(t.negative[i]), 0.0);
-    rows.label.insert(rows.label.end(), static_cast<std::size_t>(t.positive[i]), 1.0);
+    double f = t.score[i];
+    if (map) {
+      const Mapped r = map->map(f);
+      f = r.probability;
+      if (r.outside_fit_range && outside) *outside += t.count[i];
+    }
+    const double weight[2] = {t.negative[i], t.positive[i]};
+    for (int l = 0; l < 2; ++l) {
+      if (!(weight[l] > 0.0)) continue;
+      cells.forecast.push_back(f);
+      cells.label.push_back(l);
+      cells.weight.push_back(weight[l]);
+      cells.weight_sq.push_back(weight[l]);  // unit weights: each row's square is 1
+      cells.rows.push_back(static_cast<std::uint64_t>(weight[l]));
+    }
   }
-  rows.scores.assign(columns.scores.size(), score);
-  rows.score_columns.assign(columns.scores.size(), t.score_column);
-  rows.source = o.tally == "-" ? "<stdin>" : o.tally;
-  rows.label_column = t.label_column;
-  rows.rows = t.rows;
-  rows.positives = t.positives;
-  rows.weight_total = t.weight_total;
-  rows.score_min = t.score_min;
-  rows.score_max = t.score_max;
-  return rows;
+  return cells;
 }
 
 // Below this many scores outside the fitted range a mapped column is quiet.
@@ -120,6 +127,8 @@ void write_file(const std::string& path, const std::string& text) {
   out.commit();
 }
 
+int emit_report(const ReportCliOptions& o, const Report& report);
+
 int run_report(const ReportCliOptions& o) {
   std::vector<Gate> gates;
   for (const std::string& m : o.max) gates.push_back(parse_gate(m));
@@ -151,9 +160,30 @@ int run_report(const ReportCliOptions& o) {
   if (o.tally.empty() && o.input.label.empty())
     throw Error(ErrorKind::usage, "report needs --label (or --tally FILE)", {}, {}, "--label COL FILE, or --tally FILE");
 
-  const io::LabelledRows rows = o.tally.empty()
-                                    ? read_rows_with_progress("plumb report: reading", o.input, columns)
-                                    : rows_of_tally(o, columns);
+  if (!o.tally.empty()) {
+    // The tally is read as cells: memory grows with its distinct scores, not its rows.
+    const Tally t = load_report_tally(o, columns);
+    std::vector<ForecastCellColumn> cell_columns;
+    std::vector<std::string> extra_cautions;
+    for (const std::string& s : o.scores) cell_columns.push_back({s, cells_of_tally(t, nullptr, nullptr)});
+    for (std::size_t m = 0; m < artifacts.size(); ++m) {
+      std::uint64_t outside = 0;
+      LabelCells cells = cells_of_tally(t, artifacts[m].map.get(), &outside);
+      std::uint64_t rows = 0;
+      for (std::uint64_t r : cells.rows) rows += r;
+      const std::string name = t.score_column + " via " + std::filesystem::path(o.maps[m]).filename().string();
+      if (static_cast<double>(outside) > outside_share_caution * static_cast<double>(rows))
+        extra_cautions.push_back(name + ": " + grouped(outside) +
+                                 " scores lie outside the range the map was fitted on and were held at its end values");
+      cell_columns.push_back({name, std::move(cells)});
+    }
+    Report report = build_report_of_cells(cell_columns, gates, ro);
+    report.source = o.tally == "-" ? "<stdin>" : o.tally;
+    report.label_column = t.label_column;
+    report.cautions.insert(report.cautions.end(), extra_cautions.begin(), extra_cautions.end());
+    return emit_report(o, report);
+  }
+  const io::LabelledRows rows = read_rows_with_progress("plumb report: reading", o.input, columns);
 
   std::vector<std::vector<double>> mapped;
   std::vector<ForecastColumn> forecasts;
@@ -185,7 +215,11 @@ int run_report(const ReportCliOptions& o) {
   report.weight_column = rows.weight_column;
   report.segment_column = rows.segment_column;
   report.cautions.insert(report.cautions.end(), extra_cautions.begin(), extra_cautions.end());
+  return emit_report(o, report);
+}
 
+// Writes the report's files, then the terminal report; the gates' exit code.
+int emit_report(const ReportCliOptions& o, const Report& report) {
   // Files first, each whole or not at all; then the terminal report.
   if (!o.json_path.empty()) write_file(o.json_path, report_to_json(report).dump(2) + "\n");
   if (!o.svg_path.empty()) write_file(o.svg_path, render_svg(report));

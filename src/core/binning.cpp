@@ -17,13 +17,13 @@ namespace {
 
 constexpr double nan = std::numeric_limits<double>::quiet_NaN();
 
+}  // namespace
+
 std::uint32_t equal_width_bin(double p, std::size_t k) noexcept {
   const double b = std::floor(static_cast<double>(k) * p);
   if (!(b > 0.0)) return 0;
   return static_cast<std::uint32_t>(std::min(b, static_cast<double>(k - 1)));
 }
-
-}  // namespace
 
 namespace {
 

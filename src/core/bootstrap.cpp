@@ -121,6 +121,16 @@ struct BinomialCell {
   }
 };
 
+// One cell of the consistency band: its label law and its bin.
+struct BandCell {
+  BinomialCell law;
+  std::uint32_t bin;
+};
+
+std::vector<Interval> band_of_cells(const std::vector<BandCell>& cells, const std::vector<double>& bin_weight,
+                                    std::span<const double> forecast, std::span<const double> weight,
+                                    const Binning& binning, const BootstrapOptions& options);
+
 BootstrapInterval percentile_interval(std::vector<double> values, double confidence) {
   values.erase(std::remove_if(values.begin(), values.end(),
                               [](double v) { return !std::isfinite(v); }),
@@ -243,7 +253,16 @@ BootstrapResult bootstrap_metrics(std::span<const double> forecast,
       count.push_back(1);
     }
   }
+  return bootstrap_metrics_of_cells(p, y, base, count, options);
+}
+
+BootstrapResult bootstrap_metrics_of_cells(std::span<const double> p, std::span<const double> y,
+                                           std::span<const double> base, std::span<const std::uint64_t> count,
+                                           const BootstrapOptions& options) {
+  check_options(options);
   const std::size_t cells = p.size();
+  if (y.size() != cells || base.size() != cells || count.size() != cells)
+    throw Error(ErrorKind::internal, "bootstrap_metrics: cell columns differ in length");
 
   const std::size_t R = options.replicates;
   std::vector<double> ece(R), l2(R), brier(R), mcb(R), area(R);
@@ -313,11 +332,7 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
   // Without weights, the rows of one forecast are one cell: its count of
   // positives is one Binomial(count, forecast) draw, the law of the sum of
   // its rows' Bernoulli labels. With weights every row is its own cell.
-  struct Cell {
-    BinomialCell law;
-    std::uint32_t bin;
-  };
-  std::vector<Cell> cells;
+  std::vector<BandCell> cells;
   if (weight.empty()) {
     // One cell per distinct forecast, ascending (a forecast has one bin).
     if (forecast_cells.order.size() != n)
@@ -328,6 +343,15 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
       cells.push_back({BinomialCell(forecast_cells.rows[c], forecast_cells.forecast[c]), binning.bin_of_row[row]});
     }
   }
+  return band_of_cells(cells, bin_weight, forecast, weight, binning, options);
+}
+
+namespace {
+
+std::vector<Interval> band_of_cells(const std::vector<BandCell>& cells, const std::vector<double>& bin_weight,
+                                    std::span<const double> forecast, std::span<const double> weight,
+                                    const Binning& binning, const BootstrapOptions& options) {
+  const std::size_t bins = bin_weight.size(), n = forecast.size();
 
   const std::size_t R = options.replicates;
   std::vector<std::vector<double>> frequency(bins, std::vector<double>(R, nan));
@@ -336,7 +360,7 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
     std::mt19937_64 gen = replicate_generator(seed, r);
     positives.assign(bins, 0.0);
     if (weight.empty()) {
-      for (const Cell& c : cells) positives[c.bin] += static_cast<double>(c.law.draw(gen));
+      for (const BandCell& c : cells) positives[c.bin] += static_cast<double>(c.law.draw(gen));
     } else {
       for (std::size_t i = 0; i < n; ++i)
         if (uniform01(gen) < forecast[i]) positives[binning.bin_of_row[i]] += weight[i];
@@ -350,6 +374,24 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
     band[b] = {q.lo, q.hi};
   }
   return band;
+}
+
+}  // namespace
+
+std::vector<Interval> consistency_band_of_cells(std::span<const double> forecast,
+                                                std::span<const std::uint64_t> count,
+                                                std::span<const std::uint32_t> bin,
+                                                std::span<const double> bin_weight,
+                                                const BootstrapOptions& options) {
+  check_options(options);
+  if (count.size() != forecast.size() || bin.size() != forecast.size())
+    throw Error(ErrorKind::internal, "consistency_band: cell columns differ in length");
+  std::vector<BandCell> cells;
+  cells.reserve(forecast.size());
+  for (std::size_t c = 0; c < forecast.size(); ++c) cells.push_back({BinomialCell(count[c], forecast[c]), bin[c]});
+  Binning none;
+  none.bin_count = bin_weight.size();
+  return band_of_cells(cells, std::vector<double>(bin_weight.begin(), bin_weight.end()), {}, {}, none, options);
 }
 
 }  // namespace plumb

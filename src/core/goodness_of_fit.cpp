@@ -61,6 +61,10 @@ SpiegelhalterZ spiegelhalter_z(std::span<const double> forecast, std::span<const
     total += w;
   }
   detail::require_positive_total("spiegelhalter_z", total);
+  return spiegelhalter_from_sums(numerator, variance);
+}
+
+SpiegelhalterZ spiegelhalter_from_sums(double numerator, double variance) {
   SpiegelhalterZ out;
   if (!(variance > 0.0)) {
     out.z = out.p_value = std::numeric_limits<double>::quiet_NaN();

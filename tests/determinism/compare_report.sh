@@ -63,8 +63,6 @@ LINES
   for t in holdout ties; do
     "$plumb" report --score risk --tally "$t.tally.json" --bootstrap 40 --json "t-$t.json" --svg "t-$t.svg" \
       --markdown "t-$t.md" > "t-$t.txt"
-    "$plumb" report --map ../holdout/iso.map.json --tally "$t.tally.json" --binning mass --bootstrap 0 \
-      --json "tm-$t.json" > "tm-$t.txt" 2>&1 || true
     "$plumb" report --map iso.map.json --score risk --tally "$t.tally.json" --binning mass --bootstrap 20 \
       --json "tm-$t.json" > "tm-$t.txt"
   done
