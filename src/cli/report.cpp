@@ -45,11 +45,15 @@ Tally load_report_tally(const ReportCliOptions& o, const io::LabelledColumns& co
   Tally t = load_tally(o.tally);
   Location loc;
   loc.file = o.tally;
-  if (!t.unit_weights)
+  if (!t.weight_column.empty() && t.weight_sq.size() != t.score.size())
+    throw Error(ErrorKind::artifact,
+                "the tally of weighted rows lacks the sums of squared weights that the report's effective sample "
+                "sizes need (format version 1, or merged with such a tally)",
+                loc, t.weight_column, "a tally made or merged by plumb with tally format version 2, or plumb report on the rows");
+  if (!t.unit_weights && o.bootstrap > 0)
     throw Error(ErrorKind::usage,
-                "report --tally reads tallies of unweighted rows only: with weights, the report's effective "
-                "sample sizes need each row's weight, which a tally has summed",
-                loc, t.weight_column, "a tally made without --weight, or plumb report on the rows");
+                "the bootstrap resamples rows, and a tally of weighted rows has summed their weights", loc,
+                t.weight_column, "--bootstrap 0 with a weighted tally, or plumb report on the rows");
   for (const io::ScoreColumn& c : columns.scores) {
     if (c.column != t.score_column)
       throw Error(ErrorKind::usage, "the tally holds column '" + t.score_column + "', not the column asked for", loc,
@@ -68,6 +72,8 @@ Tally load_report_tally(const ReportCliOptions& o, const io::LabelledColumns& co
 // from, which is all the report needs (its figures and its bootstrap treat
 // the rows as a set). `map` (may be null) turns each score into the
 // forecast; `outside` counts the rows whose score the map held at an end.
+// With weights a score's rows and squared weights are not split by label:
+// they sit on its first cell (the report's bins hold whole scores).
 LabelCells cells_of_tally(const Tally& t, const CalibrationMap* map, std::uint64_t* outside) {
   LabelCells cells;
   cells.unit_weights = t.unit_weights;
@@ -79,13 +85,20 @@ LabelCells cells_of_tally(const Tally& t, const CalibrationMap* map, std::uint64
       if (r.outside_fit_range && outside) *outside += t.count[i];
     }
     const double weight[2] = {t.negative[i], t.positive[i]};
+    bool first = true;
     for (int l = 0; l < 2; ++l) {
       if (!(weight[l] > 0.0)) continue;
       cells.forecast.push_back(f);
       cells.label.push_back(l);
       cells.weight.push_back(weight[l]);
-      cells.weight_sq.push_back(weight[l]);  // unit weights: each row's square is 1
-      cells.rows.push_back(static_cast<std::uint64_t>(weight[l]));
+      if (t.unit_weights) {
+        cells.weight_sq.push_back(weight[l]);  // each row's square is 1
+        cells.rows.push_back(static_cast<std::uint64_t>(weight[l]));
+      } else {
+        cells.weight_sq.push_back(first ? t.weight_sq[i] : 0.0);
+        cells.rows.push_back(first ? t.count[i] : 0);
+      }
+      first = false;
     }
   }
   return cells;
@@ -180,6 +193,7 @@ int run_report(const ReportCliOptions& o) {
     Report report = build_report_of_cells(cell_columns, gates, ro);
     report.source = o.tally == "-" ? "<stdin>" : o.tally;
     report.label_column = t.label_column;
+    if (!t.unit_weights) report.weight_column = t.weight_column;
     report.cautions.insert(report.cautions.end(), extra_cautions.begin(), extra_cautions.end());
     return emit_report(o, report);
   }
@@ -262,8 +276,10 @@ Command add_report_command(CLI::App& app) {
       "  plumb report --score risk_cal --label missed --max ece=0.02 --max mcb=0.004 -q scored.csv || page-the-on-call\n"
       "  plumb report --score risk --map late.map.json --tally all.tally.json\n\n"
       "With --tally the report is that of the tallied rows (the figures are sums over rows, which the\n"
-      "tally keeps per score; the bootstrap resamples the rows the tally stands for, holding them in\n"
-      "memory as the rows would be). Tallies with weights and segments (--by) are not supported.\n\n"
+      "tally keeps per score; it is read as one cell per score and label, so memory grows with the\n"
+      "distinct scores, not the rows). A tally of weighted rows needs --bootstrap 0 (the bootstrap\n"
+      "resamples rows, whose weights the tally has summed) and tally format version 2, which keeps the\n"
+      "sums of squared weights. Segments (--by) are not supported.\n\n"
       "Cautions: a calibrated score is only as good as the data it was checked on; recalibration is not\n"
       "model validation; credit, insurance and health uses follow local rules and licensed practice.");
   cmd->add_option("file", o->input.file, "CSV or TSV file with a header row, plain or gzip; - or nothing reads standard input")
@@ -277,7 +293,7 @@ Command add_report_command(CLI::App& app) {
   cmd->add_option("--label", o->input.label,
                   "Column holding the observed outcome (name or 1-based index); required unless --tally");
   cmd->add_option("--tally", o->tally,
-                  "Report on a tally of unweighted rows (from plumb tally or merge) instead of rows; --score "
+                  "Report on a tally (from plumb tally or merge) instead of rows; --score "
                   "names its column. No FILE, --label, --weight, --positive, --by or --sep");
   cmd->add_option("--weight", o->input.weight, "Column of non-negative row weights (default: every row weighs 1)");
   cmd->add_option("--positive", o->input.positive,
