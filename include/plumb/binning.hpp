@@ -53,7 +53,7 @@ Binning make_binning_sorted(std::span<const double> forecast, std::span<const do
 // The same with the rows' order by forecast given (a stable order, as
 // ForecastCells::order), so equal_mass needs no sort of its own.
 Binning make_binning_ordered(std::span<const double> forecast, std::span<const double> weight,
-                             BinningKind kind, std::size_t bins, const std::vector<std::size_t>& order);
+                             BinningKind kind, std::size_t bins, std::span<const std::uint32_t> order);
 
 struct BinSums {
   std::size_t rows = 0;     // rows in the bin (zero-weight rows included)

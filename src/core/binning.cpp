@@ -29,40 +29,41 @@ namespace {
 
 // Both entry points share this; `order` lists the rows by forecast, or is
 // null when the rows are already sorted.
+template <class Index>
 Binning make_binning_in_order(std::span<const double> forecast, std::span<const double> weight,
-                              BinningKind kind, std::size_t bins,
-                              const std::vector<std::size_t>* order);
+                              BinningKind kind, std::size_t bins, const Index* order);
 
 }  // namespace
 
 Binning make_binning(std::span<const double> forecast, std::span<const double> weight,
                      BinningKind kind, std::size_t bins) {
   if (kind == BinningKind::equal_width)
-    return make_binning_in_order(forecast, weight, kind, bins, nullptr);
+    return make_binning_in_order<std::size_t>(forecast, weight, kind, bins, nullptr);
   std::vector<std::size_t> order(forecast.size());
   std::iota(order.begin(), order.end(), std::size_t{0});
   std::stable_sort(order.begin(), order.end(),
                    [&](std::size_t a, std::size_t b) { return forecast[a] < forecast[b]; });
-  return make_binning_in_order(forecast, weight, kind, bins, &order);
+  return make_binning_in_order(forecast, weight, kind, bins, order.data());
 }
 
 Binning make_binning_ordered(std::span<const double> forecast, std::span<const double> weight,
-                             BinningKind kind, std::size_t bins, const std::vector<std::size_t>& order) {
+                             BinningKind kind, std::size_t bins, std::span<const std::uint32_t> order) {
   if (order.size() != forecast.size())
     throw Error(ErrorKind::internal, "make_binning: the order was made for other rows");
-  return make_binning_in_order(forecast, weight, kind, bins, kind == BinningKind::equal_mass ? &order : nullptr);
+  return make_binning_in_order(forecast, weight, kind, bins,
+                               kind == BinningKind::equal_mass ? order.data() : static_cast<const std::uint32_t*>(nullptr));
 }
 
 Binning make_binning_sorted(std::span<const double> forecast, std::span<const double> weight,
                             BinningKind kind, std::size_t bins) {
-  return make_binning_in_order(forecast, weight, kind, bins, nullptr);
+  return make_binning_in_order<std::size_t>(forecast, weight, kind, bins, nullptr);
 }
 
 namespace {
 
+template <class Index>
 Binning make_binning_in_order(std::span<const double> forecast, std::span<const double> weight,
-                              BinningKind kind, std::size_t bins,
-                              const std::vector<std::size_t>* order) {
+                              BinningKind kind, std::size_t bins, const Index* order) {
   if (bins == 0)
     throw Error(ErrorKind::usage, "the number of bins must be positive", {}, "0", "1 or more");
   if (!weight.empty() && weight.size() != forecast.size())
@@ -82,7 +83,7 @@ Binning make_binning_in_order(std::span<const double> forecast, std::span<const 
     }
     return out;
   }
-  auto row = [order](std::size_t k) { return order ? (*order)[k] : k; };
+  auto row = [order](std::size_t k) -> std::size_t { return order ? static_cast<std::size_t>(order[k]) : k; };
   double total = 0.0;
   for (std::size_t i = 0; i < n; ++i) total += detail::weight_at(weight, i);
   double before = 0.0;

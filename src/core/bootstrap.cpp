@@ -224,7 +224,7 @@ BootstrapResult bootstrap_metrics(std::span<const double> forecast,
   detail::check_metric_input("bootstrap_metrics", forecast, label, weight);
   check_options(options);
   const std::size_t n = forecast.size();
-  const std::vector<std::size_t>& order = forecast_cells.order;
+  const std::vector<std::uint32_t>& order = forecast_cells.order;
   if (order.size() != n) throw Error(ErrorKind::internal, "bootstrap_metrics: the cells were made for other rows");
   // Cells in forecast order: without weights, the rows of one forecast and
   // label are one cell of `count` rows (a replicate draws its total weight
