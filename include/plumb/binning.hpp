@@ -7,6 +7,8 @@
 #include <string_view>
 #include <vector>
 
+#include "plumb/forecast_cells.hpp"
+
 namespace plumb {
 
 // equal_width: bin b holds forecasts p with min(k - 1, floor(k * p)) == b, so
@@ -54,6 +56,13 @@ Binning make_binning_sorted(std::span<const double> forecast, std::span<const do
 // ForecastCells::order), so equal_mass needs no sort of its own.
 Binning make_binning_ordered(std::span<const double> forecast, std::span<const double> weight,
                              BinningKind kind, std::size_t bins, std::span<const std::uint32_t> order);
+
+// The equal-mass binning of the rows the cells were made from (forecast_cells.hpp),
+// in O(cells) plus one pass to label the rows: the same bins as
+// make_binning(..., equal_mass, bins), since a cell's weight is its rows'
+// weight summed in the order make_binning sums them. `total` is the rows'
+// weight summed in row order (as make_binning sums it).
+Binning make_mass_binning_of_cells(const ForecastCells& cells, double total, std::size_t bins);
 
 struct BinSums {
   std::size_t rows = 0;     // rows in the bin (zero-weight rows included)

@@ -111,9 +111,9 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
   }
 
   // Each binning made once, and its sums taken once.
-  const Binning width = make_binning_ordered(f, w, BinningKind::equal_width, o.bins, cells.order);
+  const Binning width = make_binning(f, w, BinningKind::equal_width, o.bins);
   const std::vector<BinSums> width_sums = bin_sums(f, y, w, width);
-  const Binning mass = make_binning_ordered(f, w, BinningKind::equal_mass, o.bins, cells.order);
+  const Binning mass = make_mass_binning_of_cells(cells, t.weight, o.bins);
   const std::vector<BinSums> mass_sums = bin_sums(f, y, w, mass);
   const Binning& binning = o.binning == BinningKind::equal_mass ? mass : width;
   const std::vector<BinSums>& sums = o.binning == BinningKind::equal_mass ? mass_sums : width_sums;
@@ -124,7 +124,7 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
   if (o.hl_groups == o.bins) {
     s.hosmer_lemeshow = hosmer_lemeshow(mass_sums, o.hl_groups);
   } else {
-    const Binning groups = make_binning_ordered(f, w, BinningKind::equal_mass, o.hl_groups, cells.order);
+    const Binning groups = make_mass_binning_of_cells(cells, t.weight, o.hl_groups);
     s.hosmer_lemeshow = hosmer_lemeshow(bin_sums(f, y, w, groups), o.hl_groups);
   }
   s.spiegelhalter = spiegelhalter_z(f, y, w);

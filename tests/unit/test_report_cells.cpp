@@ -123,6 +123,12 @@ TEST_CASE("Forecast cells: equal-mass binning in a given order equals make_binni
   CHECK(a.bin_of_row == b.bin_of_row);
   CHECK(a.edge_lo == b.edge_lo);
   CHECK(a.edge_hi == b.edge_hi);
+  double total = 0.0;
+  for (double w : r.w) total += w;
+  const auto m = plumb::make_mass_binning_of_cells(c, total, 7);
+  CHECK(a.bin_of_row == m.bin_of_row);
+  CHECK(a.edge_lo == m.edge_lo);
+  CHECK(a.edge_hi == m.edge_hi);
 }
 
 namespace {
