@@ -111,10 +111,12 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
   }
 
   // Each binning made once, and its sums taken once.
-  const Binning width = make_binning(f, w, BinningKind::equal_width, o.bins);
+  Binning width = make_binning(f, w, BinningKind::equal_width, o.bins);
   const std::vector<BinSums> width_sums = bin_sums(f, y, w, width);
-  const Binning mass = make_mass_binning_of_cells(cells, t.weight, o.bins);
+  Binning mass = make_mass_binning_of_cells(cells, t.weight, o.bins);
   const std::vector<BinSums> mass_sums = bin_sums(f, y, w, mass);
+  // Only the chosen binning's row labels are needed from here on.
+  std::vector<std::uint32_t>().swap(o.binning == BinningKind::equal_mass ? width.bin_of_row : mass.bin_of_row);
   const Binning& binning = o.binning == BinningKind::equal_mass ? mass : width;
   const std::vector<BinSums>& sums = o.binning == BinningKind::equal_mass ? mass_sums : width_sums;
   s.murphy = murphy_decomposition(f, y, w, binning, sums, s.brier);
