@@ -73,6 +73,16 @@ BootstrapResult bootstrap_metrics(std::span<const double> forecast,
 // weight base[c] each; what bootstrap_metrics builds from rows (one cell
 // per forecast and label without weights, one per row with them) and
 // report --tally reads from a tally of unweighted rows.
+// The cells bootstrap_metrics resamples, for bootstrap_metrics_of_cells:
+// without weights one per forecast and label (count rows of weight 1), with
+// weights one per row, in the order of `cells` (made for these rows).
+struct BootstrapCells {
+  std::vector<double> p, y, base;
+  std::vector<std::uint64_t> count;
+};
+BootstrapCells bootstrap_cells(std::span<const double> forecast, std::span<const double> label,
+                               std::span<const double> weight, const ForecastCells& cells);
+
 BootstrapResult bootstrap_metrics_of_cells(std::span<const double> p, std::span<const double> y,
                                            std::span<const double> base, std::span<const std::uint64_t> count,
                                            const BootstrapOptions& options);

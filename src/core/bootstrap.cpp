@@ -230,8 +230,18 @@ BootstrapResult bootstrap_metrics(std::span<const double> forecast,
   // label are one cell of `count` rows (a replicate draws its total weight
   // as one Poisson(count), the sum of their Poisson(1) counts); with
   // weights, every row is a cell of its own.
-  std::vector<double> p, y, base;
-  std::vector<std::uint64_t> count;
+  const BootstrapCells c = bootstrap_cells(forecast, label, weight, forecast_cells);
+  return bootstrap_metrics_of_cells(c.p, c.y, c.base, c.count, options);
+}
+
+BootstrapCells bootstrap_cells(std::span<const double> forecast, std::span<const double> label,
+                               std::span<const double> weight, const ForecastCells& forecast_cells) {
+  const std::size_t n = forecast.size();
+  const std::vector<std::uint32_t>& order = forecast_cells.order;
+  if (order.size() != n) throw Error(ErrorKind::internal, "bootstrap_cells: the cells were made for other rows");
+  BootstrapCells out;
+  std::vector<double>&p = out.p, &y = out.y, &base = out.base;
+  std::vector<std::uint64_t>& count = out.count;
   if (weight.empty()) {
     for (std::size_t k = 0; k < n;) {
       const double f = forecast[order[k]];
@@ -253,7 +263,7 @@ BootstrapResult bootstrap_metrics(std::span<const double> forecast,
       count.push_back(1);
     }
   }
-  return bootstrap_metrics_of_cells(p, y, base, count, options);
+  return out;
 }
 
 BootstrapResult bootstrap_metrics_of_cells(std::span<const double> p, std::span<const double> y,

@@ -87,7 +87,7 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
 
   // One sort of the rows into one cell per distinct forecast; everything
   // that needs the rows in forecast order reads these.
-  const ForecastCells cells = make_forecast_cells(f, y, w);
+  ForecastCells cells = make_forecast_cells(f, y, w);
   s.auc = auc_cells(cells.positives, cells.negatives);
   s.regression = calibration_regression(cells);
 
@@ -139,9 +139,24 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
     b.confidence = o.confidence;
     b.binning = BinningKind::equal_width;
     b.bins = o.bins;
-    s.bootstrap = bootstrap_metrics(f, y, w, b, cells);
+    // The resampled cells, then (without weights) the band's cells and bin
+    // weights; the row order and the rows' bins are released first, as the
+    // replicates need only cells.
+    const BootstrapCells resampled = bootstrap_cells(f, y, w, cells);
     b.binning = o.binning;
-    s.band = consistency_band(f, w, binning, b, cells);
+    if (w.empty()) {
+      std::vector<std::uint32_t> band_bin(cells.size());
+      for (std::size_t c = 0; c < cells.size(); ++c) band_bin[c] = binning.bin_of_row[cells.order[cells.first[c]]];
+      std::vector<double> bin_weight(sums.size());
+      for (std::size_t i = 0; i < sums.size(); ++i) bin_weight[i] = sums[i].weight;
+      std::vector<std::uint32_t>().swap(cells.order);
+      std::vector<std::uint32_t>().swap(o.binning == BinningKind::equal_mass ? mass.bin_of_row : width.bin_of_row);
+      s.band = consistency_band_of_cells(cells.forecast, cells.rows, band_bin, bin_weight, b);
+    } else {
+      s.band = consistency_band(f, w, binning, b, cells);
+    }
+    b.binning = BinningKind::equal_width;
+    s.bootstrap = bootstrap_metrics_of_cells(resampled.p, resampled.y, resampled.base, resampled.count, b);
   }
   return s;
 }
