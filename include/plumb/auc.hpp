@@ -19,4 +19,8 @@ double auc(std::span<const double> forecast, std::span<const double> label,
 double auc_sorted(std::span<const double> forecast, std::span<const double> label,
                   std::span<const double> weight = {});
 
+// The same from one cell per distinct forecast in ascending order, with the
+// cell's positive weight sum w y and negative weight sum w (1 - y); O(cells).
+double auc_cells(std::span<const double> positives, std::span<const double> negatives);
+
 }  // namespace plumb

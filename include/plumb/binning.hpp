@@ -7,6 +7,8 @@
 #include <string_view>
 #include <vector>
 
+#include "plumb/forecast_cells.hpp"
+
 namespace plumb {
 
 // equal_width: bin b holds forecasts p with min(k - 1, floor(k * p)) == b, so
@@ -37,6 +39,10 @@ struct Binning {
 // or of the same length, finite and >= 0. `bins` >= 1.
 // Throws plumb::Error(usage) on bins == 0 and Error(internal) on mismatched
 // lengths. Cost: equal_width O(n), equal_mass one sort O(n log n).
+// The equal-width bin of one forecast among `bins`: floor(bins * p), with
+// p = 1 in the last bin (and anything not above 0 in the first).
+std::uint32_t equal_width_bin(double forecast, std::size_t bins) noexcept;
+
 Binning make_binning(std::span<const double> forecast, std::span<const double> weight,
                      BinningKind kind, std::size_t bins);
 
@@ -46,6 +52,18 @@ Binning make_binning_sorted(std::span<const double> forecast, std::span<const do
                             BinningKind kind, std::size_t bins);
 
 // Weighted sums of one bin. Weights act as frequency weights throughout.
+// The same with the rows' order by forecast given (a stable order, as
+// ForecastCells::order), so equal_mass needs no sort of its own.
+Binning make_binning_ordered(std::span<const double> forecast, std::span<const double> weight,
+                             BinningKind kind, std::size_t bins, std::span<const std::uint32_t> order);
+
+// The equal-mass binning of the rows the cells were made from (forecast_cells.hpp),
+// in O(cells) plus one pass to label the rows: the same bins as
+// make_binning(..., equal_mass, bins), since a cell's weight is its rows'
+// weight summed in the order make_binning sums them. `total` is the rows'
+// weight summed in row order (as make_binning sums it).
+Binning make_mass_binning_of_cells(const ForecastCells& cells, double total, std::size_t bins);
+
 struct BinSums {
   std::size_t rows = 0;     // rows in the bin (zero-weight rows included)
   double weight = 0.0;      // sum w

@@ -8,6 +8,7 @@
 #include <vector>
 
 #include "plumb/binning.hpp"
+#include "plumb/forecast_cells.hpp"
 #include "plumb/reliability.hpp"
 
 namespace plumb {
@@ -60,6 +61,31 @@ BootstrapResult bootstrap_metrics(std::span<const double> forecast,
                                   std::span<const double> label,
                                   std::span<const double> weight,
                                   const BootstrapOptions& options);
+// The same with the rows' cells (forecast_cells.hpp) made for these rows
+// already: no sort of its own; same numbers.
+BootstrapResult bootstrap_metrics(std::span<const double> forecast,
+                                  std::span<const double> label,
+                                  std::span<const double> weight,
+                                  const BootstrapOptions& options, const ForecastCells& cells);
+
+// The same from cells of rows, in ascending forecast (ties in any fixed
+// order): cell c stands for count[c] rows of forecast p[c], label y[c] and
+// weight base[c] each; what bootstrap_metrics builds from rows (one cell
+// per forecast and label without weights, one per row with them) and
+// report --tally reads from a tally of unweighted rows.
+// The cells bootstrap_metrics resamples, for bootstrap_metrics_of_cells:
+// without weights one per forecast and label (count rows of weight 1), with
+// weights one per row, in the order of `cells` (made for these rows).
+struct BootstrapCells {
+  std::vector<double> p, y, base;
+  std::vector<std::uint64_t> count;
+};
+BootstrapCells bootstrap_cells(std::span<const double> forecast, std::span<const double> label,
+                               std::span<const double> weight, const ForecastCells& cells);
+
+BootstrapResult bootstrap_metrics_of_cells(std::span<const double> p, std::span<const double> y,
+                                           std::span<const double> base, std::span<const std::uint64_t> count,
+                                           const BootstrapOptions& options);
 
 // Consistency band under calibration (Broecker and Smith 2007): keep the
 // forecasts and weights (hence the bins), redraw every label as
@@ -72,5 +98,19 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
                                        std::span<const double> weight,
                                        const Binning& binning,
                                        const BootstrapOptions& options);
+// The same with the rows' cells made already: no sort; same numbers.
+std::vector<Interval> consistency_band(std::span<const double> forecast,
+                                       std::span<const double> weight,
+                                       const Binning& binning,
+                                       const BootstrapOptions& options, const ForecastCells& cells);
+
+// The band of unweighted rows given as one cell per distinct forecast,
+// ascending: count[c] rows of forecast[c] in bin bin[c]; bin_weight[b] the
+// rows (weight) in bin b. Same numbers as consistency_band on those rows.
+std::vector<Interval> consistency_band_of_cells(std::span<const double> forecast,
+                                                std::span<const std::uint64_t> count,
+                                                std::span<const std::uint32_t> bin,
+                                                std::span<const double> bin_weight,
+                                                const BootstrapOptions& options);
 
 }  // namespace plumb

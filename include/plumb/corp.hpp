@@ -34,4 +34,14 @@ CorpDecomposition corp_decomposition(std::span<const double> forecast,
                                      std::span<const double> label,
                                      std::span<const double> weight = {});
 
+// The same given each row's recalibrated forecast (the PAV fit's value at
+// the row, in input order, as pav_values gives it), so a caller that has
+// fitted PAV once does not fit it again. The sums run over the rows in
+// input order, as corp_decomposition's do; `recalibrated` is moved into the
+// result.
+CorpDecomposition corp_decomposition_given(std::span<const double> forecast,
+                                           std::span<const double> label,
+                                           std::span<const double> weight,
+                                           std::vector<double> recalibrated);
+
 }  // namespace plumb

@@ -4,6 +4,8 @@
 #include <cstddef>
 #include <span>
 
+#include "plumb/binning.hpp"
+
 namespace plumb {
 
 // Groups are the equal-mass bins of binning.hpp ("deciles of risk" for
@@ -29,6 +31,10 @@ struct HosmerLemeshow {
 HosmerLemeshow hosmer_lemeshow(std::span<const double> forecast, std::span<const double> label,
                                std::span<const double> weight = {}, std::size_t groups = 10);
 
+// The same from the sums of the rows' equal_mass bins with `groups` bins
+// (bin_sums over make_binning(..., equal_mass, groups)).
+HosmerLemeshow hosmer_lemeshow(std::span<const BinSums> sums, std::size_t groups);
+
 // Spiegelhalter (1986):
 //   z = sum w (y - p)(1 - 2p) / sqrt(sum w (1 - 2p)^2 p (1 - p))
 // standard normal under calibration (rows independent, frequency weights);
@@ -42,5 +48,9 @@ struct SpiegelhalterZ {
 
 SpiegelhalterZ spiegelhalter_z(std::span<const double> forecast, std::span<const double> label,
                                std::span<const double> weight = {});
+
+// The statistic from its sums over the rows: numerator sum w (y - p)(1 - 2p)
+// and variance sum w (1 - 2p)^2 p (1 - p).
+SpiegelhalterZ spiegelhalter_from_sums(double numerator, double variance);
 
 }  // namespace plumb

@@ -35,4 +35,19 @@ MurphyDecomposition murphy_decomposition(std::span<const double> forecast,
                                          std::span<const double> weight,
                                          const Binning& binning);
 
+// The same with the bins' sums (bin_sums over the same rows and binning) and
+// the Brier score (brier_score over the same rows) already at hand.
+MurphyDecomposition murphy_decomposition(std::span<const double> forecast,
+                                         std::span<const double> label,
+                                         std::span<const double> weight,
+                                         const Binning& binning, std::span<const BinSums> sums,
+                                         double brier);
+
+// The decomposition from a binning's sums, the Brier score and the rows'
+// within-bin sums sum w (p - mean forecast of the bin)^2 and
+// sum w (p - mean forecast)(y - observed of the bin), not yet divided by
+// the total weight (bins of no weight left out).
+MurphyDecomposition murphy_from_sums(std::span<const BinSums> sums, double brier, double within_variance,
+                                     double within_covariance);
+
 }  // namespace plumb

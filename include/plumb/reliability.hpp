@@ -48,4 +48,8 @@ ReliabilityTable reliability_table(std::span<const double> forecast,
                                    std::span<const double> weight, BinningKind kind,
                                    std::size_t bins, double confidence = 0.95);
 
+// The same from a binning and its sums (bin_sums over the same rows).
+ReliabilityTable reliability_table(const Binning& binning, std::span<const BinSums> sums,
+                                   double confidence = 0.95);
+
 }  // namespace plumb

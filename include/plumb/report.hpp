@@ -17,6 +17,7 @@
 #include "plumb/calibration_error.hpp"
 #include "plumb/calibration_regression.hpp"
 #include "plumb/corp.hpp"
+#include "plumb/forecast_cells.hpp"
 #include "plumb/goodness_of_fit.hpp"
 #include "plumb/murphy.hpp"
 #include "plumb/pav.hpp"
@@ -178,5 +179,23 @@ Report build_report(std::span<const ForecastColumn> columns, std::span<const dou
                     std::span<const double> weight, std::span<const std::uint32_t> segment,
                     std::span<const std::string> segment_names, const std::vector<Gate>& gates,
                     const ReportOptions& options);
+
+// One forecast column given as cells of rows (forecast_cells.hpp), as
+// report --tally reads it.
+struct ForecastCellColumn {
+  std::string name;
+  LabelCells cells;
+};
+
+// The report of the rows the cells stand for, without segments: with
+// unit_weights the same report, number for number, as build_report on those
+// rows in the cells' order (every row-order sum is taken row by row; the
+// calibration regression works on cells in both). Memory and the rank-based
+// work are O(cells); the row-order sums are O(rows) additions. With weights
+// the sums take each cell once with its weight, and the effective sizes
+// read weight_sq; the bootstrap then needs each row's weight and
+// options.bootstrap > 0 gives Error(usage).
+Report build_report_of_cells(std::span<const ForecastCellColumn> columns, const std::vector<Gate>& gates,
+                             const ReportOptions& options);
 
 }  // namespace plumb

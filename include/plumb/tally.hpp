@@ -18,7 +18,9 @@
 namespace plumb {
 
 inline constexpr const char* tally_format_marker = "plumb-tally";
-inline constexpr int tally_format_version = 1;
+// Version 2 adds weight_sq (tallies of weighted rows); version 1 files are
+// still read, without it.
+inline constexpr int tally_format_version = 2;
 
 // One input file a tally was built from.
 struct TallySource {
@@ -51,6 +53,11 @@ struct Tally {
   std::vector<double> score;
   std::vector<std::uint64_t> count;
   std::vector<double> negative, positive;
+  // With a weight column: per score the sum of its rows' squared weights
+  // (what the report's effective sample sizes need). Empty without a weight
+  // column (every square is 1, so it is count), and for tallies of format 1
+  // or merged with one, which did not keep it.
+  std::vector<double> weight_sq;
 };
 
 // The per-score sums of `data` (rows of one score summed in input order,

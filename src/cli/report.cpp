@@ -42,19 +42,20 @@ struct ReportCliOptions {
   std::vector<std::string> given;  // row-reading options given on the command line
 };
 
-// The rows a tally of unweighted rows stands for, in score order (at each
-// score its negatives, then its positives): a reordering of the rows it was
-// built from, which is all the report needs (its figures and its bootstrap
-// treat the rows as a set). Every requested column is the tally's score.
-io::LabelledRows rows_of_tally(const ReportCliOptions& o, const io::LabelledColumns& columns) {
-  const Tally t = load_tally(o.tally);
+// The tally named by --tally, checked against the columns asked for.
+Tally load_report_tally(const ReportCliOptions& o, const io::LabelledColumns& columns) {
+  Tally t = load_tally(o.tally);
   Location loc;
   loc.file = o.tally;
-  if (!t.unit_weights)
+  if (!t.weight_column.empty() && t.weight_sq.size() != t.score.size())
+    throw Error(ErrorKind::artifact,
+                "the tally of weighted rows lacks the sums of squared weights that the report's effective sample "
+                "sizes need (format version 1, or merged with such a tally)",
+                loc, t.weight_column, "a tally made or merged by plumb with tally format version 2, or plumb report on the rows");
+  if (!t.unit_weights && o.bootstrap > 0)
     throw Error(ErrorKind::usage,
-                "report --tally reads tallies of unweighted rows only: with weights, the report's effective "
-                "sample sizes need each row's weight, which a tally has summed",
-                loc, t.weight_column, "a tally made without --weight, or plumb report on the rows");
+                "the bootstrap resamples rows, and a tally of weighted rows has summed their weights", loc,
+                t.weight_column, "--bootstrap 0 with a weighted tally, or plumb report on the rows");
   for (const io::ScoreColumn& c : columns.scores) {
     if (c.column != t.score_column)
       throw Error(ErrorKind::usage, "the tally holds column '" + t.score_column + "', not the column asked for", loc,
@@ -65,25 +66,44 @@ io::LabelledRows rows_of_tally(const ReportCliOptions& o, const io::LabelledColu
                       std::string(to_string(c.scale)) + " scale asked for",
                   loc, c.column, "--score for probability tallies, --map of a map fitted on the tally's scale");
   }
-  io::LabelledRows rows;
-  std::vector<double> score;
-  score.reserve(t.rows);
-  rows.label.reserve(t.rows);
+  return t;
+}
+
+// The rows a tally stands for as cells, in score order (at each score its
+// negatives, then its positives): a reordering of the rows it was built
+// from, which is all the report needs (its figures and its bootstrap treat
+// the rows as a set). `map` (may be null) turns each score into the
+// forecast; `outside` counts the rows whose score the map held at an end.
+// With weights a score's rows and squared weights are not split by label:
+// they sit on its first cell (the report's bins hold whole scores).
+LabelCells cells_of_tally(const Tally& t, const CalibrationMap* map, std::uint64_t* outside) {
+  LabelCells cells;
+  cells.unit_weights = t.unit_weights;
   for (std::size_t i = 0; i < t.score.size(); ++i) {
-    score.insert(score.end(), t.count[i], t.score[i]);
-    rows.label.insert(rows.label.end(), static_cast<std::size_t>(t.negative[i]), 0.0);
-    rows.label.insert(rows.label.end(), static_cast<std::size_t>(t.positive[i]), 1.0);
+    double f = t.score[i];
+    if (map) {
+      const Mapped r = map->map(f);
+      f = r.probability;
+      if (r.outside_fit_range && outside) *outside += t.count[i];
+    }
+    const double weight[2] = {t.negative[i], t.positive[i]};
+    bool first = true;
+    for (int l = 0; l < 2; ++l) {
+      if (!(weight[l] > 0.0)) continue;
+      cells.forecast.push_back(f);
+      cells.label.push_back(l);
+      cells.weight.push_back(weight[l]);
+      if (t.unit_weights) {
+        cells.weight_sq.push_back(weight[l]);  // each row's square is 1
+        cells.rows.push_back(static_cast<std::uint64_t>(weight[l]));
+      } else {
+        cells.weight_sq.push_back(first ? t.weight_sq[i] : 0.0);
+        cells.rows.push_back(first ? t.count[i] : 0);
+      }
+      first = false;
+    }
   }
-  rows.scores.assign(columns.scores.size(), score);
-  rows.score_columns.assign(columns.scores.size(), t.score_column);
-  rows.source = o.tally == "-" ? "<stdin>" : o.tally;
-  rows.label_column = t.label_column;
-  rows.rows = t.rows;
-  rows.positives = t.positives;
-  rows.weight_total = t.weight_total;
-  rows.score_min = t.score_min;
-  rows.score_max = t.score_max;
-  return rows;
+  return cells;
 }
 
 // Below this many scores outside the fitted range a mapped column is quiet.
@@ -201,6 +221,8 @@ void write_file(const std::string& path, const std::string& text) {
   out.commit();
 }
 
+int emit_report(const ReportCliOptions& o, const Report& report);
+
 int run_report(const ReportCliOptions& o) {
   std::vector<Gate> gates;
   for (const std::string& m : o.max) gates.push_back(parse_gate(m, GateBound::max));
@@ -245,10 +267,48 @@ int run_report(const ReportCliOptions& o) {
   if (o.tally.empty() && o.input.label.empty())
     throw Error(ErrorKind::usage, "report needs --label (or --tally FILE)", {}, {}, "--label COL FILE, or --tally FILE");
 
+  // The columns each gate reads, from the reported columns' names in order.
+  auto gate_reads_of = [&](const std::vector<std::string>& names) {
+    std::vector<GateTarget> targets;
+    for (std::size_t k = 0; k < names.size(); ++k)
+      targets.push_back({names[k], k < o.scores.size() ? std::string() : o.maps[k - o.scores.size()]});
+    return gate_columns(gates, targets);
+  };
+  if (!o.tally.empty()) {
+    // The tally is read as cells: memory grows with its distinct scores, not its rows.
+    const Tally t = load_report_tally(o, columns);
+    std::vector<ForecastCellColumn> cell_columns;
+    std::vector<std::string> extra_cautions;
+    for (const std::string& s : o.scores) cell_columns.push_back({s, cells_of_tally(t, nullptr, nullptr)});
+    for (std::size_t m = 0; m < artifacts.size(); ++m) {
+      std::uint64_t outside = 0;
+      LabelCells cells = cells_of_tally(t, artifacts[m].map.get(), &outside);
+      std::uint64_t rows = 0;
+      for (std::uint64_t r : cells.rows) rows += r;
+      const std::string name = t.score_column + " via " + std::filesystem::path(o.maps[m]).filename().string();
+      if (static_cast<double>(outside) > outside_share_caution * static_cast<double>(rows))
+        extra_cautions.push_back(name + ": " + grouped(outside) +
+                                 " scores lie outside the range the map was fitted on and were held at its end values");
+      cell_columns.push_back({name, std::move(cells)});
+    }
+    std::vector<std::string> names(o.scores);
+    for (std::size_t m = 0; m < artifacts.size(); ++m) names.push_back(cell_columns[o.scores.size() + m].name);
+    const std::vector<std::vector<std::size_t>> gate_reads = gate_reads_of(names);
+    Report report = build_report_of_cells(cell_columns, {}, ro);
+    for (std::size_t g = 0; g < gates.size(); ++g)
+      for (std::size_t k : gate_reads[g]) report.gates.push_back(check_gate(gates[g], report.scores[k].overall));
+    report.source = o.tally == "-" ? "<stdin>" : o.tally;
+    report.label_column = t.label_column;
+    if (!t.unit_weights) report.weight_column = t.weight_column;
+    report.cautions.insert(report.cautions.end(), extra_cautions.begin(), extra_cautions.end());
+    for (std::size_t m = 0; m < artifacts.size(); ++m)
+      report.scores[o.scores.size() + m].map =
+          MapOrigin{t.score_column, o.maps[m], std::string(artifacts[m].map->kind())};
+    return emit_report(o, report);
+  }
   const io::LabelledRows rows = [&] {
     try {
-      return o.tally.empty() ? read_rows_with_progress("plumb report: reading", o.input, columns)
-                             : rows_of_tally(o, columns);
+      return read_rows_with_progress("plumb report: reading", o.input, columns);
     } catch (const Error& e) {
       // A map's own column is missing: say how to point the map at another.
       if (e.kind() == ErrorKind::input && e.message() == "no score column" && o.map_scores.empty())
@@ -284,10 +344,9 @@ int run_report(const ReportCliOptions& o) {
   }
   for (std::size_t m = 0; m < mapped.size(); ++m) forecasts[o.scores.size() + m].forecast = mapped[m];
 
-  std::vector<GateTarget> targets;
-  for (std::size_t k = 0; k < forecasts.size(); ++k)
-    targets.push_back({forecasts[k].name, k < o.scores.size() ? std::string() : o.maps[k - o.scores.size()]});
-  const std::vector<std::vector<std::size_t>> gate_reads = gate_columns(gates, targets);
+  std::vector<std::string> names;
+  for (const ForecastColumn& f : forecasts) names.push_back(f.name);
+  const std::vector<std::vector<std::size_t>> gate_reads = gate_reads_of(names);
 
   Report report = build_report(forecasts, rows.label, rows.weight, rows.segment, rows.segment_names, {}, ro);
   for (std::size_t g = 0; g < gates.size(); ++g)
@@ -301,7 +360,11 @@ int run_report(const ReportCliOptions& o) {
   for (std::size_t m = 0; m < artifacts.size(); ++m)
     report.scores[o.scores.size() + m].map =
         MapOrigin{rows.score_columns[o.scores.size() + m], o.maps[m], std::string(artifacts[m].map->kind())};
+  return emit_report(o, report);
+}
 
+// Writes the report's files, then the terminal report; the gates' exit code.
+int emit_report(const ReportCliOptions& o, const Report& report) {
   // Files first, each whole or not at all; then the terminal report.
   if (!o.json_path.empty()) write_file(o.json_path, report_to_json(report).dump(2) + "\n");
   if (!o.svg_path.empty()) write_file(o.svg_path, render_svg(report));
@@ -347,8 +410,10 @@ Command add_report_command(CLI::App& app) {
       "  plumb report --map late.map.json --score risk --label missed --max ece=0.02 --min auc=0.7 -q holdout.csv\n"
       "  plumb report --score risk --map late.map.json --tally all.tally.json\n\n"
       "With --tally the report is that of the tallied rows (the figures are sums over rows, which the\n"
-      "tally keeps per score; the bootstrap resamples the rows the tally stands for, holding them in\n"
-      "memory as the rows would be). Tallies with weights and segments (--by) are not supported.\n\n"
+      "tally keeps per score; it is read as one cell per score and label, so memory grows with the\n"
+      "distinct scores, not the rows). A tally of weighted rows needs --bootstrap 0 (the bootstrap\n"
+      "resamples rows, whose weights the tally has summed) and tally format version 2, which keeps the\n"
+      "sums of squared weights. Segments (--by) are not supported.\n\n"
       "Cautions: a calibrated score is only as good as the data it was checked on; recalibration is not\n"
       "model validation; credit, insurance and health uses follow local rules and licensed practice.");
   cmd->add_option("file", o->input.file, "CSV or TSV file with a header row, plain or gzip; - or nothing reads standard input")
@@ -368,7 +433,7 @@ Command add_report_command(CLI::App& app) {
   cmd->add_option("--label", o->input.label,
                   "Column holding the observed outcome (name or 1-based index); required unless --tally");
   cmd->add_option("--tally", o->tally,
-                  "Report on a tally of unweighted rows (from plumb tally or merge) instead of rows; --score "
+                  "Report on a tally (from plumb tally or merge) instead of rows; --score "
                   "names its column. No FILE, --label, --weight, --positive, --negative, --missing, --by or --sep");
   cmd->add_option("--weight", o->input.weight, "Column of non-negative row weights (default: every row weighs 1)");
   add_label_value_options(*cmd, o->input);

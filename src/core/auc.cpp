@@ -33,6 +33,21 @@ double auc_sorted(std::span<const double> forecast, std::span<const double> labe
   return wins / (positives * negatives_below);
 }
 
+double auc_cells(std::span<const double> positives, std::span<const double> negatives) {
+  if (positives.size() != negatives.size())
+    throw Error(ErrorKind::internal, "auc_cells: positive and negative sums differ in length");
+  double negatives_below = 0.0, wins = 0.0, total_positives = 0.0;
+  for (std::size_t c = 0; c < positives.size(); ++c) {
+    const double pos = positives[c], neg = negatives[c];
+    wins += pos * (negatives_below + 0.5 * neg);
+    negatives_below += neg;
+    total_positives += pos;
+  }
+  if (!(total_positives > 0.0) || !(negatives_below > 0.0))
+    return std::numeric_limits<double>::quiet_NaN();
+  return wins / (total_positives * negatives_below);
+}
+
 double auc(std::span<const double> forecast, std::span<const double> label,
            std::span<const double> weight) {
   detail::check_metric_input("auc", forecast, label, weight);

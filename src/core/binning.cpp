@@ -17,45 +17,77 @@ namespace {
 
 constexpr double nan = std::numeric_limits<double>::quiet_NaN();
 
+}  // namespace
+
 std::uint32_t equal_width_bin(double p, std::size_t k) noexcept {
   const double b = std::floor(static_cast<double>(k) * p);
   if (!(b > 0.0)) return 0;
   return static_cast<std::uint32_t>(std::min(b, static_cast<double>(k - 1)));
 }
 
-}  // namespace
-
 namespace {
 
 // Both entry points share this; `order` lists the rows by forecast, or is
 // null when the rows are already sorted.
+template <class Index>
 Binning make_binning_in_order(std::span<const double> forecast, std::span<const double> weight,
-                              BinningKind kind, std::size_t bins,
-                              const std::vector<std::size_t>* order);
+                              BinningKind kind, std::size_t bins, const Index* order);
 
 }  // namespace
 
 Binning make_binning(std::span<const double> forecast, std::span<const double> weight,
                      BinningKind kind, std::size_t bins) {
   if (kind == BinningKind::equal_width)
-    return make_binning_in_order(forecast, weight, kind, bins, nullptr);
+    return make_binning_in_order<std::size_t>(forecast, weight, kind, bins, nullptr);
   std::vector<std::size_t> order(forecast.size());
   std::iota(order.begin(), order.end(), std::size_t{0});
   std::stable_sort(order.begin(), order.end(),
                    [&](std::size_t a, std::size_t b) { return forecast[a] < forecast[b]; });
-  return make_binning_in_order(forecast, weight, kind, bins, &order);
+  return make_binning_in_order(forecast, weight, kind, bins, order.data());
+}
+
+Binning make_binning_ordered(std::span<const double> forecast, std::span<const double> weight,
+                             BinningKind kind, std::size_t bins, std::span<const std::uint32_t> order) {
+  if (order.size() != forecast.size())
+    throw Error(ErrorKind::internal, "make_binning: the order was made for other rows");
+  return make_binning_in_order(forecast, weight, kind, bins,
+                               kind == BinningKind::equal_mass ? order.data() : static_cast<const std::uint32_t*>(nullptr));
+}
+
+Binning make_mass_binning_of_cells(const ForecastCells& cells, double total, std::size_t bins) {
+  if (bins == 0)
+    throw Error(ErrorKind::usage, "the number of bins must be positive", {}, "0", "1 or more");
+  Binning out;
+  out.kind = BinningKind::equal_mass;
+  out.bin_count = bins;
+  out.bin_of_row.resize(cells.order.size());
+  out.edge_lo.assign(bins, nan);
+  out.edge_hi.assign(bins, nan);
+  double before = 0.0;
+  const double k = static_cast<double>(bins);
+  for (std::size_t c = 0; c < cells.size(); ++c) {
+    const double group = cells.weight[c];
+    const double pos = total > 0.0 ? k * (before + 0.5 * group) / total : 0.0;
+    const auto b = static_cast<std::uint32_t>(std::min(std::floor(pos), k - 1.0));
+    for (std::size_t t = cells.first[c]; t < cells.first[c + 1]; ++t) out.bin_of_row[cells.order[t]] = b;
+    const double p = cells.forecast[c];
+    if (std::isnan(out.edge_lo[b])) out.edge_lo[b] = p;
+    out.edge_hi[b] = p;
+    before += group;
+  }
+  return out;
 }
 
 Binning make_binning_sorted(std::span<const double> forecast, std::span<const double> weight,
                             BinningKind kind, std::size_t bins) {
-  return make_binning_in_order(forecast, weight, kind, bins, nullptr);
+  return make_binning_in_order<std::size_t>(forecast, weight, kind, bins, nullptr);
 }
 
 namespace {
 
+template <class Index>
 Binning make_binning_in_order(std::span<const double> forecast, std::span<const double> weight,
-                              BinningKind kind, std::size_t bins,
-                              const std::vector<std::size_t>* order) {
+                              BinningKind kind, std::size_t bins, const Index* order) {
   if (bins == 0)
     throw Error(ErrorKind::usage, "the number of bins must be positive", {}, "0", "1 or more");
   if (!weight.empty() && weight.size() != forecast.size())
@@ -75,7 +107,7 @@ Binning make_binning_in_order(std::span<const double> forecast, std::span<const 
     }
     return out;
   }
-  auto row = [order](std::size_t k) { return order ? (*order)[k] : k; };
+  auto row = [order](std::size_t k) -> std::size_t { return order ? static_cast<std::size_t>(order[k]) : k; };
   double total = 0.0;
   for (std::size_t i = 0; i < n; ++i) total += detail::weight_at(weight, i);
   double before = 0.0;

@@ -121,6 +121,16 @@ struct BinomialCell {
   }
 };
 
+// One cell of the consistency band: its label law and its bin.
+struct BandCell {
+  BinomialCell law;
+  std::uint32_t bin;
+};
+
+std::vector<Interval> band_of_cells(const std::vector<BandCell>& cells, const std::vector<double>& bin_weight,
+                                    std::span<const double> forecast, std::span<const double> weight,
+                                    const Binning& binning, const BootstrapOptions& options);
+
 BootstrapInterval percentile_interval(std::vector<double> values, double confidence) {
   values.erase(std::remove_if(values.begin(), values.end(),
                               [](double v) { return !std::isfinite(v); }),
@@ -204,17 +214,34 @@ BootstrapResult bootstrap_metrics(std::span<const double> forecast,
                                   const BootstrapOptions& options) {
   detail::check_metric_input("bootstrap_metrics", forecast, label, weight);
   check_options(options);
+  return bootstrap_metrics(forecast, label, weight, options, make_forecast_cells(forecast, label, weight));
+}
+
+BootstrapResult bootstrap_metrics(std::span<const double> forecast,
+                                  std::span<const double> label,
+                                  std::span<const double> weight,
+                                  const BootstrapOptions& options, const ForecastCells& forecast_cells) {
+  detail::check_metric_input("bootstrap_metrics", forecast, label, weight);
+  check_options(options);
   const std::size_t n = forecast.size();
-  std::vector<std::size_t> order(n);
-  std::iota(order.begin(), order.end(), std::size_t{0});
-  std::stable_sort(order.begin(), order.end(),
-                   [&](std::size_t a, std::size_t b) { return forecast[a] < forecast[b]; });
+  const std::vector<std::uint32_t>& order = forecast_cells.order;
+  if (order.size() != n) throw Error(ErrorKind::internal, "bootstrap_metrics: the cells were made for other rows");
   // Cells in forecast order: without weights, the rows of one forecast and
   // label are one cell of `count` rows (a replicate draws its total weight
   // as one Poisson(count), the sum of their Poisson(1) counts); with
   // weights, every row is a cell of its own.
-  std::vector<double> p, y, base;
-  std::vector<std::uint64_t> count;
+  const BootstrapCells c = bootstrap_cells(forecast, label, weight, forecast_cells);
+  return bootstrap_metrics_of_cells(c.p, c.y, c.base, c.count, options);
+}
+
+BootstrapCells bootstrap_cells(std::span<const double> forecast, std::span<const double> label,
+                               std::span<const double> weight, const ForecastCells& forecast_cells) {
+  const std::size_t n = forecast.size();
+  const std::vector<std::uint32_t>& order = forecast_cells.order;
+  if (order.size() != n) throw Error(ErrorKind::internal, "bootstrap_cells: the cells were made for other rows");
+  BootstrapCells out;
+  std::vector<double>&p = out.p, &y = out.y, &base = out.base;
+  std::vector<std::uint64_t>& count = out.count;
   if (weight.empty()) {
     for (std::size_t k = 0; k < n;) {
       const double f = forecast[order[k]];
@@ -236,7 +263,16 @@ BootstrapResult bootstrap_metrics(std::span<const double> forecast,
       count.push_back(1);
     }
   }
+  return out;
+}
+
+BootstrapResult bootstrap_metrics_of_cells(std::span<const double> p, std::span<const double> y,
+                                           std::span<const double> base, std::span<const std::uint64_t> count,
+                                           const BootstrapOptions& options) {
+  check_options(options);
   const std::size_t cells = p.size();
+  if (y.size() != cells || base.size() != cells || count.size() != cells)
+    throw Error(ErrorKind::internal, "bootstrap_metrics: cell columns differ in length");
 
   const std::size_t R = options.replicates;
   std::vector<double> ece(R), l2(R), brier(R), mcb(R), area(R);
@@ -286,6 +322,15 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
                                        std::span<const double> weight,
                                        const Binning& binning,
                                        const BootstrapOptions& options) {
+  return consistency_band(forecast, weight, binning, options,
+                          weight.empty() ? make_forecast_cells(forecast, std::vector<double>(forecast.size(), 0.0), weight)
+                                         : ForecastCells{});
+}
+
+std::vector<Interval> consistency_band(std::span<const double> forecast,
+                                       std::span<const double> weight,
+                                       const Binning& binning,
+                                       const BootstrapOptions& options, const ForecastCells& forecast_cells) {
   check_options(options);
   const std::size_t n = forecast.size();
   if ((!weight.empty() && weight.size() != n) || binning.bin_of_row.size() != n)
@@ -297,22 +342,26 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
   // Without weights, the rows of one forecast are one cell: its count of
   // positives is one Binomial(count, forecast) draw, the law of the sum of
   // its rows' Bernoulli labels. With weights every row is its own cell.
-  struct Cell {
-    BinomialCell law;
-    std::uint32_t bin;
-  };
-  std::vector<Cell> cells;
+  std::vector<BandCell> cells;
   if (weight.empty()) {
-    std::vector<std::pair<double, std::uint32_t>> rows(n);
-    for (std::size_t i = 0; i < n; ++i) rows[i] = {forecast[i], binning.bin_of_row[i]};
-    std::sort(rows.begin(), rows.end());
-    for (std::size_t k = 0; k < n;) {
-      std::size_t e = k;
-      while (e < n && rows[e] == rows[k]) ++e;
-      cells.push_back({BinomialCell(e - k, rows[k].first), rows[k].second});
-      k = e;
+    // One cell per distinct forecast, ascending (a forecast has one bin).
+    if (forecast_cells.order.size() != n)
+      throw Error(ErrorKind::internal, "consistency_band: the cells were made for other rows");
+    cells.reserve(forecast_cells.size());
+    for (std::size_t c = 0; c < forecast_cells.size(); ++c) {
+      const std::size_t row = forecast_cells.order[forecast_cells.first[c]];
+      cells.push_back({BinomialCell(forecast_cells.rows[c], forecast_cells.forecast[c]), binning.bin_of_row[row]});
     }
   }
+  return band_of_cells(cells, bin_weight, forecast, weight, binning, options);
+}
+
+namespace {
+
+std::vector<Interval> band_of_cells(const std::vector<BandCell>& cells, const std::vector<double>& bin_weight,
+                                    std::span<const double> forecast, std::span<const double> weight,
+                                    const Binning& binning, const BootstrapOptions& options) {
+  const std::size_t bins = bin_weight.size(), n = forecast.size();
 
   const std::size_t R = options.replicates;
   std::vector<std::vector<double>> frequency(bins, std::vector<double>(R, nan));
@@ -321,7 +370,7 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
     std::mt19937_64 gen = replicate_generator(seed, r);
     positives.assign(bins, 0.0);
     if (weight.empty()) {
-      for (const Cell& c : cells) positives[c.bin] += static_cast<double>(c.law.draw(gen));
+      for (const BandCell& c : cells) positives[c.bin] += static_cast<double>(c.law.draw(gen));
     } else {
       for (std::size_t i = 0; i < n; ++i)
         if (uniform01(gen) < forecast[i]) positives[binning.bin_of_row[i]] += weight[i];
@@ -335,6 +384,24 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
     band[b] = {q.lo, q.hi};
   }
   return band;
+}
+
+}  // namespace
+
+std::vector<Interval> consistency_band_of_cells(std::span<const double> forecast,
+                                                std::span<const std::uint64_t> count,
+                                                std::span<const std::uint32_t> bin,
+                                                std::span<const double> bin_weight,
+                                                const BootstrapOptions& options) {
+  check_options(options);
+  if (count.size() != forecast.size() || bin.size() != forecast.size())
+    throw Error(ErrorKind::internal, "consistency_band: cell columns differ in length");
+  std::vector<BandCell> cells;
+  cells.reserve(forecast.size());
+  for (std::size_t c = 0; c < forecast.size(); ++c) cells.push_back({BinomialCell(count[c], forecast[c]), bin[c]});
+  Binning none;
+  none.bin_count = bin_weight.size();
+  return band_of_cells(cells, std::vector<double>(bin_weight.begin(), bin_weight.end()), {}, {}, none, options);
 }
 
 }  // namespace plumb

@@ -97,4 +97,37 @@ CalibrationRegression calibration_regression(std::span<const double> forecast,
   return out;
 }
 
+CalibrationRegression calibration_regression(const ForecastCells& cells) {
+  CalibrationRegression out;
+  std::vector<double> logit, label, weight;
+  logit.reserve(2 * cells.size());
+  label.reserve(2 * cells.size());
+  weight.reserve(2 * cells.size());
+  double total = 0.0;
+  for (std::size_t c = 0; c < cells.size(); ++c) {
+    bool clipped = false;
+    const double l = clipped_logit(cells.forecast[c], &clipped);
+    if (clipped) out.clipped += cells.rows[c];
+    total += cells.weight[c];
+    if (cells.positives[c] > 0.0) {
+      logit.push_back(l);
+      label.push_back(1.0);
+      weight.push_back(cells.positives[c]);
+    }
+    if (cells.negatives[c] > 0.0) {
+      logit.push_back(l);
+      label.push_back(0.0);
+      weight.push_back(cells.negatives[c]);
+    }
+  }
+  detail::require_positive_total("calibration_regression", total);
+  const LogisticFit fit = fit_logistic(logit, 1, label, weight, true);
+  out.slope = fit.coef.at(0);
+  out.intercept_free = fit.coef.at(1);
+  const OffsetFit offset = fit_offset_intercept(logit, label, weight, total);
+  out.intercept_at_unit_slope = offset.intercept;
+  out.converged = fit.converged && offset.converged;
+  return out;
+}
+
 }  // namespace plumb

@@ -1,5 +1,7 @@
 #include "plumb/corp.hpp"
 
+#include <utility>
+
 #include "core/metric_input.hpp"
 #include "plumb/pav.hpp"
 #include "plumb/scores.hpp"
@@ -10,8 +12,18 @@ CorpDecomposition corp_decomposition(std::span<const double> forecast,
                                      std::span<const double> label,
                                      std::span<const double> weight) {
   detail::check_metric_input("corp_decomposition", forecast, label, weight);
+  return corp_decomposition_given(forecast, label, weight, pav_values(forecast, label, weight));
+}
+
+CorpDecomposition corp_decomposition_given(std::span<const double> forecast,
+                                           std::span<const double> label,
+                                           std::span<const double> weight,
+                                           std::vector<double> recalibrated) {
+  detail::check_metric_input("corp_decomposition", forecast, label, weight);
+  if (recalibrated.size() != forecast.size())
+    throw Error(ErrorKind::internal, "corp_decomposition: one recalibrated value per row expected");
   CorpDecomposition out;
-  out.recalibrated = pav_values(forecast, label, weight);
+  out.recalibrated = std::move(recalibrated);
 
   double total = 0.0, positives = 0.0;
   for (std::size_t i = 0; i < forecast.size(); ++i) {

@@ -16,6 +16,10 @@ HosmerLemeshow hosmer_lemeshow(std::span<const double> forecast, std::span<const
   detail::check_metric_input("hosmer_lemeshow", forecast, label, weight);
   const Binning binning = make_binning(forecast, weight, BinningKind::equal_mass, groups);
   const std::vector<BinSums> sums = bin_sums(forecast, label, weight, binning);
+  return hosmer_lemeshow(sums, groups);
+}
+
+HosmerLemeshow hosmer_lemeshow(std::span<const BinSums> sums, std::size_t groups) {
   HosmerLemeshow out;
   out.groups_requested = groups;
   double total = 0.0;
@@ -57,6 +61,10 @@ SpiegelhalterZ spiegelhalter_z(std::span<const double> forecast, std::span<const
     total += w;
   }
   detail::require_positive_total("spiegelhalter_z", total);
+  return spiegelhalter_from_sums(numerator, variance);
+}
+
+SpiegelhalterZ spiegelhalter_from_sums(double numerator, double variance) {
   SpiegelhalterZ out;
   if (!(variance > 0.0)) {
     out.z = out.p_value = std::numeric_limits<double>::quiet_NaN();

@@ -19,12 +19,42 @@ struct Pool {
   double lo, hi, wy, w;
 };
 
+// The pooling stack: distinct scores are pushed in ascending order with
+// their weighted label sum and weight.
+class Pooler {
+ public:
+  Pooler() { stack_.reserve(64); }
+  void push(double score, double wy, double wsum) {
+    if (!(wsum > 0.0)) return;
+    Pool cur{score, score, wy, wsum};
+    // Merge backwards while the previous block's mean exceeds this one's.
+    // Means are compared as quotients: cross-multiplying (wy * w) overflows
+    // or underflows for weights beyond about 1e150 or below 1e-150.
+    while (!stack_.empty() && stack_.back().wy / stack_.back().w > cur.wy / cur.w) {
+      const Pool& prev = stack_.back();
+      cur = Pool{prev.lo, cur.hi, prev.wy + cur.wy, prev.w + cur.w};
+      stack_.pop_back();
+    }
+    stack_.push_back(cur);
+  }
+  std::vector<PavBlock> blocks() const {
+    std::vector<PavBlock> out;
+    out.reserve(stack_.size());
+    for (const Pool& p : stack_) out.push_back(PavBlock{p.lo, p.hi, p.wy / p.w, p.w});
+    // Division can break monotonicity by one ulp between nearly equal means.
+    for (std::size_t i = 1; i < out.size(); ++i) out[i].value = std::max(out[i].value, out[i - 1].value);
+    return out;
+  }
+
+ private:
+  std::vector<Pool> stack_;
+};
+
 // PAV over rows visited in score order through `order` (or 0..n-1 when empty).
 std::vector<PavBlock> fit_in_order(std::span<const double> x, std::span<const double> y,
                                    std::span<const double> w, const std::vector<std::size_t>* order) {
   const std::size_t n = x.size();
-  std::vector<Pool> stack;
-  stack.reserve(64);
+  Pooler pooler;
   std::size_t k = 0;
   while (k < n) {
     // Pool every row of one distinct score first: ties get one fitted value.
@@ -38,25 +68,9 @@ std::vector<PavBlock> fit_in_order(std::span<const double> x, std::span<const do
       wy += wi * y[i];
       wsum += wi;
     }
-    if (!(wsum > 0.0)) continue;
-    Pool cur{score, score, wy, wsum};
-    // Merge backwards while the previous block's mean exceeds this one's.
-    // Means are compared as quotients: cross-multiplying (wy * w) overflows
-    // or underflows for weights beyond about 1e150 or below 1e-150.
-    while (!stack.empty() && stack.back().wy / stack.back().w > cur.wy / cur.w) {
-      const Pool& prev = stack.back();
-      cur = Pool{prev.lo, cur.hi, prev.wy + cur.wy, prev.w + cur.w};
-      stack.pop_back();
-    }
-    stack.push_back(cur);
+    pooler.push(score, wy, wsum);
   }
-  std::vector<PavBlock> blocks;
-  blocks.reserve(stack.size());
-  for (const Pool& p : stack) blocks.push_back(PavBlock{p.lo, p.hi, p.wy / p.w, p.w});
-  // Division can break monotonicity by one ulp between nearly equal means.
-  for (std::size_t i = 1; i < blocks.size(); ++i)
-    blocks[i].value = std::max(blocks[i].value, blocks[i - 1].value);
-  return blocks;
+  return pooler.blocks();
 }
 
 }  // namespace
@@ -91,6 +105,19 @@ std::vector<double> pav_values(std::span<const double> x, std::span<const double
     out[i] = it == blocks.begin() ? (blocks.empty() ? 0.0 : blocks.front().value) : std::prev(it)->value;
   }
   return out;
+}
+
+}  // namespace plumb
+
+namespace plumb {
+
+std::vector<PavBlock> pav_fit_cells(std::span<const double> score, std::span<const double> weighted_label,
+                                    std::span<const double> weight) {
+  if (score.size() != weighted_label.size() || score.size() != weight.size())
+    throw Error(ErrorKind::internal, "pav_fit_cells: score, label and weight columns differ in length");
+  Pooler pooler;
+  for (std::size_t c = 0; c < score.size(); ++c) pooler.push(score[c], weighted_label[c], weight[c]);
+  return pooler.blocks();
 }
 
 }  // namespace plumb

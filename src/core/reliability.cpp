@@ -27,11 +27,15 @@ ReliabilityTable reliability_table(std::span<const double> forecast,
                                    std::span<const double> label,
                                    std::span<const double> weight, BinningKind kind,
                                    std::size_t bins, double confidence) {
-  constexpr double nan = std::numeric_limits<double>::quiet_NaN();
   const Binning binning = make_binning(forecast, weight, kind, bins);
   const std::vector<BinSums> sums = bin_sums(forecast, label, weight, binning);
+  return reliability_table(binning, sums, confidence);
+}
+
+ReliabilityTable reliability_table(const Binning& binning, std::span<const BinSums> sums, double confidence) {
+  constexpr double nan = std::numeric_limits<double>::quiet_NaN();
   ReliabilityTable table;
-  table.binning = kind;
+  table.binning = binning.kind;
   table.confidence = confidence;
   table.bins.reserve(sums.size());
   for (std::size_t b = 0; b < sums.size(); ++b) {

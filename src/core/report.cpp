@@ -4,11 +4,13 @@
 #include <array>
 #include <cmath>
 #include <cstdio>
+#include <limits>
 #include <numeric>
 
 #include "core/metric_input.hpp"
 #include "plumb/auc.hpp"
 #include "plumb/error.hpp"
+#include "plumb/forecast_cells.hpp"
 #include "plumb/scores.hpp"
 
 namespace plumb {
@@ -99,20 +101,52 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
   s.mean_forecast = t.weighted_forecast / s.weight;
   s.brier = brier_score(f, y, w);
   s.log_loss = log_loss(f, y, w);
-  s.auc = auc(f, y, w);
   s.calibration_in_the_large = s.mean_forecast - s.observed_rate;
-  s.regression = calibration_regression(f, y, w);
 
-  const Binning binning = make_binning(f, w, o.binning, o.bins);
-  s.murphy = murphy_decomposition(f, y, w, binning);
-  s.table = reliability_table(f, y, w, o.binning, o.bins, o.confidence);
-  const CorpDecomposition corp = corp_decomposition(f, y, w);
-  s.corp_brier = corp.brier;
-  s.corp_log_loss = corp.log_loss;
-  s.pav_curve = pav_fit(f, y, w);
-  s.ece_equal_width = calibration_error(f, y, w, BinningKind::equal_width, o.bins);
-  s.ece_equal_mass = calibration_error(f, y, w, BinningKind::equal_mass, o.bins);
-  s.hosmer_lemeshow = hosmer_lemeshow(f, y, w, o.hl_groups);
+  // One sort of the rows into one cell per distinct forecast; everything
+  // that needs the rows in forecast order reads these.
+  ForecastCells cells = make_forecast_cells(f, y, w);
+  s.auc = auc_cells(cells.positives, cells.negatives);
+  s.regression = calibration_regression(cells);
+
+  // PAV once, from the cells: the CORP curve, and each row's recalibrated
+  // forecast for the CORP sums (taken in row order, as corp_decomposition does).
+  s.pav_curve = pav_fit_cells(cells.forecast, cells.positives, cells.weight);
+  {
+    std::vector<double> recalibrated(f.size());
+    std::size_t j = 0;
+    for (std::size_t c = 0; c < cells.size(); ++c) {
+      // The block whose range holds the cell's forecast; a cell of zero
+      // weight with no block takes the block to its left (or the first),
+      // as pav_values does.
+      while (j + 1 < s.pav_curve.size() && s.pav_curve[j + 1].score_lo <= cells.forecast[c]) ++j;
+      const double v = s.pav_curve.empty() ? 0.0 : s.pav_curve[j].value;
+      for (std::size_t k = cells.first[c]; k < cells.first[c + 1]; ++k) recalibrated[cells.order[k]] = v;
+    }
+    const CorpDecomposition corp = corp_decomposition_given(f, y, w, std::move(recalibrated));
+    s.corp_brier = corp.brier;
+    s.corp_log_loss = corp.log_loss;
+  }
+
+  // Each binning made once, and its sums taken once.
+  Binning width = make_binning(f, w, BinningKind::equal_width, o.bins);
+  const std::vector<BinSums> width_sums = bin_sums(f, y, w, width);
+  Binning mass = make_mass_binning_of_cells(cells, t.weight, o.bins);
+  const std::vector<BinSums> mass_sums = bin_sums(f, y, w, mass);
+  // Only the chosen binning's row labels are needed from here on.
+  std::vector<std::uint32_t>().swap(o.binning == BinningKind::equal_mass ? width.bin_of_row : mass.bin_of_row);
+  const Binning& binning = o.binning == BinningKind::equal_mass ? mass : width;
+  const std::vector<BinSums>& sums = o.binning == BinningKind::equal_mass ? mass_sums : width_sums;
+  s.murphy = murphy_decomposition(f, y, w, binning, sums, s.brier);
+  s.table = reliability_table(binning, sums, o.confidence);
+  s.ece_equal_width = calibration_error(width_sums, BinningKind::equal_width);
+  s.ece_equal_mass = calibration_error(mass_sums, BinningKind::equal_mass);
+  if (o.hl_groups == o.bins) {
+    s.hosmer_lemeshow = hosmer_lemeshow(mass_sums, o.hl_groups);
+  } else {
+    const Binning groups = make_mass_binning_of_cells(cells, t.weight, o.hl_groups);
+    s.hosmer_lemeshow = hosmer_lemeshow(bin_sums(f, y, w, groups), o.hl_groups);
+  }
   s.spiegelhalter = spiegelhalter_z(f, y, w);
   s.histogram = forecast_histogram(f, w, o.histogram_bins);
   if (o.bootstrap > 0) {
@@ -123,9 +157,287 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
     b.confidence = o.confidence;
     b.binning = BinningKind::equal_width;
     b.bins = o.bins;
-    s.bootstrap = bootstrap_metrics(f, y, w, b);
+    // The resampled cells, then (without weights) the band's cells and bin
+    // weights; the row order and the rows' bins are released first, as the
+    // replicates need only cells.
+    const BootstrapCells resampled = bootstrap_cells(f, y, w, cells);
     b.binning = o.binning;
-    s.band = consistency_band(f, w, binning, b);
+    if (w.empty()) {
+      std::vector<std::uint32_t> band_bin(cells.size());
+      for (std::size_t c = 0; c < cells.size(); ++c) band_bin[c] = binning.bin_of_row[cells.order[cells.first[c]]];
+      std::vector<double> bin_weight(sums.size());
+      for (std::size_t i = 0; i < sums.size(); ++i) bin_weight[i] = sums[i].weight;
+      std::vector<std::uint32_t>().swap(cells.order);
+      std::vector<std::uint32_t>().swap(o.binning == BinningKind::equal_mass ? mass.bin_of_row : width.bin_of_row);
+      s.band = consistency_band_of_cells(cells.forecast, cells.rows, band_bin, bin_weight, b);
+    } else {
+      s.band = consistency_band(f, w, binning, b, cells);
+    }
+    b.binning = BinningKind::equal_width;
+    s.bootstrap = bootstrap_metrics_of_cells(resampled.p, resampled.y, resampled.base, resampled.count, b);
+  }
+  return s;
+}
+
+// Calls add(w) once per row a cell stands for: rows[c] times with w = 1
+// for unit weights (the sums then round as over the rows), else once with
+// the cell's weight.
+template <class Add>
+void each_row(const LabelCells& cells, std::size_t c, Add add) {
+  if (cells.unit_weights) {
+    for (std::uint64_t k = 0; k < cells.rows[c]; ++k) add(1.0);
+  } else {
+    add(cells.weight[c]);
+  }
+}
+
+// bin_sums over the rows of the cells, `bin` one per cell.
+std::vector<BinSums> cell_bin_sums(const LabelCells& cells, const std::vector<std::uint32_t>& bin, std::size_t bins) {
+  std::vector<BinSums> sums(bins);
+  for (auto& s : sums) s.forecast_min = s.forecast_max = std::numeric_limits<double>::quiet_NaN();
+  for (std::size_t c = 0; c < cells.size(); ++c) {
+    BinSums& s = sums[bin[c]];
+    const double p = cells.forecast[c], y = cells.label[c];
+    if (s.rows == 0) {
+      s.forecast_min = s.forecast_max = p;
+    } else {
+      s.forecast_min = std::min(s.forecast_min, p);
+      s.forecast_max = std::max(s.forecast_max, p);
+    }
+    s.rows += cells.rows[c];
+    each_row(cells, c, [&](double w) {
+      s.weight += w;
+      s.forecast += w * p;
+      s.label += w * y;
+      if (cells.unit_weights) s.weight_sq += w * w;
+    });
+    if (!cells.unit_weights) s.weight_sq += cells.weight_sq[c];
+  }
+  return sums;
+}
+
+// The equal-mass binning of make_binning over the rows of the cells:
+// bin_of_row holds one bin per cell. `sorted` lists the cells by forecast
+// (stably); `total` is the rows' weight summed in row order.
+Binning cell_mass_binning(const LabelCells& cells, const std::vector<std::size_t>& sorted, std::size_t bins,
+                          double total) {
+  if (bins == 0) throw Error(ErrorKind::usage, "the number of bins must be positive", {}, "0", "1 or more");
+  Binning out;
+  out.kind = BinningKind::equal_mass;
+  out.bin_count = bins;
+  out.bin_of_row.resize(cells.size());
+  out.edge_lo.assign(bins, std::numeric_limits<double>::quiet_NaN());
+  out.edge_hi.assign(bins, std::numeric_limits<double>::quiet_NaN());
+  const double k = static_cast<double>(bins);
+  double before = 0.0;
+  for (std::size_t s = 0; s < sorted.size();) {
+    std::size_t e = s;
+    double group = 0.0;
+    while (e < sorted.size() && cells.forecast[sorted[e]] == cells.forecast[sorted[s]]) {
+      each_row(cells, sorted[e], [&](double w) { group += w; });
+      ++e;
+    }
+    const double pos = total > 0.0 ? k * (before + 0.5 * group) / total : 0.0;
+    const auto b = static_cast<std::uint32_t>(std::min(std::floor(pos), k - 1.0));
+    for (std::size_t t = s; t < e; ++t) out.bin_of_row[sorted[t]] = b;
+    const double p = cells.forecast[sorted[s]];
+    if (std::isnan(out.edge_lo[b])) out.edge_lo[b] = p;
+    out.edge_hi[b] = p;
+    before += group;
+    s = e;
+  }
+  return out;
+}
+
+// summarise() for rows given as cells (report --tally): the same figures,
+// the row-order sums replayed cell by cell.
+ScoreSummary summarise_cells(const ForecastCellColumn& column, const ReportOptions& o) {
+  const LabelCells& lc = column.cells;
+  const std::size_t n = lc.size();
+  ScoreSummary s;
+  s.name = column.name;
+  Totals t;
+  double brier = 0.0, log_sum = 0.0, log_total = 0.0, spg_num = 0.0, spg_var = 0.0;
+  s.histogram.assign(o.histogram_bins, 0.0);
+  for (std::size_t c = 0; c < n; ++c) {
+    const double f = lc.forecast[c], y = lc.label[c];
+    s.rows += lc.rows[c];
+    if (f == 0.0 || f == 1.0) t.at_zero_or_one += lc.rows[c];
+    const double d = f - y, lever = 1.0 - 2.0 * f, log_term = log_loss_term(f, y);
+    const std::size_t hb =
+        o.histogram_bins == 0 ? 0 : std::min(o.histogram_bins - 1, static_cast<std::size_t>(f * static_cast<double>(o.histogram_bins)));
+    each_row(lc, c, [&](double w) {
+      t.weight += w;
+      t.positives += w * y;
+      t.weighted_forecast += w * f;
+      brier += w * d * d;
+      if (w != 0.0) {
+        log_sum += w * log_term;
+        log_total += w;
+      }
+      spg_num += w * (y - f) * lever;
+      spg_var += w * lever * lever * f * (1.0 - f);
+      if (o.histogram_bins > 0) s.histogram[hb] += w;
+    });
+  }
+  s.weight = t.weight;
+  s.positives = t.positives;
+  s.at_zero_or_one = t.at_zero_or_one;
+  detail::require_positive_total("report", s.weight);
+  s.observed_rate = s.positives / s.weight;
+  s.mean_forecast = t.weighted_forecast / s.weight;
+  s.brier = brier / t.weight;
+  detail::require_positive_total("log_loss", log_total);
+  s.log_loss = log_sum / log_total;
+  s.calibration_in_the_large = s.mean_forecast - s.observed_rate;
+  s.spiegelhalter = spiegelhalter_from_sums(spg_num, spg_var);
+
+  // The cells by forecast (stably), and one cell per distinct forecast.
+  std::vector<std::size_t> sorted(n);
+  std::iota(sorted.begin(), sorted.end(), std::size_t{0});
+  std::stable_sort(sorted.begin(), sorted.end(),
+                   [&](std::size_t a, std::size_t b) { return lc.forecast[a] < lc.forecast[b]; });
+  ForecastCells fc;
+  std::vector<std::size_t> group_of_sorted(n);
+  for (std::size_t k = 0; k < n;) {
+    const double f = lc.forecast[sorted[k]];
+    double w = 0.0, pos = 0.0, neg = 0.0, sq = 0.0;
+    std::uint64_t rows = 0;
+    for (; k < n && lc.forecast[sorted[k]] == f; ++k) {
+      const std::size_t c = sorted[k];
+      const double y = lc.label[c];
+      rows += lc.rows[c];
+      each_row(lc, c, [&](double wi) {
+        w += wi;
+        pos += wi * y;
+        neg += wi * (1.0 - y);
+        if (lc.unit_weights) sq += wi * wi;
+      });
+      if (!lc.unit_weights) sq += lc.weight_sq[c];
+      group_of_sorted[k] = fc.size();
+    }
+    fc.forecast.push_back(f);
+    fc.weight.push_back(w);
+    fc.positives.push_back(pos);
+    fc.negatives.push_back(neg);
+    fc.weight_sq.push_back(sq);
+    fc.rows.push_back(rows);
+  }
+  s.auc = auc_cells(fc.positives, fc.negatives);
+  s.regression = calibration_regression(fc);
+  s.pav_curve = pav_fit_cells(fc.forecast, fc.positives, fc.weight);
+
+  // CORP: each cell's recalibrated forecast, then the sums in row order.
+  {
+    std::vector<double> value(fc.size());
+    std::size_t j = 0;
+    for (std::size_t g = 0; g < fc.size(); ++g) {
+      while (j + 1 < s.pav_curve.size() && s.pav_curve[j + 1].score_lo <= fc.forecast[g]) ++j;
+      value[g] = s.pav_curve.empty() ? 0.0 : s.pav_curve[j].value;
+    }
+    std::vector<double> recalibrated(n);
+    for (std::size_t k = 0; k < n; ++k) recalibrated[sorted[k]] = value[group_of_sorted[k]];
+    const double rate = t.positives / t.weight;
+    double bx = 0.0, bp = 0.0, bc = 0.0, lx = 0.0, lp = 0.0, lcl = 0.0;
+    for (std::size_t c = 0; c < n; ++c) {
+      const double y = lc.label[c], x = lc.forecast[c], r = recalibrated[c];
+      const double tx = log_loss_term(x, y), tp = log_loss_term(r, y), tc = log_loss_term(rate, y);
+      each_row(lc, c, [&](double w) {
+        if (w == 0.0) return;
+        bx += w * (x - y) * (x - y);
+        bp += w * (r - y) * (r - y);
+        bc += w * (rate - y) * (rate - y);
+        lx += w * tx;
+        lp += w * tp;
+        lcl += w * tc;
+      });
+    }
+    const double total = t.weight;
+    auto terms = [total](double s_x, double s_pav, double s_clim) {
+      CorpTerms out;
+      out.score = s_x / total;
+      out.mcb = (s_x - s_pav) / total;
+      out.dsc = (s_clim - s_pav) / total;
+      out.unc = s_clim / total;
+      return out;
+    };
+    s.corp_brier = terms(bx, bp, bc);
+    s.corp_log_loss = terms(lx, lp, lcl);
+  }
+
+  // Both binnings, once each.
+  Binning width;
+  width.kind = BinningKind::equal_width;
+  width.bin_count = o.bins;
+  width.bin_of_row.resize(n);
+  for (std::size_t c = 0; c < n; ++c) width.bin_of_row[c] = equal_width_bin(lc.forecast[c], o.bins);
+  for (std::size_t b = 0; b < o.bins; ++b) {
+    width.edge_lo.push_back(static_cast<double>(b) / static_cast<double>(o.bins));
+    width.edge_hi.push_back(static_cast<double>(b + 1) / static_cast<double>(o.bins));
+  }
+  const std::vector<BinSums> width_sums = cell_bin_sums(lc, width.bin_of_row, o.bins);
+  const Binning mass = cell_mass_binning(lc, sorted, o.bins, t.weight);
+  const std::vector<BinSums> mass_sums = cell_bin_sums(lc, mass.bin_of_row, o.bins);
+  const Binning& binning = o.binning == BinningKind::equal_mass ? mass : width;
+  const std::vector<BinSums>& sums = o.binning == BinningKind::equal_mass ? mass_sums : width_sums;
+  {
+    double variance = 0.0, covariance = 0.0;
+    for (std::size_t c = 0; c < n; ++c) {
+      const BinSums& b = sums[binning.bin_of_row[c]];
+      if (!(b.weight > 0.0)) continue;
+      const double dp = lc.forecast[c] - b.mean_forecast(), dy = lc.label[c] - b.observed();
+      each_row(lc, c, [&](double w) {
+        variance += w * dp * dp;
+        covariance += w * dp * dy;
+      });
+    }
+    s.murphy = murphy_from_sums(sums, s.brier, variance, covariance);
+  }
+  s.table = reliability_table(binning, sums, o.confidence);
+  s.ece_equal_width = calibration_error(width_sums, BinningKind::equal_width);
+  s.ece_equal_mass = calibration_error(mass_sums, BinningKind::equal_mass);
+  if (o.hl_groups == o.bins) {
+    s.hosmer_lemeshow = hosmer_lemeshow(mass_sums, o.hl_groups);
+  } else {
+    const Binning groups = cell_mass_binning(lc, sorted, o.hl_groups, t.weight);
+    s.hosmer_lemeshow = hosmer_lemeshow(cell_bin_sums(lc, groups.bin_of_row, o.hl_groups), o.hl_groups);
+  }
+  if (o.bootstrap > 0) {
+    if (!lc.unit_weights)
+      throw Error(ErrorKind::usage,
+                  "the bootstrap resamples rows, and a tally of weighted rows has summed their weights", {},
+                  column.name, "--bootstrap 0 with a weighted tally, or plumb report on the rows");
+    BootstrapOptions b;
+    b.replicates = o.bootstrap;
+    b.threads = o.threads;
+    b.seed = o.seed;
+    b.confidence = o.confidence;
+    b.binning = BinningKind::equal_width;
+    b.bins = o.bins;
+    // The bootstrap's cells: per distinct forecast its negative rows, then
+    // its positive rows.
+    std::vector<double> p, y, base;
+    std::vector<std::uint64_t> count;
+    std::vector<std::uint32_t> band_bin;
+    for (std::size_t k = 0; k < n;) {
+      const std::size_t first = k;
+      std::uint64_t tally[2] = {0, 0};
+      for (; k < n && lc.forecast[sorted[k]] == lc.forecast[sorted[first]]; ++k)
+        tally[lc.label[sorted[k]] > 0.5 ? 1 : 0] += lc.rows[sorted[k]];
+      for (int l = 0; l < 2; ++l) {
+        if (tally[l] == 0) continue;
+        p.push_back(fc.forecast[group_of_sorted[first]]);
+        y.push_back(l);
+        base.push_back(1.0);
+        count.push_back(tally[l]);
+      }
+      band_bin.push_back(binning.bin_of_row[sorted[first]]);
+    }
+    s.bootstrap = bootstrap_metrics_of_cells(p, y, base, count, b);
+    b.binning = o.binning;
+    std::vector<double> bin_weight(sums.size());
+    for (std::size_t i = 0; i < sums.size(); ++i) bin_weight[i] = sums[i].weight;
+    s.band = consistency_band_of_cells(fc.forecast, fc.rows, band_bin, bin_weight, b);
   }
   return s;
 }
@@ -290,6 +602,8 @@ std::string_view gate_comparison(const GateResult& r) noexcept {
   return r.exceeded ? "<" : ">=";
 }
 
+void finish_report(Report& r, const std::vector<Gate>& gates);
+
 Report build_report(std::span<const ForecastColumn> columns, std::span<const double> label,
                     std::span<const double> weight, std::span<const std::uint32_t> segment,
                     std::span<const std::string> segment_names, const std::vector<Gate>& gates,
@@ -305,6 +619,32 @@ Report build_report(std::span<const ForecastColumn> columns, std::span<const dou
     if (!segment.empty()) sr.segments = segment_summaries(c.forecast, label, weight, segment, segment_names, options);
     r.scores.push_back(std::move(sr));
   }
+  finish_report(r, gates);
+  return r;
+}
+
+Report build_report_of_cells(std::span<const ForecastCellColumn> columns, const std::vector<Gate>& gates,
+                             const ReportOptions& options) {
+  Report r;
+  r.options = options;
+  for (const ForecastCellColumn& c : columns) {
+    const LabelCells& lc = c.cells;
+    const std::size_t n = lc.size();
+    if (lc.label.size() != n || lc.weight.size() != n || lc.rows.size() != n ||
+        (!lc.unit_weights && lc.weight_sq.size() != n))
+      throw Error(ErrorKind::internal, "build_report_of_cells: cell columns differ in length");
+    for (std::size_t k = 0; k < n; ++k)
+      if (!(lc.forecast[k] >= 0.0 && lc.forecast[k] <= 1.0) || !(lc.label[k] == 0.0 || lc.label[k] == 1.0))
+        throw Error(ErrorKind::internal, "build_report_of_cells: a cell's forecast or label is out of range");
+    ScoreReport sr;
+    sr.overall = summarise_cells(c, options);
+    r.scores.push_back(std::move(sr));
+  }
+  finish_report(r, gates);
+  return r;
+}
+
+void finish_report(Report& r, const std::vector<Gate>& gates) {
   for (const Gate& g : gates) {
     bool matched = false;
     for (const ScoreReport& sr : r.scores) {
@@ -317,7 +657,6 @@ Report build_report(std::span<const ForecastColumn> columns, std::span<const dou
                   "one of the --score columns");
   }
   add_cautions(r);
-  return r;
 }
 
 }  // namespace plumb

@@ -46,6 +46,7 @@ void tally_scores(const FitData& data, Tally& out) {
   out.count.clear();
   out.negative.clear();
   out.positive.clear();
+  out.weight_sq.clear();
   if (data.weight.empty()) {
     tally_unweighted(data, out);
     return;
@@ -59,13 +60,14 @@ void tally_scores(const FitData& data, Tally& out) {
     // -0 and +0 are one score; keeping +0 makes the result independent of
     // which came first.
     const double s = data.score[order[k]] + 0.0;
-    double positive = 0.0, negative = 0.0;
+    double positive = 0.0, negative = 0.0, squares = 0.0;
     std::uint64_t count = 0;
     for (; k < n && data.score[order[k]] == s; ++k) {
       const std::size_t i = order[k];
       const double w = data.weight.empty() ? 1.0 : data.weight[i];
       if (!(w > 0.0)) continue;
       (data.label[i] > 0.5 ? positive : negative) += w;
+      squares += w * w;
       ++count;
     }
     if (count == 0) continue;
@@ -73,6 +75,7 @@ void tally_scores(const FitData& data, Tally& out) {
     out.count.push_back(count);
     out.negative.push_back(negative);
     out.positive.push_back(positive);
+    out.weight_sq.push_back(squares);
   }
 }
 
@@ -224,7 +227,10 @@ Tally merge_tallies(const Tally& a, const Tally& b) {
   m.negative.reserve(na + nb);
   m.positive.reserve(na + nb);
   std::size_t i = 0, j = 0;
-  auto take = [&m](const Tally& t, std::size_t k) {
+  // Squared weights survive a merge only when both sides kept them.
+  const bool squares = !a.weight_column.empty() && a.weight_sq.size() == na && b.weight_sq.size() == nb;
+  auto take = [&m, squares](const Tally& t, std::size_t k) {
+    if (squares) m.weight_sq.push_back(t.weight_sq[k]);
     m.score.push_back(t.score[k]);
     m.count.push_back(t.count[k]);
     m.negative.push_back(t.negative[k]);
@@ -240,6 +246,7 @@ Tally merge_tallies(const Tally& a, const Tally& b) {
       m.count.push_back(a.count[i] + b.count[j]);
       m.negative.push_back(a.negative[i] + b.negative[j]);
       m.positive.push_back(a.positive[i] + b.positive[j]);
+      if (squares) m.weight_sq.push_back(a.weight_sq[i] + b.weight_sq[j]);
       ++i;
       ++j;
     }

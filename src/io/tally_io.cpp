@@ -72,6 +72,7 @@ std::string tally_to_text(const Tally& t) {
   doc["count"] = t.count;
   doc["negative"] = t.negative;
   doc["positive"] = t.positive;
+  if (!t.weight_sq.empty()) doc["weight_sq"] = t.weight_sq;
   try {
     return doc.dump(1) + "\n";
   } catch (const json::type_error&) {
@@ -105,7 +106,7 @@ Tally tally_from_text(const std::string& text, const std::string& where) {
     throw Error(ErrorKind::artifact, "not a plumb tally", at_file(where), {},
                 std::string("a JSON object with \"format\": \"") + tally_format_marker + "\" (from plumb tally)");
   const std::int64_t version = jf::require_integer(doc, "format_version", where, "format_version");
-  if (version != tally_format_version)
+  if (version != 1 && version != tally_format_version)
     throw Error(ErrorKind::artifact,
                 version > tally_format_version
                     ? "the tally has format version " + std::to_string(version) + ", written by a newer plumb"
@@ -166,6 +167,16 @@ Tally tally_from_text(const std::string& text, const std::string& where) {
   t.negative = jf::require_finite_array(doc, "negative", where, "negative");
   t.positive = jf::require_finite_array(doc, "positive", where, "positive");
   const std::size_t n = t.score.size();
+  if (version >= 2 && doc.contains("weight_sq")) {
+    if (t.weight_column.empty())
+      jf::fail(where, "weight_sq", "is given for a tally without a weight column", "no weight_sq: every square is 1");
+    t.weight_sq = jf::require_finite_array(doc, "weight_sq", where, "weight_sq");
+    if (t.weight_sq.size() != n)
+      jf::fail(where, "weight_sq", "differs in length from score", "one sum of squared weights per score");
+    for (std::size_t i = 0; i < n; ++i)
+      if (!(t.weight_sq[i] >= 0.0))
+        jf::fail(where, "weight_sq[" + std::to_string(i) + "]", "is negative", "a sum of squares >= 0");
+  }
   if (t.count.size() != n || t.negative.size() != n || t.positive.size() != n)
     jf::fail(where, "count", "and the other per-score arrays differ in length from score",
              "score, count, negative and positive of equal length");

@@ -244,6 +244,27 @@ class ReportFromTally(TallyCase):
         self.assertEqual(text_t1.replace(self.path("m.json"), "X"), text_s.replace(self.path("scattered.csv"), "X"))
         self.assert_close(json_t1, json_s)
 
+    def test_report_on_a_weighted_tally_equals_the_report_on_the_weighted_rows(self):
+        # Weights are multiples of 1/4 (make_rows), so every sum of weights and
+        # of squared weights is exact in any order; the figures then agree to
+        # rounding (1e-12 relative), the Kish effective sizes of the table and
+        # the debiased l2 included, since the tally keeps the squared weights.
+        rows = make_rows(3000, 37, weights=True)
+        paths = self.shards(rows, 2, weights=True)
+        tallies = []
+        for i, p in enumerate(paths):
+            tallies.append(self.path(f"wt{i}.json"))
+            self.assertIn("weight_sq", self.tally(p, tallies[-1], "--weight", "w"))
+        self.merge(self.path("wm.json"), *tallies)
+        self.assertEqual(self.load_json(self.path("wm.json"))["format_version"], 2)
+        write_rows(self.path("w.csv"), rows, weights=True)
+        text_t, json_t = self.report("--score", "risk", "--tally", self.path("wm.json"), "--binning", "mass")
+        text_r, json_r = self.report("--score", "risk", "--label", "missed", "--weight", "w", self.path("w.csv"),
+                                     "--binning", "mass")
+        self.assertEqual(json_t["weight_column"], "w")
+        self.assert_close(json_t, json_r)
+        self.assertEqual(text_t.replace(self.path("wm.json"), "X"), text_r.replace(self.path("w.csv"), "X"))
+
     def assert_close(self, a, b, where="report"):
         if isinstance(a, dict):
             self.assertEqual(sorted(a), sorted(b), where)
@@ -355,7 +376,13 @@ class Refusals(TallyCase):
                             "--by cannot be used with --tally")
         self.tally(self.path("a.csv"), self.path("w.json"), "--weight", "w")
         self.assert_refused(["report", "--score", "risk", "--tally", self.path("w.json")], USAGE,
-                            "unweighted rows only")
+                            "a tally of weighted rows has summed their weights", "--bootstrap 0")
+        # Format 1 kept no squared weights: the effective sample sizes cannot be had.
+        old = dict(self.load_json(self.path("w.json")), format_version=1)
+        del old["weight_sq"]
+        write(self.path("w1.json"), json.dumps(old))
+        self.assert_refused(["report", "--score", "risk", "--tally", self.path("w1.json"), "--bootstrap", "0"],
+                            ARTIFACT, "lacks the sums of squared weights", "format version 2")
         self.assert_refused(["report", "--score", "risk_cal", "--tally", self.path("a.json")], USAGE,
                             "holds column 'risk'")
         self.assert_refused(["fit", "--map", "platt", "a.csv"], USAGE, "--score and --label (or --tally FILE)")
@@ -363,7 +390,8 @@ class Refusals(TallyCase):
     def test_a_damaged_tally_is_refused_naming_the_field(self):
         doc = self.load_json(self.path("a.json"))
         cases = [
-            (dict(doc, format_version=2), "format version 2"),
+            (dict(doc, format_version=3), "format version 3"),
+            (dict(doc, weight_sq=[1.0] * len(doc["score"])), "field 'weight_sq' is given for a tally without a weight column"),
             (dict(doc, score=[doc["score"][1]] + doc["score"][1:]), "field 'score[1]' does not lie above"),
             (dict(doc, positive=[-1.0] + doc["positive"][1:]), "field 'positive[0]' is negative"),
             (dict(doc, count=doc["count"][1:]), "differ in length"),
