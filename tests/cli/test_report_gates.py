@@ -93,6 +93,26 @@ class ReportGates(PlumbCase):
     def columns(self, doc):
         return {s["name"]: s for s in doc["scores"]}
 
+    def test_a_tally_report_gates_the_mapped_column_as_the_rows_report_does(self):
+        # The tally path (cells) and the rows path choose the gated columns by
+        # one rule: unnamed gates read the --map column, COL: names another.
+        tally = self.path("h.tally.json")
+        run("tally", "--score", "risk", "--label", "missed", self.path("holdout.csv"), "-o", tally, "-q", check=True)
+        for source in (("holdout.csv",), ("--tally", tally)):
+            path = self.path("t.json")
+            args = ["report", "--score", "risk", "--map", self.map, "--bootstrap", "0", "--json", path, "-q",
+                    "--max", "ece=1e-9", "--max", "risk:mcb=1"]
+            args += ["--label", "missed", self.path(source[0])] if len(source) == 1 else list(source)
+            rc, _, err = run(*args)
+            self.assertEqual(rc, 7, err)
+            with open(path) as f:
+                doc = json.load(f)
+            self.assertEqual([e.message for e in self.validator.iter_errors(doc)], [])
+            self.assertEqual([(g["column"], g["metric"], g["exceeded"]) for g in doc["gates"]],
+                             [("risk via late.map.json", "ece", True), ("risk", "mcb", False)], source)
+            self.assertEqual(doc["scores"][1]["map"], {"file": self.map, "kind": "platt"})
+            self.assertEqual(doc["scores"][1]["column"], "risk")
+
     # -- item: --map reads another column with --map-score ------------------
 
     def test_map_score_points_the_map_at_another_column(self):
