@@ -89,9 +89,13 @@ void print_cross_fit(const nlohmann::json& e) {
   split += " split";
   if (e.contains("split") && e["split"].is_object() && e["split"].contains("column"))
     split += " on '" + scalar_text(e["split"]["column"]) + "'";
-  std::printf("\ncross-fit      %s folds, %s, seed %s, %s rows scored out of fold, shipped: %s\n",
-              text("folds").c_str(), split.c_str(), text("seed").c_str(), text("scored_rows").c_str(),
-              text("final").c_str());
+  // A count of rows with thousands separators, as every other count here.
+  const std::string scored = e.contains("scored_rows") && e["scored_rows"].is_number_unsigned()
+                                 ? grouped(e["scored_rows"].get<std::uint64_t>())
+                                 : text("scored_rows");
+  // A section of its own, like "parameters", with its facts indented.
+  std::printf("\ncross-fit\n  %-14s %s folds, %s, seed %s, %s rows scored out of fold, shipped: %s\n", "evidence",
+              text("folds").c_str(), split.c_str(), text("seed").c_str(), scored.c_str(), text("final").c_str());
   std::printf("  %-14s %s. %s.\n", "chosen", text("chosen").c_str(), text("reason").c_str());
   if (!e.contains("candidates") || !e["candidates"].is_array()) return;
   std::printf("  %-14s %12s %12s %10s\n", "candidate", "oof log loss", "oof Brier", "oof ECE");

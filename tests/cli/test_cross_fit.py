@@ -87,7 +87,7 @@ class CrossFit(PlumbCase):
         rc, out, err = run("inspect", self.path("cf.map.json"))
         self.assertEqual(rc, 0, err)
         self.assertIn("fold_average", out)
-        self.assertIn("cross-fit      4 folds, stratified split, seed 5", out)
+        self.assertIn("cross-fit\n  evidence       4 folds, stratified split, seed 5", out)
         # report --map takes the cross-fit artifact like any other.
         rc, _, err = run("report", "-q", "--label", "missed", "--score", "risk", "--map", self.path("cf.map.json"),
                          "--bootstrap", "0", "--json", self.path("r.json"), data)
