@@ -52,6 +52,18 @@ class OneName(PlumbCase):
         self.assert_refused(["report", "--score", "risk", "--label", "missed", "--binning", "quantile",
                              self.path("holdout.csv")], 2, "--binning", "equal_width", "equal_mass")
 
+    def test_text_and_markdown_name_the_binning_alike(self):
+        md = self.path("r.md")
+        _, text, _ = run("report", "--score", "risk", "--label", "missed", "--bootstrap", "0", "--markdown", md,
+                         self.path("holdout.csv"), check=True)
+        with open(md) as f:
+            markdown = f.read()
+        for name in ("equal-width", "equal-mass"):
+            self.assertIn(f"ECE {name}, 10 bins", text)
+            self.assertIn(f"ECE, {name}, 10 bins", markdown)
+        self.assertIn("MCE equal-width", text)
+        self.assertNotIn("ECE width", text)
+
     def fit(self, *extra):
         out = self.path("map.json")
         run("fit", "--map", "isotonic", "--score", "risk", "--label", "missed", self.path("holdout.csv"), "-o", out,
