@@ -94,9 +94,23 @@ std::string skipped_note(const InputOptions& o, std::uint64_t skipped) {
   return "; " + grouped(skipped) + (skipped == 1 ? " row" : " rows") + " with a missing score or label left out";
 }
 
+namespace {
+
+// The between-blocks rule as given, by --between-blocks or its older spelling.
+std::string between_given(const MapChoices& c) {
+  if (c.between_older.empty()) return c.between;
+  if (c.between_blocks_option != nullptr && c.between_blocks_option->count() > 0)
+    throw Error(ErrorKind::usage, "--between-blocks given twice", {}, c.between_older, "it once");
+  if (c.between_older != "linear" && c.between_older != "step")
+    throw Error(ErrorKind::usage, "unknown --between-blocks", {}, c.between_older, "linear or step");
+  return c.between_older;
+}
+
+}  // namespace
+
 MapOptions MapChoices::map_options() const {
   MapOptions m;
-  m.isotonic_interpolate = between == "linear";
+  m.isotonic_interpolate = between_given(*this) == "linear";
   m.platt_smoothed_targets = platt_targets == "smoothed";
   m.beta_form = beta_form;
   m.histogram_bins = bins;
@@ -104,7 +118,7 @@ MapOptions MapChoices::map_options() const {
 }
 
 nlohmann::json MapChoices::recorded(std::string_view kind) const {
-  if (kind == "isotonic") return {{"between_blocks", between}};
+  if (kind == "isotonic") return {{"between_blocks", between_given(*this)}};
   if (kind == "platt") return {{"platt_targets", platt_targets}};
   if (kind == "beta") return {{"beta_form", beta_form}};
   if (kind == "histogram") return {{"bins", bins}};
@@ -112,11 +126,15 @@ nlohmann::json MapChoices::recorded(std::string_view kind) const {
 }
 
 void add_map_options(CLI::App& command, MapChoices& c) {
-  command
-      .add_option("--between", c.between,
-                  "isotonic: between fitted blocks, interpolate linearly or hold the left block's step")
-      ->check(CLI::IsMember({"linear", "step"}))
-      ->default_str("linear");
+  // Named as the artifact records it (`between_blocks`); --between, the
+  // older spelling, is still taken but not shown in help.
+  c.between_blocks_option =
+      command
+          .add_option("--between-blocks", c.between,
+                      "isotonic: between fitted blocks, interpolate linearly or hold the left block's step")
+          ->check(CLI::IsMember({"linear", "step"}))
+          ->default_str("linear");
+  command.add_option("--between", c.between_older)->group("");
   command
       .add_option("--platt-targets", c.platt_targets,
                   "platt: fit to Platt's smoothed targets (N+ + 1)/(N+ + 2) and 1/(N- + 2), or to the labels")

@@ -32,16 +32,23 @@ struct InputOptions {
 
 // The options of each kind of map, as given on the command line.
 struct MapChoices {
-  std::string between = "linear";
+  std::string between = "linear";  // --between-blocks
+  // --between, the older spelling of --between-blocks: hidden from help and
+  // checked by map_options(), so that no message names it.
+  std::string between_older;
+  const CLI::Option* between_blocks_option = nullptr;
   std::string platt_targets = "smoothed";
   std::string beta_form = "full";
   int bins = 10;
 
+  // Throws a usage Error when the older --between was given with a value
+  // other than linear or step, or together with --between-blocks.
   MapOptions map_options() const;
   // The options that matter to `kind`, as the artifact records them.
   nlohmann::json recorded(std::string_view kind) const;
 };
-// --between, --platt-targets, --beta-form, --bins.
+// --between-blocks (and its hidden older spelling --between),
+// --platt-targets, --beta-form, --bins.
 void add_map_options(CLI::App& command, MapChoices& choices);
 
 // --score, --label, --weight, --positive, --negative, --missing, --scale,

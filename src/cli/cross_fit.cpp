@@ -200,6 +200,7 @@ void write_oof(const CrossFitOptions& o, const io::LabelledRows& rows, const Cro
 }
 
 int run_cross_fit(const CrossFitOptions& o) {
+  (void)o.choices.map_options();  // refuses a bad --between-blocks before any reading
   const Scale scale = parse_scale_option(o.input.scale);
   const std::vector<std::string> kinds = parse_kinds(o.maps, scale);
   const Split split = parse_split(o.split);

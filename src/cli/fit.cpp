@@ -62,6 +62,7 @@ void check_scale(const FitOptions& o, Scale scale, std::string_view scale_name) 
 }
 
 int run_fit(const FitOptions& o) {
+  (void)o.choices.map_options();  // refuses a bad --between-blocks before any reading
   if (!o.tally.empty()) {
     if (!o.given.empty())
       throw Error(ErrorKind::usage, o.given.front() + " cannot be used with --tally", {}, {},

@@ -6,6 +6,7 @@
 #include <cstdio>
 #include <cstdlib>
 #include <filesystem>
+#include <map>
 #include <string>
 
 #include "cli/commands.hpp"
@@ -28,7 +29,7 @@ struct ReportCliOptions {
   std::vector<std::string> map_scores;  // the column each --map reads, in order (none: their own)
   std::string by;
   std::size_t bins = 10;
-  std::string binning = "width";
+  std::string binning = "equal_width";
   std::size_t bootstrap = 200;
   std::size_t threads = 0;
   std::uint64_t seed = 1;
@@ -229,7 +230,7 @@ int run_report(const ReportCliOptions& o) {
   for (const std::string& m : o.min) gates.push_back(parse_gate(m, GateBound::min));
   ReportOptions ro;
   ro.bins = o.bins;
-  ro.binning = o.binning == "mass" ? BinningKind::equal_mass : BinningKind::equal_width;
+  ro.binning = o.binning == "equal_mass" ? BinningKind::equal_mass : BinningKind::equal_width;
   ro.bootstrap = o.bootstrap;
   ro.threads = o.threads;
   ro.seed = o.seed;
@@ -442,9 +443,13 @@ Command add_report_command(CLI::App& app) {
   cmd->add_option("--bins", o->bins, "Bins of the reliability table, the ECE and the Murphy decomposition")
       ->check(CLI::Range(1, 10000))
       ->default_str("10");
-  cmd->add_option("--binning", o->binning, "Bins of the reliability table and chart: equal width or equal mass")
-      ->check(CLI::IsMember({"width", "mass"}))
-      ->default_str("width");
+  // The values are the report JSON's words for the binning; "width" and
+  // "mass", the older spellings, are still taken (and not shown in help).
+  cmd->add_option("--binning", o->binning, "Bins of the reliability table and chart: equal-width or equal-mass")
+      ->transform(CLI::Transformer(std::map<std::string, std::string>{{"width", "equal_width"}, {"mass", "equal_mass"}})
+                      .description(""))
+      ->check(CLI::IsMember({"equal_width", "equal_mass"}))
+      ->default_str("equal_width");
   cmd->add_option("--bootstrap", o->bootstrap, "Bootstrap replicates for intervals and the consistency band (0: none)")
       ->check(CLI::Range(0, 100000))
       ->default_str("200");
@@ -456,7 +461,7 @@ Command add_report_command(CLI::App& app) {
   cmd->add_option("--confidence", o->confidence, "Level of every interval and band")
       ->check(CLI::Range(0.5, 0.999))
       ->default_str("0.95");
-  cmd->add_option("--groups", o->hl_groups, "Hosmer-Lemeshow groups (equal mass)")
+  cmd->add_option("--groups", o->hl_groups, "Hosmer-Lemeshow groups (equal-mass)")
       ->check(CLI::Range(3, 1000))
       ->default_str("10");
   cmd->add_option("--min-segment", o->min_segment, "Segments of less weight say 'too few rows' instead of figures")

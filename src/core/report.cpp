@@ -11,6 +11,7 @@
 #include "plumb/auc.hpp"
 #include "plumb/error.hpp"
 #include "plumb/forecast_cells.hpp"
+#include "plumb/number_text.hpp"
 #include "plumb/scores.hpp"
 
 namespace plumb {
@@ -26,7 +27,7 @@ constexpr std::array<GateMetric, 13> gate_table{{
     {"mcb", true, false, "CORP miscalibration of the Brier score"},
     {"mcb_log", true, false, "CORP miscalibration of the log loss"},
     {"calibration_in_the_large", true, true, "mean forecast - observed rate, signed"},
-    {"slope", true, true, "calibration slope (Cox)"},
+    {"slope", true, true, "calibration slope"},
     {"auc", false, true, "area under the ROC curve"},
     {"hosmer_lemeshow_p", false, true, "Hosmer-Lemeshow p-value"},
     {"spiegelhalter_p", false, true, "Spiegelhalter p-value"},
@@ -46,12 +47,6 @@ constexpr double extreme_share = 0.01;
 std::string format_g(double v, int digits = 4) {
   char text[48];
   std::snprintf(text, sizeof text, "%.*g", digits, v);
-  return text;
-}
-
-std::string format_fixed(double v, int decimals = 4) {
-  char text[48];
-  std::snprintf(text, sizeof text, "%.*f", decimals, v);
   return text;
 }
 
@@ -537,13 +532,12 @@ void add_cautions(Report& r) {
       // The observed rate is the segment's own (the same rows and labels
       // for every column), so it is said once.
       const std::string detail =
-          sr.overall.name + " (mean forecast " + format_fixed(g.mean_forecast) + ", Spiegelhalter Z " +
-          format_fixed(g.spiegelhalter.z, 2) + ", Holm-adjusted p " +
-          (g.p_adjusted > 0.0 ? format_g(g.p_adjusted, 2) : std::string("< 1e-300")) + ")";
+          sr.overall.name + " (mean forecast " + fixed_text(g.mean_forecast, 4) + ", Spiegelhalter Z " +
+          stat_text(g.spiegelhalter.z) + ", Holm-adjusted p " + p_value_text(g.p_adjusted) + ")";
       const auto at = std::find(values.begin(), values.end(), g.value);
       if (at == values.end()) {
         values.push_back(g.value);
-        observed.push_back(format_fixed(g.observed_rate));
+        observed.push_back(fixed_text(g.observed_rate, 4));
         details.push_back(detail);
       } else {
         details[static_cast<std::size_t>(at - values.begin())] += "; " + detail;

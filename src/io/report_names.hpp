@@ -5,14 +5,13 @@
 // value) for the same thing; `gate` the gate metric that reads it, if any.
 // A later formatting layer builds on this table.
 #include <algorithm>
-#include <cmath>
-#include <cstdio>
 #include <cstddef>
 #include <numeric>
 #include <string>
 #include <string_view>
 #include <vector>
 
+#include "plumb/number_text.hpp"
 #include "plumb/report.hpp"
 
 namespace plumb::report_names {
@@ -70,38 +69,13 @@ inline std::vector<bool> segments_shown(const std::vector<SegmentSummary>& segme
   return shown;
 }
 
-// Number formats shared by the text and Markdown renderers, one per kind
-// of figure so that a column of a table has one format:
-// - metric_text: scores and calibration errors, 4 decimals; a small
-//   non-zero value (|x| < 1e-3) in 3 significant digits, scientific (an
-//   ECE of 3e-5 is not an ECE of 0);
-// - stat_text: test statistics, 2 decimals;
-// - p_value_text: 4 decimals down to the floor 1e-4, below it 2 significant
-//   digits in scientific notation; "<1e-300" when it underflowed to 0.
-// Non-finite numbers print as "n/a"; "-0.0000" prints without its sign.
-inline std::string format_number(const char* format, int precision, double x) {
-  char buffer[64];
-  std::snprintf(buffer, sizeof buffer, format, precision, x);
-  std::string s = buffer;
-  if (!s.empty() && s[0] == '-' && s.find_first_not_of("0.", 1) == std::string::npos) s.erase(0, 1);
-  return s;
-}
-inline std::string fixed_text(double x, int decimals) {
-  if (!std::isfinite(x)) return "n/a";
-  return format_number("%.*f", decimals, x);
-}
-inline std::string metric_text(double x) {
-  if (!std::isfinite(x)) return "n/a";
-  if (x != 0.0 && std::fabs(x) < 1e-3) return format_number("%.*e", 2, x);
-  return fixed_text(x, 4);
-}
-inline std::string stat_text(double x) { return fixed_text(x, 2); }
-inline constexpr double p_value_floor = 1e-4;
-inline std::string p_value_text(double p) {
-  if (!std::isfinite(p)) return "n/a";
-  if (p >= p_value_floor) return fixed_text(p, 4);
-  if (p > 0.0) return format_number("%.*e", 1, p);
-  return "<1e-300";  // underflowed: smaller than any double we could print
-}
+// Number formats shared by the text and Markdown renderers (one per kind
+// of figure, so that a column of a table has one format) are those of
+// plumb/number_text.hpp, which the report's cautions use too.
+using plumb::fixed_text;
+using plumb::metric_text;
+using plumb::p_value_floor;
+using plumb::p_value_text;
+using plumb::stat_text;
 
 }  // namespace plumb::report_names

@@ -401,12 +401,13 @@ std::vector<Headline> headline_rows(const Report& report) {
     return metric(s.corp_log_loss.mcb) + ", " + metric(s.corp_log_loss.dsc) + ", " +
            metric(s.corp_log_loss.unc);
   });
-  add("ECE width, " + std::to_string(ece_bins) + " bins", [&](const ScoreSummary& s) {
+  const std::string width(report_names::equal_width.display), mass(report_names::equal_mass.display);
+  add("ECE " + width + ", " + std::to_string(ece_bins) + " bins", [&](const ScoreSummary& s) {
     return boot(s, &BootstrapResult::ece, metric(s.ece_equal_width.ece));
   });
-  add("ECE mass, " + std::to_string(mass_bins) + " bins",
+  add("ECE " + mass + ", " + std::to_string(mass_bins) + " bins",
       [](const ScoreSummary& s) { return metric(s.ece_equal_mass.ece); });
-  add("MCE width", [](const ScoreSummary& s) { return metric(s.ece_equal_width.mce); });
+  add("MCE " + width, [](const ScoreSummary& s) { return metric(s.ece_equal_width.mce); });
   add("l2 debiased | plug-in", [](const ScoreSummary& s) {
     return metric(s.ece_equal_width.l2_debiased) + " | " + metric(s.ece_equal_width.l2_plugin);
   });

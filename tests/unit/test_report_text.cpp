@@ -331,7 +331,7 @@ TEST_CASE("headline numbers are the report's values to the printed precision", "
     const std::string text = plumb::render_text(r, {true, false, width});
     INFO(text);
     // Side by side at these widths: value [lo, hi] of raw, then of calibrated.
-    const std::string ece_line = line_starting(text, "ECE width, 10 bins");
+    const std::string ece_line = line_starting(text, "ECE equal-width, 10 bins");
     const std::vector<double> ece = numbers_in(ece_line.substr(ece_line.find("bins") + 4));
     REQUIRE(ece.size() == 6);
     CHECK(std::fabs(ece[0] - raw.ece_equal_width.ece) <= 5e-5);
@@ -374,7 +374,7 @@ TEST_CASE("headline figures fall back to one column after another when narrow",
   // Two ECE lines, one per score column, each with one value and its interval.
   std::size_t ece_lines = 0;
   for (const std::string& l : lines_of(text))
-    if (l.find("ECE width, 10 bins") != std::string::npos) {
+    if (l.find("ECE equal-width, 10 bins") != std::string::npos) {
       ++ece_lines;
       CHECK(numbers_in(l.substr(l.find("bins") + 4)).size() == 3);
     }
@@ -435,7 +435,7 @@ TEST_CASE("three score columns sit side by side at 100 columns, one after anothe
   const auto ece_numbers = [](const std::string& text) {
     std::vector<std::size_t> out;
     for (const std::string& l : lines_of(text))
-      if (l.find("ECE width, 10 bins") != std::string::npos)
+      if (l.find("ECE equal-width, 10 bins") != std::string::npos)
         out.push_back(numbers_in(l.substr(l.find("bins") + 4)).size());
     return out;
   };
