@@ -44,6 +44,20 @@ constexpr double cases_per_bin = 10.0;
 // Share of forecasts at exactly 0 or 1 above which the report cautions.
 constexpr double extreme_share = 0.01;
 
+// The PAV curve's value at each cell's forecast, the cells in forecast
+// order: the block whose range holds the forecast; a cell of zero weight
+// with no block takes the block to its left (or the first), as pav_values
+// does.
+std::vector<double> pav_value_of_cells(const std::vector<PavBlock>& curve, std::span<const double> forecast) {
+  std::vector<double> value(forecast.size());
+  std::size_t j = 0;
+  for (std::size_t c = 0; c < forecast.size(); ++c) {
+    while (j + 1 < curve.size() && curve[j + 1].score_lo <= forecast[c]) ++j;
+    value[c] = curve.empty() ? 0.0 : curve[j].value;
+  }
+  return value;
+}
+
 std::string format_g(double v, int digits = 4) {
   char text[48];
   std::snprintf(text, sizeof text, "%.*g", digits, v);
@@ -108,16 +122,10 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
   // forecast for the CORP sums (taken in row order, as corp_decomposition does).
   s.pav_curve = pav_fit_cells(cells.forecast, cells.positives, cells.weight);
   {
+    const std::vector<double> value = pav_value_of_cells(s.pav_curve, cells.forecast);
     std::vector<double> recalibrated(f.size());
-    std::size_t j = 0;
-    for (std::size_t c = 0; c < cells.size(); ++c) {
-      // The block whose range holds the cell's forecast; a cell of zero
-      // weight with no block takes the block to its left (or the first),
-      // as pav_values does.
-      while (j + 1 < s.pav_curve.size() && s.pav_curve[j + 1].score_lo <= cells.forecast[c]) ++j;
-      const double v = s.pav_curve.empty() ? 0.0 : s.pav_curve[j].value;
-      for (std::size_t k = cells.first[c]; k < cells.first[c + 1]; ++k) recalibrated[cells.order[k]] = v;
-    }
+    for (std::size_t c = 0; c < cells.size(); ++c)
+      for (std::size_t k = cells.first[c]; k < cells.first[c + 1]; ++k) recalibrated[cells.order[k]] = value[c];
     const CorpDecomposition corp = corp_decomposition_given(f, y, w, std::move(recalibrated));
     s.corp_brier = corp.brier;
     s.corp_log_loss = corp.log_loss;
@@ -324,12 +332,7 @@ ScoreSummary summarise_cells(const ForecastCellColumn& column, const ReportOptio
 
   // CORP: each cell's recalibrated forecast, then the sums in row order.
   {
-    std::vector<double> value(fc.size());
-    std::size_t j = 0;
-    for (std::size_t g = 0; g < fc.size(); ++g) {
-      while (j + 1 < s.pav_curve.size() && s.pav_curve[j + 1].score_lo <= fc.forecast[g]) ++j;
-      value[g] = s.pav_curve.empty() ? 0.0 : s.pav_curve[j].value;
-    }
+    const std::vector<double> value = pav_value_of_cells(s.pav_curve, fc.forecast);
     std::vector<double> recalibrated(n);
     for (std::size_t k = 0; k < n; ++k) recalibrated[sorted[k]] = value[group_of_sorted[k]];
     const double rate = t.positives / t.weight;
