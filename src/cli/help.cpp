@@ -152,6 +152,9 @@ std::string_view value_word(std::string_view long_name) {
       {"score", "COLUMN"},   {"label", "COLUMN"},   {"weight", "COLUMN"}, {"by", "COLUMN"},  {"output", "FILE"},
       {"json", "FILE"},      {"svg", "FILE"},       {"markdown", "FILE"}, {"tally", "FILE"}, {"oof", "FILE"},
       {"positive", "VALUE"}, {"negative", "VALUE"}, {"sep", "CHAR"},      {"as", "NAME"},
+      {"map-score", "COLUMN"}, {"max", "METRIC=VALUE"}, {"min", "METRIC=VALUE"}, {"missing", "POLICY"},
+      {"between-blocks", "RULE"}, {"beta-form", "FORM"}, {"platt-targets", "TARGETS"}, {"binning", "KIND"},
+      {"final", "WHICH"}, {"split", "RULE"},
   };
   for (const auto& [name, word] : words)
     if (name == long_name) return word;

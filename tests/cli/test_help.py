@@ -110,7 +110,7 @@ class Help(unittest.TestCase):
 
     def test_hints_in_plain_words(self):
         _, out, _ = run("report", "--help")
-        self.assertIn("  --binning BINNING\n", out)
+        self.assertIn("  --binning KIND\n", out)
         self.assertIn("one of: equal_width, equal_mass; default: equal_width", out)
         self.assertIn("a whole number from 1 to 10000; default: 10", out)
         self.assertIn("a number from 0.5 to 0.999; default: 0.95", out)
