@@ -168,6 +168,30 @@ class Mapper {
     return Field::failed;
   }
 
+  // One record's output without its line end, at w: with --replace, its
+  // stored bytes with the score field's bytes [field_offset, +field_length)
+  // replaced by the probability; otherwise all its bytes, the delimiter and
+  // the probability. `score` is the score's text as parse_number reads it.
+  // On skipped or failed, what was written is the caller's to take back.
+  Field write_record(Block& block, char*& w, const char* raw, std::size_t raw_length, std::size_t field_offset,
+                     std::size_t field_length, std::string_view score, std::uint64_t line) const {
+    if (!o_.replace) {
+      std::memcpy(w, raw, raw_length);
+      w += raw_length;
+      *w++ = delimiter_;
+      return append_probability(block, w, score, line);
+    }
+    std::memcpy(w, raw, field_offset);
+    w += field_offset;
+    const Field f = append_probability(block, w, score, line);
+    if (f == Field::written) {
+      const std::size_t after = field_offset + field_length;
+      std::memcpy(w, raw + after, raw_length - after);
+      w += raw_length - after;
+    }
+    return f;
+  }
+
   void run_lines(Block& block) const {
     const char* p = block.in.data();
     const char* const end = p + block.in.size();
@@ -239,22 +263,9 @@ class Mapper {
       const std::size_t raw_length = static_cast<std::size_t>(raw_end - start);
       reserve(block, w, raw_length);
       char* const row_start = w;
-      const std::string_view score(field, static_cast<std::size_t>(field_end - field));
-      Field f;
-      if (o_.replace) {  // the fields before the score, its probability, the fields after
-        std::memcpy(w, start, static_cast<std::size_t>(field - start));
-        w += field - start;
-        f = append_probability(block, w, score, line);
-        if (f == Field::written) {
-          std::memcpy(w, field_end, static_cast<std::size_t>(raw_end - field_end));
-          w += raw_end - field_end;
-        }
-      } else {
-        std::memcpy(w, start, raw_length);
-        w += raw_length;
-        *w++ = d;
-        f = append_probability(block, w, score, line);
-      }
+      const std::size_t field_length = static_cast<std::size_t>(field_end - field);
+      const Field f = write_record(block, w, start, raw_length, static_cast<std::size_t>(field - start),
+                                   field_length, std::string_view(field, field_length), line);
       if (f == Field::failed) break;
       if (f == Field::skipped) {
         w = row_start;
@@ -273,24 +284,9 @@ class Mapper {
     for (const Block::Parsed& r : block.records) {
       reserve(block, w, r.raw_length + r.end_length);
       char* const row_start = w;
-      const char* const raw = block.in.data() + r.raw_offset;
-      const std::string_view score(block.scores.data() + r.score_offset, r.score_length);
-      Field f;
-      if (o_.replace) {
-        std::memcpy(w, raw, r.field_offset);
-        w += r.field_offset;
-        f = append_probability(block, w, score, r.line);
-        if (f == Field::written) {
-          const std::size_t after = r.field_offset + r.field_length;
-          std::memcpy(w, raw + after, r.raw_length - after);
-          w += r.raw_length - after;
-        }
-      } else {
-        std::memcpy(w, raw, r.raw_length);
-        w += r.raw_length;
-        *w++ = delimiter_;
-        f = append_probability(block, w, score, r.line);
-      }
+      const Field f = write_record(block, w, block.in.data() + r.raw_offset, r.raw_length, r.field_offset,
+                                   r.field_length, std::string_view(block.scores.data() + r.score_offset, r.score_length),
+                                   r.line);
       if (f == Field::failed) break;
       if (f == Field::skipped) {
         w = row_start;
