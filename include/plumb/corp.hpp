@@ -22,6 +22,11 @@ struct CorpTerms {
   double unc = 0.0;
 };
 
+// The terms from weighted sums of one score's per-row losses: of the
+// forecasts (s_x), of their PAV recalibration (s_pav) and of the overall
+// rate (s_clim), over a total weight `total` > 0.
+CorpTerms corp_terms(double s_x, double s_pav, double s_clim, double total) noexcept;
+
 struct CorpDecomposition {
   CorpTerms brier;
   CorpTerms log_loss;  // nats, clipped as in scores.hpp (recalibrated values too)

@@ -72,6 +72,21 @@ OffsetFit fit_offset_intercept(std::span<const double> logit, std::span<const do
   return out;
 }
 
+// The two fits of the calibration regression on rows (or weighted cells,
+// two rows a distinct forecast) of logit(forecast), label and weight, with
+// `total` the weight; `out` carries the clipped count already.
+CalibrationRegression fit_regression(CalibrationRegression out, std::span<const double> logit,
+                                     std::span<const double> label, std::span<const double> weight, double total) {
+  detail::require_positive_total("calibration_regression", total);
+  const LogisticFit fit = fit_logistic(logit, 1, label, weight, true);
+  out.slope = fit.coef.at(0);
+  out.intercept_free = fit.coef.at(1);
+  const OffsetFit offset = fit_offset_intercept(logit, label, weight, total);
+  out.intercept_at_unit_slope = offset.intercept;
+  out.converged = fit.converged && offset.converged;
+  return out;
+}
+
 }  // namespace
 
 CalibrationRegression calibration_regression(std::span<const double> forecast,
@@ -87,14 +102,7 @@ CalibrationRegression calibration_regression(std::span<const double> forecast,
     if (clipped) ++out.clipped;
     total += detail::weight_at(weight, i);
   }
-  detail::require_positive_total("calibration_regression", total);
-  const LogisticFit fit = fit_logistic(logit, 1, label, weight, true);
-  out.slope = fit.coef.at(0);
-  out.intercept_free = fit.coef.at(1);
-  const OffsetFit offset = fit_offset_intercept(logit, label, weight, total);
-  out.intercept_at_unit_slope = offset.intercept;
-  out.converged = fit.converged && offset.converged;
-  return out;
+  return fit_regression(out, logit, label, weight, total);
 }
 
 CalibrationRegression calibration_regression(const ForecastCells& cells) {
@@ -120,14 +128,7 @@ CalibrationRegression calibration_regression(const ForecastCells& cells) {
       weight.push_back(cells.negatives[c]);
     }
   }
-  detail::require_positive_total("calibration_regression", total);
-  const LogisticFit fit = fit_logistic(logit, 1, label, weight, true);
-  out.slope = fit.coef.at(0);
-  out.intercept_free = fit.coef.at(1);
-  const OffsetFit offset = fit_offset_intercept(logit, label, weight, total);
-  out.intercept_at_unit_slope = offset.intercept;
-  out.converged = fit.converged && offset.converged;
-  return out;
+  return fit_regression(out, logit, label, weight, total);
 }
 
 }  // namespace plumb

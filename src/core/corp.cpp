@@ -47,17 +47,18 @@ CorpDecomposition corp_decomposition_given(std::span<const double> forecast,
     log_pav += w * log_loss_term(r, y);
     log_clim += w * log_loss_term(rate, y);
   }
-  auto terms = [total](double s_x, double s_pav, double s_clim) {
-    CorpTerms t;
-    t.score = s_x / total;
-    t.mcb = (s_x - s_pav) / total;
-    t.dsc = (s_clim - s_pav) / total;
-    t.unc = s_clim / total;
-    return t;
-  };
-  out.brier = terms(brier_x, brier_pav, brier_clim);
-  out.log_loss = terms(log_x, log_pav, log_clim);
+  out.brier = corp_terms(brier_x, brier_pav, brier_clim, total);
+  out.log_loss = corp_terms(log_x, log_pav, log_clim, total);
   return out;
+}
+
+CorpTerms corp_terms(double s_x, double s_pav, double s_clim, double total) noexcept {
+  CorpTerms t;
+  t.score = s_x / total;
+  t.mcb = (s_x - s_pav) / total;
+  t.dsc = (s_clim - s_pav) / total;
+  t.unc = s_clim / total;
+  return t;
 }
 
 }  // namespace plumb

@@ -350,17 +350,8 @@ ScoreSummary summarise_cells(const ForecastCellColumn& column, const ReportOptio
         lcl += w * tc;
       });
     }
-    const double total = t.weight;
-    auto terms = [total](double s_x, double s_pav, double s_clim) {
-      CorpTerms out;
-      out.score = s_x / total;
-      out.mcb = (s_x - s_pav) / total;
-      out.dsc = (s_clim - s_pav) / total;
-      out.unc = s_clim / total;
-      return out;
-    };
-    s.corp_brier = terms(bx, bp, bc);
-    s.corp_log_loss = terms(lx, lp, lcl);
+    s.corp_brier = corp_terms(bx, bp, bc, t.weight);
+    s.corp_log_loss = corp_terms(lx, lp, lcl, t.weight);
   }
 
   // Both binnings, once each.
