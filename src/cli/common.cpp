@@ -215,13 +215,19 @@ std::string map_score_column(const Artifact& artifact, const std::string& given)
   return given.empty() ? artifact.score_column : given;
 }
 
+namespace {
+// `columns` under the --missing policy of `o`: every labelled read takes it.
+io::LabelledColumns with_missing_policy(io::LabelledColumns columns, const InputOptions& o) {
+  columns.missing = parse_missing(o.missing);
+  return columns;
+}
+}  // namespace
+
 io::LabelledRows read_rows_with_progress(const std::string& what, const InputOptions& o,
                                          const io::LabelledColumns& columns) {
   Progress progress(what, o.quiet);
-  io::LabelledColumns with_policy = columns;
-  with_policy.missing = parse_missing(o.missing);
   io::LabelledRows rows = io::read_labelled(
-      o.file, with_policy, label_rule(o), parse_separator(o.separator),
+      o.file, with_missing_policy(columns, o), label_rule(o), parse_separator(o.separator),
       [&progress](std::uint64_t r, std::uint64_t b, std::optional<std::uint64_t> t) { progress.update(r, b, t); });
   progress.finish();
   return rows;
@@ -271,13 +277,11 @@ io::LabelledRows read_and_tally_with_progress(const std::string& what, const Inp
     changed.notify_all();
     counter.join();
   };
-  io::LabelledColumns with_policy = columns;
-  with_policy.missing = parse_missing(o.missing);
   io::LabelledRows rows;
   try {
     Progress progress(what, o.quiet);
     rows = io::read_labelled(
-        o.file, with_policy, label_rule(o), parse_separator(o.separator),
+        o.file, with_missing_policy(columns, o), label_rule(o), parse_separator(o.separator),
         [&progress](std::uint64_t r, std::uint64_t b, std::optional<std::uint64_t> t) { progress.update(r, b, t); },
         [&](std::span<const double> score, std::span<const double> label) {
           Block b{{score.begin(), score.end()}, {label.begin(), label.end()}};
