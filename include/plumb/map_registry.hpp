@@ -1,7 +1,8 @@
 #pragma once
 // The map registry: every fact the program asks about a kind of map, in one
-// entry per kind (src/core/map_registry.cpp). fit, cross-fit, the help and
-// the library's fit_map/load_map read it; nothing else names a kind.
+// entry per kind (src/core/map_registry.cpp). fit, cross-fit (complexity()
+// and the command), the help and the library's fit_map/load_map read it, so
+// no other code decides anything by a kind's name.
 #include <memory>
 #include <nlohmann/json.hpp>
 #include <span>
