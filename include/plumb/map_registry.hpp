@@ -43,7 +43,7 @@ struct MapOption {
 // A kind of map and everything the program asks about it.
 struct MapKind {
   std::string_view name{};  // as in --map and the artifact's "kind"
-  bool fittable = true;   // false: made by another command (fold_average), only ever loaded
+  bool fittable = true;     // false: made by another command (fold_average), only ever loaded
   // One line for fit's help (what the map is, what it needs); empty when not fittable.
   std::string_view help{};
   bool (*accepts)(Scale) noexcept = nullptr;

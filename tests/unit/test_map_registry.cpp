@@ -39,9 +39,9 @@ struct Facts {
   bool nonparametric;  // its shape follows the rows, not a formula
 };
 const std::map<std::string, Facts> facts{
-    {"isotonic", {true, true, true, true}},        {"platt", {true, true, true, false}},
-    {"beta", {true, false, false, false}},         {"temperature", {true, true, false, false}},
-    {"histogram", {true, true, true, true}},       {"fold_average", {true, true, true, false}},
+    {"isotonic", {true, true, true, true}},  {"platt", {true, true, true, false}},
+    {"beta", {true, false, false, false}},   {"temperature", {true, true, false, false}},
+    {"histogram", {true, true, true, true}}, {"fold_average", {true, true, true, false}},
 };
 
 bool accepts_per_facts(const Facts& f, Scale s) {
@@ -178,8 +178,7 @@ TEST_CASE("map registry: each kind accepts the scales its method allows and refu
 
 TEST_CASE("map registry: an unknown kind is refused with every fittable kind listed") {
   const Rows rows = small_case(Scale::probability);
-  CHECK(plumb::test::error_kind([&] { plumb::fit_map("spline", rows.data(Scale::probability)); }) ==
-        ErrorKind::usage);
+  CHECK(plumb::test::error_kind([&] { plumb::fit_map("spline", rows.data(Scale::probability)); }) == ErrorKind::usage);
   const std::string fit_list = expected_of_error([&] { plumb::fit_map("spline", rows.data(Scale::probability)); });
   CHECK(plumb::test::error_kind([&] {
           plumb::load_map("spline", Scale::probability, nlohmann::json::object(), "x.json");
@@ -220,8 +219,7 @@ TEST_CASE("map registry: nonparametric kinds and the complexity order of the one
 TEST_CASE("map registry: the options each kind records in the artifact, from MapOptions") {
   // The keys and values docs/artifact-format.md gives for fit.options.
   MapOptions m;
-  CHECK(plumb::recorded_options(*plumb::find_map_kind("isotonic"), m) ==
-        nlohmann::json{{"between_blocks", "linear"}});
+  CHECK(plumb::recorded_options(*plumb::find_map_kind("isotonic"), m) == nlohmann::json{{"between_blocks", "linear"}});
   CHECK(plumb::recorded_options(*plumb::find_map_kind("platt"), m) == nlohmann::json{{"platt_targets", "smoothed"}});
   CHECK(plumb::recorded_options(*plumb::find_map_kind("beta"), m) == nlohmann::json{{"beta_form", "full"}});
   CHECK(plumb::recorded_options(*plumb::find_map_kind("histogram"), m) == nlohmann::json{{"bins", 10}});
@@ -285,13 +283,16 @@ TEST_CASE("map registry: the self-check finds an entry registered without one of
         if (other.fittable && other.name != c.name) c.complexity = other.complexity;
     });
     lacks("a name of its own", [&](MapKind& c) { c.name = registry[(i + 1) % registry.size()].name; });
-    if (!k.scale_hint.empty()) lacks("its scale hint", [](MapKind& c) { c.scale_hint = {}; });
-    else lacks("a scale it refuses (with a hint)", [](MapKind& c) { c.scale_hint = "--scale probability"; });
+    if (!k.scale_hint.empty())
+      lacks("its scale hint", [](MapKind& c) { c.scale_hint = {}; });
+    else
+      lacks("a scale it refuses (with a hint)", [](MapKind& c) { c.scale_hint = "--scale probability"; });
     if (k.nonparametric) {
       lacks("the zero-or-one pieces", [](MapKind& c) { c.zero_or_one_pieces = {}; });
       lacks("the zero-or-one advice", [](MapKind& c) { c.zero_or_one_advice = {}; });
     }
-    if (!k.not_monotone_advice.empty()) lacks("half its not-monotone note", [](MapKind& c) { c.not_monotone_advice = {}; });
+    if (!k.not_monotone_advice.empty())
+      lacks("half its not-monotone note", [](MapKind& c) { c.not_monotone_advice = {}; });
     for (std::size_t j = 0; j < k.options.size(); ++j) {
       INFO("option " << k.options[j].name);
       auto option_lacks = [&](const char* what, auto change) {
@@ -312,8 +313,10 @@ TEST_CASE("map registry: the self-check finds an entry registered without one of
       });
       option_lacks("a default that MapOptions holds", [](MapOption& o) {
         // A default other than MapOptions' own: the second choice, or the range's end.
-        if (o.choices.size() > 1) o.default_text = o.choices[1];
-        else o.default_text = "1000000";
+        if (o.choices.size() > 1)
+          o.default_text = o.choices[1];
+        else
+          o.default_text = "1000000";
       });
     }
   }
