@@ -8,6 +8,8 @@
 #include <string>
 
 #include "plumb/calibration_map.hpp"
+#include "plumb/cross_fit.hpp"
+#include "plumb/folds.hpp"
 
 namespace plumb {
 
@@ -60,5 +62,18 @@ Artifact load_artifact(const std::string& path);
 // canonical (compact, sorted-key) serialisation.
 nlohmann::json artifact_to_json(const Artifact& artifact);
 std::string integrity_hash(const nlohmann::json& document_without_integrity);
+
+// The evidence of a cross-fit as the artifact's "cross_fit" member holds it
+// (docs/artifact-format.md): folds, the split (its kind, and its column when
+// `split_column` is not empty), the seed, the shipped map (`final_kind`:
+// "refit" or "folds"), the rows scored, each candidate's out-of-fold figures
+// and paired difference against the best, the raw score's figures (null when
+// the score is not a probability), the chosen kind and the reason.
+// Precondition: `result` holds at least one candidate.
+nlohmann::json cross_fit_evidence(const CrossFitResult& result, SplitKind split, const std::string& split_column,
+                                  std::uint64_t seed, const std::string& final_kind);
+
+// The evidence as cross-fit's --json file writes it: indented, one newline at the end.
+std::string evidence_to_text(const nlohmann::json& evidence);
 
 }  // namespace plumb

@@ -2,6 +2,7 @@
 
 #include <unistd.h>
 
+#include <algorithm>
 #include <charconv>
 #include <condition_variable>
 #include <deque>
@@ -96,59 +97,62 @@ std::string skipped_note(const InputOptions& o, std::uint64_t skipped) {
 
 namespace {
 
-// The between-blocks rule as given, by --between-blocks or its older spelling.
-std::string between_given(const MapChoices& c) {
-  if (c.between_older.empty()) return c.between;
-  if (c.between_blocks_option != nullptr && c.between_blocks_option->count() > 0)
-    throw Error(ErrorKind::usage, "--between-blocks given twice", {}, c.between_older, "it once");
-  if (c.between_older != "linear" && c.between_older != "step")
-    throw Error(ErrorKind::usage, "unknown --between-blocks", {}, c.between_older, "linear or step");
-  return c.between_older;
+// "a, b or c".
+std::string or_list(std::span<const std::string_view> words) {
+  std::string out;
+  for (std::size_t i = 0; i < words.size(); ++i)
+    out += (i == 0 ? "" : i + 1 == words.size() ? " or " : ", ") + std::string(words[i]);
+  return out;
 }
 
 }  // namespace
 
 MapOptions MapChoices::map_options() const {
-  MapOptions m;
-  m.isotonic_interpolate = between_given(*this) == "linear";
-  m.platt_smoothed_targets = platt_targets == "smoothed";
-  m.beta_form = beta_form;
-  m.histogram_bins = bins;
+  MapOptions m = given;
+  for (const Older& o : older) {
+    if (o.text.empty()) continue;
+    const std::string name = "--" + std::string(o.option->name);
+    if (o.current != nullptr && o.current->count() > 0)
+      throw Error(ErrorKind::usage, name + " given twice", {}, o.text, "it once");
+    if (std::find(o.option->choices.begin(), o.option->choices.end(), o.text) == o.option->choices.end())
+      throw Error(ErrorKind::usage, "unknown " + name, {}, o.text, or_list(o.option->choices));
+    o.option->set(m, o.text, 0);
+  }
   return m;
 }
 
 nlohmann::json MapChoices::recorded(std::string_view kind) const {
-  if (kind == "isotonic") return {{"between_blocks", between_given(*this)}};
-  if (kind == "platt") return {{"platt_targets", platt_targets}};
-  if (kind == "beta") return {{"beta_form", beta_form}};
-  if (kind == "histogram") return {{"bins", bins}};
-  return nlohmann::json::object();
+  const MapKind* k = find_map_kind(kind);
+  return k == nullptr ? nlohmann::json::object() : recorded_options(*k, map_options());
 }
 
 void add_map_options(CLI::App& command, MapChoices& c) {
-  // Named as the artifact records it (`between_blocks`); --between, the
-  // older spelling, is still taken but not shown in help.
-  c.between_blocks_option =
-      command
-          .add_option("--between-blocks", c.between,
-                      "isotonic: between fitted blocks, interpolate linearly or hold the left block's step")
-          ->check(CLI::IsMember({"linear", "step"}))
-          ->default_str("linear");
-  command.add_option("--between", c.between_older)->group("");
-  command
-      .add_option("--platt-targets", c.platt_targets,
-                  "platt: fit to Platt's smoothed targets (N+ + 1)/(N+ + 2) and 1/(N- + 2), or to the labels")
-      ->check(CLI::IsMember({"smoothed", "labels"}))
-      ->default_str("smoothed");
-  command
-      .add_option("--beta-form", c.beta_form,
-                  "beta: full (a, b, c free), midpoint (c = (a - b) ln 2, so the curve crosses 1/2 at a "
-                  "score of 1/2) or shared (a = b, a logistic map in the log-odds)")
-      ->check(CLI::IsMember({"full", "midpoint", "shared"}))
-      ->default_str("full");
-  command.add_option("--bins", c.bins, "histogram: number of equal-mass bins")
-      ->check(CLI::Range(1, 1000000))
-      ->default_str("10");
+  for (const MapKind& kind : map_registry()) {
+    if (!kind.fittable) continue;
+    for (const MapOption& option : kind.options) {
+      const std::string name = "--" + std::string(option.name);
+      CLI::Option* added = nullptr;
+      if (option.choices.empty()) {
+        added = command.add_option_function<int>(
+                           name, [&c, &option](const int& count) { option.set(c.given, {}, count); },
+                           std::string(option.help))
+                    ->check(CLI::Range(option.min, option.max));
+      } else {
+        const std::vector<std::string> choices(option.choices.begin(), option.choices.end());
+        added = command.add_option_function<std::string>(
+                           name, [&c, &option](const std::string& text) { option.set(c.given, text, 0); },
+                           std::string(option.help))
+                    ->check(CLI::IsMember(choices));
+        if (!option.value_word.empty()) added->option_text(std::string(option.value_word));
+      }
+      added->default_str(std::string(option.default_text));
+      // The older spelling is still taken but not shown in help.
+      if (!option.older_spelling.empty()) {
+        c.older.push_back({&option, added, {}});
+        command.add_option("--" + std::string(option.older_spelling), c.older.back().text)->group("");
+      }
+    }
+  }
 }
 
 char parse_separator(const std::string& text) {

@@ -4,12 +4,14 @@
 #include <CLI/CLI.hpp>
 #include <chrono>
 #include <cstdint>
+#include <deque>
 #include <optional>
 #include <string>
 
 #include "plumb/artifact.hpp"
 #include "plumb/calibration_map.hpp"
 #include "plumb/labelled_input.hpp"
+#include "plumb/map_registry.hpp"
 #include "plumb/tally.hpp"
 #include "plumb/scale.hpp"
 
@@ -30,25 +32,27 @@ struct InputOptions {
   bool quiet = false;
 };
 
-// The options of each kind of map, as given on the command line.
+// The options of each kind of map, as given on the command line. The options
+// and their kinds come from the map registry (plumb/map_registry.hpp).
 struct MapChoices {
-  std::string between = "linear";  // --between-blocks
-  // --between, the older spelling of --between-blocks: hidden from help and
+  MapOptions given;  // the defaults, with each option given applied as it is parsed
+  // An option's hidden older spelling (--between for --between-blocks):
   // checked by map_options(), so that no message names it.
-  std::string between_older;
-  const CLI::Option* between_blocks_option = nullptr;
-  std::string platt_targets = "smoothed";
-  std::string beta_form = "full";
-  int bins = 10;
+  struct Older {
+    const MapOption* option = nullptr;
+    const CLI::Option* current = nullptr;  // the option under its current name
+    std::string text;                      // the value given under the older name
+  };
+  std::deque<Older> older;  // a deque: the command line binds to each `text`
 
-  // Throws a usage Error when the older --between was given with a value
-  // other than linear or step, or together with --between-blocks.
+  // Throws a usage Error when an older spelling was given with a value that
+  // is not one of the option's choices, or together with the current name.
   MapOptions map_options() const;
   // The options that matter to `kind`, as the artifact records them.
   nlohmann::json recorded(std::string_view kind) const;
 };
-// --between-blocks (and its hidden older spelling --between),
-// --platt-targets, --beta-form, --bins.
+// Every fittable kind's options, in registry order (--between-blocks and its
+// hidden older spelling --between, --platt-targets, --beta-form, --bins).
 void add_map_options(CLI::App& command, MapChoices& choices);
 
 // --score, --label, --weight, --positive, --negative, --missing, --scale,

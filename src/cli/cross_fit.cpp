@@ -13,15 +13,12 @@
 #include "plumb/cross_fit.hpp"
 #include "plumb/csv.hpp"
 #include "plumb/error.hpp"
+#include "plumb/map_registry.hpp"
 #include "plumb/maps/fold_average_map.hpp"
 #include "plumb/output.hpp"
 
 namespace plumb::cli {
 namespace {
-
-// Below this many rows an isotonic choice is cautioned (common practice;
-// Niculescu-Mizil and Caruana 2005 show isotonic overfitting small sets).
-constexpr double few_rows_for_isotonic = 1000;
 
 struct CrossFitOptions {
   InputOptions input;
@@ -70,16 +67,10 @@ std::vector<std::string> parse_kinds(const std::string& text, Scale scale) {
   while (start <= text.size()) {
     const auto comma = text.find(',', start);
     const std::string k = text.substr(start, comma == std::string::npos ? std::string::npos : comma - start);
-    const auto known = std::find(map_kinds().begin(), map_kinds().end(), k);
-    if (known == map_kinds().end())
-      throw Error(ErrorKind::usage, "unknown map kind in --map", {}, k, "auto, or a comma list of " + [] {
-        std::string names;
-        for (std::string_view known : map_kinds()) names += (names.empty() ? "" : ", ") + std::string(known);
-        return names;
-      }());
-    if (!accepts_scale(k, scale))
-      throw Error(ErrorKind::usage, "the " + k + " map does not accept scores on the " +
-                                        std::string(to_string(scale)) + " scale", {}, {}, "another --map list");
+    const MapKind* known = find_map_kind(k);
+    if (known == nullptr || !known->fittable)
+      throw Error(ErrorKind::usage, "unknown map kind in --map", {}, k, "auto, or a comma list of " + map_kind_list());
+    if (!known->accepts(scale)) throw scale_refusal(*known, scale, "another --map list");
     if (std::find(kinds.begin(), kinds.end(), k) == kinds.end()) kinds.push_back(k);
     if (comma == std::string::npos) break;
     start = comma + 1;
@@ -99,35 +90,15 @@ TimeLocator time_locator(const io::LabelledRows& rows) {
   };
 }
 
-nlohmann::json figures_json(const OutOfFoldFigures& f) {
-  return {{"log_loss", f.log_loss},
-          {"brier", f.brier},
-          {"ece", f.ece},
-          {"mcb", f.mcb},
-          {"fold_log_loss", f.fold_log_loss},
-          {"fold_log_loss_sd", f.fold_log_loss_sd}};
-}
-
-nlohmann::json evidence_json(const CrossFitResult& r, const Split& split, const CrossFitOptions& o) {
-  nlohmann::json candidates = nlohmann::json::array();
-  for (const Candidate& c : r.candidates) {
-    nlohmann::json e = figures_json(c.figures);
-    e["kind"] = c.kind;
-    e["log_loss_minus_best"] = c.diff_vs_best;
-    e["log_loss_minus_best_se"] = c.diff_se;
-    candidates.push_back(std::move(e));
-  }
-  nlohmann::json split_json = {{"kind", std::string(to_string(split.kind))}};
-  if (!split.column.empty()) split_json["column"] = split.column;
-  return {{"folds", r.folds.count},
-          {"split", split_json},
-          {"seed", o.seed},
-          {"final", o.final_kind},
-          {"scored_rows", r.scored_rows},
-          {"candidates", candidates},
-          {"raw", r.has_raw ? figures_json(r.raw) : nlohmann::json(nullptr)},
-          {"chosen", r.candidates[r.chosen].kind},
-          {"reason", r.reason}};
+// The fittable kinds, simplest first ("temperature, platt, ...").
+std::string kinds_by_complexity() {
+  std::vector<const MapKind*> kinds;
+  for (const MapKind& k : map_registry())
+    if (k.fittable) kinds.push_back(&k);
+  std::sort(kinds.begin(), kinds.end(), [](const MapKind* a, const MapKind* b) { return a->complexity < b->complexity; });
+  std::string out;
+  for (const MapKind* k : kinds) out += (out.empty() ? "" : ", ") + std::string(k->name);
+  return out;
 }
 
 void print_evidence(const CrossFitResult& r, const std::string& skipped) {
@@ -243,13 +214,13 @@ int run_cross_fit(const CrossFitOptions& o) {
   }
   artifact.score_column = rows.score_columns[0];
   artifact.fit_options = o.choices.recorded(chosen.kind);
-  artifact.cross_fit = evidence_json(result, split, o);
+  artifact.cross_fit = cross_fit_evidence(result, split.kind, split.column, o.seed, o.final_kind);
   artifact.provenance = provenance_of(rows, o.input, o.no_timestamp);
 
   if (!o.oof.empty()) write_oof(o, rows, result, separator);
   if (!o.json_path.empty()) {
     io::OutputFile js(o.json_path);
-    js.write(artifact.cross_fit.dump(2) + "\n");
+    js.write(evidence_to_text(artifact.cross_fit));
     js.commit();
   }
   io::OutputFile out(o.output);
@@ -261,14 +232,14 @@ int run_cross_fit(const CrossFitOptions& o) {
     if (split.kind == SplitKind::time)
       std::fprintf(stderr, "plumb cross-fit: note: the earliest time block (fold 1) is never scored: no earlier "
                            "rows exist to fit its map on\n");
-    if (chosen.kind == "isotonic" && rows.weight_total < few_rows_for_isotonic) {
+    if (find_map_kind(chosen.kind)->nonparametric && rows.weight_total < few_rows_for_nonparametric) {
       char amount[64];
       if (rows.weight.empty()) std::snprintf(amount, sizeof amount, "only %s rows", grouped(rows.rows).c_str());
       else std::snprintf(amount, sizeof amount, "a total weight of only %.6g", rows.weight_total);
       std::fprintf(stderr,
-                   "plumb cross-fit: caution: isotonic was chosen on %s; a nonparametric map usually needs about "
-                   "1,000 rows or more (common practice)%s\n",
-                   amount,
+                   "plumb cross-fit: caution: %s was chosen on %s; a nonparametric map usually needs about "
+                   "%s rows or more (common practice)%s\n",
+                   chosen.kind.c_str(), amount, grouped(static_cast<std::uint64_t>(few_rows_for_nonparametric)).c_str(),
                    result.candidates.size() == 1
                        ? ". It was the only candidate: compare it with the other kinds, --map auto."
                        : ", and its out-of-fold lead may not hold on new rows.");
@@ -294,7 +265,7 @@ Command add_cross_fit_command(CLI::App& app) {
       "                  never scored; COLUMN holds numbers or ISO 8601 dates/date-times, one form throughout\n"
       "  column=COLUMN   the folds are COLUMN's values, made elsewhere (say, by the model's own cross-validation)\n\n"
       "With --map auto every kind that accepts the scale is a candidate. The choice is the simplest map\n"
-      "(temperature, platt, beta, histogram, isotonic) whose out-of-fold log loss is within one standard\n"
+      "(" + kinds_by_complexity() + ") whose out-of-fold log loss is within one standard\n"
       "error of the best (a paired per-row comparison). The evidence table goes to stderr; --json writes it.\n\n"
       "Examples:\n"
       "  plumb cross-fit --map isotonic,platt,beta --score risk --label missed --split group=parcel_route \\\n"

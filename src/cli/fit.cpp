@@ -1,4 +1,5 @@
 // plumb fit: fit one map on labelled scores and write its artifact.
+#include <algorithm>
 #include <cstdio>
 #include <string>
 
@@ -7,6 +8,7 @@
 #include "plumb/artifact.hpp"
 #include "plumb/calibration_map.hpp"
 #include "plumb/error.hpp"
+#include "plumb/map_registry.hpp"
 #include "plumb/output.hpp"
 #include "plumb/tally.hpp"
 #include "plumb/tally_io.hpp"
@@ -14,11 +16,6 @@
 
 namespace plumb::cli {
 namespace {
-
-// Below this many rows the trade prefers a parametric map to isotonic or
-// histogram binning (common practice; Niculescu-Mizil and Caruana 2005 show
-// isotonic overfitting small calibration sets).
-constexpr double few_rows_for_nonparametric = 1000;
 
 struct FitOptions {
   InputOptions input;
@@ -53,12 +50,9 @@ Provenance provenance_of_tally(const Tally& t, const std::string& file, const st
 
 int write_and_summarise(const FitOptions& o, const Artifact& artifact, const std::string& from);
 
-void check_scale(const FitOptions& o, Scale scale, std::string_view scale_name) {
-  if (!accepts_scale(o.kind, scale))
-    throw Error(ErrorKind::usage,
-                "the " + o.kind + " map does not accept scores on the " + std::string(scale_name) + " scale", {}, {},
-                o.kind == "beta" ? "--scale probability (beta calibration works on ln(s) and ln(1-s))"
-                                 : "--scale probability or logit (temperature divides log-odds)");
+void check_scale(const FitOptions& o, Scale scale) {
+  const MapKind& kind = fittable_map_kind(o.kind);
+  if (!kind.accepts(scale)) throw scale_refusal(kind, scale);
 }
 
 int run_fit(const FitOptions& o) {
@@ -75,7 +69,7 @@ int run_fit(const FitOptions& o) {
   if (!o.tally.empty()) {
     std::string sha256;
     const Tally tally = load_tally(o.tally, &sha256);
-    check_scale(o, tally.scale, to_string(tally.scale));
+    check_scale(o, tally.scale);
     Artifact artifact;
     Location loc;
     loc.file = o.tally;
@@ -90,7 +84,7 @@ int run_fit(const FitOptions& o) {
     artifact.provenance = provenance_of_tally(tally, o.tally == "-" ? "<stdin>" : o.tally, sha256, o.no_timestamp);
     return write_and_summarise(o, artifact, "tally " + artifact.provenance.source);
   }
-  check_scale(o, scale, o.input.scale);
+  check_scale(o, scale);
   const MapOptions map_options = o.choices.map_options();
 
   // Unweighted rows are counted by score while the file is still being
@@ -142,32 +136,44 @@ int write_and_summarise(const FitOptions& o, const Artifact& artifact, const std
                            "separated by the score?); the map is usable but its parameters are not a maximum\n",
                    d.iterations);
     const CalibrationMap& map = *artifact.map;
+    const MapKind& kind = fittable_map_kind(o.kind);
     if (map.decreases_overall())
       std::fprintf(stderr, "plumb fit: warning: the fitted map decreases (higher scores get lower probabilities); "
                            "is the score oriented the other way, or the label's positive value wrong?\n");
     else if (!map.monotone())
       std::fprintf(stderr, "plumb fit: note: the fitted map is not monotone: it rises with the score as a whole "
-                           "but falls between some neighbouring %s; %s\n",
-                   o.kind == "histogram" ? "bins (noise in bins of few rows)" : "scores",
-                   o.kind == "histogram" ? "fewer --bins, or --map isotonic, gives a monotone map"
-                                         : "--map isotonic gives a monotone map");
+                           "but falls between some neighbouring %s%s%s\n",
+                   kind.not_monotone_between.empty() ? "scores" : std::string(kind.not_monotone_between).c_str(),
+                   kind.not_monotone_advice.empty() ? "" : "; ", std::string(kind.not_monotone_advice).c_str());
     if (map.reaches_zero_or_one())
       std::fprintf(stderr, "plumb fit: caution: the map gives a probability of exactly 0 or 1 for some scores "
                            "(%s whose rows all have one outcome), so any row there with the other outcome has infinite log "
-                           "loss; %s\n",
-                   o.kind == "histogram" ? "bins" : "blocks",
-                   o.kind == "histogram" ? "use fewer --bins, or --map platt or beta"
-                                         : "--map platt or beta keeps every probability strictly between 0 and 1");
+                           "loss%s%s\n",
+                   kind.zero_or_one_pieces.empty() ? "pieces" : std::string(kind.zero_or_one_pieces).c_str(),
+                   kind.zero_or_one_advice.empty() ? "" : "; ", std::string(kind.zero_or_one_advice).c_str());
     if (d.clipped > 0)
       std::fprintf(stderr, "plumb fit: note: %s rows had probability scores within 1e-12 of 0 or 1 and were "
                            "clipped there before taking log-odds\n",
                    grouped(d.clipped).c_str());
-    if ((o.kind == "isotonic" || o.kind == "histogram") && rows.weight_total < few_rows_for_nonparametric)
-      std::fprintf(stderr, "plumb fit: caution: %s rows is few for %s map (common practice: about 1,000 or "
+    if (kind.nonparametric && rows.weight_total < few_rows_for_nonparametric)
+      std::fprintf(stderr, "plumb fit: caution: %s rows is few for %s map (common practice: about %s or "
                            "more); a platt or beta map is less likely to overfit\n",
-                   shortest(rows.weight_total).c_str(), kind_with_article(o.kind).c_str());
+                   shortest(rows.weight_total).c_str(), kind_with_article(o.kind).c_str(),
+                   grouped(static_cast<std::uint64_t>(few_rows_for_nonparametric)).c_str());
   }
   return 0;
+}
+
+// The footer's list of kinds, one line each from the map registry.
+std::string maps_help() {
+  std::string out = "Maps:\n";
+  for (const MapKind& kind : map_registry()) {
+    if (!kind.fittable) continue;
+    std::string name(kind.name);
+    name.resize(std::max<std::size_t>(name.size() + 2, 13), ' ');
+    out += "  " + name + std::string(kind.help) + "\n";
+  }
+  return out + "\n";
 }
 
 }  // namespace
@@ -176,12 +182,7 @@ Command add_fit_command(CLI::App& app) {
   auto o = std::make_shared<FitOptions>();
   CLI::App* cmd = app.add_subcommand("fit", "Fit a recalibration map on labelled scores and write it as a map artifact");
   cmd->footer(
-      "Maps:\n"
-      "  isotonic     pool-adjacent-violators step fit; any monotone shape; needs many rows\n"
-      "  platt        logistic sigmoid in the score (or its log-odds); two parameters\n"
-      "  beta         logistic in ln(s) and -ln(1-s); probability scores only; three parameters\n"
-      "  temperature  divides the log-odds by one T > 0; probability or logit scores\n"
-      "  histogram    equal-mass bins, each mapped to its observed frequency\n\n"
+      maps_help() +
       "Examples:\n"
       "  plumb fit --map isotonic --score risk --label missed holdout.csv -o late.map.json\n"
       "  plumb fit --map platt --scale logit --score z --label outcome --positive late holdout.tsv > z.map.json\n"

@@ -147,13 +147,14 @@ std::string base_words(const CLI::Option& option) {
 bool is_flag(const CLI::Option& option) { return option.get_expected_max() == 0; }
 
 // What a value stands for, by option name: the same word on every command.
+// (The map kinds' options carry their own, from the map registry.)
 std::string_view value_word(std::string_view long_name) {
   static constexpr std::pair<std::string_view, std::string_view> words[] = {
       {"score", "COLUMN"},   {"label", "COLUMN"},   {"weight", "COLUMN"}, {"by", "COLUMN"},  {"output", "FILE"},
       {"json", "FILE"},      {"svg", "FILE"},       {"markdown", "FILE"}, {"tally", "FILE"}, {"oof", "FILE"},
       {"positive", "VALUE"}, {"negative", "VALUE"}, {"sep", "CHAR"},      {"as", "NAME"},
       {"map-score", "COLUMN"}, {"max", "METRIC=VALUE"}, {"min", "METRIC=VALUE"}, {"missing", "POLICY"},
-      {"between-blocks", "RULE"}, {"beta-form", "FORM"}, {"platt-targets", "TARGETS"}, {"binning", "KIND"},
+      {"binning", "KIND"},
       {"final", "WHICH"}, {"split", "RULE"},
   };
   for (const auto& [name, word] : words)

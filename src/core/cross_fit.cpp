@@ -9,6 +9,7 @@
 #include "plumb/calibration_error.hpp"
 #include "plumb/corp.hpp"
 #include "plumb/error.hpp"
+#include "plumb/map_registry.hpp"
 #include "plumb/scores.hpp"
 #include "plumb/tally.hpp"
 
@@ -67,11 +68,8 @@ OutOfFoldFigures figures(std::span<const double> forecast, const FitData& d, con
 }  // namespace
 
 int complexity(std::string_view kind) noexcept {
-  if (kind == "temperature") return 1;
-  if (kind == "platt") return 2;
-  if (kind == "beta") return 3;
-  if (kind == "histogram") return 4;
-  return 5;
+  const MapKind* k = find_map_kind(kind);
+  return k != nullptr && k->complexity > 0 ? k->complexity : std::numeric_limits<int>::max();
 }
 
 namespace {

@@ -28,7 +28,41 @@ json diagnostics_json(const FitDiagnostics& d) {
           {"notes", d.notes}};
 }
 
+json figures_json(const OutOfFoldFigures& f) {
+  return {{"log_loss", f.log_loss},
+          {"brier", f.brier},
+          {"ece", f.ece},
+          {"mcb", f.mcb},
+          {"fold_log_loss", f.fold_log_loss},
+          {"fold_log_loss_sd", f.fold_log_loss_sd}};
+}
+
 }  // namespace
+
+json cross_fit_evidence(const CrossFitResult& r, SplitKind split, const std::string& split_column,
+                        std::uint64_t seed, const std::string& final_kind) {
+  json candidates = json::array();
+  for (const Candidate& c : r.candidates) {
+    json e = figures_json(c.figures);
+    e["kind"] = c.kind;
+    e["log_loss_minus_best"] = c.diff_vs_best;
+    e["log_loss_minus_best_se"] = c.diff_se;
+    candidates.push_back(std::move(e));
+  }
+  json split_json = {{"kind", std::string(to_string(split))}};
+  if (!split_column.empty()) split_json["column"] = split_column;
+  return {{"folds", r.folds.count},
+          {"split", split_json},
+          {"seed", seed},
+          {"final", final_kind},
+          {"scored_rows", r.scored_rows},
+          {"candidates", candidates},
+          {"raw", r.has_raw ? figures_json(r.raw) : json(nullptr)},
+          {"chosen", r.candidates[r.chosen].kind},
+          {"reason", r.reason}};
+}
+
+std::string evidence_to_text(const json& evidence) { return evidence.dump(2) + "\n"; }
 
 std::string integrity_hash(const json& document) { return io::sha256_hex(document.dump()); }
 

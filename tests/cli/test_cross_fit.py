@@ -171,6 +171,18 @@ class CrossFit(PlumbCase):
                       "rows or more (common practice). It was the only candidate: compare it with the other kinds, "
                       "--map auto.", err)
 
+    def test_small_data_guard_for_histogram(self):
+        # Histogram binning is nonparametric too, and the same threshold as
+        # fit's caution holds (common practice: about 1,000 rows).
+        data = self.write_rows("tiny.csv", simulate(300, 9, staircase))
+        _, _, _, err = self.cross_fit(data, "--map", "histogram")
+        self.assertIn("caution: histogram was chosen on only 300 rows; a nonparametric map usually needs about 1,000 "
+                      "rows or more (common practice). It was the only candidate: compare it with the other kinds, "
+                      "--map auto.", err)
+        # A parametric choice on the same rows is not cautioned.
+        _, _, _, err = self.cross_fit(data, "--map", "platt")
+        self.assertNotIn("caution", err)
+
     def test_platt_out_of_fold_matches_r_glm_on_biopsy(self):
         r_dir = self.path("r")
         os.makedirs(r_dir)
