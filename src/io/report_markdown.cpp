@@ -119,7 +119,7 @@ std::string interval_text(const BootstrapInterval& i) {
 }
 
 std::string binning_name(BinningKind kind) {
-  return std::string(kind == BinningKind::equal_mass ? report_names::equal_mass.display : report_names::equal_width.display);
+  return std::string(kind == BinningKind::equal_mass ? report_names::equal_mass.text : report_names::equal_width.text);
 }
 
 void headline(std::string& out, const Report& report, const ScoreSummary& s) {
@@ -160,12 +160,12 @@ void headline(std::string& out, const Report& report, const ScoreSummary& s) {
         b && matches ? &b->l2_debiased : nullptr);
   }
   namespace rn = report_names;
-  add(std::string(rn::calibration_in_the_large.display) + " (mean forecast - observed)",
+  add(std::string(rn::calibration_in_the_large.text) + " (mean forecast - observed)",
       signed_prob(s.calibration_in_the_large));
   const std::string caveat = s.regression.converged ? "" : " (fit did not converge)";
-  add(std::string(rn::calibration_slope.display) + caveat, rn::fixed_text(s.regression.slope, 4));
-  add(std::string(rn::intercept_slope_free.display) + caveat, signed_prob(s.regression.intercept_free));
-  add(std::string(rn::calibration_intercept.display) + " (slope fixed at 1)" + caveat,
+  add(std::string(rn::calibration_slope.text) + caveat, rn::fixed_text(s.regression.slope, 4));
+  add(std::string(rn::intercept_slope_free.text) + caveat, signed_prob(s.regression.intercept_free));
+  add(std::string(rn::calibration_intercept.text) + " (slope fixed at 1)" + caveat,
       signed_prob(s.regression.intercept_at_unit_slope));
   const HosmerLemeshow& hl = s.hosmer_lemeshow;
   add("Hosmer-Lemeshow statistic (" + std::to_string(hl.used_groups) + " of " + std::to_string(hl.groups_requested) +

@@ -370,11 +370,11 @@ double draw_legend(Svg& svg, const Report& report, double left, double y, double
     switch (e.kind) {
       case 0:
         svg.line(x, y, x + 26, y, kDiagonal, 1.2, "6 4");
-        svg.text(x + 32, y + 4, report_names::diagonal.display, 11.0);
+        svg.text(x + 32, y + 4, report_names::diagonal.text, 11.0);
         break;
       case 1:
         svg.line(x, y, x + 26, y, kCurve, 2.2);
-        svg.text(x + 32, y + 4, report_names::pav_curve.display, 11.0);
+        svg.text(x + 32, y + 4, report_names::pav_curve.text, 11.0);
         break;
       case 2:
         svg.line(x + 8, y - 8, x + 8, y + 8, kPoint, 1.2);
@@ -384,7 +384,7 @@ double draw_legend(Svg& svg, const Report& report, double left, double y, double
         break;
       default:
         svg.rect(x + 2, y - 8, 12, 16, kBandFill, kBandEdge, 0.8, {}, "3 2");
-        svg.text(x + 20, y + 4, level + " " + std::string(report_names::consistency_band.display), 11.0);
+        svg.text(x + 20, y + 4, level + " " + std::string(report_names::consistency_band.text), 11.0);
     }
     x += e.width;
   }

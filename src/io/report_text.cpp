@@ -385,7 +385,7 @@ std::vector<Headline> headline_rows(const Report& report) {
 
   add("observed rate", [](const ScoreSummary& s) { return prob(s.observed_rate); });
   add("mean forecast", [](const ScoreSummary& s) { return prob(s.mean_forecast); });
-  add(std::string(report_names::calibration_in_the_large.display),
+  add(std::string(report_names::calibration_in_the_large.text),
       [](const ScoreSummary& s) { return signed_fixed(s.calibration_in_the_large, 4); });
   add("Brier score",
       [&](const ScoreSummary& s) { return boot(s, &BootstrapResult::brier, metric(s.brier)); });
@@ -401,7 +401,7 @@ std::vector<Headline> headline_rows(const Report& report) {
     return metric(s.corp_log_loss.mcb) + ", " + metric(s.corp_log_loss.dsc) + ", " +
            metric(s.corp_log_loss.unc);
   });
-  const std::string width(report_names::equal_width.display), mass(report_names::equal_mass.display);
+  const std::string width(report_names::equal_width.text), mass(report_names::equal_mass.text);
   add("ECE " + width + ", " + std::to_string(ece_bins) + " bins", [&](const ScoreSummary& s) {
     return boot(s, &BootstrapResult::ece, metric(s.ece_equal_width.ece));
   });
@@ -411,11 +411,11 @@ std::vector<Headline> headline_rows(const Report& report) {
   add("l2 debiased | plug-in", [](const ScoreSummary& s) {
     return metric(s.ece_equal_width.l2_debiased) + " | " + metric(s.ece_equal_width.l2_plugin);
   });
-  add(std::string(report_names::calibration_slope.display),
+  add(std::string(report_names::calibration_slope.text),
       [](const ScoreSummary& s) { return fixed(s.regression.slope, 4); });
-  add("  " + std::string(report_names::intercept_slope_free.display),
+  add("  " + std::string(report_names::intercept_slope_free.text),
       [](const ScoreSummary& s) { return signed_fixed(s.regression.intercept_free, 4); });
-  add(std::string(report_names::calibration_intercept.display), [](const ScoreSummary& s) {
+  add(std::string(report_names::calibration_intercept.text), [](const ScoreSummary& s) {
     return signed_fixed(s.regression.intercept_at_unit_slope, 4);
   });
   add("H-L, " + std::to_string(hl_groups) + " groups", [](const ScoreSummary& s) {
@@ -501,7 +501,7 @@ void render_headlines(Document& doc, const Painter& p, const Report& report) {
   for (const ScoreReport& s : scores) {
     const ScoreSummary& o = s.overall;
     if (!o.regression.converged)
-      doc.wrap(o.name + ": the " + std::string(report_names::calibration_slope.display) +
+      doc.wrap(o.name + ": the " + std::string(report_names::calibration_slope.text) +
                    " fit did not converge; slope and intercepts are not meaningful",
                "  ", "    ");
     if (o.hosmer_lemeshow.degenerate_groups > 0)
@@ -859,9 +859,9 @@ void render_chart(Document& doc, const Painter& p, const Report& report, const S
                      percent_level(report.options.confidence) +
                      " range of a calibrated forecaster");
   }
-  legend.push_back((p.unicode ? "dotted: " : ". ") + std::string(report_names::diagonal.display));
+  legend.push_back((p.unicode ? "dotted: " : ". ") + std::string(report_names::diagonal.text));
   if (!s.pav_curve.empty())
-    legend.push_back((p.unicode ? "solid: " : "- ") + std::string(report_names::pav_curve.display));
+    legend.push_back((p.unicode ? "solid: " : "- ") + std::string(report_names::pav_curve.text));
   if (!s.histogram.empty())
     legend.push_back(p.unicode ? "bars under the axis: forecast histogram"
                                : "strip under the axis: forecast histogram");
