@@ -54,8 +54,10 @@ inline constexpr Name calibration_slope{"calibration slope", "calibration slope"
 inline constexpr Name calibration_intercept{"calibration intercept", "calibration intercept (slope fixed at 1)",
                                             "intercept_at_unit_slope", ""};
 inline constexpr Name intercept_slope_free{"intercept, slope free", "intercept, slope free", "intercept_free", ""};
-inline constexpr Name hosmer_lemeshow{"H-L", "Hosmer-Lemeshow", "hosmer_lemeshow", "hosmer_lemeshow_p"};
-inline constexpr Name spiegelhalter{"Spiegelhalter Z", "Spiegelhalter Z", "spiegelhalter", "spiegelhalter_p"};
+inline constexpr Name hosmer_lemeshow{"H-L", "Hosmer-Lemeshow", "hosmer_lemeshow", ""};
+inline constexpr Name hosmer_lemeshow_p{"p", "Hosmer-Lemeshow p-value", "p_value", "hosmer_lemeshow_p"};
+inline constexpr Name spiegelhalter{"Spiegelhalter Z", "Spiegelhalter Z", "spiegelhalter", ""};
+inline constexpr Name spiegelhalter_p{"p", "Spiegelhalter p-value", "p_value", "spiegelhalter_p"};
 inline constexpr Name auc{"AUC", "AUC", "auc", "auc"};
 inline constexpr Name at_zero_or_one{"forecasts of 0 or 1", "forecasts exactly 0 or 1", "forecasts_at_0_or_1", ""};
 
@@ -81,7 +83,8 @@ inline constexpr const Name& binning(BinningKind kind) {
 inline constexpr const Name* all[] = {
     &observed_rate, &mean_forecast, &calibration_in_the_large, &brier, &brier_mcb, &brier_dsc,
     &brier_unc, &log_loss, &log_loss_terms, &ece, &mce, &l2_debiased, &l2_plugin, &calibration_slope,
-    &calibration_intercept, &intercept_slope_free, &hosmer_lemeshow, &spiegelhalter, &auc, &at_zero_or_one,
+    &calibration_intercept, &intercept_slope_free, &hosmer_lemeshow, &hosmer_lemeshow_p, &spiegelhalter,
+    &spiegelhalter_p, &auc, &at_zero_or_one,
     &rows, &weight, &effective_size, &positives, &gap, &holm_p, &pav_curve, &diagonal, &consistency_band,
     &equal_width, &equal_mass};
 

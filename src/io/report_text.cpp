@@ -21,32 +21,18 @@
 namespace plumb {
 namespace {
 
-
-// Numbers (to be replaced by the formatting layer).
-std::string printf_double(const char* format, int precision, double x) {
-  char buffer[64];
-  std::snprintf(buffer, sizeof buffer, format, precision, x);
-  return buffer;
-}
-std::string fixed(double x, int decimals) { return report_names::fixed_text(x, decimals); }
-std::string prob(double x) { return fixed(x, 4); }
-std::string signed_fixed(double x, int decimals) {
-  std::string s = fixed(x, decimals);
-  if (s != "n/a" && s[0] != '-') s.insert(0, "+");
-  return s;
-}
-std::string metric(double x) { return report_names::metric_text(x); }
-std::string stat(double x) { return report_names::stat_text(x); }
-std::string p_value(double p) { return report_names::p_value_text(p); }
-std::string gate_number(double x) { return std::isfinite(x) ? printf_double("%.*g", 6, x) : "n/a"; }
-std::string count(std::uint64_t n) { return std::to_string(n); }
-std::string weight_text(double w) {
-  if (!std::isfinite(w)) return "n/a";
-  if (w == std::floor(w) && std::fabs(w) < 1e15) return printf_double("%.*f", 0, w);
-  return printf_double("%.*f", 2, w);
-}
-std::string interval(double lo, double hi) { return "[" + metric(lo) + ", " + metric(hi) + "]"; }
-std::string percent_level(double confidence) { return printf_double("%.*g", 4, confidence * 100.0) + "%"; }
+namespace rn = report_names;
+using rn::count_text;
+using rn::difference_text;
+using rn::fixed_text;
+using rn::interval_text;
+using rn::metric_text;
+using rn::p_value_text;
+using rn::percent_text;
+using rn::probability_text;
+using rn::significant_text;
+using rn::stat_text;
+using rn::weight_text;
 using text::clip;
 using text::Column;
 using text::Document;
@@ -77,63 +63,60 @@ std::vector<Headline> headline_rows(const Report& report) {
                        std::string value) {
     if (s.bootstrap) {
       const BootstrapInterval& i = (*s.bootstrap).*which;
-      value += " " + interval(i.lo, i.hi);
+      value += " " + interval_text(metric_text(i.lo), metric_text(i.hi));
     }
     return value;
   };
 
   const std::size_t ece_bins = scores.empty() ? 0 : scores[0].overall.ece_equal_width.bins;
   const std::size_t mass_bins = scores.empty() ? 0 : scores[0].overall.ece_equal_mass.bins;
-  const std::size_t hl_groups =
-      scores.empty() ? 0 : scores[0].overall.hosmer_lemeshow.groups_requested;
+  const std::size_t hl_groups = scores.empty() ? 0 : scores[0].overall.hosmer_lemeshow.groups_requested;
+  const auto label = [](const rn::Name& n) { return std::string(n.text); };
+  // Parts of a figure (the terms of a decomposition) stand indented under it.
+  const auto part = [](const rn::Name& n) { return "  " + std::string(n.text); };
 
-  add("observed rate", [](const ScoreSummary& s) { return prob(s.observed_rate); });
-  add("mean forecast", [](const ScoreSummary& s) { return prob(s.mean_forecast); });
-  add(std::string(report_names::calibration_in_the_large.text),
-      [](const ScoreSummary& s) { return signed_fixed(s.calibration_in_the_large, 4); });
-  add("Brier score",
-      [&](const ScoreSummary& s) { return boot(s, &BootstrapResult::brier, metric(s.brier)); });
-  add("  MCB miscalibration", [&](const ScoreSummary& s) {
-    return boot(s, &BootstrapResult::mcb_brier, metric(s.corp_brier.mcb));
-  });
-  add("  DSC discrimination", [](const ScoreSummary& s) { return metric(s.corp_brier.dsc); });
-  add("  UNC uncertainty", [](const ScoreSummary& s) { return metric(s.corp_brier.unc); });
-  add("log loss (nats)", [](const ScoreSummary& s) { return metric(s.log_loss); });
+  add(label(rn::observed_rate), [](const ScoreSummary& s) { return probability_text(s.observed_rate); });
+  add(label(rn::mean_forecast), [](const ScoreSummary& s) { return probability_text(s.mean_forecast); });
+  add(label(rn::calibration_in_the_large),
+      [](const ScoreSummary& s) { return difference_text(s.calibration_in_the_large); });
+  add(label(rn::brier), [&](const ScoreSummary& s) { return boot(s, &BootstrapResult::brier, metric_text(s.brier)); });
+  add(part(rn::brier_mcb),
+      [&](const ScoreSummary& s) { return boot(s, &BootstrapResult::mcb_brier, metric_text(s.corp_brier.mcb)); });
+  add(part(rn::brier_dsc), [](const ScoreSummary& s) { return metric_text(s.corp_brier.dsc); });
+  add(part(rn::brier_unc), [](const ScoreSummary& s) { return metric_text(s.corp_brier.unc); });
+  add(label(rn::log_loss), [](const ScoreSummary& s) { return metric_text(s.log_loss); });
   // One row for the three log-loss terms keeps the block short; commas
   // rather than wider separators keep three columns inside 100.
-  add("  MCB, DSC, UNC", [](const ScoreSummary& s) {
-    return metric(s.corp_log_loss.mcb) + ", " + metric(s.corp_log_loss.dsc) + ", " +
-           metric(s.corp_log_loss.unc);
+  add(part(rn::log_loss_terms), [](const ScoreSummary& s) {
+    return metric_text(s.corp_log_loss.mcb) + ", " + metric_text(s.corp_log_loss.dsc) + ", " +
+           metric_text(s.corp_log_loss.unc);
   });
-  const std::string width(report_names::equal_width.text), mass(report_names::equal_mass.text);
-  add("ECE " + width + ", " + std::to_string(ece_bins) + " bins", [&](const ScoreSummary& s) {
-    return boot(s, &BootstrapResult::ece, metric(s.ece_equal_width.ece));
+  const std::string width = label(rn::equal_width), mass = label(rn::equal_mass);
+  add(label(rn::ece) + " " + width + ", " + count_text(ece_bins) + " bins",
+      [&](const ScoreSummary& s) { return boot(s, &BootstrapResult::ece, metric_text(s.ece_equal_width.ece)); });
+  add(label(rn::ece) + " " + mass + ", " + count_text(mass_bins) + " bins",
+      [](const ScoreSummary& s) { return metric_text(s.ece_equal_mass.ece); });
+  add(label(rn::mce) + " " + width, [](const ScoreSummary& s) { return metric_text(s.ece_equal_width.mce); });
+  add(label(rn::l2_debiased) + " | " + label(rn::l2_plugin), [](const ScoreSummary& s) {
+    return metric_text(s.ece_equal_width.l2_debiased) + " | " + metric_text(s.ece_equal_width.l2_plugin);
   });
-  add("ECE " + mass + ", " + std::to_string(mass_bins) + " bins",
-      [](const ScoreSummary& s) { return metric(s.ece_equal_mass.ece); });
-  add("MCE " + width, [](const ScoreSummary& s) { return metric(s.ece_equal_width.mce); });
-  add("l2 debiased | plug-in", [](const ScoreSummary& s) {
-    return metric(s.ece_equal_width.l2_debiased) + " | " + metric(s.ece_equal_width.l2_plugin);
-  });
-  add(std::string(report_names::calibration_slope.text),
-      [](const ScoreSummary& s) { return fixed(s.regression.slope, 4); });
-  add("  " + std::string(report_names::intercept_slope_free.text),
-      [](const ScoreSummary& s) { return signed_fixed(s.regression.intercept_free, 4); });
-  add(std::string(report_names::calibration_intercept.text), [](const ScoreSummary& s) {
-    return signed_fixed(s.regression.intercept_at_unit_slope, 4);
-  });
-  add("H-L, " + std::to_string(hl_groups) + " groups", [](const ScoreSummary& s) {
+  add(label(rn::calibration_slope), [](const ScoreSummary& s) { return fixed_text(s.regression.slope, 4); });
+  add(part(rn::intercept_slope_free), [](const ScoreSummary& s) { return difference_text(s.regression.intercept_free); });
+  add(label(rn::calibration_intercept),
+      [](const ScoreSummary& s) { return difference_text(s.regression.intercept_at_unit_slope); });
+  add(label(rn::hosmer_lemeshow) + ", " + count_text(hl_groups) + " groups", [](const ScoreSummary& s) {
     const HosmerLemeshow& h = s.hosmer_lemeshow;
-    return stat(h.statistic) + " df " + fixed(h.df, 0) + " p " + p_value(h.p_value);
+    return stat_text(h.statistic) + " df " + fixed_text(h.df, 0) + " " + std::string(rn::hosmer_lemeshow_p.text) + " " +
+           p_value_text(h.p_value);
   });
-  add("Spiegelhalter Z", [](const ScoreSummary& s) {
-    return stat(s.spiegelhalter.z) + " p " + p_value(s.spiegelhalter.p_value);
+  add(label(rn::spiegelhalter), [](const ScoreSummary& s) {
+    return stat_text(s.spiegelhalter.z) + " " + std::string(rn::spiegelhalter_p.text) + " " +
+           p_value_text(s.spiegelhalter.p_value);
   });
-  add("AUC", [&](const ScoreSummary& s) { return boot(s, &BootstrapResult::auc, metric(s.auc)); });
+  add(label(rn::auc), [&](const ScoreSummary& s) { return boot(s, &BootstrapResult::auc, metric_text(s.auc)); });
   bool extremes = false;
   for (const ScoreReport& s : scores) extremes = extremes || s.overall.at_zero_or_one > 0;
-  if (extremes)
-    add("forecasts of 0 or 1", [](const ScoreSummary& s) { return count(s.at_zero_or_one); });
+  if (extremes) add(label(rn::at_zero_or_one), [](const ScoreSummary& s) { return count_text(s.at_zero_or_one); });
   return rows;
 }
 
@@ -144,8 +127,8 @@ void render_headlines(Document& doc, const Painter& p, const Report& report) {
   bool any_bootstrap = false;
   for (const ScoreReport& s : scores) any_bootstrap = any_bootstrap || s.overall.bootstrap;
   if (any_bootstrap)
-    doc.wrap("[lo, hi]: " + percent_level(report.options.confidence) +
-                 " bootstrap percentile interval, " + std::to_string(report.options.bootstrap) +
+    doc.wrap("[lo, hi]: " + percent_text(report.options.confidence) +
+                 " bootstrap percentile interval, " + count_text(report.options.bootstrap) +
                  " replicates",
              "  ", "  ");
 
@@ -205,12 +188,12 @@ void render_headlines(Document& doc, const Painter& p, const Report& report) {
   for (const ScoreReport& s : scores) {
     const ScoreSummary& o = s.overall;
     if (!o.regression.converged)
-      doc.wrap(o.name + ": the " + std::string(report_names::calibration_slope.text) +
+      doc.wrap(o.name + ": the " + std::string(rn::calibration_slope.text) +
                    " fit did not converge; slope and intercepts are not meaningful",
                "  ", "    ");
     if (o.hosmer_lemeshow.degenerate_groups > 0)
-      doc.wrap(o.name + ": Hosmer-Lemeshow left out " +
-                   std::to_string(o.hosmer_lemeshow.degenerate_groups) +
+      doc.wrap(o.name + ": " + std::string(rn::hosmer_lemeshow.markdown) + " left out " +
+                   count_text(o.hosmer_lemeshow.degenerate_groups) +
                    " group(s) with no variance",
                "  ", "    ");
   }
@@ -223,39 +206,36 @@ void render_reliability_table(Document& doc, const Painter& p, const Report& rep
                               const ScoreSummary& s) {
   const ReliabilityTable& t = s.table;
   doc.heading("reliability: " + s.name);
-  std::string kind(to_string(t.binning));
-  std::replace(kind.begin(), kind.end(), '_', '-');
-  doc.wrap(std::to_string(t.bins.size()) + " " + kind +
+  doc.wrap(count_text(t.bins.size()) + " " + std::string(rn::binning(t.binning).text) +
                " bins; gap = mean forecast - observed (> 0: forecasts too high)",
            "  ", "  ");
   const bool weighted = !report.weight_column.empty();
-  const std::string_view dash = p.unicode ? "\u2013" : "-";
   std::vector<Column> columns = {
       {"forecast range", false, 0, 0},
-      {"rows", true, 0, 0},
-      {"weight", true, weighted ? 3 : 0, 0},
+      {std::string(rn::rows.text), true, 0, 0},
+      {std::string(rn::weight.text), true, weighted ? 3 : 0, 0},
       {"forecast", true, 0, 0},
       {"observed", true, 0, 0},
-      {percent_level(t.confidence) + " Wilson", false, 2, 0},
-      {"gap", true, 0, 0},
+      {percent_text(t.confidence) + " Wilson", false, 2, 0},
+      {std::string(rn::gap.text), true, 0, 0},
   };
   if (!weighted) columns.erase(columns.begin() + 2);
   std::vector<Row> rows;
   for (const ReliabilityBin& b : t.bins) {
     Row r;
     const std::string range = std::isfinite(b.edge_lo) && std::isfinite(b.edge_hi)
-                                  ? prob(b.edge_lo) + std::string(dash) + prob(b.edge_hi)
-                                  : std::string("-");
-    r.cells = {range, count(b.rows)};
+                                  ? rn::range_text(probability_text(b.edge_lo), probability_text(b.edge_hi), p.unicode)
+                                  : std::string(rn::not_a_number);
+    r.cells = {range, count_text(b.rows)};
     if (weighted) r.cells.push_back(weight_text(b.weight));
     if (!(b.weight > 0.0)) {
       r.tail = "empty";
       r.tone = Tone::dim;
     } else {
-      r.cells.push_back(prob(b.mean_forecast));
-      r.cells.push_back(prob(b.observed));
-      r.cells.push_back("[" + prob(b.observed_lo) + ", " + prob(b.observed_hi) + "]");
-      r.cells.push_back(signed_fixed(b.gap, 4));
+      r.cells.push_back(probability_text(b.mean_forecast));
+      r.cells.push_back(probability_text(b.observed));
+      r.cells.push_back(interval_text(probability_text(b.observed_lo), probability_text(b.observed_hi)));
+      r.cells.push_back(difference_text(b.gap));
     }
     rows.push_back(std::move(r));
   }
@@ -273,16 +253,21 @@ void render_segments(Document& doc, const Painter& p, const Report& report,
   const std::string by = report.segment_column.empty() ? "segment" : report.segment_column;
   doc.heading("segments by " + by + ": " + score.overall.name);
   doc.wrap("! flag: Holm-adjusted p of Spiegelhalter's Z < " +
-               printf_double("%.*g", 4, report.options.segment_alpha) + " (" +
-               std::to_string(flagged) + " of " + std::to_string(score.segments.size()) +
+               significant_text(report.options.segment_alpha, 4) + " (" +
+               count_text(flagged) + " of " + count_text(score.segments.size()) +
                " segments)",
            "  ", "  ");
   std::vector<Column> columns = {
-      {by, false, 0, 6},         {"rows", true, 0, 0}, {"forecast", true, 0, 0},
-      {"observed", true, 0, 0},  {"gap", true, 0, 0},  {"ECE", true, 1, 0},
-      {"Z", true, 2, 0},         {"Holm p", true, 0, 0},
+      {by, false, 0, 6},
+      {std::string(rn::rows.text), true, 0, 0},
+      {"forecast", true, 0, 0},
+      {"observed", true, 0, 0},
+      {std::string(rn::gap.text), true, 0, 0},
+      {std::string(rn::ece.text), true, 1, 0},
+      {"Z", true, 2, 0},
+      {std::string(rn::holm_p.text), true, 0, 0},
   };
-  const std::vector<bool> shown = report_names::segments_shown(score.segments);
+  const std::vector<bool> shown = rn::segments_shown(score.segments);
   std::size_t left_out = 0;
   std::vector<Row> rows;
   for (std::size_t i = 0; i < score.segments.size(); ++i) {
@@ -292,18 +277,18 @@ void render_segments(Document& doc, const Painter& p, const Report& report,
       continue;
     }
     Row r;
-    r.cells = {seg.value, count(seg.rows)};
+    r.cells = {seg.value, count_text(seg.rows)};
     if (seg.too_few) {
       r.tail = "too few rows (weight " + weight_text(seg.weight) + " < " +
                weight_text(report.options.min_segment_weight) + ")";
       r.tone = Tone::dim;
     } else {
-      r.cells.push_back(prob(seg.mean_forecast));
-      r.cells.push_back(prob(seg.observed_rate));
-      r.cells.push_back(signed_fixed(seg.calibration_in_the_large, 4));
-      r.cells.push_back(metric(seg.ece));
-      r.cells.push_back(stat(seg.spiegelhalter.z));
-      r.cells.push_back(p_value(seg.p_adjusted));
+      r.cells.push_back(probability_text(seg.mean_forecast));
+      r.cells.push_back(probability_text(seg.observed_rate));
+      r.cells.push_back(difference_text(seg.calibration_in_the_large));
+      r.cells.push_back(metric_text(seg.ece));
+      r.cells.push_back(stat_text(seg.spiegelhalter.z));
+      r.cells.push_back(p_value_text(seg.p_adjusted));
       if (seg.flagged) {
         r.marker = "!";
         r.tone = Tone::red;
@@ -313,7 +298,7 @@ void render_segments(Document& doc, const Painter& p, const Report& report,
   }
   render_table(doc, p, std::move(columns), std::move(rows));
   if (left_out > 0)
-    doc.wrap(std::to_string(left_out) + " smaller segment" + (left_out == 1 ? "" : "s") +
+    doc.wrap(count_text(left_out) + " smaller segment" + (left_out == 1 ? "" : "s") +
                  " not shown (none flagged; every segment is in --json)",
              "  ", "  ");
 }
@@ -326,7 +311,7 @@ void render_gates(Document& doc, const Painter& p, const Report& report) {
   std::size_t breached = 0;
   for (const GateResult& g : report.gates) breached += g.exceeded ? 1 : 0;
   doc.heading("gates");
-  doc.line("  " + std::to_string(breached) + " of " + std::to_string(report.gates.size()) +
+  doc.line("  " + count_text(breached) + " of " + count_text(report.gates.size()) +
            (report.gates.size() == 1 ? " limit" : " limits") + " breached");
   std::vector<Column> columns = {{"", false, 0, 0},    {"column", false, 0, 6},
                                  {"metric", false, 0, 0}, {"value", true, 0, 0},
@@ -334,8 +319,8 @@ void render_gates(Document& doc, const Painter& p, const Report& report) {
   std::vector<Row> rows;
   for (const GateResult& g : report.gates) {
     Row r;
-    r.cells = {g.exceeded ? "BREACHED" : "held", g.column, g.gate.metric, gate_number(g.value),
-               std::string(gate_comparison(g)), gate_number(g.gate.limit)};
+    r.cells = {g.exceeded ? "BREACHED" : "held", g.column, g.gate.metric, significant_text(g.value, 6),
+               std::string(gate_comparison(g)), significant_text(g.gate.limit, 6)};
     r.tone = g.exceeded ? Tone::red : Tone::green;
     rows.push_back(std::move(r));
   }
@@ -352,9 +337,9 @@ void render_cautions(Document& doc, const Painter& p, const Report& report) {
 void render_heading(Document& doc, const Painter& p, const Report& report) {
   doc.line(p.paint("plumb report", Tone::bold) + std::string(p.dot_sep()) + report.source);
   std::vector<std::string> facts;
-  if (!report.scores.empty()) facts.push_back(count(report.scores[0].overall.rows) + " rows");
+  if (!report.scores.empty()) facts.push_back(count_text(report.scores[0].overall.rows) + " rows");
   if (report.rows_skipped)
-    facts.push_back(count(*report.rows_skipped) + " left out for a missing score or label");
+    facts.push_back(count_text(*report.rows_skipped) + " left out for a missing score or label");
   facts.push_back("label " + report.label_column);
   if (report.weight_column.empty()) {
     facts.push_back("unweighted");
@@ -364,7 +349,7 @@ void render_heading(Document& doc, const Painter& p, const Report& report) {
       facts.push_back("total weight " + weight_text(report.scores[0].overall.weight));
   }
   if (!report.segment_column.empty()) facts.push_back("segments by " + report.segment_column);
-  facts.push_back(std::to_string(report.scores.size()) +
+  facts.push_back(count_text(report.scores.size()) +
                   (report.scores.size() == 1 ? " score column" : " score columns"));
   doc.flow(facts, p.dot_sep(), 2);
 }

@@ -32,7 +32,6 @@ struct Painter {
   std::string_view ellipsis() const { return unicode ? "\u2026" : "~"; }
   std::string_view rule() const { return unicode ? "\u2500" : "-"; }
   std::string_view dot_sep() const { return unicode ? " \u00b7 " : ", "; }
-  std::string_view dash() const { return unicode ? "\u2013" : "-"; }
 };
 
 // Terminal columns of s: one per code point, escape sequences excluded.
