@@ -22,8 +22,10 @@
 // - range_text: a range of forecasts "lo–hi" (en dash; "-" in ASCII).
 // - count_text: whole counts with a comma every three digits ("20,000").
 // - weight_text: a whole weight as a count ("3,402"); any other weight of
-//   1 or more with 2 decimals ("1,216.32"), one below 1 with 3 significant
-//   digits ("0.333"), below 1e-4 scientific ("2.50e-05").
+//   1 or more with 2 decimals ("1,216.32"), left out when they are ".00"
+//   (a sum whole but for rounding error, 800.0000000001 -> "800"); one below
+//   1 with 3 significant digits ("0.333"), below 1e-4 scientific
+//   ("2.50e-05").
 // - percent_text: a level (confidence 0.95 -> "95%"), up to 4 significant
 //   digits.
 // - share_text: a share as a percentage with 2 decimals (0.1701 -> "17.01%").

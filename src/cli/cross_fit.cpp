@@ -264,7 +264,7 @@ int run_cross_fit(const CrossFitOptions& o) {
     if (chosen.kind == "isotonic" && rows.weight_total < few_rows_for_isotonic) {
       char amount[64];
       if (rows.weight.empty()) std::snprintf(amount, sizeof amount, "only %s rows", grouped(rows.rows).c_str());
-      else std::snprintf(amount, sizeof amount, "a total weight of only %.6g", rows.weight_total);
+      else std::snprintf(amount, sizeof amount, "a total weight of only %s", weight_text(rows.weight_total).c_str());
       std::fprintf(stderr,
                    "plumb cross-fit: caution: isotonic was chosen on %s; a nonparametric map usually needs about "
                    "1,000 rows or more (common practice)%s\n",

@@ -135,8 +135,8 @@ int write_and_summarise(const FitOptions& o, const Artifact& artifact, const std
       notes += "; " + grouped(*rows.rows_skipped) + (*rows.rows_skipped == 1 ? " row" : " rows") +
                " with a missing score or label left out";
     std::fprintf(stderr, "plumb fit: %s map from %s (weight of positives %s of %s), log loss %.6f%s; written to %s\n",
-                 o.kind.c_str(), from.c_str(), shortest(rows.positives).c_str(),
-                 shortest(rows.weight_total).c_str(), d.log_loss, notes.c_str(), out.name().c_str());
+                 o.kind.c_str(), from.c_str(), weight_text(rows.positives).c_str(),
+                 weight_text(rows.weight_total).c_str(), d.log_loss, notes.c_str(), out.name().c_str());
     if (!d.converged)
       std::fprintf(stderr, "plumb fit: warning: the fit did not converge after %d iterations (are the labels "
                            "separated by the score?); the map is usable but its parameters are not a maximum\n",
@@ -165,7 +165,7 @@ int write_and_summarise(const FitOptions& o, const Artifact& artifact, const std
     if ((o.kind == "isotonic" || o.kind == "histogram") && rows.weight_total < few_rows_for_nonparametric)
       std::fprintf(stderr, "plumb fit: caution: %s rows is few for %s map (common practice: about 1,000 or "
                            "more); a platt or beta map is less likely to overfit\n",
-                   shortest(rows.weight_total).c_str(), kind_with_article(o.kind).c_str());
+                   weight_text(rows.weight_total).c_str(), kind_with_article(o.kind).c_str());
   }
   return 0;
 }

@@ -124,9 +124,9 @@ int run_inspect(const InspectOptions& o) {
   std::printf("  %-14s column '%s', %s scale\n", "scores", a.score_column.c_str(),
               std::string(to_string(a.map->scale())).c_str());
   std::printf("  %-14s %s (%s)\n", "fitted on", p.source.c_str(), p.tool.c_str());
-  std::printf("  %-14s %s rows, weight %s, positives %s (%.2f%%)\n", "", grouped(p.rows).c_str(),
-              shortest(p.weight_total).c_str(), shortest(p.positives).c_str(),
-              p.weight_total > 0 ? 100.0 * p.positives / p.weight_total : 0.0);
+  std::printf("  %-14s %s rows, weight %s, positives %s (%s)\n", "", grouped(p.rows).c_str(),
+              weight_text(p.weight_total).c_str(), weight_text(p.positives).c_str(),
+              share_text(p.weight_total > 0 ? p.positives / p.weight_total : 0.0).c_str());
   if (p.rows_skipped)
     std::printf("  %-14s %s %s with a missing score or label left out (fitted with missing values skipped)\n", "",
                 grouped(*p.rows_skipped).c_str(), *p.rows_skipped == 1 ? "row" : "rows");

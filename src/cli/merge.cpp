@@ -39,8 +39,8 @@ int run_merge(const MergeOptions& o) {
   if (!o.quiet)
     std::fprintf(stderr, "plumb merge: %s tallies, %s rows (weight of positives %s of %s) in %s distinct scores; "
                          "written to %s\n",
-                 grouped(o.inputs.size()).c_str(), grouped(merged.rows).c_str(), shortest(merged.positives).c_str(),
-                 shortest(merged.weight_total).c_str(), grouped(merged.score.size()).c_str(), out.name().c_str());
+                 grouped(o.inputs.size()).c_str(), grouped(merged.rows).c_str(), weight_text(merged.positives).c_str(),
+                 weight_text(merged.weight_total).c_str(), grouped(merged.score.size()).c_str(), out.name().c_str());
   return 0;
 }
 

@@ -201,16 +201,15 @@ std::string failed_gates_line(const std::vector<GateResult>& results) {
   for (const GateResult& g : results) {
     if (!g.exceeded) continue;
     ++failed;
-    char value[32], limit[32];
-    std::snprintf(value, sizeof value, "%.6g", g.value);
-    std::snprintf(limit, sizeof limit, "%.6g", g.gate.limit);
+    // Six significant digits, as the reports' gate tables (plumb/number_text.hpp).
+    const std::string value = significant_text(g.value, 6), limit = significant_text(g.gate.limit, 6);
     detail += (detail.empty() ? "" : "; ") + g.column + ": " + g.gate.metric;
     if (std::isfinite(g.value))
-      detail += " = " + std::string(value) + " " + std::string(gate_comparison(g)) + " " + limit;
+      detail += " = " + value + " " + std::string(gate_comparison(g)) + " " + limit;
     else
       detail += " could not be computed, which fails";
     detail += " (" + std::string(bound_option(g.gate.bound)) +
-              (std::isfinite(g.value) ? ")" : " " + std::string(limit) + ")");
+              (std::isfinite(g.value) ? ")" : " " + limit + ")");
   }
   return "plumb report: " + std::to_string(failed) + " of " + std::to_string(results.size()) +
          (results.size() == 1 ? " gate" : " gates") + " failed: " + detail;

@@ -62,8 +62,8 @@ int run_tally(TallyOptions o) {
   if (!o.input.quiet)
     std::fprintf(stderr, "plumb tally: %s rows of %s (weight of positives %s of %s) in %s distinct %sscores%s; "
                          "written to %s\n",
-                 grouped(rows.rows).c_str(), rows.source.c_str(), shortest(rows.positives).c_str(),
-                 shortest(rows.weight_total).c_str(), grouped(t.score.size()).c_str(),
+                 grouped(rows.rows).c_str(), rows.source.c_str(), weight_text(rows.positives).c_str(),
+                 weight_text(rows.weight_total).c_str(), grouped(t.score.size()).c_str(),
                  on_grid ? "grid " : "", skipped_note(o.input, rows.skipped).c_str(), out.name().c_str());
   return 0;
 }

@@ -91,7 +91,13 @@ std::string weight_text(double w) {
   if (!std::isfinite(w)) return std::string(not_a_number);
   const double a = std::fabs(w);
   if (w == std::floor(w) && a < 1e15) return group_thousands(chars(w, std::chars_format::fixed, 0));
-  if (a >= 1.0) return group_thousands(chars(w, std::chars_format::fixed, 2));
+  if (a >= 1.0) {
+    // A sum of weights that is whole but for rounding error (800.0000000001)
+    // reads as the whole number it is to the printed precision.
+    std::string s = chars(w, std::chars_format::fixed, 2);
+    if (s.ends_with(".00")) s.resize(s.size() - 3);
+    return group_thousands(s);
+  }
   if (a >= 1e-4) {
     // 3 significant digits in fixed notation: 0.5 -> 0.500, 0.00123 -> 0.00123.
     const int decimals = 2 - static_cast<int>(std::floor(std::log10(a)));

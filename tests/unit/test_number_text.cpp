@@ -99,7 +99,10 @@ TEST_CASE("weight_text: whole weights as counts, others 2 decimals or 3 signific
   CHECK(plumb::weight_text(20000.0) == "20,000");
   CHECK(plumb::weight_text(3113.4761999999505) == "3,113.48");
   CHECK(plumb::weight_text(1216.324000000002) == "1,216.32");
-  CHECK(plumb::weight_text(347.9999999) == "348.00");  // not whole: it says so
+  CHECK(plumb::weight_text(347.9999999) == "348");  // whole to 2 decimals
+  CHECK(plumb::weight_text(800.0000000001) == "800");
+  CHECK(plumb::weight_text(1234567.5) == "1,234,567.50");
+  CHECK(plumb::weight_text(-2.5) == "-2.50");
   CHECK(plumb::weight_text(0.5) == "0.500");
   CHECK(plumb::weight_text(0.3333) == "0.333");
   CHECK(plumb::weight_text(0.00123) == "0.00123");
