@@ -67,7 +67,9 @@ json table_json(const ReliabilityTable& t, const std::vector<Interval>& band) {
 json summary_json(const ScoreSummary& s) {
   json pav = json::array();
   for (const PavBlock& b : s.pav_curve)
-    pav.push_back({{"score_lo", num(b.score_lo)}, {"score_hi", num(b.score_hi)}, {"value", num(b.value)},
+    pav.push_back({{"score_lo", num(b.score_lo)},
+                   {"score_hi", num(b.score_hi)},
+                   {"value", num(b.value)},
                    {key(rn::weight), num(b.weight)}});
   json histogram = json::array();
   for (double h : s.histogram) histogram.push_back(num(h));

@@ -24,18 +24,6 @@ namespace plumb {
 namespace {
 
 namespace rn = report_names;
-using rn::count_text;
-using rn::difference_text;
-using rn::fixed_text;
-using rn::interval_text;
-using rn::metric_text;
-using rn::not_a_number;
-using rn::p_value_text;
-using rn::percent_text;
-using rn::probability_text;
-using rn::significant_text;
-using rn::stat_text;
-using rn::weight_text;
 
 bool finite(double x) { return std::isfinite(x); }
 std::string na() { return std::string(not_a_number); }
@@ -158,8 +146,8 @@ void reliability(std::string& out, const Report& report, const ScoreSummary& s) 
   const bool band = !s.band.empty();
   std::vector<std::string> header{"bin", "range", label(rn::rows)};
   if (weighted) header.insert(header.end(), {label(rn::weight), label(rn::effective_size)});
-  header.insert(header.end(), {label(rn::mean_forecast), "observed", percent_text(table.confidence) + " Wilson interval",
-                               label(rn::gap)});
+  header.insert(header.end(), {label(rn::mean_forecast), "observed",
+                               percent_text(table.confidence) + " Wilson interval", label(rn::gap)});
   if (band) header.push_back(percent_text(report.options.confidence) + " " + label(rn::consistency_band));
   std::vector<bool> right(header.size(), true);
   right[1] = false;
@@ -167,7 +155,7 @@ void reliability(std::string& out, const Report& report, const ScoreSummary& s) 
   for (std::size_t b = 0; b < table.bins.size(); ++b) {
     const ReliabilityBin& bin = table.bins[b];
     const std::string range = finite(bin.edge_lo) && finite(bin.edge_hi)
-                                  ? rn::range_text(probability_text(bin.edge_lo), probability_text(bin.edge_hi))
+                                  ? range_text(probability_text(bin.edge_lo), probability_text(bin.edge_hi))
                                   : na();
     // The bin's number is its place, not a count.
     std::vector<std::string> cells{std::to_string(b + 1), range, count_text(bin.rows)};
@@ -195,8 +183,8 @@ void segments(std::string& out, const Report& report, const ScoreReport& r) {
   out +=
       "Sorted by |calibration in the large|. A segment is flagged when its Spiegelhalter p-value, Holm-adjusted "
       "over the segments, is below " +
-      significant_text(report.options.segment_alpha, 4) + "; segments under " + weight_text(report.options.min_segment_weight) +
-      " weight have too few rows for figures.\n\n";
+      significant_text(report.options.segment_alpha, 4) + "; segments under " +
+      weight_text(report.options.min_segment_weight) + " weight have too few rows for figures.\n\n";
   const std::vector<bool> shown = rn::segments_shown(r.segments);
   const auto left_out = static_cast<std::size_t>(std::count(shown.begin(), shown.end(), false));
   Table t({"segment", label(rn::rows), label(rn::weight), "positives", label(rn::mean_forecast), "observed",
@@ -206,8 +194,7 @@ void segments(std::string& out, const Report& report, const ScoreReport& r) {
   for (std::size_t i = 0; i < r.segments.size(); ++i) {
     if (!shown[i]) continue;
     const SegmentSummary& g = r.segments[i];
-    std::vector<std::string> cells{md(g.value), count_text(g.rows), weight_text(g.weight),
-                                   weight_text(g.positives)};
+    std::vector<std::string> cells{md(g.value), count_text(g.rows), weight_text(g.weight), weight_text(g.positives)};
     if (g.too_few) {
       // Only rows, weight and positives are computed (report.hpp); the row
       // is padded to the header's width by Table.
@@ -238,8 +225,7 @@ void gates(std::string& out, const Report& report) {
     failed += g.exceeded ? 1 : 0;
     t.row({md(g.column), md(g.gate.metric),
            (g.gate.bound == GateBound::max ? "at most " : "at least ") + significant_text(g.gate.limit, 6),
-           significant_text(g.value, 6),
-           g.exceeded ? "**FAIL**" : "pass"});
+           significant_text(g.value, 6), g.exceeded ? "**FAIL**" : "pass"});
   }
   out += failed == 0 ? "Every gate passed.\n\n"
                      : count_text(failed) + " of " + count_text(report.gates.size()) + " gates failed.\n\n";

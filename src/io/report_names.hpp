@@ -2,7 +2,7 @@
 // The formatting layer's concept table: one entry per concept of the report,
 // shared by the text, Markdown, SVG and JSON renderers so that a figure is
 // called the same everywhere. The number rules are the other half of the
-// layer (plumb/number_text.hpp, re-exported below).
+// layer (plumb/number_text.hpp, included here: namespace plumb).
 // - `text`: the terminal report's label (short: its tables share 80 columns);
 // - `markdown`: the full name, which the Markdown tables and every sentence
 //   use (the Markdown report has room to say what a figure is);
@@ -118,22 +118,5 @@ inline std::vector<bool> segments_shown(const std::vector<SegmentSummary>& segme
   }
   return shown;
 }
-
-// The number rules of plumb/number_text.hpp, so that a renderer that
-// includes this header has the whole layer.
-using plumb::count_text;
-using plumb::difference_text;
-using plumb::fixed_text;
-using plumb::interval_text;
-using plumb::metric_text;
-using plumb::not_a_number;
-using plumb::p_value_floor;
-using plumb::p_value_text;
-using plumb::percent_text;
-using plumb::probability_text;
-using plumb::range_text;
-using plumb::significant_text;
-using plumb::stat_text;
-using plumb::weight_text;
 
 }  // namespace plumb::report_names

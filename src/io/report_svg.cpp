@@ -189,10 +189,9 @@ class Svg {
 
 // "ECE 0.0123 [0.0081, 0.0190]": the interval only when the bootstrap gave one.
 std::string with_interval(std::string_view name, double value, const BootstrapInterval* interval) {
-  std::string s = std::string(name) + " " + report_names::metric_text(value);
+  std::string s = std::string(name) + " " + metric_text(value);
   if (interval != nullptr && interval->used > 0 && finite(interval->lo) && finite(interval->hi)) {
-    s += " " + report_names::interval_text(report_names::metric_text(interval->lo),
-                                           report_names::metric_text(interval->hi));
+    s += " " + interval_text(metric_text(interval->lo), metric_text(interval->hi));
   }
   return s;
 }
@@ -203,7 +202,7 @@ void draw_axes(Svg& svg, const Frame& f, double hist_top) {
   const double hist_bottom = hist_top + kHistHeight;
   for (int i = 0; i <= 5; ++i) {
     const double v = i / 5.0;
-    const std::string label = report_names::fixed_text(v, 1);
+    const std::string label = fixed_text(v, 1);
     if (i > 0 && i < 5) {
       svg.line(f.x(v), f.y(1.0), f.x(v), f.y(0.0), kGrid, 0.8);
       svg.line(f.x(0.0), f.y(v), f.x(1.0), f.y(v), kGrid, 0.8);
@@ -340,7 +339,7 @@ void draw_diagram(Svg& svg, const Report& report, const ScoreSummary& s, double 
 double draw_legend(Svg& svg, const Report& report, double left, double y, double width) {
   bool any_band = false;
   for (const ScoreReport& r : report.scores) any_band = any_band || !r.overall.band.empty();
-  const std::string level = report_names::percent_text(report.options.confidence);
+  const std::string level = percent_text(report.options.confidence);
   // Each entry: its width and how to draw its sample and label at (x, y).
   struct Entry {
     double width;
@@ -396,11 +395,11 @@ std::string render_svg(const Report& report) {
            "bold");
   std::string about = "label " + report.label_column;
   if (!report.weight_column.empty()) about += ", weight " + report.weight_column;
-  about += "; " + report_names::count_text(report.options.bins) + " " +
+  about += "; " + count_text(report.options.bins) + " " +
            std::string(report_names::binning(report.options.binning).text) + " bins";
   if (report.options.bootstrap > 0) {
-    about += "; " + report_names::percent_text(report.options.confidence) + " bootstrap intervals from " +
-             report_names::count_text(report.options.bootstrap) + " replicates";
+    about += "; " + percent_text(report.options.confidence) + " bootstrap intervals from " +
+             count_text(report.options.bootstrap) + " replicates";
   }
   svg.fitted_text(kDocMargin, kDocMargin + 36, about, 11.0, width - 2 * kDocMargin, "doc-subtitle");
   const double header =
@@ -418,8 +417,8 @@ std::string render_svg(const Report& report) {
   doc.reserve(svg.out.size() + 1024);
   doc += "<?xml version=\"1.0\" encoding=\"UTF-8\" standalone=\"no\"?>\n";
   doc += "<svg xmlns=\"http://www.w3.org/2000/svg\" version=\"1.1\" width=\"" + coord(width) + "\" height=\"" +
-         coord(height) + "\" viewBox=\"0 0 " + coord(width) + " " + coord(height) +
-         "\" font-family=\"" + std::string(kFontStack) + "\">\n";
+         coord(height) + "\" viewBox=\"0 0 " + coord(width) + " " + coord(height) + "\" font-family=\"" +
+         std::string(kFontStack) + "\">\n";
   doc += "<title>Reliability diagrams: " + xml_escape(report.source) + "</title>\n";
   doc += "<rect x=\"0\" y=\"0\" width=\"" + coord(width) + "\" height=\"" + coord(height) + "\" fill=\"#ffffff\"/>\n";
   doc += svg.out;

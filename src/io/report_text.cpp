@@ -22,17 +22,6 @@ namespace plumb {
 namespace {
 
 namespace rn = report_names;
-using rn::count_text;
-using rn::difference_text;
-using rn::fixed_text;
-using rn::interval_text;
-using rn::metric_text;
-using rn::p_value_text;
-using rn::percent_text;
-using rn::probability_text;
-using rn::significant_text;
-using rn::stat_text;
-using rn::weight_text;
 using text::clip;
 using text::Column;
 using text::Document;
@@ -59,8 +48,7 @@ std::vector<Headline> headline_rows(const Report& report) {
     for (const ScoreReport& s : scores) h.cells.push_back(cell_of(s.overall));
     rows.push_back(std::move(h));
   };
-  const auto boot = [](const ScoreSummary& s, BootstrapInterval BootstrapResult::*which,
-                       std::string value) {
+  const auto boot = [](const ScoreSummary& s, BootstrapInterval BootstrapResult::*which, std::string value) {
     if (s.bootstrap) {
       const BootstrapInterval& i = (*s.bootstrap).*which;
       value += " " + interval_text(metric_text(i.lo), metric_text(i.hi));
@@ -101,7 +89,8 @@ std::vector<Headline> headline_rows(const Report& report) {
     return metric_text(s.ece_equal_width.l2_debiased) + " | " + metric_text(s.ece_equal_width.l2_plugin);
   });
   add(label(rn::calibration_slope), [](const ScoreSummary& s) { return fixed_text(s.regression.slope, 4); });
-  add(part(rn::intercept_slope_free), [](const ScoreSummary& s) { return difference_text(s.regression.intercept_free); });
+  add(part(rn::intercept_slope_free),
+      [](const ScoreSummary& s) { return difference_text(s.regression.intercept_free); });
   add(label(rn::calibration_intercept),
       [](const ScoreSummary& s) { return difference_text(s.regression.intercept_at_unit_slope); });
   add(label(rn::hosmer_lemeshow) + ", " + count_text(hl_groups) + " groups", [](const ScoreSummary& s) {
@@ -127,9 +116,8 @@ void render_headlines(Document& doc, const Painter& p, const Report& report) {
   bool any_bootstrap = false;
   for (const ScoreReport& s : scores) any_bootstrap = any_bootstrap || s.overall.bootstrap;
   if (any_bootstrap)
-    doc.wrap("[lo, hi]: " + percent_text(report.options.confidence) +
-                 " bootstrap percentile interval, " + count_text(report.options.bootstrap) +
-                 " replicates",
+    doc.wrap("[lo, hi]: " + percent_text(report.options.confidence) + " bootstrap percentile interval, " +
+                 count_text(report.options.bootstrap) + " replicates",
              "  ", "  ");
 
   const std::vector<Headline> rows = headline_rows(report);
@@ -144,8 +132,7 @@ void render_headlines(Document& doc, const Painter& p, const Report& report) {
 
   std::vector<std::size_t> cell_width(scores.size(), 0);
   for (const Headline& h : rows)
-    for (std::size_t i = 0; i < scores.size(); ++i)
-      cell_width[i] = std::max(cell_width[i], visible_width(h.cells[i]));
+    for (std::size_t i = 0; i < scores.size(); ++i) cell_width[i] = std::max(cell_width[i], visible_width(h.cells[i]));
   // Names may be cut to the width of their figures (at least 8 columns), not more.
   std::vector<std::string> names;
   std::size_t total = indent + label_width;
@@ -163,8 +150,7 @@ void render_headlines(Document& doc, const Painter& p, const Report& report) {
   if (side_by_side) {
     std::string header = std::string(indent + label_width, ' ');
     for (std::size_t i = 0; i < scores.size(); ++i)
-      header += std::string(i == 0 ? label_gap : gap, ' ') +
-                pad(p.paint(names[i], Tone::bold), cell_width[i], false);
+      header += std::string(i == 0 ? label_gap : gap, ' ') + pad(p.paint(names[i], Tone::bold), cell_width[i], false);
     while (!header.empty() && header.back() == ' ') header.pop_back();
     doc.line(header);
     for (const Headline& h : rows) {
@@ -178,8 +164,7 @@ void render_headlines(Document& doc, const Painter& p, const Report& report) {
     for (std::size_t i = 0; i < scores.size(); ++i) {
       if (i > 0) doc.blank();
       // The name stands over the figures, where the values begin.
-      doc.line(std::string(indent + label_width + label_gap, ' ') +
-               p.paint(scores[i].overall.name, Tone::bold));
+      doc.line(std::string(indent + label_width + label_gap, ' ') + p.paint(scores[i].overall.name, Tone::bold));
       for (const Headline& h : rows) doc.line(label_cell(h.label) + std::string(label_gap, ' ') + h.cells[i]);
     }
   }
@@ -193,8 +178,7 @@ void render_headlines(Document& doc, const Painter& p, const Report& report) {
                "  ", "    ");
     if (o.hosmer_lemeshow.degenerate_groups > 0)
       doc.wrap(o.name + ": " + std::string(rn::hosmer_lemeshow.markdown) + " left out " +
-                   count_text(o.hosmer_lemeshow.degenerate_groups) +
-                   " group(s) with no variance",
+                   count_text(o.hosmer_lemeshow.degenerate_groups) + " group(s) with no variance",
                "  ", "    ");
   }
 }
@@ -202,8 +186,7 @@ void render_headlines(Document& doc, const Painter& p, const Report& report) {
 // ---------------------------------------------------------------------------
 // The reliability table
 
-void render_reliability_table(Document& doc, const Painter& p, const Report& report,
-                              const ScoreSummary& s) {
+void render_reliability_table(Document& doc, const Painter& p, const Report& report, const ScoreSummary& s) {
   const ReliabilityTable& t = s.table;
   doc.heading("reliability: " + s.name);
   doc.wrap(count_text(t.bins.size()) + " " + std::string(rn::binning(t.binning).text) +
@@ -224,8 +207,8 @@ void render_reliability_table(Document& doc, const Painter& p, const Report& rep
   for (const ReliabilityBin& b : t.bins) {
     Row r;
     const std::string range = std::isfinite(b.edge_lo) && std::isfinite(b.edge_hi)
-                                  ? rn::range_text(probability_text(b.edge_lo), probability_text(b.edge_hi), p.unicode)
-                                  : std::string(rn::not_a_number);
+                                  ? range_text(probability_text(b.edge_lo), probability_text(b.edge_hi), p.unicode)
+                                  : std::string(not_a_number);
     r.cells = {range, count_text(b.rows)};
     if (weighted) r.cells.push_back(weight_text(b.weight));
     if (!(b.weight > 0.0)) {
@@ -245,27 +228,19 @@ void render_reliability_table(Document& doc, const Painter& p, const Report& rep
 // ---------------------------------------------------------------------------
 // Segments
 
-void render_segments(Document& doc, const Painter& p, const Report& report,
-                     const ScoreReport& score) {
+void render_segments(Document& doc, const Painter& p, const Report& report, const ScoreReport& score) {
   if (score.segments.empty()) return;
   std::size_t flagged = 0;
   for (const SegmentSummary& seg : score.segments) flagged += seg.flagged ? 1 : 0;
   const std::string by = report.segment_column.empty() ? "segment" : report.segment_column;
   doc.heading("segments by " + by + ": " + score.overall.name);
-  doc.wrap("! flag: Holm-adjusted p of Spiegelhalter's Z < " +
-               significant_text(report.options.segment_alpha, 4) + " (" +
-               count_text(flagged) + " of " + count_text(score.segments.size()) +
-               " segments)",
+  doc.wrap("! flag: Holm-adjusted p of Spiegelhalter's Z < " + significant_text(report.options.segment_alpha, 4) +
+               " (" + count_text(flagged) + " of " + count_text(score.segments.size()) + " segments)",
            "  ", "  ");
   std::vector<Column> columns = {
-      {by, false, 0, 6},
-      {std::string(rn::rows.text), true, 0, 0},
-      {"forecast", true, 0, 0},
-      {"observed", true, 0, 0},
-      {std::string(rn::gap.text), true, 0, 0},
-      {std::string(rn::ece.text), true, 1, 0},
-      {"Z", true, 2, 0},
-      {std::string(rn::holm_p.text), true, 0, 0},
+      {by, false, 0, 6},        {std::string(rn::rows.text), true, 0, 0},   {"forecast", true, 0, 0},
+      {"observed", true, 0, 0}, {std::string(rn::gap.text), true, 0, 0},    {std::string(rn::ece.text), true, 1, 0},
+      {"Z", true, 2, 0},        {std::string(rn::holm_p.text), true, 0, 0},
   };
   const std::vector<bool> shown = rn::segments_shown(score.segments);
   std::size_t left_out = 0;
@@ -313,14 +288,17 @@ void render_gates(Document& doc, const Painter& p, const Report& report) {
   doc.heading("gates");
   doc.line("  " + count_text(breached) + " of " + count_text(report.gates.size()) +
            (report.gates.size() == 1 ? " limit" : " limits") + " breached");
-  std::vector<Column> columns = {{"", false, 0, 0},    {"column", false, 0, 6},
-                                 {"metric", false, 0, 0}, {"value", true, 0, 0},
-                                 {"", false, 0, 0},    {"limit", true, 0, 0}};
+  std::vector<Column> columns = {{"", false, 0, 0},     {"column", false, 0, 6}, {"metric", false, 0, 0},
+                                 {"value", true, 0, 0}, {"", false, 0, 0},       {"limit", true, 0, 0}};
   std::vector<Row> rows;
   for (const GateResult& g : report.gates) {
     Row r;
-    r.cells = {g.exceeded ? "BREACHED" : "held", g.column, g.gate.metric, significant_text(g.value, 6),
-               std::string(gate_comparison(g)), significant_text(g.gate.limit, 6)};
+    r.cells = {g.exceeded ? "BREACHED" : "held",
+               g.column,
+               g.gate.metric,
+               significant_text(g.value, 6),
+               std::string(gate_comparison(g)),
+               significant_text(g.gate.limit, 6)};
     r.tone = g.exceeded ? Tone::red : Tone::green;
     rows.push_back(std::move(r));
   }
@@ -338,19 +316,16 @@ void render_heading(Document& doc, const Painter& p, const Report& report) {
   doc.line(p.paint("plumb report", Tone::bold) + std::string(p.dot_sep()) + report.source);
   std::vector<std::string> facts;
   if (!report.scores.empty()) facts.push_back(count_text(report.scores[0].overall.rows) + " rows");
-  if (report.rows_skipped)
-    facts.push_back(count_text(*report.rows_skipped) + " left out for a missing score or label");
+  if (report.rows_skipped) facts.push_back(count_text(*report.rows_skipped) + " left out for a missing score or label");
   facts.push_back("label " + report.label_column);
   if (report.weight_column.empty()) {
     facts.push_back("unweighted");
   } else {
     facts.push_back("weight " + report.weight_column);
-    if (!report.scores.empty())
-      facts.push_back("total weight " + weight_text(report.scores[0].overall.weight));
+    if (!report.scores.empty()) facts.push_back("total weight " + weight_text(report.scores[0].overall.weight));
   }
   if (!report.segment_column.empty()) facts.push_back("segments by " + report.segment_column);
-  facts.push_back(count_text(report.scores.size()) +
-                  (report.scores.size() == 1 ? " score column" : " score columns"));
+  facts.push_back(count_text(report.scores.size()) + (report.scores.size() == 1 ? " score column" : " score columns"));
   doc.flow(facts, p.dot_sep(), 2);
 }
 

@@ -17,9 +17,6 @@
 namespace plumb::text {
 namespace {
 
-using report_names::fixed_text;
-using report_names::percent_text;
-
 constexpr std::size_t kChartRows = 21;     // 0, 0.25, ..., 1 fall on whole rows
 constexpr std::size_t kChartColumns = 61;  // and on whole columns
 constexpr std::size_t kAxisMargin = 8;     // "  0.75 |"
