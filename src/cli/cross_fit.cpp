@@ -19,6 +19,26 @@
 namespace plumb::cli {
 namespace {
 
+// The command's usage as --help prints it: the summary under the command's
+// name, and the text after the options (what it does, examples).
+constexpr const char* kUsageSummary =
+    "Out-of-fold calibration: compare candidate maps on rows they were not fitted on, choose one, "
+    "and write it with the evidence";
+constexpr const char* kUsageFooter =
+    "Splits (--split):\n"
+    "  stratified      positives and negatives dealt evenly over the folds (default)\n"
+    "  group=COLUMN    every row with one value of COLUMN (a customer, a route) lands in the same fold\n"
+    "  time=COLUMN     forward chaining: each fold's map is fitted on earlier times only, and fold 1 is\n"
+    "                  never scored; COLUMN holds numbers or ISO 8601 dates/date-times, one form throughout\n"
+    "  column=COLUMN   the folds are COLUMN's values, made elsewhere (say, by the model's own cross-validation)\n\n"
+    "With --map auto every kind that accepts the scale is a candidate. The choice is the simplest map\n"
+    "(temperature, platt, beta, histogram, isotonic) whose out-of-fold log loss is within one standard\n"
+    "error of the best (a paired per-row comparison). The evidence table goes to stderr; --json writes it.\n\n"
+    "Examples:\n"
+    "  plumb cross-fit --map isotonic,platt,beta --score risk --label missed --split group=parcel_route \\\n"
+    "      --oof oof.csv -o late.map.json holdout.csv\n"
+    "  plumb cross-fit --score risk --label missed --split time=night --final folds holdout.csv > late.map.json";
+
 // Below this many rows an isotonic choice is cautioned (common practice;
 // Niculescu-Mizil and Caruana 2005 show isotonic overfitting small sets).
 constexpr double few_rows_for_isotonic = 1000;
@@ -283,23 +303,8 @@ int run_cross_fit(const CrossFitOptions& o) {
 
 Command add_cross_fit_command(CLI::App& app) {
   auto o = std::make_shared<CrossFitOptions>();
-  CLI::App* cmd = app.add_subcommand(
-      "cross-fit", "Out-of-fold calibration: compare candidate maps on rows they were not fitted on, choose one, "
-                   "and write it with the evidence");
-  cmd->footer(
-      "Splits (--split):\n"
-      "  stratified      positives and negatives dealt evenly over the folds (default)\n"
-      "  group=COLUMN    every row with one value of COLUMN (a customer, a route) lands in the same fold\n"
-      "  time=COLUMN     forward chaining: each fold's map is fitted on earlier times only, and fold 1 is\n"
-      "                  never scored; COLUMN holds numbers or ISO 8601 dates/date-times, one form throughout\n"
-      "  column=COLUMN   the folds are COLUMN's values, made elsewhere (say, by the model's own cross-validation)\n\n"
-      "With --map auto every kind that accepts the scale is a candidate. The choice is the simplest map\n"
-      "(temperature, platt, beta, histogram, isotonic) whose out-of-fold log loss is within one standard\n"
-      "error of the best (a paired per-row comparison). The evidence table goes to stderr; --json writes it.\n\n"
-      "Examples:\n"
-      "  plumb cross-fit --map isotonic,platt,beta --score risk --label missed --split group=parcel_route \\\n"
-      "      --oof oof.csv -o late.map.json holdout.csv\n"
-      "  plumb cross-fit --score risk --label missed --split time=night --final folds holdout.csv > late.map.json");
+  CLI::App* cmd = app.add_subcommand("cross-fit", kUsageSummary);
+  cmd->footer(kUsageFooter);
   add_input_options(*cmd, o->input, true);
   // Checked when the command runs, so that --tally gets its own message.
   cmd->get_option("--score")->required(false)->description("Column holding the raw score (name or 1-based index); required");

@@ -15,6 +15,26 @@
 namespace plumb::cli {
 namespace {
 
+// The command's usage as --help prints it: the summary under the command's
+// name, and the text after the options (what it does, examples).
+constexpr const char* kUsageSummary =
+    "Fit a recalibration map on labelled scores and write it as a map artifact";
+constexpr const char* kUsageFooter =
+    "Maps:\n"
+    "  isotonic     pool-adjacent-violators step fit; any monotone shape; needs many rows\n"
+    "  platt        logistic sigmoid in the score (or its log-odds); two parameters\n"
+    "  beta         logistic in ln(s) and -ln(1-s); probability scores only; three parameters\n"
+    "  temperature  divides the log-odds by one T > 0; probability or logit scores\n"
+    "  histogram    equal-mass bins, each mapped to its observed frequency\n\n"
+    "Examples:\n"
+    "  plumb fit --map isotonic --score risk --label missed holdout.csv -o late.map.json\n"
+    "  plumb fit --map platt --scale logit --score z --label outcome --positive late holdout.tsv > z.map.json\n"
+    "  plumb fit --map isotonic --tally all.tally.json -o late.map.json\n\n"
+    "With --tally (from plumb tally and merge) the map is the one a fit on all the tallied rows gives:\n"
+    "every kind fits on the per-score sums, which a tally keeps. Only the recorded source (the tally\n"
+    "file and its SHA-256) differs in the artifact.\n\n"
+    "The artifact records the input's SHA-256, row counts and the fit's diagnostics; see docs/artifact-format.md.";
+
 // Below this many rows the trade prefers a parametric map to isotonic or
 // histogram binning (common practice; Niculescu-Mizil and Caruana 2005 show
 // isotonic overfitting small calibration sets).
@@ -174,22 +194,8 @@ int write_and_summarise(const FitOptions& o, const Artifact& artifact, const std
 
 Command add_fit_command(CLI::App& app) {
   auto o = std::make_shared<FitOptions>();
-  CLI::App* cmd = app.add_subcommand("fit", "Fit a recalibration map on labelled scores and write it as a map artifact");
-  cmd->footer(
-      "Maps:\n"
-      "  isotonic     pool-adjacent-violators step fit; any monotone shape; needs many rows\n"
-      "  platt        logistic sigmoid in the score (or its log-odds); two parameters\n"
-      "  beta         logistic in ln(s) and -ln(1-s); probability scores only; three parameters\n"
-      "  temperature  divides the log-odds by one T > 0; probability or logit scores\n"
-      "  histogram    equal-mass bins, each mapped to its observed frequency\n\n"
-      "Examples:\n"
-      "  plumb fit --map isotonic --score risk --label missed holdout.csv -o late.map.json\n"
-      "  plumb fit --map platt --scale logit --score z --label outcome --positive late holdout.tsv > z.map.json\n"
-      "  plumb fit --map isotonic --tally all.tally.json -o late.map.json\n\n"
-      "With --tally (from plumb tally and merge) the map is the one a fit on all the tallied rows gives:\n"
-      "every kind fits on the per-score sums, which a tally keeps. Only the recorded source (the tally\n"
-      "file and its SHA-256) differs in the artifact.\n\n"
-      "The artifact records the input's SHA-256, row counts and the fit's diagnostics; see docs/artifact-format.md.");
+  CLI::App* cmd = app.add_subcommand("fit", kUsageSummary);
+  cmd->footer(kUsageFooter);
   // The kinds come from the map registry; the help and the refusal list them from the check.
   const std::vector<std::string> kinds(map_kinds().begin(), map_kinds().end());
   cmd->add_option("--map", o->kind, "Kind of map (each is described below)")->required()->check(CLI::IsMember(kinds))
