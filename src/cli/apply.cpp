@@ -18,6 +18,20 @@
 namespace plumb::cli {
 namespace {
 
+// The command's usage as --help prints it: the summary under the command's
+// name, and the text after the options (what it does, examples).
+constexpr const char* kUsageSummary =
+    "Append calibrated probabilities to every row of a score file, streaming, in input order";
+constexpr const char* kUsageFooter =
+    "Every input column is passed through byte for byte; the calibrated probability is appended as a new\n"
+    "last column (with --replace, written in place of the score column, which keeps its name unless --as\n"
+    "gives one), in the shortest digits that read back to the same double unless --digits says how many.\n"
+    "With -o the output appears only when the whole input has been read without error; a name ending in\n"
+    ".gz is written as gzip.\n\n"
+    "Examples:\n"
+    "  plumb apply late.map.json tonight.csv -o tonight.calibrated.csv\n"
+    "  plumb apply late.map.json big.csv.gz --as p_late | next-step";
+
 struct ApplyOptions {
   std::string artifact;
   std::string file = "-";
@@ -132,17 +146,8 @@ int run_apply(const ApplyOptions& o) {
 
 Command add_apply_command(CLI::App& app) {
   auto o = std::make_shared<ApplyOptions>();
-  CLI::App* cmd = app.add_subcommand(
-      "apply", "Append calibrated probabilities to every row of a score file, streaming, in input order");
-  cmd->footer(
-      "Every input column is passed through byte for byte; the calibrated probability is appended as a new\n"
-      "last column (with --replace, written in place of the score column, which keeps its name unless --as\n"
-      "gives one), in the shortest digits that read back to the same double unless --digits says how many.\n"
-      "With -o the output appears only when the whole input has been read without error; a name ending in\n"
-      ".gz is written as gzip.\n\n"
-      "Examples:\n"
-      "  plumb apply late.map.json tonight.csv -o tonight.calibrated.csv\n"
-      "  plumb apply late.map.json big.csv.gz --as p_late | next-step");
+  CLI::App* cmd = app.add_subcommand("apply", kUsageSummary);
+  cmd->footer(kUsageFooter);
   cmd->add_option("map", o->artifact, "Map artifact written by plumb fit")->required();
   cmd->add_option("file", o->file, "CSV or TSV file with a header row, plain or gzip; - or nothing reads standard input")
       ->default_str("-");

@@ -334,20 +334,8 @@ std::string utc_now() {
   return text;
 }
 
-std::string grouped(std::uint64_t n) {
-  std::string digits = std::to_string(n);
-  std::string out;
-  for (std::size_t i = 0; i < digits.size(); ++i) {
-    if (i > 0 && (digits.size() - i) % 3 == 0) out += ',';
-    out += digits[i];
-  }
-  return out;
-}
+std::string grouped(std::uint64_t n) { return count_text(n); }
 
-std::string shortest(double value) {
-  char text[32];
-  const auto [end, ec] = std::to_chars(text, text + sizeof text, value);
-  return std::string(text, ec == std::errc() ? end : text);
-}
+std::string shortest(double value) { return shortest_text(value); }
 
 }  // namespace plumb::cli

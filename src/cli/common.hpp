@@ -12,6 +12,7 @@
 #include "plumb/calibration_map.hpp"
 #include "plumb/labelled_input.hpp"
 #include "plumb/map_registry.hpp"
+#include "plumb/number_text.hpp"  // the formatting layer, for every summary line
 #include "plumb/tally.hpp"
 #include "plumb/scale.hpp"
 
@@ -125,11 +126,12 @@ Provenance provenance_of(const io::LabelledRows& rows, const InputOptions& optio
 // The current time as ISO 8601 UTC with seconds ("2026-12-02T11:32:40Z").
 std::string utc_now();
 
-// A count with thousands separators ("20,000").
+// A count with thousands separators ("20,000"): the formatting layer's
+// count_text (plumb/number_text.hpp), under the name the commands use.
 std::string grouped(std::uint64_t n);
 
 // A floating value printed with the shortest text that reads back to the
-// same double.
+// same double: the formatting layer's shortest_text.
 std::string shortest(double value);
 
 }  // namespace plumb::cli

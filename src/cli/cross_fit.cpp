@@ -20,6 +20,30 @@
 namespace plumb::cli {
 namespace {
 
+// The command's usage as --help prints it: the summary under the command's
+// name, and the text after the options (what it does, examples). The list of
+// kinds, simplest first, comes from the map registry.
+std::string kinds_by_complexity();  // below: the registry's kinds, simplest first
+
+constexpr const char* kUsageSummary =
+    "Out-of-fold calibration: compare candidate maps on rows they were not fitted on, choose one, "
+    "and write it with the evidence";
+std::string usage_footer() {
+  return "Splits (--split):\n"
+         "  stratified      positives and negatives dealt evenly over the folds (default)\n"
+         "  group=COLUMN    every row with one value of COLUMN (a customer, a route) lands in the same fold\n"
+         "  time=COLUMN     forward chaining: each fold's map is fitted on earlier times only, and fold 1 is\n"
+         "                  never scored; COLUMN holds numbers or ISO 8601 dates/date-times, one form throughout\n"
+         "  column=COLUMN   the folds are COLUMN's values, made elsewhere (say, by the model's own cross-validation)\n\n"
+         "With --map auto every kind that accepts the scale is a candidate. The choice is the simplest map\n"
+         "(" + kinds_by_complexity() + ") whose out-of-fold log loss is within one standard\n"
+         "error of the best (a paired per-row comparison). The evidence table goes to stderr; --json writes it.\n\n"
+         "Examples:\n"
+         "  plumb cross-fit --map isotonic,platt,beta --score risk --label missed --split group=parcel_route \\\n"
+         "      --oof oof.csv -o late.map.json holdout.csv\n"
+         "  plumb cross-fit --score risk --label missed --split time=night --final folds holdout.csv > late.map.json";
+}
+
 struct CrossFitOptions {
   InputOptions input;
   std::string maps = "auto";
@@ -235,7 +259,7 @@ int run_cross_fit(const CrossFitOptions& o) {
     if (find_map_kind(chosen.kind)->nonparametric && rows.weight_total < few_rows_for_nonparametric) {
       char amount[64];
       if (rows.weight.empty()) std::snprintf(amount, sizeof amount, "only %s rows", grouped(rows.rows).c_str());
-      else std::snprintf(amount, sizeof amount, "a total weight of only %.6g", rows.weight_total);
+      else std::snprintf(amount, sizeof amount, "a total weight of only %s", weight_text(rows.weight_total).c_str());
       std::fprintf(stderr,
                    "plumb cross-fit: caution: %s was chosen on %s; a nonparametric map usually needs about "
                    "%s rows or more (common practice)%s\n",
@@ -254,23 +278,8 @@ int run_cross_fit(const CrossFitOptions& o) {
 
 Command add_cross_fit_command(CLI::App& app) {
   auto o = std::make_shared<CrossFitOptions>();
-  CLI::App* cmd = app.add_subcommand(
-      "cross-fit", "Out-of-fold calibration: compare candidate maps on rows they were not fitted on, choose one, "
-                   "and write it with the evidence");
-  cmd->footer(
-      "Splits (--split):\n"
-      "  stratified      positives and negatives dealt evenly over the folds (default)\n"
-      "  group=COLUMN    every row with one value of COLUMN (a customer, a route) lands in the same fold\n"
-      "  time=COLUMN     forward chaining: each fold's map is fitted on earlier times only, and fold 1 is\n"
-      "                  never scored; COLUMN holds numbers or ISO 8601 dates/date-times, one form throughout\n"
-      "  column=COLUMN   the folds are COLUMN's values, made elsewhere (say, by the model's own cross-validation)\n\n"
-      "With --map auto every kind that accepts the scale is a candidate. The choice is the simplest map\n"
-      "(" + kinds_by_complexity() + ") whose out-of-fold log loss is within one standard\n"
-      "error of the best (a paired per-row comparison). The evidence table goes to stderr; --json writes it.\n\n"
-      "Examples:\n"
-      "  plumb cross-fit --map isotonic,platt,beta --score risk --label missed --split group=parcel_route \\\n"
-      "      --oof oof.csv -o late.map.json holdout.csv\n"
-      "  plumb cross-fit --score risk --label missed --split time=night --final folds holdout.csv > late.map.json");
+  CLI::App* cmd = app.add_subcommand("cross-fit", kUsageSummary);
+  cmd->footer(usage_footer());
   add_input_options(*cmd, o->input, true);
   // Checked when the command runs, so that --tally gets its own message.
   cmd->get_option("--score")->required(false)->description("Column holding the raw score (name or 1-based index); required");

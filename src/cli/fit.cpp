@@ -17,6 +17,21 @@
 namespace plumb::cli {
 namespace {
 
+// The command's usage as --help prints it: the summary under the command's
+// name, and the text after the options (what it does, examples). The footer
+// opens with the kinds' lines, which come from the map registry (maps_help()).
+constexpr const char* kUsageSummary =
+    "Fit a recalibration map on labelled scores and write it as a map artifact";
+constexpr const char* kUsageFooter =
+    "Examples:\n"
+    "  plumb fit --map isotonic --score risk --label missed holdout.csv -o late.map.json\n"
+    "  plumb fit --map platt --scale logit --score z --label outcome --positive late holdout.tsv > z.map.json\n"
+    "  plumb fit --map isotonic --tally all.tally.json -o late.map.json\n\n"
+    "With --tally (from plumb tally and merge) the map is the one a fit on all the tallied rows gives:\n"
+    "every kind fits on the per-score sums, which a tally keeps. Only the recorded source (the tally\n"
+    "file and its SHA-256) differs in the artifact.\n\n"
+    "The artifact records the input's SHA-256, row counts and the fit's diagnostics; see docs/artifact-format.md.";
+
 struct FitOptions {
   InputOptions input;
   std::string kind;
@@ -129,8 +144,8 @@ int write_and_summarise(const FitOptions& o, const Artifact& artifact, const std
       notes += "; " + grouped(*rows.rows_skipped) + (*rows.rows_skipped == 1 ? " row" : " rows") +
                " with a missing score or label left out";
     std::fprintf(stderr, "plumb fit: %s map from %s (weight of positives %s of %s), log loss %.6f%s; written to %s\n",
-                 o.kind.c_str(), from.c_str(), shortest(rows.positives).c_str(),
-                 shortest(rows.weight_total).c_str(), d.log_loss, notes.c_str(), out.name().c_str());
+                 o.kind.c_str(), from.c_str(), weight_text(rows.positives).c_str(),
+                 weight_text(rows.weight_total).c_str(), d.log_loss, notes.c_str(), out.name().c_str());
     if (!d.converged)
       std::fprintf(stderr, "plumb fit: warning: the fit did not converge after %d iterations (are the labels "
                            "separated by the score?); the map is usable but its parameters are not a maximum\n",
@@ -158,7 +173,7 @@ int write_and_summarise(const FitOptions& o, const Artifact& artifact, const std
     if (kind.nonparametric && rows.weight_total < few_rows_for_nonparametric)
       std::fprintf(stderr, "plumb fit: caution: %s rows is few for %s map (common practice: about %s or "
                            "more); a platt or beta map is less likely to overfit\n",
-                   shortest(rows.weight_total).c_str(), kind_with_article(o.kind).c_str(),
+                   weight_text(rows.weight_total).c_str(), kind_with_article(o.kind).c_str(),
                    grouped(static_cast<std::uint64_t>(few_rows_for_nonparametric)).c_str());
   }
   return 0;
@@ -180,17 +195,8 @@ std::string maps_help() {
 
 Command add_fit_command(CLI::App& app) {
   auto o = std::make_shared<FitOptions>();
-  CLI::App* cmd = app.add_subcommand("fit", "Fit a recalibration map on labelled scores and write it as a map artifact");
-  cmd->footer(
-      maps_help() +
-      "Examples:\n"
-      "  plumb fit --map isotonic --score risk --label missed holdout.csv -o late.map.json\n"
-      "  plumb fit --map platt --scale logit --score z --label outcome --positive late holdout.tsv > z.map.json\n"
-      "  plumb fit --map isotonic --tally all.tally.json -o late.map.json\n\n"
-      "With --tally (from plumb tally and merge) the map is the one a fit on all the tallied rows gives:\n"
-      "every kind fits on the per-score sums, which a tally keeps. Only the recorded source (the tally\n"
-      "file and its SHA-256) differs in the artifact.\n\n"
-      "The artifact records the input's SHA-256, row counts and the fit's diagnostics; see docs/artifact-format.md.");
+  CLI::App* cmd = app.add_subcommand("fit", kUsageSummary);
+  cmd->footer(maps_help() + kUsageFooter);
   // The kinds come from the map registry; the help and the refusal list them from the check.
   const std::vector<std::string> kinds(map_kinds().begin(), map_kinds().end());
   cmd->add_option("--map", o->kind, "Kind of map (each is described below)")->required()->check(CLI::IsMember(kinds))

@@ -13,6 +13,16 @@
 namespace plumb::cli {
 namespace {
 
+// The command's usage as --help prints it: the summary under the command's
+// name, and the text after the options (what it does, examples).
+constexpr const char* kUsageSummary =
+    "Check a map artifact and summarise it: kind, parameters, provenance, fit";
+constexpr const char* kUsageFooter =
+    "Exits with code 4 when the artifact is truncated, edited, of an unknown version or invalid.\n\n"
+    "Examples:\n"
+    "  plumb inspect late.map.json\n"
+    "  plumb inspect --json late.map.json | jq .parameters";
+
 struct InspectOptions {
   std::string artifact;
   bool json = false;
@@ -124,9 +134,9 @@ int run_inspect(const InspectOptions& o) {
   std::printf("  %-14s column '%s', %s scale\n", "scores", a.score_column.c_str(),
               std::string(to_string(a.map->scale())).c_str());
   std::printf("  %-14s %s (%s)\n", "fitted on", p.source.c_str(), p.tool.c_str());
-  std::printf("  %-14s %s rows, weight %s, positives %s (%.2f%%)\n", "", grouped(p.rows).c_str(),
-              shortest(p.weight_total).c_str(), shortest(p.positives).c_str(),
-              p.weight_total > 0 ? 100.0 * p.positives / p.weight_total : 0.0);
+  std::printf("  %-14s %s rows, weight %s, positives %s (%s)\n", "", grouped(p.rows).c_str(),
+              weight_text(p.weight_total).c_str(), weight_text(p.positives).c_str(),
+              share_text(p.weight_total > 0 ? p.positives / p.weight_total : 0.0).c_str());
   if (p.rows_skipped)
     std::printf("  %-14s %s %s with a missing score or label left out (fitted with missing values skipped)\n", "",
                 grouped(*p.rows_skipped).c_str(), *p.rows_skipped == 1 ? "row" : "rows");
@@ -150,11 +160,8 @@ int run_inspect(const InspectOptions& o) {
 
 Command add_inspect_command(CLI::App& app) {
   auto o = std::make_shared<InspectOptions>();
-  CLI::App* cmd = app.add_subcommand("inspect", "Check a map artifact and summarise it: kind, parameters, provenance, fit");
-  cmd->footer("Exits with code 4 when the artifact is truncated, edited, of an unknown version or invalid.\n\n"
-              "Examples:\n"
-              "  plumb inspect late.map.json\n"
-              "  plumb inspect --json late.map.json | jq .parameters");
+  CLI::App* cmd = app.add_subcommand("inspect", kUsageSummary);
+  cmd->footer(kUsageFooter);
   cmd->add_option("map", o->artifact, "Map artifact written by plumb fit (- reads standard input)")->required();
   cmd->add_flag("--json", o->json, "Print the validated artifact as JSON instead of the summary");
   cmd->add_flag("--all", o->all, "Show every knot or bin, not only the first and last few");

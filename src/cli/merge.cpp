@@ -13,6 +13,20 @@
 namespace plumb::cli {
 namespace {
 
+// The command's usage as --help prints it: the summary under the command's
+// name, and the text after the options (what it does, examples).
+constexpr const char* kUsageSummary =
+    "Combine tallies written by plumb tally (or merge) into one tally";
+constexpr const char* kUsageFooter =
+    "Scores are matched exactly; row counts and weights are added. Tallies of unweighted rows merge\n"
+    "exactly, so any order and any grouping of merges give the same bytes. With tallies made with\n"
+    "plumb tally --weight the weights are added as doubles, whose sums can differ in the last digit with the order.\n"
+    "Tallies of different score columns, scales, label columns, label rules, weight columns or\n"
+    "grids are refused.\n\n"
+    "Examples:\n"
+    "  plumb merge part-*.tally.json -o all.tally.json\n"
+    "  plumb merge monday.tally.json tuesday.tally.json > week.tally.json";
+
 struct MergeOptions {
   std::vector<std::string> inputs;
   std::string output = "-";
@@ -39,8 +53,8 @@ int run_merge(const MergeOptions& o) {
   if (!o.quiet)
     std::fprintf(stderr, "plumb merge: %s tallies, %s rows (weight of positives %s of %s) in %s distinct scores; "
                          "written to %s\n",
-                 grouped(o.inputs.size()).c_str(), grouped(merged.rows).c_str(), shortest(merged.positives).c_str(),
-                 shortest(merged.weight_total).c_str(), grouped(merged.score.size()).c_str(), out.name().c_str());
+                 grouped(o.inputs.size()).c_str(), grouped(merged.rows).c_str(), weight_text(merged.positives).c_str(),
+                 weight_text(merged.weight_total).c_str(), grouped(merged.score.size()).c_str(), out.name().c_str());
   return 0;
 }
 
@@ -48,16 +62,8 @@ int run_merge(const MergeOptions& o) {
 
 Command add_merge_command(CLI::App& app) {
   auto o = std::make_shared<MergeOptions>();
-  CLI::App* cmd = app.add_subcommand("merge", "Combine tallies written by plumb tally (or merge) into one tally");
-  cmd->footer(
-      "Scores are matched exactly; row counts and weights are added. Tallies of unweighted rows merge\n"
-      "exactly, so any order and any grouping of merges give the same bytes. With tallies made with\n"
-      "plumb tally --weight the weights are added as doubles, whose sums can differ in the last digit with the order.\n"
-      "Tallies of different score columns, scales, label columns, label rules, weight columns or\n"
-      "grids are refused.\n\n"
-      "Examples:\n"
-      "  plumb merge part-*.tally.json -o all.tally.json\n"
-      "  plumb merge monday.tally.json tuesday.tally.json > week.tally.json");
+  CLI::App* cmd = app.add_subcommand("merge", kUsageSummary);
+  cmd->footer(kUsageFooter);
   cmd->add_option("tallies", o->inputs, "Tally files (at least one; - reads one from standard input)")
       ->required()
       ->expected(1, -1);

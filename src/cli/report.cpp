@@ -22,6 +22,39 @@
 namespace plumb::cli {
 namespace {
 
+// The command's usage as --help prints it: the summary under the command's
+// name, and the text after the options (what it does, examples).
+constexpr const char* kUsageSummary =
+    "Reliability diagnostics of forecasts against outcomes: scores, decompositions, calibration "
+    "error with intervals, a reliability chart, segments, pass/fail gates";
+// The gates each bound takes (gate_names, from the core's table).
+std::string usage_footer(const std::string& max_gates, const std::string& min_gates) {
+  return "Columns: --score names columns reported as they are; each --map is applied on the fly to the\n"
+         "column it was fitted on, or to the column its --map-score names (as apply's --score does).\n\n"
+         "Gates (repeatable): --max METRIC=VALUE fails when the figure is above VALUE, --min when below.\n"
+         "  --max: " + max_gates + "\n"
+         "  --min: " + min_gates + "\n"
+         "The names are those of the JSON report (docs/report-format.md). A gate reads what was\n"
+         "calibrated: the --map columns when there are maps, else every --score column. To read one\n"
+         "column, name it: risk:ece=0.05 (the raw scores), late.map.json:ece=0.02 (a map's column),\n"
+         "*:ece=0.02 (every column). A figure that cannot be computed fails its gate. When a gate fails\n"
+         "every requested output is still written, then plumb exits with code 7.\n\n"
+         "Examples:\n"
+         "  plumb report --score risk --score risk_calibrated --label missed --by depot scored.csv\n"
+         "  plumb report --map late.map.json --score risk --label missed holdout.csv --svg reliability.svg\n"
+         "  plumb report --map late.map.json --map-score risk_v2 --label missed holdout.csv\n"
+         "  plumb report --score risk_calibrated --label missed --max ece=0.02 --max mcb=0.004 -q scored.csv || page-the-on-call\n"
+         "  plumb report --map late.map.json --score risk --label missed --max ece=0.02 --min auc=0.7 -q holdout.csv\n"
+         "  plumb report --score risk --map late.map.json --tally all.tally.json\n\n"
+         "With --tally the report is that of the tallied rows (the figures are sums over rows, which the\n"
+         "tally keeps per score; it is read as one cell per score and label, so memory grows with the\n"
+         "distinct scores, not the rows). A tally of weighted rows needs --bootstrap 0 (the bootstrap\n"
+         "resamples rows, whose weights the tally has summed) and tally format version 2, which keeps the\n"
+         "sums of squared weights. Segments (--by) are not supported.\n\n"
+         "Cautions: a calibrated score is only as good as the data it was checked on; recalibration is not\n"
+         "model validation; credit, insurance and health uses follow local rules and licensed practice.";
+}
+
 struct ReportCliOptions {
   InputOptions input;
   std::vector<std::string> scores;
@@ -201,16 +234,15 @@ std::string failed_gates_line(const std::vector<GateResult>& results) {
   for (const GateResult& g : results) {
     if (!g.exceeded) continue;
     ++failed;
-    char value[32], limit[32];
-    std::snprintf(value, sizeof value, "%.6g", g.value);
-    std::snprintf(limit, sizeof limit, "%.6g", g.gate.limit);
+    // Six significant digits, as the reports' gate tables (plumb/number_text.hpp).
+    const std::string value = significant_text(g.value, 6), limit = significant_text(g.gate.limit, 6);
     detail += (detail.empty() ? "" : "; ") + g.column + ": " + g.gate.metric;
     if (std::isfinite(g.value))
-      detail += " = " + std::string(value) + " " + std::string(gate_comparison(g)) + " " + limit;
+      detail += " = " + value + " " + std::string(gate_comparison(g)) + " " + limit;
     else
       detail += " could not be computed, which fails";
     detail += " (" + std::string(bound_option(g.gate.bound)) +
-              (std::isfinite(g.value) ? ")" : " " + std::string(limit) + ")");
+              (std::isfinite(g.value) ? ")" : " " + limit + ")");
   }
   return "plumb report: " + std::to_string(failed) + " of " + std::to_string(results.size()) +
          (results.size() == 1 ? " gate" : " gates") + " failed: " + detail;
@@ -389,34 +421,8 @@ int emit_report(const ReportCliOptions& o, const Report& report) {
 
 Command add_report_command(CLI::App& app) {
   auto o = std::make_shared<ReportCliOptions>();
-  CLI::App* cmd = app.add_subcommand(
-      "report", "Reliability diagnostics of forecasts against outcomes: scores, decompositions, calibration "
-                "error with intervals, a reliability chart, segments, pass/fail gates");
-  cmd->footer(
-      "Columns: --score names columns reported as they are; each --map is applied on the fly to the\n"
-      "column it was fitted on, or to the column its --map-score names (as apply's --score does).\n\n"
-      "Gates (repeatable): --max METRIC=VALUE fails when the figure is above VALUE, --min when below.\n"
-      "  --max: " + gate_names(GateBound::max) + "\n"
-      "  --min: " + gate_names(GateBound::min) + "\n"
-      "The names are those of the JSON report (docs/report-format.md). A gate reads what was\n"
-      "calibrated: the --map columns when there are maps, else every --score column. To read one\n"
-      "column, name it: risk:ece=0.05 (the raw scores), late.map.json:ece=0.02 (a map's column),\n"
-      "*:ece=0.02 (every column). A figure that cannot be computed fails its gate. When a gate fails\n"
-      "every requested output is still written, then plumb exits with code 7.\n\n"
-      "Examples:\n"
-      "  plumb report --score risk --score risk_calibrated --label missed --by depot scored.csv\n"
-      "  plumb report --map late.map.json --score risk --label missed holdout.csv --svg reliability.svg\n"
-      "  plumb report --map late.map.json --map-score risk_v2 --label missed holdout.csv\n"
-      "  plumb report --score risk_calibrated --label missed --max ece=0.02 --max mcb=0.004 -q scored.csv || page-the-on-call\n"
-      "  plumb report --map late.map.json --score risk --label missed --max ece=0.02 --min auc=0.7 -q holdout.csv\n"
-      "  plumb report --score risk --map late.map.json --tally all.tally.json\n\n"
-      "With --tally the report is that of the tallied rows (the figures are sums over rows, which the\n"
-      "tally keeps per score; it is read as one cell per score and label, so memory grows with the\n"
-      "distinct scores, not the rows). A tally of weighted rows needs --bootstrap 0 (the bootstrap\n"
-      "resamples rows, whose weights the tally has summed) and tally format version 2, which keeps the\n"
-      "sums of squared weights. Segments (--by) are not supported.\n\n"
-      "Cautions: a calibrated score is only as good as the data it was checked on; recalibration is not\n"
-      "model validation; credit, insurance and health uses follow local rules and licensed practice.");
+  CLI::App* cmd = app.add_subcommand("report", kUsageSummary);
+  cmd->footer(usage_footer(gate_names(GateBound::max), gate_names(GateBound::min)));
   cmd->add_option("file", o->input.file, "CSV or TSV file with a header row, plain or gzip; - or nothing reads standard input")
       ->default_str("-");
   cmd->add_option("--score", o->scores,

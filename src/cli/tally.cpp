@@ -13,6 +13,24 @@
 namespace plumb::cli {
 namespace {
 
+// The command's usage as --help prints it: the summary under the command's
+// name, and the text after the options (what it does, examples).
+constexpr const char* kUsageSummary =
+    "Sum one shard of labelled scores into a tally (per distinct score: rows and the weight of "
+    "negatives and positives) that plumb merge combines and fit and report read";
+constexpr const char* kUsageFooter =
+    "A tally keeps everything fit needs: a map fitted on merged tallies is the same, byte for byte\n"
+    "apart from the recorded input, as a map fitted on all the rows at once. Its size grows with\n"
+    "the distinct scores, not the rows; when scores have many digits, --logit-grid H rounds each\n"
+    "score's log-odds to the nearest multiple of H, which moves no probability by more than H/8.\n"
+    "Tallies are merged only with tallies of the same score column, scale, label column, label\n"
+    "rule, weight column and grid. The format: docs/tally-format.md.\n\n"
+    "Examples:\n"
+    "  plumb tally --score risk --label missed part-0001.csv -o part-0001.tally.json\n"
+    "  plumb tally --score risk --label missed --logit-grid 0.001 part-0002.csv -o part-0002.tally.json\n"
+    "  plumb merge part-*.tally.json -o all.tally.json\n"
+    "  plumb fit --map isotonic --tally all.tally.json -o late.map.json";
+
 struct TallyOptions {
   InputOptions input;
   std::string output = "-";
@@ -62,8 +80,8 @@ int run_tally(TallyOptions o) {
   if (!o.input.quiet)
     std::fprintf(stderr, "plumb tally: %s rows of %s (weight of positives %s of %s) in %s distinct %sscores%s; "
                          "written to %s\n",
-                 grouped(rows.rows).c_str(), rows.source.c_str(), shortest(rows.positives).c_str(),
-                 shortest(rows.weight_total).c_str(), grouped(t.score.size()).c_str(),
+                 grouped(rows.rows).c_str(), rows.source.c_str(), weight_text(rows.positives).c_str(),
+                 weight_text(rows.weight_total).c_str(), grouped(t.score.size()).c_str(),
                  on_grid ? "grid " : "", skipped_note(o.input, rows.skipped).c_str(), out.name().c_str());
   return 0;
 }
@@ -72,21 +90,8 @@ int run_tally(TallyOptions o) {
 
 Command add_tally_command(CLI::App& app) {
   auto o = std::make_shared<TallyOptions>();
-  CLI::App* cmd = app.add_subcommand(
-      "tally", "Sum one shard of labelled scores into a tally (per distinct score: rows and the weight of "
-               "negatives and positives) that plumb merge combines and fit and report read");
-  cmd->footer(
-      "A tally keeps everything fit needs: a map fitted on merged tallies is the same, byte for byte\n"
-      "apart from the recorded input, as a map fitted on all the rows at once. Its size grows with\n"
-      "the distinct scores, not the rows; when scores have many digits, --logit-grid H rounds each\n"
-      "score's log-odds to the nearest multiple of H, which moves no probability by more than H/8.\n"
-      "Tallies are merged only with tallies of the same score column, scale, label column, label\n"
-      "rule, weight column and grid. The format: docs/tally-format.md.\n\n"
-      "Examples:\n"
-      "  plumb tally --score risk --label missed part-0001.csv -o part-0001.tally.json\n"
-      "  plumb tally --score risk --label missed --logit-grid 0.001 part-0002.csv -o part-0002.tally.json\n"
-      "  plumb merge part-*.tally.json -o all.tally.json\n"
-      "  plumb fit --map isotonic --tally all.tally.json -o late.map.json");
+  CLI::App* cmd = app.add_subcommand("tally", kUsageSummary);
+  cmd->footer(kUsageFooter);
   add_input_options(*cmd, o->input, true);
   cmd->add_option("-o,--output", o->output, "Where to write the tally (- for standard output)")->default_str("-");
   cmd->add_option("--logit-grid", o->grid_step,

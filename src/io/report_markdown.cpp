@@ -3,11 +3,12 @@
 // the segments; then the gates, the cautions found and the standing cautions.
 //
 // Conventions: every table row has the header's cell count (a reader or a
-// diff tool can rely on it); non-finite numbers print as "n/a"; text that
+// diff tool can rely on it); numbers follow the formatting layer's rules and
+// figures its Markdown labels (report_names.hpp), so they read as in the text
+// report; non-finite numbers print as "n/a"; text that
 // comes from the data (names, values, cautions) is escaped so that it shows
 // literally instead of becoming Markdown (a `|` would otherwise split a cell).
 #include <algorithm>
-#include <charconv>
 #include <cmath>
 #include <cstddef>
 #include <cstdint>
@@ -22,47 +23,11 @@
 namespace plumb {
 namespace {
 
+namespace rn = report_names;
+
 bool finite(double x) { return std::isfinite(x); }
-
-std::string to_chars_or_na(double x, std::chars_format format, int precision) {
-  if (!finite(x)) return "n/a";
-  char buf[64];
-  const auto [end, ec] = std::to_chars(buf, buf + sizeof buf, x, format, precision);
-  if (ec != std::errc{}) return "n/a";
-  std::string s(buf, end);
-  // "-0" and "-0.0000" say there is a sign where there is none.
-  if (s.starts_with('-') && s.find_first_not_of("0.", 1) == std::string::npos) s.erase(0, 1);
-  return s;
-}
-
-// Scores, calibration errors and interval ends: the text report's metric
-// format (report_names.hpp), so a column has one format and the two
-// documents print the same digits.
-std::string num(double x) { return report_names::metric_text(x); }
-// Test statistics (Z, Hosmer-Lemeshow): 2 decimals.
-std::string stat(double x) { return report_names::stat_text(x); }
-// Other quantities (effective sizes, levels): significant digits.
-std::string general(double x, int digits) { return to_chars_or_na(x, std::chars_format::general, digits); }
-// Gate limits and values: six significant digits, to tell a value from a limit it is close to.
-std::string gate_num(double x) { return general(x, 6); }
-// Probabilities and frequencies in tables: fixed, so the column lines up.
-std::string prob(double x) { return to_chars_or_na(x, std::chars_format::fixed, 4); }
-std::string signed_prob(double x) {
-  std::string s = prob(x);
-  if (finite(x) && x > 0 && s.find_first_not_of("0.") != std::string::npos) s.insert(0, "+");
-  return s;
-}
-// p-values: the text report's rule (fixed above a floor, scientific below).
-std::string p_value(double p) { return report_names::p_value_text(p); }
-// Weights: whole numbers as such (the unweighted case), others with 6 digits.
-std::string weight_text(double w) {
-  if (finite(w) && w == std::floor(w) && std::fabs(w) < 1e15) return to_chars_or_na(w, std::chars_format::fixed, 0);
-  return to_chars_or_na(w, std::chars_format::general, 6);
-}
-std::string percent(double confidence) {
-  if (!finite(confidence)) return "n/a";
-  return to_chars_or_na(confidence * 100.0, std::chars_format::general, 4) + "%";
-}
+std::string na() { return std::string(not_a_number); }
+std::string label(const rn::Name& n) { return std::string(n.markdown); }
 
 // Backslash-escapes the ASCII punctuation that Markdown (CommonMark and the
 // common table extension) could read as syntax, and folds line breaks into
@@ -113,24 +78,22 @@ class Table {
   std::vector<std::vector<std::string>> rows_;
 };
 
-std::string interval_text(const BootstrapInterval& i) {
-  if (i.used == 0 || !finite(i.lo) || !finite(i.hi)) return "n/a";
-  return num(i.lo) + " to " + num(i.hi);
+std::string bootstrap_interval(const BootstrapInterval& i) {
+  if (i.used == 0 || !finite(i.lo) || !finite(i.hi)) return na();
+  return interval_text(metric_text(i.lo), metric_text(i.hi));
 }
 
-std::string binning_name(BinningKind kind) {
-  return std::string(kind == BinningKind::equal_mass ? report_names::equal_mass.display : report_names::equal_width.display);
-}
+std::string binning_name(BinningKind kind) { return label(rn::binning(kind)); }
 
 void headline(std::string& out, const Report& report, const ScoreSummary& s) {
   const bool boot = s.bootstrap.has_value();
-  const std::string level = percent(report.options.confidence);
+  const std::string level = percent_text(report.options.confidence);
   std::vector<std::string> header{"metric", "value"};
   if (boot) header.push_back(level + " interval");
   Table t(header, {false, true, false});
   const auto add = [&](std::string name, std::string value, const BootstrapInterval* interval = nullptr) {
     std::vector<std::string> cells{std::move(name), std::move(value)};
-    if (boot) cells.push_back(interval != nullptr ? interval_text(*interval) : "");
+    if (boot) cells.push_back(interval != nullptr ? bootstrap_interval(*interval) : "");
     t.row(std::move(cells));
   };
   const BootstrapResult* b = boot ? &*s.bootstrap : nullptr;
@@ -138,45 +101,42 @@ void headline(std::string& out, const Report& report, const ScoreSummary& s) {
   // and debiased l2 intervals belong to that binning's rows only.
   const bool mass = report.options.binning == BinningKind::equal_mass;
 
-  add("rows", std::to_string(s.rows));
-  if (!report.weight_column.empty()) add("weight", weight_text(s.weight));
-  add("positives (weight)", weight_text(s.positives));
-  add("observed rate", prob(s.observed_rate));
-  add("mean forecast", prob(s.mean_forecast));
-  add("Brier score", num(s.brier), b ? &b->brier : nullptr);
-  add("log loss (nats)", num(s.log_loss));
-  add("CORP Brier MCB (miscalibration)", num(s.corp_brier.mcb), b ? &b->mcb_brier : nullptr);
-  add("CORP Brier DSC (discrimination)", num(s.corp_brier.dsc));
-  add("CORP Brier UNC (uncertainty)", num(s.corp_brier.unc));
-  add("CORP log loss MCB / DSC / UNC",
-      num(s.corp_log_loss.mcb) + " / " + num(s.corp_log_loss.dsc) + " / " + num(s.corp_log_loss.unc));
+  add(label(rn::rows), count_text(s.rows));
+  if (!report.weight_column.empty()) add(label(rn::weight), weight_text(s.weight));
+  add(label(rn::positives), weight_text(s.positives));
+  add(label(rn::observed_rate), probability_text(s.observed_rate));
+  add(label(rn::mean_forecast), probability_text(s.mean_forecast));
+  add(label(rn::brier), metric_text(s.brier), b ? &b->brier : nullptr);
+  add(label(rn::log_loss), metric_text(s.log_loss));
+  add(label(rn::brier_mcb), metric_text(s.corp_brier.mcb), b ? &b->mcb_brier : nullptr);
+  add(label(rn::brier_dsc), metric_text(s.corp_brier.dsc));
+  add(label(rn::brier_unc), metric_text(s.corp_brier.unc));
+  add(label(rn::log_loss_terms), metric_text(s.corp_log_loss.mcb) + " / " + metric_text(s.corp_log_loss.dsc) + " / " +
+                                     metric_text(s.corp_log_loss.unc));
   for (const CalibrationError* e : {&s.ece_equal_width, &s.ece_equal_mass}) {
     const bool matches = (e->binning == BinningKind::equal_mass) == mass;
-    const std::string bins = binning_name(e->binning) + ", " + std::to_string(e->bins) + " bins (" +
-                             std::to_string(e->nonempty_bins) + " non-empty)";
-    add("ECE, " + bins, num(e->ece), b && matches ? &b->ece : nullptr);
-    add("MCE, " + binning_name(e->binning), num(e->mce));
-    add("debiased l2 error, " + binning_name(e->binning), num(e->l2_debiased),
+    const std::string bins = binning_name(e->binning) + ", " + count_text(e->bins) + " bins (" +
+                             count_text(e->nonempty_bins) + " non-empty)";
+    add(label(rn::ece) + ", " + bins, metric_text(e->ece), b && matches ? &b->ece : nullptr);
+    add(label(rn::mce) + ", " + binning_name(e->binning), metric_text(e->mce));
+    add(label(rn::l2_debiased) + ", " + binning_name(e->binning), metric_text(e->l2_debiased),
         b && matches ? &b->l2_debiased : nullptr);
   }
-  namespace rn = report_names;
-  add(std::string(rn::calibration_in_the_large.display) + " (mean forecast - observed)",
-      signed_prob(s.calibration_in_the_large));
+  add(label(rn::calibration_in_the_large), difference_text(s.calibration_in_the_large));
   const std::string caveat = s.regression.converged ? "" : " (fit did not converge)";
-  add(std::string(rn::calibration_slope.display) + caveat, rn::fixed_text(s.regression.slope, 4));
-  add(std::string(rn::intercept_slope_free.display) + caveat, signed_prob(s.regression.intercept_free));
-  add(std::string(rn::calibration_intercept.display) + " (slope fixed at 1)" + caveat,
-      signed_prob(s.regression.intercept_at_unit_slope));
+  add(label(rn::calibration_slope) + caveat, fixed_text(s.regression.slope, 4));
+  add(label(rn::intercept_slope_free) + caveat, difference_text(s.regression.intercept_free));
+  add(label(rn::calibration_intercept) + caveat, difference_text(s.regression.intercept_at_unit_slope));
   const HosmerLemeshow& hl = s.hosmer_lemeshow;
-  add("Hosmer-Lemeshow statistic (" + std::to_string(hl.used_groups) + " of " + std::to_string(hl.groups_requested) +
-          " groups)",
-      stat(hl.statistic));
-  add("Hosmer-Lemeshow df", rn::fixed_text(hl.df, 0));
-  add("Hosmer-Lemeshow p-value", p_value(hl.p_value));
-  add("Spiegelhalter Z", stat(s.spiegelhalter.z));
-  add("Spiegelhalter p-value", p_value(s.spiegelhalter.p_value));
-  add("AUC", num(s.auc), b ? &b->auc : nullptr);
-  if (s.at_zero_or_one > 0) add("forecasts exactly 0 or 1", std::to_string(s.at_zero_or_one));
+  const std::string hl_name = label(rn::hosmer_lemeshow);
+  add(hl_name + " statistic (" + count_text(hl.used_groups) + " of " + count_text(hl.groups_requested) + " groups)",
+      stat_text(hl.statistic));
+  add(hl_name + " df", fixed_text(hl.df, 0));
+  add(label(rn::hosmer_lemeshow_p), p_value_text(hl.p_value));
+  add(label(rn::spiegelhalter), stat_text(s.spiegelhalter.z));
+  add(label(rn::spiegelhalter_p), p_value_text(s.spiegelhalter.p_value));
+  add(label(rn::auc), metric_text(s.auc), b ? &b->auc : nullptr);
+  if (s.at_zero_or_one > 0) add(label(rn::at_zero_or_one), count_text(s.at_zero_or_one));
   t.write(out);
 }
 
@@ -184,30 +144,32 @@ void reliability(std::string& out, const Report& report, const ScoreSummary& s) 
   const ReliabilityTable& table = s.table;
   const bool weighted = !report.weight_column.empty();
   const bool band = !s.band.empty();
-  std::vector<std::string> header{"bin", "range", "rows"};
-  if (weighted) header.insert(header.end(), {"weight", "effective size"});
-  header.insert(header.end(), {"mean forecast", "observed", percent(table.confidence) + " Wilson interval",
-                               "gap (forecast - observed)"});
-  if (band) header.push_back(percent(report.options.confidence) + " band if calibrated");
+  std::vector<std::string> header{"bin", "range", label(rn::rows)};
+  if (weighted) header.insert(header.end(), {label(rn::weight), label(rn::effective_size)});
+  header.insert(header.end(), {label(rn::mean_forecast), "observed",
+                               percent_text(table.confidence) + " Wilson interval", label(rn::gap)});
+  if (band) header.push_back(percent_text(report.options.confidence) + " " + label(rn::consistency_band));
   std::vector<bool> right(header.size(), true);
   right[1] = false;
   Table t(header, right);
   for (std::size_t b = 0; b < table.bins.size(); ++b) {
     const ReliabilityBin& bin = table.bins[b];
-    const std::string range =
-        finite(bin.edge_lo) && finite(bin.edge_hi) ? prob(bin.edge_lo) + " to " + prob(bin.edge_hi) : "empty";
-    std::vector<std::string> cells{std::to_string(b + 1), range, std::to_string(bin.rows)};
-    if (weighted) cells.insert(cells.end(), {weight_text(bin.weight), general(bin.effective_size, 4)});
+    const std::string range = finite(bin.edge_lo) && finite(bin.edge_hi)
+                                  ? range_text(probability_text(bin.edge_lo), probability_text(bin.edge_hi))
+                                  : na();
+    // The bin's number is its place, not a count.
+    std::vector<std::string> cells{std::to_string(b + 1), range, count_text(bin.rows)};
+    if (weighted) cells.insert(cells.end(), {weight_text(bin.weight), weight_text(bin.effective_size)});
     const bool has = bin.weight > 0;
-    cells.push_back(has ? prob(bin.mean_forecast) : "n/a");
-    cells.push_back(has ? prob(bin.observed) : "n/a");
+    cells.push_back(has ? probability_text(bin.mean_forecast) : na());
+    cells.push_back(has ? probability_text(bin.observed) : na());
     cells.push_back(has && finite(bin.observed_lo) && finite(bin.observed_hi)
-                        ? prob(bin.observed_lo) + " to " + prob(bin.observed_hi)
-                        : "n/a");
-    cells.push_back(has ? signed_prob(bin.gap) : "n/a");
+                        ? interval_text(probability_text(bin.observed_lo), probability_text(bin.observed_hi))
+                        : na());
+    cells.push_back(has ? difference_text(bin.gap) : na());
     if (band) {
       const bool in_range = b < s.band.size() && finite(s.band[b].lo) && finite(s.band[b].hi);
-      cells.push_back(in_range ? prob(s.band[b].lo) + " to " + prob(s.band[b].hi) : "n/a");
+      cells.push_back(in_range ? interval_text(probability_text(s.band[b].lo), probability_text(s.band[b].hi)) : na());
     }
     t.row(std::move(cells));
   }
@@ -221,32 +183,33 @@ void segments(std::string& out, const Report& report, const ScoreReport& r) {
   out +=
       "Sorted by |calibration in the large|. A segment is flagged when its Spiegelhalter p-value, Holm-adjusted "
       "over the segments, is below " +
-      general(report.options.segment_alpha, 4) + "; segments under " + weight_text(report.options.min_segment_weight) +
-      " weight have too few rows for figures.\n\n";
-  const std::vector<bool> shown = report_names::segments_shown(r.segments);
+      significant_text(report.options.segment_alpha, 4) + "; segments under " +
+      weight_text(report.options.min_segment_weight) + " weight have too few rows for figures.\n\n";
+  const std::vector<bool> shown = rn::segments_shown(r.segments);
   const auto left_out = static_cast<std::size_t>(std::count(shown.begin(), shown.end(), false));
-  Table t({"segment", "rows", "weight", "positives", "mean forecast", "observed", "calibration in the large", "ECE",
-           "Brier", "log loss", "Spiegelhalter Z", "Holm p", "flag"},
+  Table t({"segment", label(rn::rows), label(rn::weight), "positives", label(rn::mean_forecast), "observed",
+           "calibration in the large", label(rn::ece), "Brier", "log loss", label(rn::spiegelhalter), label(rn::holm_p),
+           "flag"},
           {false, true, true, true, true, true, true, true, true, true, true, true, false});
   for (std::size_t i = 0; i < r.segments.size(); ++i) {
     if (!shown[i]) continue;
     const SegmentSummary& g = r.segments[i];
-    std::vector<std::string> cells{md(g.value), std::to_string(g.rows), weight_text(g.weight),
-                                   weight_text(g.positives)};
+    std::vector<std::string> cells{md(g.value), count_text(g.rows), weight_text(g.weight), weight_text(g.positives)};
     if (g.too_few) {
       // Only rows, weight and positives are computed (report.hpp); the row
       // is padded to the header's width by Table.
       cells.push_back("too few rows");
     } else {
-      cells.insert(cells.end(), {prob(g.mean_forecast), prob(g.observed_rate), signed_prob(g.calibration_in_the_large),
-                                 num(g.ece), num(g.brier), num(g.log_loss), stat(g.spiegelhalter.z),
-                                 p_value(g.p_adjusted), g.flagged ? "**flagged**" : "no"});
+      cells.insert(cells.end(), {probability_text(g.mean_forecast), probability_text(g.observed_rate),
+                                 difference_text(g.calibration_in_the_large), metric_text(g.ece), metric_text(g.brier),
+                                 metric_text(g.log_loss), stat_text(g.spiegelhalter.z), p_value_text(g.p_adjusted),
+                                 g.flagged ? "**flagged**" : "no"});
     }
     t.row(std::move(cells));
   }
   t.write(out);
   if (left_out > 0)
-    out += std::to_string(left_out) + " smaller segment" + (left_out == 1 ? "" : "s") +
+    out += count_text(left_out) + " smaller segment" + (left_out == 1 ? "" : "s") +
            " not shown (none flagged; every segment is in the JSON report).\n\n";
 }
 
@@ -261,11 +224,11 @@ void gates(std::string& out, const Report& report) {
   for (const GateResult& g : report.gates) {
     failed += g.exceeded ? 1 : 0;
     t.row({md(g.column), md(g.gate.metric),
-           (g.gate.bound == GateBound::max ? "at most " : "at least ") + gate_num(g.gate.limit), gate_num(g.value),
-           g.exceeded ? "**FAIL**" : "pass"});
+           (g.gate.bound == GateBound::max ? "at most " : "at least ") + significant_text(g.gate.limit, 6),
+           significant_text(g.value, 6), g.exceeded ? "**FAIL**" : "pass"});
   }
   out += failed == 0 ? "Every gate passed.\n\n"
-                     : std::to_string(failed) + " of " + std::to_string(report.gates.size()) + " gates failed.\n\n";
+                     : count_text(failed) + " of " + count_text(report.gates.size()) + " gates failed.\n\n";
   t.write(out);
 }
 
@@ -276,18 +239,19 @@ std::string render_markdown(const Report& report) {
   out.reserve(4096 + report.scores.size() * 8192);
   out += "# Reliability report: " + md(report.source) + "\n\n";
   const std::uint64_t rows = report.scores.empty() ? 0 : report.scores.front().overall.rows;
-  out += "- Rows: " + std::to_string(rows) + "\n";
+  out += "- Rows: " + count_text(rows) + "\n";
   if (report.rows_skipped)
-    out += "- Rows left out for a missing score or label: " + std::to_string(*report.rows_skipped) + "\n";
+    out += "- Rows left out for a missing score or label: " + count_text(*report.rows_skipped) + "\n";
   out += "- Label column: " + md(report.label_column) + "\n";
   out += "- Weight column: " + (report.weight_column.empty() ? std::string("none") : md(report.weight_column)) + "\n";
   out +=
       "- Segment column: " + (report.segment_column.empty() ? std::string("none") : md(report.segment_column)) + "\n";
   const ReportOptions& o = report.options;
-  out += "- Bins: " + std::to_string(o.bins) + ", " + binning_name(o.binning) +
-         "; Hosmer-Lemeshow groups: " + std::to_string(o.hl_groups) + "\n";
+  out += "- Bins: " + count_text(o.bins) + ", " + binning_name(o.binning) + "; " + label(rn::hosmer_lemeshow) +
+         " groups: " + count_text(o.hl_groups) + "\n";
   if (o.bootstrap > 0) {
-    out += "- Intervals: " + percent(o.confidence) + " percentile intervals from " + std::to_string(o.bootstrap) +
+    // The seed is a name for the random stream, not a count: plain digits.
+    out += "- Intervals: " + percent_text(o.confidence) + " percentile intervals from " + count_text(o.bootstrap) +
            " Poisson bootstrap replicates (seed " + std::to_string(o.seed) + ")\n";
   } else {
     out += "- Intervals: none (no bootstrap replicates)\n";

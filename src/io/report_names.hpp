@@ -1,9 +1,14 @@
 #pragma once
-// One display name per concept of the report, shared by the text, Markdown,
-// SVG and JSON renderers so that a figure is called the same everywhere.
-// `display` is what a reader sees; `json` is the report JSON's key (or
-// value) for the same thing; `gate` the gate metric that reads it, if any.
-// A later formatting layer builds on this table.
+// The formatting layer's concept table: one entry per concept of the report,
+// shared by the text, Markdown, SVG and JSON renderers so that a figure is
+// called the same everywhere. The number rules are the other half of the
+// layer (plumb/number_text.hpp, included here: namespace plumb).
+// - `text`: the terminal report's label (short: its tables share 80 columns);
+// - `markdown`: the full name, which the Markdown tables and every sentence
+//   use (the Markdown report has room to say what a figure is);
+// - `json`: the report JSON's key for it at its place in
+//   docs/report-format.md (empty: not a key of its own);
+// - `gate`: the gate metric (--max/--min) that reads it (empty: none).
 #include <algorithm>
 #include <cstddef>
 #include <numeric>
@@ -17,26 +22,71 @@
 namespace plumb::report_names {
 
 struct Name {
-  std::string_view display;
+  std::string_view text;
+  std::string_view markdown;
   std::string_view json;
   std::string_view gate;  // empty: no gate reads it
+
+  std::string text_label() const { return std::string(text); }
+  std::string markdown_label() const { return std::string(markdown); }
 };
 
-inline constexpr Name calibration_in_the_large{"calibration in the large", "calibration_in_the_large",
-                                               "calibration_in_the_large"};
-inline constexpr Name calibration_slope{"calibration slope", "slope", "slope"};
+// Headline figures, in the order the text and Markdown reports list them.
+inline constexpr Name observed_rate{"observed rate", "observed rate", "observed_rate", ""};
+inline constexpr Name mean_forecast{"mean forecast", "mean forecast", "mean_forecast", ""};
+inline constexpr Name calibration_in_the_large{"calibration in the large",
+                                               "calibration in the large (mean forecast - observed)",
+                                               "calibration_in_the_large", "calibration_in_the_large"};
+inline constexpr Name brier{"Brier score", "Brier score", "brier", "brier"};
+inline constexpr Name brier_mcb{"MCB miscalibration", "CORP Brier MCB (miscalibration)", "mcb", "mcb"};
+inline constexpr Name brier_dsc{"DSC discrimination", "CORP Brier DSC (discrimination)", "dsc", ""};
+inline constexpr Name brier_unc{"UNC uncertainty", "CORP Brier UNC (uncertainty)", "unc", ""};
+inline constexpr Name log_loss{"log loss (nats)", "log loss (nats)", "log_loss", "log_loss"};
+// The CORP terms of the log loss, one row (corp.log_loss.{mcb,dsc,unc}).
+inline constexpr Name log_loss_terms{"MCB, DSC, UNC", "CORP log loss MCB / DSC / UNC", "log_loss", "mcb_log"};
+inline constexpr Name ece{"ECE", "ECE", "ece", ""};  // its gate depends on the binning, below
+inline constexpr Name mce{"MCE", "MCE", "mce", "mce"};
+inline constexpr Name l2_debiased{"l2 debiased", "debiased l2 error", "l2_debiased", "l2_debiased"};
+inline constexpr Name l2_plugin{"plug-in", "plug-in l2 error", "l2_plugin", ""};
+inline constexpr Name calibration_slope{"calibration slope", "calibration slope", "slope", "slope"};
 // The intercept of the fit with the slope fixed at 1 (an offset): the trade's
 // "calibration intercept"; the two-parameter fit's intercept is named apart.
-inline constexpr Name calibration_intercept{"calibration intercept", "intercept_at_unit_slope", ""};
-inline constexpr Name intercept_slope_free{"intercept, slope free", "intercept_free", ""};
-inline constexpr Name pav_curve{"PAV (CORP) curve", "pav_curve", ""};
-inline constexpr Name diagonal{"forecast = observed", "", ""};
-inline constexpr Name consistency_band{"band if calibrated", "band", ""};
-inline constexpr Name equal_width{"equal-width", "equal_width", "ece"};
-inline constexpr Name equal_mass{"equal-mass", "equal_mass", "ece_mass"};
-inline constexpr Name hosmer_lemeshow{"Hosmer-Lemeshow", "hosmer_lemeshow", "hosmer_lemeshow_p"};
-inline constexpr Name spiegelhalter{"Spiegelhalter Z", "spiegelhalter", "spiegelhalter_p"};
-inline constexpr Name holm_p{"Holm-adjusted p", "p_adjusted", ""};
+inline constexpr Name calibration_intercept{"calibration intercept", "calibration intercept (slope fixed at 1)",
+                                            "intercept_at_unit_slope", ""};
+inline constexpr Name intercept_slope_free{"intercept, slope free", "intercept, slope free", "intercept_free", ""};
+inline constexpr Name hosmer_lemeshow{"H-L", "Hosmer-Lemeshow", "hosmer_lemeshow", ""};
+inline constexpr Name hosmer_lemeshow_p{"p", "Hosmer-Lemeshow p-value", "p_value", "hosmer_lemeshow_p"};
+inline constexpr Name spiegelhalter{"Spiegelhalter Z", "Spiegelhalter Z", "spiegelhalter", ""};
+inline constexpr Name spiegelhalter_p{"p", "Spiegelhalter p-value", "p_value", "spiegelhalter_p"};
+inline constexpr Name auc{"AUC", "AUC", "auc", "auc"};
+inline constexpr Name at_zero_or_one{"forecasts of 0 or 1", "forecasts exactly 0 or 1", "forecasts_at_0_or_1", ""};
+
+// Reliability tables, segments and charts.
+inline constexpr Name rows{"rows", "rows", "rows", ""};
+inline constexpr Name weight{"weight", "weight", "weight", ""};
+inline constexpr Name effective_size{"effective size", "effective size", "effective_size", ""};
+inline constexpr Name positives{"positives", "positives (weight)", "positives", ""};
+inline constexpr Name gap{"gap", "gap (forecast - observed)", "gap", ""};
+inline constexpr Name holm_p{"Holm p", "Holm p", "p_adjusted", ""};
+inline constexpr Name pav_curve{"PAV (CORP) curve", "PAV (CORP) curve", "pav_curve", ""};
+inline constexpr Name diagonal{"forecast = observed", "forecast = observed", "", ""};
+inline constexpr Name consistency_band{"band if calibrated", "band if calibrated", "band", ""};
+inline constexpr Name equal_width{"equal-width", "equal-width", "equal_width", "ece"};
+inline constexpr Name equal_mass{"equal-mass", "equal-mass", "equal_mass", "ece_mass"};
+
+// The name of a binning (its `gate` reads that binning's ECE).
+inline constexpr const Name& binning(BinningKind kind) {
+  return kind == BinningKind::equal_mass ? equal_mass : equal_width;
+}
+
+// Every entry, for the tests that hold the table to the JSON and the gates.
+inline constexpr const Name* all[] = {
+    &observed_rate, &mean_forecast, &calibration_in_the_large, &brier, &brier_mcb, &brier_dsc,
+    &brier_unc, &log_loss, &log_loss_terms, &ece, &mce, &l2_debiased, &l2_plugin, &calibration_slope,
+    &calibration_intercept, &intercept_slope_free, &hosmer_lemeshow, &hosmer_lemeshow_p, &spiegelhalter,
+    &spiegelhalter_p, &auc, &at_zero_or_one,
+    &rows, &weight, &effective_size, &positives, &gap, &holm_p, &pav_curve, &diagonal, &consistency_band,
+    &equal_width, &equal_mass};
 
 // Segment tables in text and Markdown show at most this many rows: every
 // flagged segment, then the largest (by weight) of the others; a line says
@@ -68,14 +118,5 @@ inline std::vector<bool> segments_shown(const std::vector<SegmentSummary>& segme
   }
   return shown;
 }
-
-// Number formats shared by the text and Markdown renderers (one per kind
-// of figure, so that a column of a table has one format) are those of
-// plumb/number_text.hpp, which the report's cautions use too.
-using plumb::fixed_text;
-using plumb::metric_text;
-using plumb::p_value_floor;
-using plumb::p_value_text;
-using plumb::stat_text;
 
 }  // namespace plumb::report_names

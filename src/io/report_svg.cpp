@@ -59,8 +59,10 @@ constexpr std::string_view kHistEdge = "#8d897e";
 
 bool finite(double x) { return std::isfinite(x); }
 
-// Locale-independent number with `decimals` fixed decimals (std::to_chars
-// never reads the C locale, unlike printf).
+// Geometry (coordinates, sizes, angles) as attribute values: locale-independent,
+// `decimals` fixed decimals (std::to_chars never reads the C locale, unlike
+// printf). Numbers a reader sees come from the formatting layer
+// (plumb/number_text.hpp) like those of every other renderer.
 std::string fixed(double x, int decimals) {
   char buf[64];
   const auto [end, ec] = std::to_chars(buf, buf + sizeof buf, x, std::chars_format::fixed, decimals);
@@ -74,15 +76,6 @@ std::string fixed(double x, int decimals) {
 // A coordinate: two decimals is a hundredth of a pixel, finer than any
 // printer, and keeps the file small.
 std::string coord(double x) { return fixed(x, 2); }
-
-// A metric for the subtitle: three significant digits.
-std::string metric(double x) {
-  if (!finite(x)) return "n/a";
-  char buf[64];
-  const auto [end, ec] = std::to_chars(buf, buf + sizeof buf, x, std::chars_format::general, 3);
-  if (ec != std::errc{}) return "n/a";
-  return std::string(buf, end);
-}
 
 // XML character data and attribute values. Control characters other than
 // tab, newline and carriage return are not allowed in XML 1.0 at all, so they
@@ -129,14 +122,6 @@ std::string shorten(std::string_view text, std::size_t max_chars) {
     }
   }
   return std::string(text);
-}
-
-std::string percent(double confidence) {
-  if (!finite(confidence)) return "n/a";
-  char buf[32];
-  const auto [end, ec] = std::to_chars(buf, buf + sizeof buf, confidence * 100.0, std::chars_format::general, 4);
-  if (ec != std::errc{}) return "n/a";
-  return std::string(buf, end) + "%";
 }
 
 double clamp01(double x) { return std::clamp(x, 0.0, 1.0); }
@@ -202,11 +187,11 @@ class Svg {
   }
 };
 
-// "ECE 0.0123 (0.0081-0.019)": the interval only when the bootstrap gave one.
+// "ECE 0.0123 [0.0081, 0.0190]": the interval only when the bootstrap gave one.
 std::string with_interval(std::string_view name, double value, const BootstrapInterval* interval) {
-  std::string s = std::string(name) + " " + metric(value);
+  std::string s = std::string(name) + " " + metric_text(value);
   if (interval != nullptr && interval->used > 0 && finite(interval->lo) && finite(interval->hi)) {
-    s += " (" + metric(interval->lo) + "\xE2\x80\x93" + metric(interval->hi) + ")";
+    s += " " + interval_text(metric_text(interval->lo), metric_text(interval->hi));
   }
   return s;
 }
@@ -217,7 +202,7 @@ void draw_axes(Svg& svg, const Frame& f, double hist_top) {
   const double hist_bottom = hist_top + kHistHeight;
   for (int i = 0; i <= 5; ++i) {
     const double v = i / 5.0;
-    const std::string label = fixed(v, 1);
+    const std::string label = fixed_text(v, 1);
     if (i > 0 && i < 5) {
       svg.line(f.x(v), f.y(1.0), f.x(v), f.y(0.0), kGrid, 0.8);
       svg.line(f.x(0.0), f.y(v), f.x(1.0), f.y(v), kGrid, 0.8);
@@ -328,6 +313,8 @@ void draw_diagram(Svg& svg, const Report& report, const ScoreSummary& s, double 
   const CalibrationError& ece = mass ? s.ece_equal_mass : s.ece_equal_width;
   const BootstrapResult* boot = s.bootstrap ? &*s.bootstrap : nullptr;
   const std::string gap = "  \xC2\xB7  ";  // a middle dot between the figures
+  // Short names (the labels' first words) keep three figures with their
+  // intervals on one line of a diagram.
   const std::string subtitle = with_interval("ECE", ece.ece, boot ? &boot->ece : nullptr) + gap +
                                with_interval("Brier", s.brier, boot ? &boot->brier : nullptr) + gap +
                                with_interval("MCB", s.corp_brier.mcb, boot ? &boot->mcb_brier : nullptr);
@@ -352,7 +339,7 @@ void draw_diagram(Svg& svg, const Report& report, const ScoreSummary& s, double 
 double draw_legend(Svg& svg, const Report& report, double left, double y, double width) {
   bool any_band = false;
   for (const ScoreReport& r : report.scores) any_band = any_band || !r.overall.band.empty();
-  const std::string level = percent(report.options.confidence);
+  const std::string level = percent_text(report.options.confidence);
   // Each entry: its width and how to draw its sample and label at (x, y).
   struct Entry {
     double width;
@@ -370,11 +357,11 @@ double draw_legend(Svg& svg, const Report& report, double left, double y, double
     switch (e.kind) {
       case 0:
         svg.line(x, y, x + 26, y, kDiagonal, 1.2, "6 4");
-        svg.text(x + 32, y + 4, report_names::diagonal.display, 11.0);
+        svg.text(x + 32, y + 4, report_names::diagonal.text, 11.0);
         break;
       case 1:
         svg.line(x, y, x + 26, y, kCurve, 2.2);
-        svg.text(x + 32, y + 4, report_names::pav_curve.display, 11.0);
+        svg.text(x + 32, y + 4, report_names::pav_curve.text, 11.0);
         break;
       case 2:
         svg.line(x + 8, y - 8, x + 8, y + 8, kPoint, 1.2);
@@ -384,7 +371,7 @@ double draw_legend(Svg& svg, const Report& report, double left, double y, double
         break;
       default:
         svg.rect(x + 2, y - 8, 12, 16, kBandFill, kBandEdge, 0.8, {}, "3 2");
-        svg.text(x + 20, y + 4, level + " " + std::string(report_names::consistency_band.display), 11.0);
+        svg.text(x + 20, y + 4, level + " " + std::string(report_names::consistency_band.text), 11.0);
     }
     x += e.width;
   }
@@ -408,11 +395,11 @@ std::string render_svg(const Report& report) {
            "bold");
   std::string about = "label " + report.label_column;
   if (!report.weight_column.empty()) about += ", weight " + report.weight_column;
-  about += "; " + std::to_string(report.options.bins) + " " +
-           (report.options.binning == BinningKind::equal_mass ? "equal-mass" : "equal-width") + " bins";
+  about += "; " + count_text(report.options.bins) + " " +
+           std::string(report_names::binning(report.options.binning).text) + " bins";
   if (report.options.bootstrap > 0) {
-    about += "; " + percent(report.options.confidence) + " bootstrap intervals from " +
-             std::to_string(report.options.bootstrap) + " replicates";
+    about += "; " + percent_text(report.options.confidence) + " bootstrap intervals from " +
+             count_text(report.options.bootstrap) + " replicates";
   }
   svg.fitted_text(kDocMargin, kDocMargin + 36, about, 11.0, width - 2 * kDocMargin, "doc-subtitle");
   const double header =
@@ -430,8 +417,8 @@ std::string render_svg(const Report& report) {
   doc.reserve(svg.out.size() + 1024);
   doc += "<?xml version=\"1.0\" encoding=\"UTF-8\" standalone=\"no\"?>\n";
   doc += "<svg xmlns=\"http://www.w3.org/2000/svg\" version=\"1.1\" width=\"" + coord(width) + "\" height=\"" +
-         coord(height) + "\" viewBox=\"0 0 " + coord(width) + " " + coord(height) +
-         "\" font-family=\"" + std::string(kFontStack) + "\">\n";
+         coord(height) + "\" viewBox=\"0 0 " + coord(width) + " " + coord(height) + "\" font-family=\"" +
+         std::string(kFontStack) + "\">\n";
   doc += "<title>Reliability diagrams: " + xml_escape(report.source) + "</title>\n";
   doc += "<rect x=\"0\" y=\"0\" width=\"" + coord(width) + "\" height=\"" + coord(height) + "\" fill=\"#ffffff\"/>\n";
   doc += svg.out;

@@ -105,8 +105,12 @@ std::string line_starting(const std::string& text, const std::string& prefix) {
   return {};
 }
 
-// Every number in s (signs, decimals and exponents included), in order.
-std::vector<double> numbers_in(const std::string& s) {
+// Every number in s (signs, decimals, exponents and thousands separators
+// included), in order. A comma between a digit and three digits groups
+// thousands (counts and weights); a list of numbers has ", " between them.
+std::vector<double> numbers_in(const std::string& text) {
+  static const std::regex grouping(R"((\d),(?=\d{3}(?!\d)))");
+  const std::string s = std::regex_replace(text, grouping, "$1");
   std::vector<double> out;
   const char* p = s.c_str();
   while (*p) {
@@ -526,4 +530,23 @@ TEST_CASE("section titles are a left bar or brackets, never a title between rule
     CHECK(text.find(unicode ? "\u258c headline figures\n" : "[headline figures]\n") != std::string::npos);
     CHECK(titles >= 5);  // headline, two reliability, segments, gates, cautions
   }
+}
+
+TEST_CASE("counts carry thousands separators; a difference of zero carries no sign", "[report_text]") {
+  plumb::Report r = make_report(shared_simulation(), {}, 0, false);
+  auto& bins = r.scores[0].overall.table.bins;
+  REQUIRE(bins.size() >= 2);
+  REQUIRE(bins[1].weight > 0);
+  bins[1].gap = 0.0;
+  bins[1].rows = 1234567;
+  const std::string text = plumb::render_text(r, {false, false, 80});
+  // The formatting layer's count rule (plumb/number_text.hpp): 6000 rows.
+  CHECK_FALSE(line_starting(text, "6,000 rows").empty());
+  char range[64];
+  std::snprintf(range, sizeof range, "%.4f-%.4f", bins[1].edge_lo, bins[1].edge_hi);
+  const std::string l = line_starting(text, range);
+  REQUIRE_FALSE(l.empty());
+  CHECK(l.find(" 1,234,567 ") != std::string::npos);
+  CHECK(l.substr(l.size() - 7) == " 0.0000");
+  CHECK(text.find("+0.0000") == std::string::npos);
 }
