@@ -5,11 +5,21 @@
 
 #include "plumb/tally.hpp"
 
+namespace plumb::io {
+class OutputFile;
+}
+
 namespace plumb {
 
 // The whole document. Deterministic: the same tally gives the same bytes;
 // every double is written in the shortest form that reads back to it.
+// Throws plumb::Error(input) when a file or column name is not UTF-8.
 std::string tally_to_text(const Tally& tally);
+
+// The same bytes written to `out` piece by piece, without holding the whole
+// text (memory of a tally of 10^6 scores: its numbers, not their text).
+// Every name is checked before the first byte is written.
+void write_tally(const Tally& tally, io::OutputFile& out);
 
 // Parse and validate a document; `where` names it in messages. Refuses with
 // plumb::Error(artifact), naming the field: text that is not JSON (with line

@@ -57,7 +57,7 @@ int run_tally(TallyOptions o) {
   tally_scores(FitData{score, rows.label, rows.weight, scale}, t);
 
   io::OutputFile out(o.output);
-  out.write(tally_to_text(t));
+  write_tally(t, out);
   out.commit();
   if (!o.input.quiet)
     std::fprintf(stderr, "plumb tally: %s rows of %s (weight of positives %s of %s) in %s distinct %sscores%s; "

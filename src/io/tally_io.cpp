@@ -1,6 +1,7 @@
 #include "plumb/tally_io.hpp"
 
 #include <algorithm>
+#include <charconv>
 #include <cmath>
 #include <cstdint>
 #include <iterator>
@@ -10,6 +11,7 @@
 #include "io/byte_source.hpp"
 #include "io/json_input.hpp"
 #include "plumb/error.hpp"
+#include "plumb/output.hpp"
 #include "plumb/version.hpp"
 
 namespace plumb {
@@ -25,8 +27,6 @@ Location at_file(const std::string& where) {
   loc.file = where;
   return loc;
 }
-
-json optional_string(const std::string& s) { return s.empty() ? json(nullptr) : json(s); }
 
 std::string string_or_null(const json& doc, const char* key, const std::string& where) {
   const json& v = jf::require(doc, key, where, key);
@@ -361,40 +361,148 @@ std::vector<std::uint64_t> take_counts(const json& doc, StreamedColumn& c, const
 
 }  // namespace
 
-std::string tally_to_text(const Tally& t) {
-  json doc;
-  doc["format"] = tally_format_marker;
-  doc["format_version"] = tally_format_version;
-  doc["score_column"] = t.score_column;
-  doc["scale"] = std::string(to_string(t.scale));
-  doc["label_column"] = t.label_column;
-  doc["positive_rule"] = t.positive_rule;
-  doc["weight_column"] = optional_string(t.weight_column);
-  doc["grid"] = t.grid_step ? json{{"space", "logit"}, {"step", *t.grid_step}} : json(nullptr);
-  doc["rows"] = t.rows;
-  doc["weight_total"] = t.weight_total;
-  doc["positives"] = t.positives;
-  doc["unit_weights"] = t.unit_weights;
-  doc["score_min"] = t.score_min;
-  doc["score_max"] = t.score_max;
-  json sources = json::array();
-  for (const TallySource& s : t.sources) sources.push_back({{"file", s.file}, {"sha256", s.sha256}, {"rows", s.rows}});
-  doc["sources"] = std::move(sources);
-  doc["tool"] = std::string("plumb ") + version_string;
-  doc["score"] = t.score;
-  doc["count"] = t.count;
-  doc["negative"] = t.negative;
-  doc["positive"] = t.positive;
-  if (!t.weight_sq.empty()) doc["weight_sq"] = t.weight_sq;
-  try {
-    return doc.dump(1) + "\n";
-  } catch (const json::type_error&) {
-    // JSON text must be UTF-8; the only free text is names from the input.
-    Location loc;
-    loc.file = t.sources.empty() ? std::string() : t.sources.front().file;
-    throw Error(ErrorKind::input, "a file or column name is not valid UTF-8 and cannot be kept in the tally", loc,
-                {}, "UTF-8 file and column names");
+namespace {
+
+// The tally's text written piece by piece, byte for byte what nlohmann's
+// dump(1) of the document as a JSON tree gives (fields in the tree's key
+// order, one space of indent per level, numbers in its shortest form), so
+// that no tree of the per-score arrays is built. Every string is escaped
+// before the first byte is written, so a name that is not UTF-8 is refused
+// before any output.
+class TallyWriter {
+ public:
+  template <class Flush>
+  void write(const Tally& t, Flush&& flush) {
+    first_source_ = t.sources.empty() ? std::string() : t.sources.front().file;
+    const std::string score_column = quoted(t.score_column), scale = quoted(std::string(to_string(t.scale)));
+    const std::string label_column = quoted(t.label_column), positive_rule = quoted(t.positive_rule);
+    const std::string weight_column = t.weight_column.empty() ? "null" : quoted(t.weight_column);
+    const std::string tool = quoted(std::string("plumb ") + version_string);
+    std::vector<std::string> sources;  // each source's three fields, quoted
+    for (const TallySource& src : t.sources) {
+      sources.push_back(quoted(src.file));
+      sources.push_back(quoted(src.sha256));
+    }
+    auto out = [&](std::string_view text) {
+      buffer_.append(text);
+      if (buffer_.size() >= (1 << 16)) {
+        flush(std::string_view(buffer_));
+        buffer_.clear();
+      }
+    };
+    // Keys in the order of the tree (std::map of std::string).
+    out("{\n");
+    array(out, "count", t.count, false);
+    field(out, "format", quoted(tally_format_marker), false);
+    field(out, "format_version", std::to_string(tally_format_version), false);
+    if (t.grid_step) {
+      out(" \"grid\": {\n  \"space\": \"logit\",\n  \"step\": ");
+      out(number(*t.grid_step));
+      out("\n },\n");
+    } else {
+      field(out, "grid", "null", false);
+    }
+    field(out, "label_column", label_column, false);
+    array(out, "negative", t.negative, false);
+    array(out, "positive", t.positive, false);
+    field(out, "positive_rule", positive_rule, false);
+    field(out, "positives", number(t.positives), false);
+    field(out, "rows", std::to_string(t.rows), false);
+    field(out, "scale", scale, false);
+    array(out, "score", t.score, false);
+    field(out, "score_column", score_column, false);
+    field(out, "score_max", number(t.score_max), false);
+    field(out, "score_min", number(t.score_min), false);
+    if (t.sources.empty()) {
+      out(" \"sources\": [],\n");
+    } else {
+      out(" \"sources\": [\n");
+      for (std::size_t i = 0; i < t.sources.size(); ++i) {
+        out("  {\n   \"file\": ");
+        out(sources[2 * i]);
+        out(",\n   \"rows\": ");
+        out(std::to_string(t.sources[i].rows));
+        out(",\n   \"sha256\": ");
+        out(sources[2 * i + 1]);
+        out(i + 1 < t.sources.size() ? "\n  },\n" : "\n  }\n");
+      }
+      out(" ],\n");
+    }
+    field(out, "tool", tool, false);
+    field(out, "unit_weights", t.unit_weights ? "true" : "false", false);
+    field(out, "weight_column", weight_column, false);
+    if (!t.weight_sq.empty()) array(out, "weight_sq", t.weight_sq, false);
+    field(out, "weight_total", number(t.weight_total), true);
+    out("}\n");
+    if (!buffer_.empty()) flush(std::string_view(buffer_));
+    buffer_.clear();
   }
+
+ private:
+  std::string quoted(const std::string& s) const {
+    try {
+      return json(s).dump();
+    } catch (const json::type_error&) {
+      // JSON text must be UTF-8; the only free text is names from the input.
+      Location loc;
+      loc.file = first_source_;
+      throw Error(ErrorKind::input, "a file or column name is not valid UTF-8 and cannot be kept in the tally", loc,
+                  {}, "UTF-8 file and column names");
+    }
+  }
+
+  // A double as dump() writes it (null when not finite).
+  std::string_view number(double x) {
+    if (!std::isfinite(x)) return "null";
+    char* end = nlohmann::detail::to_chars(digits_, digits_ + sizeof digits_, x);
+    return {digits_, static_cast<std::size_t>(end - digits_)};
+  }
+  std::string_view number(std::uint64_t x) {
+    const auto r = std::to_chars(digits_, digits_ + sizeof digits_, x);
+    return {digits_, static_cast<std::size_t>(r.ptr - digits_)};
+  }
+
+  template <class Out>
+  static void field(Out& out, std::string_view key, std::string_view value, bool last) {
+    out(" \"");
+    out(key);
+    out("\": ");
+    out(value);
+    out(last ? "\n" : ",\n");
+  }
+  template <class Out, class T>
+  void array(Out& out, std::string_view key, const std::vector<T>& values, bool last) {
+    out(" \"");
+    out(key);
+    if (values.empty()) {
+      out("\": []");
+    } else {
+      out("\": [\n");
+      for (std::size_t i = 0; i < values.size(); ++i) {
+        out("  ");
+        out(number(values[i]));
+        out(i + 1 < values.size() ? ",\n" : "\n");
+      }
+      out(" ]");
+    }
+    out(last ? "\n" : ",\n");
+  }
+
+  std::string buffer_;
+  std::string first_source_;  // names the input in a refusal
+  char digits_[64];
+};
+
+}  // namespace
+
+std::string tally_to_text(const Tally& t) {
+  std::string text;
+  TallyWriter().write(t, [&text](std::string_view piece) { text.append(piece); });
+  return text;
+}
+
+void write_tally(const Tally& t, io::OutputFile& out) {
+  TallyWriter().write(t, [&out](std::string_view piece) { out.write(piece); });
 }
 
 namespace {
