@@ -313,6 +313,7 @@ int run_report(const ReportCliOptions& o) {
       for (std::size_t k : gate_reads[g]) report.gates.push_back(check_gate(gates[g], report.scores[k].overall));
     report.source = o.tally == "-" ? "<stdin>" : o.tally;
     report.label_column = t.label_column;
+    report.rows_skipped = t.rows_skipped;
     if (!t.unit_weights) report.weight_column = t.weight_column;
     report.cautions.insert(report.cautions.end(), extra_cautions.begin(), extra_cautions.end());
     for (std::size_t m = 0; m < artifacts.size(); ++m)

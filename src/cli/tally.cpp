@@ -36,6 +36,7 @@ int run_tally(TallyOptions o) {
   t.positive_rule = label_rule(o.input).describe();
   t.weight_column = rows.weight_column;
   t.rows = rows.rows;
+  if (parse_missing(o.input.missing) == io::MissingPolicy::skip) t.rows_skipped = rows.skipped;
   t.weight_total = rows.weight_total;
   t.positives = rows.positives;
   t.unit_weights = true;

@@ -408,6 +408,7 @@ class TallyWriter {
     field(out, "positive_rule", positive_rule, false);
     field(out, "positives", number(t.positives), false);
     field(out, "rows", std::to_string(t.rows), false);
+    if (t.rows_skipped) field(out, "rows_skipped", std::to_string(*t.rows_skipped), false);
     field(out, "scale", scale, false);
     array(out, "score", t.score, false);
     field(out, "score_column", score_column, false);
@@ -545,6 +546,8 @@ Tally check_parsed(ParsedTally& p, const std::string& where) {
     t.grid_step = step;
   }
   t.rows = jf::require_count(doc, "rows", where, "rows");
+  // Optional in format 2 (plumb before it ignores it): absent, nothing recorded.
+  if (doc.contains("rows_skipped")) t.rows_skipped = jf::require_count(doc, "rows_skipped", where, "rows_skipped");
   t.weight_total = jf::require_finite(doc, "weight_total", where, "weight_total");
   if (!(t.weight_total >= 0.0)) jf::fail(where, "weight_total", "is negative", "a total weight >= 0");
   t.positives = jf::require_finite(doc, "positives", where, "positives");
