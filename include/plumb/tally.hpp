@@ -41,6 +41,10 @@ struct Tally {
 
   // Totals over every row read, including rows of zero weight.
   std::uint64_t rows = 0;
+  // Rows left out for a missing score or label (--missing skip), which
+  // `rows` does not count. nullopt: the tally was made without --missing
+  // skip (none could be left out), or by a plumb that did not record it.
+  std::optional<std::uint64_t> rows_skipped;
   double weight_total = 0.0;
   double positives = 0.0;  // weight of positive rows
   bool unit_weights = true;  // every row weighed exactly 1 (true when unweighted)
@@ -100,7 +104,8 @@ double round_to_logit_grid(double score, Scale scale, double step) noexcept;
 std::string merge_conflict(const Tally& a, const Tally& b);
 
 // The merged tally: scores matched exactly, counts and weights summed
-// (a's weight + b's weight), sources concatenated and sorted by file name
+// (a's weight + b's weight), rows_skipped summed over the tallies that
+// record it (nullopt when neither does), sources concatenated and sorted by file name
 // and hash (so the order of merging leaves no trace in them). Merging unweighted
 // tallies is exact (integer sums below 2^53) and so independent of order;
 // weighted sums are as exact as double addition. Throws plumb::Error(usage)

@@ -51,6 +51,7 @@ Provenance provenance_of_tally(const Tally& t, const std::string& file, const st
   p.source = file;
   p.source_sha256 = sha256;
   p.rows = t.rows;
+  p.rows_skipped = t.rows_skipped;
   p.positives = t.positives;
   p.weight_total = t.weight_total;
   p.label_column = t.label_column;

@@ -48,7 +48,7 @@ int run_merge(const MergeOptions& o) {
     merged = merge_tallies(merged, next);
   }
   io::OutputFile out(o.output);
-  out.write(tally_to_text(merged));
+  write_tally(merged, out);
   out.commit();
   if (!o.quiet)
     std::fprintf(stderr, "plumb merge: %s tallies, %s rows (weight of positives %s of %s) in %s distinct scores; "

@@ -113,6 +113,13 @@ Tally load_report_tally(const ReportCliOptions& o, const io::LabelledColumns& co
 LabelCells cells_of_tally(const Tally& t, const CalibrationMap* map, std::uint64_t* outside) {
   LabelCells cells;
   cells.unit_weights = t.unit_weights;
+  std::size_t n = 0;
+  for (std::size_t i = 0; i < t.score.size(); ++i) n += (t.negative[i] > 0.0 ? 1 : 0) + (t.positive[i] > 0.0 ? 1 : 0);
+  cells.forecast.reserve(n);
+  cells.label.reserve(n);
+  cells.weight.reserve(n);
+  cells.rows.reserve(n);
+  if (!t.unit_weights) cells.weight_sq.reserve(n);
   for (std::size_t i = 0; i < t.score.size(); ++i) {
     double f = t.score[i];
     if (map) {
@@ -128,7 +135,7 @@ LabelCells cells_of_tally(const Tally& t, const CalibrationMap* map, std::uint64
       cells.label.push_back(l);
       cells.weight.push_back(weight[l]);
       if (t.unit_weights) {
-        cells.weight_sq.push_back(weight[l]);  // each row's square is 1
+        // Every row's square is 1: the report reads weight_sq only of weighted cells.
         cells.rows.push_back(static_cast<std::uint64_t>(weight[l]));
       } else {
         cells.weight_sq.push_back(first ? t.weight_sq[i] : 0.0);
@@ -309,7 +316,7 @@ int run_report(const ReportCliOptions& o) {
   };
   if (!o.tally.empty()) {
     // The tally is read as cells: memory grows with its distinct scores, not its rows.
-    const Tally t = load_report_tally(o, columns);
+    Tally t = load_report_tally(o, columns);
     std::vector<ForecastCellColumn> cell_columns;
     std::vector<std::string> extra_cautions;
     for (const std::string& s : o.scores) cell_columns.push_back({s, cells_of_tally(t, nullptr, nullptr)});
@@ -324,6 +331,12 @@ int run_report(const ReportCliOptions& o) {
                                  " scores lie outside the range the map was fitted on and were held at its end values");
       cell_columns.push_back({name, std::move(cells)});
     }
+    // The report reads the cells only: the per-score sums go before it runs.
+    std::vector<double>().swap(t.score);
+    std::vector<std::uint64_t>().swap(t.count);
+    std::vector<double>().swap(t.negative);
+    std::vector<double>().swap(t.positive);
+    std::vector<double>().swap(t.weight_sq);
     std::vector<std::string> names(o.scores);
     for (std::size_t m = 0; m < artifacts.size(); ++m) names.push_back(cell_columns[o.scores.size() + m].name);
     const std::vector<std::vector<std::size_t>> gate_reads = gate_reads_of(names);
@@ -332,6 +345,7 @@ int run_report(const ReportCliOptions& o) {
       for (std::size_t k : gate_reads[g]) report.gates.push_back(check_gate(gates[g], report.scores[k].overall));
     report.source = o.tally == "-" ? "<stdin>" : o.tally;
     report.label_column = t.label_column;
+    report.rows_skipped = t.rows_skipped;
     if (!t.unit_weights) report.weight_column = t.weight_column;
     report.cautions.insert(report.cautions.end(), extra_cautions.begin(), extra_cautions.end());
     for (std::size_t m = 0; m < artifacts.size(); ++m)

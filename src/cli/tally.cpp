@@ -45,22 +45,28 @@ int run_tally(TallyOptions o) {
                 "--scale probability or logit (a margin has no log-odds to round), or no --logit-grid");
   io::LabelledColumns columns{{{o.input.score, scale}}, o.input.label, o.input.weight, {}};
   columns.other_scales_hint = scale_option_hint();
-  io::LabelledRows rows = read_rows_with_progress("plumb tally: reading", o.input, columns);
-
+  // Unweighted exact scores are counted by score while the file is still
+  // being parsed, as fit does (counts: the same sums whatever the blocks), so
+  // the rows are never all held; weighted rows and grids take the rows.
+  const bool count_while_reading = o.input.weight.empty() && !on_grid;
   Tally t;
-  t.score_column = rows.score_columns[0];
   t.scale = scale;
+  io::LabelledRows rows = count_while_reading
+                              ? read_and_tally_with_progress("plumb tally: reading", o.input, columns, t)
+                              : read_rows_with_progress("plumb tally: reading", o.input, columns);
+  t.score_column = rows.score_columns[0];
   t.label_column = rows.label_column;
   t.positive_rule = label_rule(o.input).describe();
   t.weight_column = rows.weight_column;
   t.rows = rows.rows;
+  if (parse_missing(o.input.missing) == io::MissingPolicy::skip) t.rows_skipped = rows.skipped;
   t.weight_total = rows.weight_total;
   t.positives = rows.positives;
   t.unit_weights = true;
   for (double w : rows.weight) t.unit_weights = t.unit_weights && w == 1.0;
   t.sources.push_back({rows.source, rows.source_sha256, rows.rows});
-  std::vector<double>& score = rows.scores[0];
   if (on_grid) {
+    std::vector<double>& score = rows.scores[0];
     t.grid_step = o.grid_step;
     for (double& s : score) s = round_to_logit_grid(s, scale, o.grid_step);
     t.score_min = t.score_max = score.front();
@@ -72,10 +78,10 @@ int run_tally(TallyOptions o) {
     t.score_min = rows.score_min;
     t.score_max = rows.score_max;
   }
-  tally_scores(FitData{score, rows.label, rows.weight, scale}, t);
+  if (!count_while_reading) tally_scores(FitData{rows.scores[0], rows.label, rows.weight, scale}, t);
 
   io::OutputFile out(o.output);
-  out.write(tally_to_text(t));
+  write_tally(t, out);
   out.commit();
   if (!o.input.quiet)
     std::fprintf(stderr, "plumb tally: %s rows of %s (weight of positives %s of %s) in %s distinct %sscores%s; "

@@ -201,6 +201,8 @@ Tally merge_tallies(const Tally& a, const Tally& b) {
   m.weight_column = a.weight_column;
   m.grid_step = a.grid_step;
   m.rows = a.rows + b.rows;
+  // A tally without the count left out no rows, or did not say: the sum of those that say.
+  if (a.rows_skipped || b.rows_skipped) m.rows_skipped = a.rows_skipped.value_or(0) + b.rows_skipped.value_or(0);
   m.weight_total = a.weight_total + b.weight_total;
   m.positives = a.positives + b.positives;
   m.unit_weights = a.unit_weights && b.unit_weights;

@@ -114,6 +114,38 @@ class MissingValues(PlumbCase):
                 self.assert_refused([*self.commands(self.dirty, "--missing", "skip")["fit"], "-q"], INPUT,
                                     "dirty.csv:12:1")
 
+    def test_a_tally_records_the_rows_left_out_and_merge_fit_and_report_carry_them(self):
+        rc, _, err = run(*self.commands(self.dirty, "--missing", "skip")["tally"], "-q")
+        self.assertEqual(rc, 0, err)
+        skipped = self.load_json(self.path("t.json"))
+        self.assertEqual((skipped["rows"], skipped["rows_skipped"]), (10, 4))
+        with open(os.path.join(SOURCE_DIR, "docs", "tally.schema.json")) as f:
+            jsonschema.Draft202012Validator(json.load(f)).validate(skipped)
+        # Without --missing skip no row can be left out, and the tally says nothing (as older tallies).
+        clean = self.path("clean.tally.json")
+        run("tally", "--score", "risk", "--label", "missed", self.clean, "-o", clean, "-q", check=True)
+        self.assertNotIn("rows_skipped", self.load_json(clean))
+        # merge sums the counts of the tallies that record one.
+        run("merge", self.path("t.json"), self.path("t.json"), clean, "-o", self.path("merged.json"), "-q", check=True)
+        self.assertEqual(self.load_json(self.path("merged.json"))["rows_skipped"], 8)
+        run("merge", clean, clean, "-o", self.path("m2.json"), "-q", check=True)
+        self.assertNotIn("rows_skipped", self.load_json(self.path("m2.json")))
+        # fit --tally and report --tally say what fit and report on the rows say.
+        rc, _, err = run(*self.commands(self.dirty, "--missing", "skip")["fit"], "-q")
+        self.assertEqual(rc, 0, err)
+        self.assertEqual(self.load_json(self.path("m.json"))["provenance"]["rows_skipped"], 4)
+        run("fit", "--map", "platt", "--no-timestamp", "--tally", self.path("t.json"), "-o", self.path("ft.json"), "-q",
+            check=True)
+        self.assertEqual(self.load_json(self.path("ft.json"))["provenance"]["rows_skipped"], 4)
+        rc, out, err = run("report", "--bootstrap", "0", "--score", "risk", "--tally", self.path("t.json"), "--ascii",
+                           "--json", self.path("rt.json"))
+        self.assertEqual(rc, 0, err)
+        self.assertIn("4 left out for a missing score or label", out)
+        self.assertEqual(self.load_json(self.path("rt.json"))["rows_skipped"], 4)
+        run("report", "--bootstrap", "0", "--score", "risk", "--tally", clean, "--json", self.path("rc.json"), "-q",
+            check=True)
+        self.assertIsNone(self.load_json(self.path("rc.json"))["rows_skipped"])
+
     def test_missing_with_tally_input_is_a_usage_error(self):
         rc, _, err = run(*self.commands(self.clean)["tally"], "-q")
         self.assertEqual(rc, 0, err)

@@ -13,11 +13,19 @@
 //    doubled (exact in binary floating point while finite), and the merged
 //    tally writes and loads again;
 //  - to_score_tally gives the entries fit_map uses: scores ascending, one
-//    entry per score and label of positive weight.
+//    entry per score and label of positive weight;
+//  - the streamed reader agrees with nlohmann's JSON tree parser: text the
+//    tree parser refuses is refused as not JSON (or too deep, or a number
+//    out of range), at the line and column of the tree parser's error
+//    offset; text it accepts is never refused as not JSON;
+//  - the streamed writer gives what the tree's dump(1) gives of the same
+//    document (the tree of the written text, dumped again).
 #include <cmath>
+#include <nlohmann/json.hpp>
 #include <string>
 
 #include "fuzz_support.hpp"
+#include "io/json_input.hpp"
 #include "plumb/tally.hpp"
 #include "plumb/tally_io.hpp"
 
@@ -53,12 +61,42 @@ bool same_numbers(const std::vector<double>& a, const std::vector<double>& b) {
   return true;
 }
 
+// The streamed reader's refusal of text that is not JSON, against the tree
+// parser's. `refused` is the reader's error, if it refused.
+void check_against_tree(const std::string& text, const plumb::Error* refused) {
+  const bool not_json = refused && (refused->message() == "the tally is not valid JSON" ||
+                                    refused->message() == "the tally ends early (truncated?)");
+  const bool deep_or_huge = refused && (refused->message().find("levels deep") != std::string::npos ||
+                                        refused->message() == "the tally holds a number too large for a double");
+  try {
+    const nlohmann::json tree = nlohmann::json::parse(text);
+    FUZZ_CHECK(!not_json, "the tree parser accepts what the streamed reader refused as not JSON");
+    (void)tree;
+  } catch (const nlohmann::json::parse_error& e) {
+    if (deep_or_huge) return;  // refused for depth before the tree parser's syntax error
+    FUZZ_CHECK(not_json, "the tree parser refuses what the streamed reader did not refuse as not JSON");
+    plumb::Location at;
+    plumb::io::locate_byte(text, e.byte, at);
+    FUZZ_CHECK(refused->where().line == at.line && refused->where().column == at.column,
+               "the streamed reader's error lies elsewhere than the tree parser's");
+    FUZZ_CHECK((refused->message() == "the tally ends early (truncated?)") == (e.byte >= text.size()),
+               "the streamed reader and the tree parser disagree on whether the text ends early");
+  } catch (const nlohmann::json::exception&) {
+    FUZZ_CHECK(refused != nullptr, "the tree parser refuses a number the streamed reader took");
+  }
+}
+
 }  // namespace
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {
   const std::string text(reinterpret_cast<const char*>(data), size);
   plumb::Tally t;
-  if (!plumb::fuzz::only_plumb_errors([&] { t = plumb::tally_from_text(text, "fuzz input"); })) return 0;
+  plumb::Error refusal(plumb::ErrorKind::internal, "");
+  const bool loaded =
+      plumb::fuzz::only_plumb_errors([&] { t = plumb::tally_from_text(text, "fuzz input"); }, &refusal);
+  // The tree parser recurses, so it is only asked about text that nests no deeper than the reader allows.
+  if (!plumb::io::json_nested_deeper_than(text)) check_against_tree(text, loaded ? nullptr : &refusal);
+  if (!loaded) return 0;
   check_tally(t, "loaded");
 
   // Round trip.
@@ -69,6 +107,8 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   FUZZ_CHECK(plumb::fuzz::only_plumb_errors([&] { again = plumb::tally_from_text(written, "round trip"); }, &why),
              "the tally as written again does not load: " + plumb::format_error(why));
   FUZZ_CHECK(plumb::tally_to_text(again) == written, "writing the reloaded tally gives other text");
+  FUZZ_CHECK(nlohmann::json::parse(written).dump(1) + "\n" == written,
+             "the streamed writer's text differs from the JSON tree's dump of it");
   FUZZ_CHECK(same_numbers(again.score, t.score) && again.count == t.count && same_numbers(again.negative, t.negative) &&
                  same_numbers(again.positive, t.positive),
              "the round trip changed the per-score sums");

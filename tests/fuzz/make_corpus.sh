@@ -124,5 +124,8 @@ tally --score score --label label --weight weight texts/labelled.csv -o "$corpus
 tally --score score --label label --positive late texts/labelled-named.csv -o "$corpus/fuzz_tally/named.json"
 tally --score score --label label --scale logit texts/labelled-logit.csv -o "$corpus/fuzz_tally/logit.json"
 tally --score score --label label --scale margin texts/labelled-logit.csv -o "$corpus/fuzz_tally/margin.json"
+# Rows left out for a missing score (rows_skipped).
+{ cat shard-a.csv; echo "P9999999,Brellinford,3.5,NA,1"; } > shard-skip.csv
+tally --score risk --label missed --missing skip shard-skip.csv -o "$corpus/fuzz_tally/skipped.json"
 
 du -sh "$corpus"
