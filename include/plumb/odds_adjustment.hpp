@@ -1,10 +1,10 @@
 #pragma once
 // Adjusting a map's probabilities by a factor on the odds: the correction for
 // a prior shift (the base rate moved from a to b since the fit; Bayes' rule,
-// Saerens, Latinne and Decaestecker 2002, eq. 2.4) and for negative
+// Saerens, Latinne and Decaestecker 2002) and for negative
 // downsampling (the fit rows kept each negative with probability r; the
-// odds of the full population are those of the sample times r: Elkan 2001,
-// Theorem 2; Dal Pozzolo et al. 2015, eq. 4). Both leave the map's shape
+// odds of the full population are those of the sample times r: Elkan 2001;
+// Dal Pozzolo et al. 2015; both cited from memory). Both leave the map's shape
 // alone and multiply p / (1 - p) by one constant k > 0, which on the log-odds
 // is a shift by ln k.
 #include <memory>

@@ -1,7 +1,7 @@
 #pragma once
 // Estimating a new base rate from unlabelled rows (Saerens, Latinne and
 // Decaestecker 2002, "Adjusting the outputs of a classifier to new a priori
-// probabilities: a simple procedure", section 2.2): given a map's
+// probabilities: a simple procedure"; cited from memory): given a map's
 // probabilities p_i for rows of a population whose base rate is unknown,
 // and the base rate a those probabilities are calibrated for, EM alternates
 //   p_i(b) = (b/a) p_i / ((b/a) p_i + ((1-b)/(1-a)) (1 - p_i))   (E step)

@@ -1,8 +1,8 @@
 """plumb adjust and fit --negative-rate, end to end: the adjusted artifact
 (format version 2) is applied by apply, report --map and inspect with no
 option; the odds factor is Bayes' rule on the odds (Saerens, Latinne and
-Decaestecker 2002, eq. 2.4), recomputed here from the artifact's own base
-rate; downsampled negatives are undone exactly (Elkan 2001, Theorem 2); EM
+Decaestecker 2002, from memory), recomputed here from the artifact's own base
+rate; downsampled negatives are undone exactly (Elkan 2001, from memory); EM
 estimates a known new base rate from unlabelled rows; bad options and rows
 are refused with their location. All data are simulated (invented)."""
 import json
@@ -10,7 +10,9 @@ import math
 import os
 import unittest
 
-from plumbtest import Lcg, PlumbCase, read_rows, run, simulated_holdout, write
+import jsonschema
+
+from plumbtest import SOURCE_DIR, Lcg, PlumbCase, read_rows, run, simulated_holdout, write
 
 USAGE, INPUT, FIT = 2, 3, 6
 
@@ -181,6 +183,25 @@ class Adjust(PlumbCase):
         rc, out, _ = run("inspect", self.path("em.json"))
         self.assertIn("estimated by EM from 20,000 rows of", out)
         self.assertIn("95% bootstrap interval", out)
+
+    def test_adjusted_artifacts_match_the_published_schema(self):
+        with open(os.path.join(SOURCE_DIR, "docs", "artifact.schema.json")) as f:
+            schema = json.load(f)
+        jsonschema.Draft202012Validator.check_schema(schema)
+        validator = jsonschema.Draft202012Validator(schema)
+        self.fit_holdout("isotonic")
+        write(self.path("new.csv"), "risk\n" + "".join(f"{s}\n" for s, _ in simulated_holdout(500, seed=8)))
+        run("adjust", "-q", self.path("m.json"), "--negative-rate", "0.5", "--estimate-prior", self.path("new.csv"),
+            "--bootstrap", "50", "-o", self.path("em.json"), check=True)
+        run("adjust", "-q", self.path("em.json"), "--prior", "0.2", "-o", self.path("p.json"), check=True)
+        for name in ("m.json", "em.json", "p.json"):
+            doc = self.load_json(self.path(name))
+            self.assertEqual([e.message for e in validator.iter_errors(doc)], [], name)
+        doc = self.load_json(self.path("p.json"))
+        self.assertEqual([s["reason"] for s in doc["odds_adjustment"]["steps"]],
+                         ["negative_sampling", "prior_shift", "prior_shift"])
+        doc["format_version"] = 1
+        self.assertTrue(list(validator.iter_errors(doc)), "the schema accepts an adjustment in version 1")
 
     def test_em_with_nothing_to_estimate_is_refused(self):
         # A step map whose every row maps to 0: the estimate would be 0.

@@ -43,8 +43,8 @@ double normal(std::mt19937_64& g) {
 }  // namespace
 
 TEST_CASE("prior shift: the odds factor and adjusted probabilities, worked by hand", "[odds]") {
-  // Bayes' rule on the odds (Saerens, Latinne and Decaestecker 2002, eq. 2.4;
-  // Elkan 2001, Theorem 2): a map calibrated where the base rate is a = 0.17,
+  // Bayes' rule on the odds (Saerens, Latinne and Decaestecker 2002;
+  // Elkan 2001; cited from memory): a map calibrated where the base rate is a = 0.17,
   // applied where it is b = 0.30, multiplies every odds by
   //   k = [b/(1-b)] / [a/(1-a)] = (0.30 x 0.83) / (0.17 x 0.70) = 0.249 / 0.119
   //     = 249/119 = 2.0924369747899160 (119 x 2 = 238, 11/119 = 0.0924369747899160).
@@ -101,8 +101,8 @@ TEST_CASE("downsampling: the isotonic map of the sample, odds x r, is the map of
   // Every score's negatives are a multiple of 4; the sample keeps exactly one
   // in four (r = 0.25). Within any pool of scores the sample's odds are those
   // of the full rows times 4, so PAV pools the same scores and each block's
-  // value is the full block's with odds x 4 (Elkan 2001, Theorem 2; Dal
-  // Pozzolo et al. 2015, eq. 4): odds x r gives the full rows' map back.
+  // value is the full block's with odds x 4 (Elkan 2001; Dal
+  // Pozzolo et al. 2015; from memory): odds x r gives the full rows' map back.
   std::mt19937_64 g(11);
   std::vector<double> full_s, full_y, samp_s, samp_y;
   for (int j = 0; j < 60; ++j) {
@@ -269,7 +269,7 @@ TEST_CASE("EM recovers a known new base rate within its bootstrap interval", "[o
   CHECK(e.resamples_used == 300);
 
   // EM's fixed point is the maximum of the likelihood (Saerens et al. 2002,
-  // section 2.2): a golden-section search on L(b) finds the same b.
+  // from memory; L(b) is concave, so the maximum is unique): a golden-section search on L(b) finds the same b.
   double lo = 0.0, hi = 1.0;
   const double phi = (std::sqrt(5.0) - 1.0) / 2.0;
   while (hi - lo > 1e-9) {
