@@ -74,8 +74,9 @@ double target_base_rate(const Artifact& artifact);
 
 // Append `step` and make artifact.map apply every step. Sets the step's
 // factor (negative_rate; or the prior shift from target_base_rate() before
-// the step to base_rate_to) and base_rate_from. Throws Error(usage) for a
-// negative_rate outside (0, 1] or a base rate outside (0, 1).
+// the step to base_rate_to) and base_rate_from. Throws Error(usage),
+// leaving the artifact as it was, for a negative_rate outside (0, 1], a base
+// rate outside (0, 1), or a product of factors outside the normal doubles.
 void add_odds_step(Artifact& artifact, OddsStep step);
 
 // The format version the artifact is written with: 1 for a map as fitted

@@ -18,7 +18,9 @@ namespace plumb {
 // p with its odds multiplied by k: k p / (k p + 1 - p), evaluated as
 // 1 / (1 + (1 - p) / (k p)), which keeps 0 at 0 and 1 at 1 exactly and is
 // non-decreasing in p in floating point (every operation in it is
-// monotone under rounding), so an adjusted monotone map stays monotone.
+// monotone under rounding): an adjusted map falls only where the fitted
+// map falls (for the logistic kinds, by an ulp of rounding, which the
+// odds factor's slope near 0 and 1 can widen to several).
 // Relative error a few ulps away from 0 and 1; a k p below the smallest
 // double gives 0. Preconditions: p in [0, 1], k finite and > 0.
 double multiply_odds(double p, double k) noexcept;

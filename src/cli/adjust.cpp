@@ -184,11 +184,11 @@ int run_adjust(const AdjustOptions& o) {
   if (estimate)
     std::fprintf(stderr,
                  "plumb adjust: base rate estimated by EM from %s: %s (%s%% bootstrap interval %s to %s, %s "
-                 "resamples), %d EM steps\n",
+                 "resamples), %d EM step%s\n",
                  estimated_from.c_str(), significant(estimate->base_rate, 4).c_str(),
                  significant(100.0 * o.confidence, 4).c_str(), significant(estimate->lo, 4).c_str(),
                  significant(estimate->hi, 4).c_str(), grouped(estimate->resamples_used).c_str(),
-                 estimate->iterations);
+                 estimate->iterations, estimate->iterations == 1 ? "" : "s");
   std::fprintf(stderr, "plumb adjust: %s map; base rate %s -> %s, odds x %s on the fitted map's; written to %s\n",
                std::string(artifact.map->kind()).c_str(), significant(before, 4).c_str(),
                significant(target_base_rate(artifact), 4).c_str(), significant(factor, 6).c_str(),

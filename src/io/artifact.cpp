@@ -127,14 +127,23 @@ void add_odds_step(Artifact& a, OddsStep step) {
     step.base_rate_from = target_base_rate(a);
     step.factor = prior_shift_factor(step.base_rate_from, step.base_rate_to);
   }
+  std::vector<OddsStep> steps = a.odds_steps;
+  steps.push_back(std::move(step));
+  // A factor beyond the normal doubles would make k p overflow or vanish
+  // for ordinary p (base rates within 1e-300 of 0 or 1, or many steps).
+  // Refused before the artifact changes.
+  const double k = product_of_factors(steps);
+  if (!(k >= std::numeric_limits<double>::min() && k <= std::numeric_limits<double>::max()))
+    throw Error(ErrorKind::usage, "the odds factor of the adjustment is out of the range of a double", {},
+                std::to_string(k), "base rates and rates well inside (0, 1)");
   std::unique_ptr<CalibrationMap> base = std::move(a.map);
   if (auto* adjusted = dynamic_cast<OddsAdjustedMap*>(base.get())) {
     FitDiagnostics d = adjusted->diagnostics();
     base = adjusted->release_base();
     base->restore_diagnostics(std::move(d));
   }
-  a.odds_steps.push_back(std::move(step));
-  a.map = std::make_unique<OddsAdjustedMap>(std::move(base), product_of_factors(a.odds_steps));
+  a.odds_steps = std::move(steps);
+  a.map = std::make_unique<OddsAdjustedMap>(std::move(base), k);
 }
 
 int artifact_version(const Artifact& a) { return a.odds_steps.empty() ? 1 : 2; }

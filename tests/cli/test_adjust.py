@@ -70,7 +70,9 @@ class Adjust(PlumbCase):
 
         # apply: every row's probability has its odds multiplied by k.
         _, before, _ = run("apply", "-q", self.path("m.json"), self.path("h.csv"), check=True)
-        _, after, _ = run("apply", "-q", self.path("m30.json"), self.path("h.csv"), check=True)
+        _, after, err = run("apply", self.path("m30.json"), self.path("h.csv"), check=True)
+        self.assertIn(f"the map's odds are adjusted as its artifact records, x {k:.6g} (prior shift, base rate "
+                      f"{a:.4g} -> 0.3)", err)
         before, after = read_rows(before, True)[1:], read_rows(after, True)[1:]
         self.assertEqual(len(after), len(rows))
         for b, c in zip(before, after):

@@ -229,6 +229,17 @@ TEST_CASE("an adjusted map's artifact is version 2 and reads back with the same 
   from["odds_adjustment"]["steps"][1]["base_rate_from"] = 0.17;
   from["integrity_sha256"] = plumb::integrity_hash(from);
   CHECK(error_kind([&] { (void)plumb::artifact_from_text(from.dump(), "from.json"); }) == ErrorKind::artifact);
+  // A product of factors beyond the normal doubles is refused, and the
+  // artifact is left as it was.
+  Artifact tiny = plumb::artifact_from_text(text, "m.json");
+  OddsStep small;
+  small.reason = OddsStep::Reason::negative_sampling;
+  small.negative_rate = 1e-200;
+  plumb::add_odds_step(tiny, small);
+  const double before = (*tiny.map)(0.5);
+  CHECK(error_kind([&] { plumb::add_odds_step(tiny, small); }) == ErrorKind::usage);
+  CHECK(tiny.odds_steps.size() == 3);
+  CHECK((*tiny.map)(0.5) == before);
   nlohmann::json rate = doc;
   rate.erase("integrity_sha256");
   rate["odds_adjustment"]["steps"][0]["negative_rate"] = 0.0;
