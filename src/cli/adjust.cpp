@@ -122,6 +122,9 @@ int run_adjust(const AdjustOptions& o) {
   if (!o.estimate_only.empty() && o.estimate_from.empty())
     throw Error(ErrorKind::usage, o.estimate_only.front() + " only applies to the rows of --estimate-prior", {}, {},
                 "--estimate-prior FILE, or leave " + o.estimate_only.front() + " out");
+  if (o.estimate_from == "-" && o.artifact == "-")
+    throw Error(ErrorKind::usage, "the map and --estimate-prior cannot both read standard input", {}, {},
+                "a file name for one of them");
   check_rate(o.prior_given, o.prior, "--prior", false, "the new base rate, strictly between 0 and 1, such as 0.3");
   check_rate(o.negative_rate_given, o.negative_rate, "--negative-rate", true,
              "the rate at which negative rows were kept in the fit rows, such as 0.1 for one in ten");

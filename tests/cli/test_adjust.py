@@ -234,6 +234,8 @@ class Adjust(PlumbCase):
                             USAGE, "--prior and --estimate-prior", output=out)
         self.assert_refused(["adjust", m, "--prior", "0.3", "--bootstrap", "100", "-o", out], USAGE,
                             "--bootstrap only applies to the rows of --estimate-prior", output=out)
+        self.assert_refused(["adjust", "-", "--estimate-prior", "-", "-o", out], USAGE,
+                            "cannot both read standard input", output=out)
         rc, _, _ = run("adjust", m, "--negative-rate", "1", "-o", out)
         self.assertEqual(rc, 0)  # every negative kept: factor 1, recorded
 
