@@ -52,10 +52,10 @@ struct PriorEstimate {
 // splitmix64(seed + (r + 1) * 0x9E3779B97F4A7C15), so the interval depends
 // only on (probabilities, options).
 //
-// Throws Error(fit) when there are no rows, when EM has not converged after
-// max_iterations steps, and when the estimate comes within 1e-9 of 0 or 1
-// (every row's probability 0, or every row's 1: no finite odds to shift
-// to). Error(usage) for a fitted_base_rate outside (0, 1) or a confidence
+// Throws Error(fit) when there are no rows, when every row has the same
+// probability (the likelihood is then flat or greatest at 0 or 1), when EM
+// has not converged after max_iterations steps, and when the estimate comes
+// within 1e-9 of 0 or 1 (no finite odds to shift to). Error(usage) for a fitted_base_rate outside (0, 1) or a confidence
 // outside (0, 1).
 PriorEstimate estimate_base_rate(std::span<const double> probability, double fitted_base_rate,
                                  const PriorEstimateOptions& options = {});

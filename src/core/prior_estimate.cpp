@@ -137,6 +137,12 @@ PriorEstimate estimate_base_rate(std::span<const double> probability, double a, 
   if (probability.empty())
     throw Error(ErrorKind::fit, "no rows to estimate the base rate from", {}, {}, "at least one row with a score");
   const Cells cells = cells_of(probability, a);
+  // One value for every row: the likelihood is flat (at the map's own base
+  // rate) or greatest at 0 or 1, and an estimate would claim what the rows
+  // cannot tell.
+  if (cells.u.size() == 1)
+    throw Error(ErrorKind::fit, "the map gives every row the same probability, which says nothing about the base rate",
+                {}, std::to_string(probability.front()), "rows whose probabilities under the map differ");
 
   PriorEstimate out;
   double b = a;
@@ -158,9 +164,9 @@ PriorEstimate estimate_base_rate(std::span<const double> probability, double a, 
                 {}, std::to_string(b), "scores that separate the classes at least a little");
   if (!(b > 1e-9 && b < 1.0 - 1e-9))
     throw Error(ErrorKind::fit,
-                b <= 1e-9 ? "the estimated base rate is 0: the map gives every row a probability of 0, or nearly"
-                          : "the estimated base rate is 1: the map gives every row a probability of 1, or nearly",
-                {}, std::to_string(b), "rows whose probabilities are not all 0 or all 1");
+                b <= 1e-9 ? "the estimated base rate is 0 (the rows look like negatives only), which has no odds"
+                          : "the estimated base rate is 1 (the rows look like positives only), which has no odds",
+                {}, std::to_string(b), "rows of both classes, as the map tells them apart");
   out.base_rate = out.lo = out.hi = b;
   if (o.resamples == 0) return out;
 

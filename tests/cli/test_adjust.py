@@ -206,11 +206,18 @@ class Adjust(PlumbCase):
         self.assertTrue(list(validator.iter_errors(doc)), "the schema accepts an adjustment in version 1")
 
     def test_em_with_nothing_to_estimate_is_refused(self):
-        # A step map whose every row maps to 0: the estimate would be 0.
         write(self.path("t.csv"), "s,y\n" + "0.1,0\n" * 20 + "0.9,1\n" * 20)
-        write(self.path("zeros.csv"), "s\n" + "0.05\n" * 30)
-        run("fit", "-q", "--map", "isotonic", "--between-blocks", "step", "--score", "s", "--label", "y",
-            self.path("t.csv"), "-o", self.path("m.json"), check=True)
+        run("fit", "-q", "--map", "isotonic", "--score", "s", "--label", "y", self.path("t.csv"),
+            "-o", self.path("m.json"), check=True)
+        # Every row below the first block: one probability (0) for all, which
+        # says nothing about the base rate.
+        write(self.path("same.csv"), "s\n" + "0.05\n" * 30)
+        self.assert_refused(["adjust", self.path("m.json"), "--estimate-prior", self.path("same.csv"),
+                             "-o", self.path("out.json")], FIT, "same.csv",
+                            "the map gives every row the same probability", output=self.path("out.json"))
+        # Probabilities 0 and 0.125 only, for a map of base rate 0.5: the
+        # likelihood is greatest at a base rate of 0, which has no odds.
+        write(self.path("zeros.csv"), "s\n" + "0.1\n" * 30 + "0.2\n")
         self.assert_refused(["adjust", self.path("m.json"), "--estimate-prior", self.path("zeros.csv"),
                              "-o", self.path("out.json")], FIT, "zeros.csv", "the estimated base rate is 0",
                             output=self.path("out.json"))

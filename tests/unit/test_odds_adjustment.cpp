@@ -356,6 +356,11 @@ TEST_CASE("EM refuses no rows, all-0 or all-1 probabilities and a run that does 
   CHECK(error_kind([] { (void)plumb::estimate_base_rate(std::vector<double>{}, 0.2); }) == ErrorKind::fit);
   CHECK(error_kind([] { (void)plumb::estimate_base_rate(std::vector<double>(50, 0.0), 0.2); }) == ErrorKind::fit);
   CHECK(error_kind([] { (void)plumb::estimate_base_rate(std::vector<double>(50, 1.0), 0.2); }) == ErrorKind::fit);
+  // One probability for every row, equal to the map's base rate: the
+  // likelihood is flat, and an estimate with a zero-width interval would
+  // claim what the rows cannot tell.
+  CHECK(error_kind([] { (void)plumb::estimate_base_rate(std::vector<double>(50, 0.2), 0.2); }) == ErrorKind::fit);
+  CHECK(error_kind([] { (void)plumb::estimate_base_rate(std::vector<double>(50, 0.4), 0.2); }) == ErrorKind::fit);
   std::mt19937_64 g(5);
   const std::vector<double> p = posterior_under(0.17, 0.30, 500, g);
   plumb::PriorEstimateOptions options;
