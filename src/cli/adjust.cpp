@@ -131,6 +131,9 @@ int run_adjust(const AdjustOptions& o) {
 
   Artifact artifact = load_artifact(o.artifact);
   const double before = target_base_rate(artifact);
+  bool sampled_before = false;
+  for (const OddsStep& s : artifact.odds_steps)
+    sampled_before = sampled_before || s.reason == OddsStep::Reason::negative_sampling;
   // Negatives first: a prior shift starts from the base rate of the population
   // the map's probabilities describe, which the downsampling correction gives.
   if (o.negative_rate_given) {
@@ -141,6 +144,7 @@ int run_adjust(const AdjustOptions& o) {
   }
   std::optional<PriorEstimate> estimate;
   std::string estimated_from;
+  double before_estimate = 0.0;  // the base rate the estimate starts from
   if (o.prior_given || !o.estimate_from.empty()) {
     OddsStep step;
     step.reason = OddsStep::Reason::prior_shift;
@@ -153,8 +157,9 @@ int run_adjust(const AdjustOptions& o) {
       options.seed = o.seed;
       options.confidence = o.confidence;
       options.threads = o.threads;
+      before_estimate = target_base_rate(artifact);
       try {
-        estimate = estimate_base_rate(rows.probability, target_base_rate(artifact), options);
+        estimate = estimate_base_rate(rows.probability, before_estimate, options);
       } catch (const Error& e) {
         if (e.kind() != ErrorKind::fit) throw;
         Location loc;
@@ -196,6 +201,13 @@ int run_adjust(const AdjustOptions& o) {
                std::string(artifact.map->kind()).c_str(), significant(before, 4).c_str(),
                significant(target_base_rate(artifact), 4).c_str(), significant(factor, 6).c_str(),
                out.name().c_str());
+  if (o.negative_rate_given && sampled_before)
+    std::fprintf(stderr, "plumb adjust: caution: the map already recorded downsampled negatives; both rates now "
+                         "apply, which is right only if the fit rows were downsampled twice\n");
+  if (estimate && estimate->resamples_used > 0 && estimate->lo <= before_estimate && before_estimate <= estimate->hi)
+    std::fprintf(stderr, "plumb adjust: note: the interval holds the map's base rate %s: these rows show no clear "
+                         "shift\n",
+                 significant(before_estimate, 4).c_str());
   if (o.prior_given || estimate)
     std::fprintf(stderr, "plumb adjust: caution: a prior shift assumes only the base rate changed (each class's "
                          "scores look as they did at the fit); check the adjusted map with plumb report once "

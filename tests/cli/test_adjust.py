@@ -164,6 +164,7 @@ class Adjust(PlumbCase):
         rc, _, err = run(*args, "-o", self.path("em.json"))
         self.assertEqual(rc, 0, err)
         self.assertIn("base rate estimated by EM from 20,000 rows", err)
+        self.assertNotIn("no clear shift", err)
         estimate = self.load_json(self.path("em.json"))["odds_adjustment"]["steps"][0]
         b = estimate["base_rate_to"]
         lo, hi = estimate["estimate"]["interval"]
@@ -182,6 +183,13 @@ class Adjust(PlumbCase):
             self.assertEqual(f1.read(), f3.read())
             f3.seek(0)
             self.assertEqual(f.read(), f3.read())
+        # Rows of the fit's own population: the interval holds its base rate.
+        write(self.path("same.csv"), "z\n" + "".join(f"{x}\n" for x, _ in two_class_rows(5000, 0.17, seed=6)))
+        rc, _, err = run("adjust", self.path("m.json"), "--estimate-prior", self.path("same.csv"),
+                         "-o", self.path("same.json"))
+        self.assertEqual(rc, 0, err)
+        self.assertIn("the interval holds the map's base rate 0.17", err)
+        self.assertIn("these rows show no clear shift", err)
         rc, out, _ = run("inspect", self.path("em.json"))
         self.assertIn("estimated by EM from 20,000 rows of", out)
         self.assertIn("95% bootstrap interval", out)
@@ -243,8 +251,12 @@ class Adjust(PlumbCase):
                             "--bootstrap only applies to the rows of --estimate-prior", output=out)
         self.assert_refused(["adjust", "-", "--estimate-prior", "-", "-o", out], USAGE,
                             "cannot both read standard input", output=out)
-        rc, _, _ = run("adjust", m, "--negative-rate", "1", "-o", out)
+        rc, _, err = run("adjust", m, "--negative-rate", "1", "-o", out)
         self.assertEqual(rc, 0)  # every negative kept: factor 1, recorded
+        self.assertNotIn("already recorded downsampled negatives", err)
+        rc, _, err = run("adjust", out, "--negative-rate", "0.5", "-o", self.path("twice.json"))
+        self.assertEqual(rc, 0)
+        self.assertIn("caution: the map already recorded downsampled negatives", err)
 
     def test_a_version_1_document_with_an_adjustment_is_refused(self):
         self.fit_holdout()
