@@ -1,6 +1,7 @@
 #include "plumb/prior_estimate.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <limits>
 #include <random>
@@ -90,9 +91,15 @@ double uniform01(std::mt19937_64& gen) noexcept { return static_cast<double>(gen
 // law of the same mean and variance (Box-Muller), rounded and kept >= 0.
 // Written out so that every standard library gives the same counts.
 double poisson_count(std::mt19937_64& gen, double n) noexcept {
+  // e^-n once per count, not once per cell and resample.
+  static const std::array<double, 65> exp_minus = [] {
+    std::array<double, 65> out{};
+    for (std::size_t i = 0; i < out.size(); ++i) out[i] = std::exp(-static_cast<double>(i));
+    return out;
+  }();
   if (n <= 64.0) {
     const double u = uniform01(gen);
-    double term = std::exp(-n), cdf = term;
+    double term = exp_minus[static_cast<std::size_t>(n)], cdf = term;
     double k = 0.0;
     while (u >= cdf && k < 512.0) {
       k += 1.0;
