@@ -32,6 +32,24 @@ struct FitOptions {
   std::vector<std::string> given;  // row-reading options given on the command line
 };
 
+// Refused before any reading, so a bad rate costs no pass over the rows.
+void check_negative_rate(const FitOptions& o) {
+  if (o.negative_rate_given && !(o.negative_rate > 0.0 && o.negative_rate <= 1.0))
+    throw Error(ErrorKind::usage, "--negative-rate lies outside (0, 1]", {}, shortest(o.negative_rate),
+                "the rate at which negative rows were kept when the fit rows were drawn, such as 0.1 for one in "
+                "ten (1: all kept)");
+}
+
+// The map fitted on rows whose negatives were downsampled gives the odds of
+// that sample; the artifact records the correction to the full population.
+void record_negative_rate(const FitOptions& o, Artifact& artifact) {
+  if (!o.negative_rate_given) return;
+  OddsStep step;
+  step.reason = OddsStep::Reason::negative_sampling;
+  step.negative_rate = o.negative_rate;
+  add_odds_step(artifact, step);
+}
+
 // The artifact's provenance for a map fitted on a tally: the tally file is
 // the source; every count and range is the tally's, so they equal those of
 // a fit on the rows the tally was built from.
@@ -54,24 +72,6 @@ Provenance provenance_of_tally(const Tally& t, const std::string& file, const st
 }
 
 int write_and_summarise(const FitOptions& o, const Artifact& artifact, const std::string& from);
-
-// Refused before any reading, so a bad rate costs no pass over the rows.
-void check_negative_rate(const FitOptions& o) {
-  if (o.negative_rate_given && !(o.negative_rate > 0.0 && o.negative_rate <= 1.0))
-    throw Error(ErrorKind::usage, "--negative-rate lies outside (0, 1]", {}, shortest(o.negative_rate),
-                "the rate at which negative rows were kept when the fit rows were drawn, such as 0.1 for one in "
-                "ten (1: all kept)");
-}
-
-// The map fitted on rows whose negatives were downsampled gives the odds of
-// that sample; the artifact records the correction to the full population.
-void record_negative_rate(const FitOptions& o, Artifact& artifact) {
-  if (!o.negative_rate_given) return;
-  OddsStep step;
-  step.reason = OddsStep::Reason::negative_sampling;
-  step.negative_rate = o.negative_rate;
-  add_odds_step(artifact, step);
-}
 
 void check_scale(const FitOptions& o, Scale scale, std::string_view scale_name) {
   if (!accepts_scale(o.kind, scale))
