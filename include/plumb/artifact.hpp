@@ -6,6 +6,7 @@
 #include <nlohmann/json.hpp>
 #include <optional>
 #include <string>
+#include <vector>
 
 #include "plumb/calibration_map.hpp"
 #include "plumb/cross_fit.hpp"
@@ -33,7 +34,27 @@ struct Provenance {
   std::string created_utc;     // ISO 8601, empty when written with --no-timestamp
 };
 
+// One adjustment of the map's odds, as the artifact records it
+// (docs/artifact-format.md, "odds_adjustment"; docs/methods.md).
+struct OddsStep {
+  enum class Reason {
+    negative_sampling,  // the fit rows kept each negative at rate negative_rate: odds x negative_rate
+    prior_shift,        // the base rate moved from base_rate_from to base_rate_to: Bayes' rule on the odds
+  };
+  Reason reason = Reason::prior_shift;
+  double negative_rate = 1.0;   // negative_sampling: in (0, 1]
+  double base_rate_from = 0.0;  // prior_shift: the base rate the map gave before this step (add_odds_step sets it)
+  double base_rate_to = 0.0;    // prior_shift: the new base rate, in (0, 1)
+  // prior_shift: how base_rate_to was estimated (method, rows, interval...);
+  // null when it was given.
+  nlohmann::json estimate = nullptr;
+  double factor = 1.0;          // this step's odds factor (add_odds_step sets it)
+};
+
 struct Artifact {
+  // The map as `apply`, `report --map` and `inspect` use it: with
+  // odds_steps, an OddsAdjustedMap (plumb/odds_adjustment.hpp) around the
+  // fitted map, applying the product of the steps' factors.
   std::unique_ptr<CalibrationMap> map;
   std::string score_column;
   Provenance provenance;
@@ -41,7 +62,30 @@ struct Artifact {
   // What `plumb cross-fit` measured and chose (folds, split, seed, out-of-fold
   // evidence, the choice and its reason); null for a map from `plumb fit`.
   nlohmann::json cross_fit = nullptr;
+  // Odds adjustments in the order they were made; empty for a map as
+  // fitted. Added with add_odds_step only, which keeps `map` in step.
+  std::vector<OddsStep> odds_steps;
 };
+
+// The base rate of the fit rows (weight of positives over total weight),
+// and the base rate the map's probabilities are calibrated for once every
+// odds step is applied (the fit rows' base rate with its odds multiplied by
+// each step's factor).
+double fitted_base_rate(const Artifact& artifact);
+double target_base_rate(const Artifact& artifact);
+
+// Append `step` and make artifact.map apply every step. Sets the step's
+// factor (negative_rate; or the prior shift from target_base_rate() before
+// the step to base_rate_to) and base_rate_from. Throws Error(usage),
+// leaving the artifact as it was, for a negative_rate outside (0, 1], a base
+// rate outside (0, 1), or a product of factors outside the normal doubles.
+void add_odds_step(Artifact& artifact, OddsStep step);
+
+// The format version the artifact is written with: 1 for a map as fitted
+// (which every plumb reads), 2 when it carries odds steps (which a plumb
+// that reads only version 1 refuses as "written by a newer plumb", rather
+// than applying the map without them).
+int artifact_version(const Artifact& artifact);
 
 // The whole document, including its integrity hash. Deterministic: the same
 // artifact gives the same bytes.
@@ -50,8 +94,10 @@ std::string artifact_to_text(const Artifact& artifact);
 // Parse and validate a document. `where` names it in messages. Rejects with
 // plumb::Error(artifact): text that is not JSON (with line and column),
 // another format, a format version this build does not read, missing or
-// mistyped fields, non-finite numbers, invalid map parameters, and a
-// document whose integrity hash does not match its content.
+// mistyped fields, non-finite numbers, invalid map parameters, an odds
+// adjustment in a version 1 document or one whose recorded base rates and
+// factors disagree with their recomputation, and a document whose integrity
+// hash does not match its content. Reads versions 1 and 2.
 Artifact artifact_from_text(const std::string& text, const std::string& where);
 
 // Read a file ("-" for standard input) and parse it as above; plumb::Error(io)

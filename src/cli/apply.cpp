@@ -135,6 +135,9 @@ int run_apply(const ApplyOptions& o) {
                  grouped(rows).c_str(), grouped(outside).c_str(), shortest(fitted_min).c_str(),
                  shortest(fitted_max).c_str(), grouped(clamped).c_str(), grouped(clipped).c_str(),
                  missing_part.c_str(), out.name().c_str());
+    if (!artifact.odds_steps.empty())
+      std::fprintf(stderr, "plumb apply: the map's odds are adjusted as its artifact records, %s\n",
+                   odds_steps_text(artifact).c_str());
     if (rows > 0 && outside * 100 > rows)
       std::fprintf(stderr, "plumb apply: caution: more than 1%% of the scores lie outside the range the map was "
                            "fitted on; has the model or the population changed since the fit?\n");

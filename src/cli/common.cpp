@@ -338,4 +338,24 @@ std::string grouped(std::uint64_t n) { return count_text(n); }
 
 std::string shortest(double value) { return shortest_text(value); }
 
+std::string significant(double value, int digits) {
+  char text[48];
+  std::snprintf(text, sizeof text, "%.*g", digits, value);
+  return text;
+}
+
+std::string odds_steps_text(const Artifact& artifact) {
+  double factor = 1.0;
+  std::string steps;
+  for (const OddsStep& s : artifact.odds_steps) {
+    factor *= s.factor;
+    steps += steps.empty() ? "" : "; ";
+    steps += s.reason == OddsStep::Reason::negative_sampling
+                 ? "negatives kept at rate " + shortest(s.negative_rate) + " in the fit rows"
+                 : "prior shift, base rate " + significant(s.base_rate_from, 4) + " -> " +
+                       significant(s.base_rate_to, 4) + (s.estimate.is_null() ? "" : " estimated by EM");
+  }
+  return "x " + significant(factor, 6) + " (" + steps + ")";
+}
+
 }  // namespace plumb::cli

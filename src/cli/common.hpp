@@ -134,4 +134,13 @@ std::string grouped(std::uint64_t n);
 // same double: the formatting layer's shortest_text.
 std::string shortest(double value);
 
+// A value in `digits` significant digits ("%.*g"), for figures shown to a
+// reader (base rates, odds factors); the artifact keeps every digit.
+std::string significant(double value, int digits);
+
+// The artifact's odds steps in a few words, for summaries and cautions:
+// "x 2.09095 (prior shift, base rate 0.1701 -> 0.3)". Precondition: at
+// least one step.
+std::string odds_steps_text(const Artifact& artifact);
+
 }  // namespace plumb::cli

@@ -30,6 +30,10 @@ constexpr const char* kUsageFooter =
     "With --tally (from plumb tally and merge) the map is the one a fit on all the tallied rows gives:\n"
     "every kind fits on the per-score sums, which a tally keeps. Only the recorded source (the tally\n"
     "file and its SHA-256) differs in the artifact.\n\n"
+    "Downsampled negatives: when the fit rows kept only a fraction RATE of the negative rows (as a model\n"
+    "trained on downsampled data is often checked), --negative-rate RATE fits the map on the rows as they\n"
+    "are and records odds x RATE in the artifact, so apply, report --map and inspect give the probabilities\n"
+    "of the full population. For a map already written, plumb adjust --negative-rate does the same.\n\n"
     "The artifact records the input's SHA-256, row counts and the fit's diagnostics; see docs/artifact-format.md.";
 
 struct FitOptions {
@@ -39,8 +43,28 @@ struct FitOptions {
   MapChoices choices;
   bool no_timestamp = false;
   std::string tally;               // fit on this tally instead of rows
+  double negative_rate = 1.0;      // --negative-rate, when negative_rate_given
+  bool negative_rate_given = false;
   std::vector<std::string> given;  // row-reading options given on the command line
 };
+
+// Refused before any reading, so a bad rate costs no pass over the rows.
+void check_negative_rate(const FitOptions& o) {
+  if (o.negative_rate_given && !(o.negative_rate > 0.0 && o.negative_rate <= 1.0))
+    throw Error(ErrorKind::usage, "--negative-rate lies outside (0, 1]", {}, shortest(o.negative_rate),
+                "the rate at which negative rows were kept when the fit rows were drawn, such as 0.1 for one in "
+                "ten (1: all kept)");
+}
+
+// The map fitted on rows whose negatives were downsampled gives the odds of
+// that sample; the artifact records the correction to the full population.
+void record_negative_rate(const FitOptions& o, Artifact& artifact) {
+  if (!o.negative_rate_given) return;
+  OddsStep step;
+  step.reason = OddsStep::Reason::negative_sampling;
+  step.negative_rate = o.negative_rate;
+  add_odds_step(artifact, step);
+}
 
 // The artifact's provenance for a map fitted on a tally: the tally file is
 // the source; every count and range is the tally's, so they equal those of
@@ -73,6 +97,7 @@ void check_scale(const FitOptions& o, Scale scale) {
 
 int run_fit(const FitOptions& o) {
   (void)o.choices.map_options();  // refuses a bad --between-blocks before any reading
+  check_negative_rate(o);
   if (!o.tally.empty()) {
     if (!o.given.empty())
       throw Error(ErrorKind::usage, o.given.front() + " cannot be used with --tally", {}, {},
@@ -98,6 +123,7 @@ int run_fit(const FitOptions& o) {
     artifact.score_column = tally.score_column;
     artifact.fit_options = o.choices.recorded(o.kind);
     artifact.provenance = provenance_of_tally(tally, o.tally == "-" ? "<stdin>" : o.tally, sha256, o.no_timestamp);
+    record_negative_rate(o, artifact);
     return write_and_summarise(o, artifact, "tally " + artifact.provenance.source);
   }
   check_scale(o, scale);
@@ -128,6 +154,7 @@ int run_fit(const FitOptions& o) {
   artifact.score_column = rows.score_columns[0];
   artifact.fit_options = o.choices.recorded(o.kind);
   artifact.provenance = provenance_of(rows, o.input, o.no_timestamp);
+  record_negative_rate(o, artifact);
   return write_and_summarise(o, artifact, grouped(rows.rows) + " rows of " + rows.source);
 }
 
@@ -144,6 +171,10 @@ int write_and_summarise(const FitOptions& o, const Artifact& artifact, const std
     if (rows.rows_skipped)
       notes += "; " + grouped(*rows.rows_skipped) + (*rows.rows_skipped == 1 ? " row" : " rows") +
                " with a missing score or label left out";
+    if (!artifact.odds_steps.empty())
+      notes += "; odds x " + shortest(o.negative_rate) + " for negatives kept at rate " + shortest(o.negative_rate) +
+               " (base rate " + significant(fitted_base_rate(artifact), 4) + " in the fit rows, " +
+               significant(target_base_rate(artifact), 4) + " in the population they were drawn from)";
     std::fprintf(stderr, "plumb fit: %s map from %s (weight of positives %s of %s), log loss %.6f%s; written to %s\n",
                  o.kind.c_str(), from.c_str(), weight_text(rows.positives).c_str(),
                  weight_text(rows.weight_total).c_str(), d.log_loss, notes.c_str(), out.name().c_str());
@@ -212,9 +243,14 @@ Command add_fit_command(CLI::App& app) {
   cmd->add_option("-o,--output", o->output, "Where to write the map artifact (- for standard output)")
       ->default_str("-");
   add_map_options(*cmd, o->choices);
+  cmd->add_option("--negative-rate", o->negative_rate,
+                  "The fit rows kept each negative row at this rate, in (0, 1] (downsampling): the artifact "
+                  "records odds x RATE, so the map's probabilities are those of the full population")
+      ->option_text("RATE");
   cmd->add_flag("--no-timestamp", o->no_timestamp,
                 "Leave the creation time out, so the same input gives a byte-identical artifact");
   return [o, cmd] {
+    o->negative_rate_given = cmd->count("--negative-rate") > 0;
     for (const char* name :
          {"file", "--score", "--label", "--weight", "--positive", "--negative", "--missing", "--scale", "--sep"})
       if (cmd->count(name) > 0) o->given.push_back(name[0] == '-' ? name : "a FILE of rows");

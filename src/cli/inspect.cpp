@@ -118,6 +118,41 @@ void print_cross_fit(const nlohmann::json& e) {
     if (c.is_object() && c.contains("kind")) row(scalar_text(c["kind"]), c);
 }
 
+// The odds steps, in the order they were made; an estimate is read
+// defensively, like the cross-fit evidence (informational, hash-checked).
+void print_odds_steps(const Artifact& a) {
+  double factor = 1.0;
+  for (const OddsStep& s : a.odds_steps) factor *= s.factor;
+  std::printf("  %-14s x %s on the fitted map's odds: base rate %s in the fit rows, %s after (plumb apply and "
+              "plumb report --map use the adjusted map)\n",
+              "odds", significant(factor, 6).c_str(), significant(fitted_base_rate(a), 4).c_str(),
+              significant(target_base_rate(a), 4).c_str());
+  for (const OddsStep& s : a.odds_steps) {
+    if (s.reason == OddsStep::Reason::negative_sampling) {
+      std::printf("  %-14s x %s: negatives were kept at rate %s in the fit rows\n", "",
+                  significant(s.factor, 6).c_str(), shortest(s.negative_rate).c_str());
+      continue;
+    }
+    std::string how = "given";
+    const nlohmann::json& e = s.estimate;
+    if (e.is_object()) {
+      auto text = [&](const char* key) { return e.contains(key) ? scalar_text(e[key]) : std::string("?"); };
+      const std::string rows = e.contains("rows") && e["rows"].is_number_unsigned()
+                                   ? grouped(e["rows"].get<std::uint64_t>())
+                                   : text("rows");
+      how = "estimated by EM from " + rows + " rows of " + text("source");
+      if (e.contains("interval") && e["interval"].is_array() && e["interval"].size() == 2 &&
+          e["interval"][0].is_number() && e["interval"][1].is_number() && e.contains("confidence") &&
+          e["confidence"].is_number())
+        how += ", " + significant(100.0 * e["confidence"].get<double>(), 4) + "% bootstrap interval " +
+               significant(e["interval"][0].get<double>(), 4) + " to " +
+               significant(e["interval"][1].get<double>(), 4);
+    }
+    std::printf("  %-14s x %s: prior shift, base rate %s -> %s (%s)\n", "", significant(s.factor, 6).c_str(),
+                significant(s.base_rate_from, 4).c_str(), significant(s.base_rate_to, 4).c_str(), how.c_str());
+  }
+}
+
 int run_inspect(const InspectOptions& o) {
   const Artifact a = load_artifact(o.artifact);
   if (o.json) {
@@ -130,7 +165,7 @@ int run_inspect(const InspectOptions& o) {
   const FitDiagnostics& d = a.map->diagnostics();
   const std::string name = o.artifact == "-" ? "<stdin>" : o.artifact;
   std::printf("%s: %s map (format %s version %d, integrity hash checked)\n\n", name.c_str(),
-              std::string(a.map->kind()).c_str(), artifact_format_marker, artifact_format_version);
+              std::string(a.map->kind()).c_str(), artifact_format_marker, artifact_version(a));
   std::printf("  %-14s column '%s', %s scale\n", "scores", a.score_column.c_str(),
               std::string(to_string(a.map->scale())).c_str());
   std::printf("  %-14s %s (%s)\n", "fitted on", p.source.c_str(), p.tool.c_str());
@@ -150,8 +185,9 @@ int run_inspect(const InspectOptions& o) {
   for (const std::string& n : d.notes) std::printf("  %-14s %s\n", "", n.c_str());
   if (!a.fit_options.empty()) std::printf("  %-14s %s\n", "options", a.fit_options.dump().c_str());
   std::printf("  %-14s %s\n", "monotone", a.map->monotone() ? "yes" : "NO (the map decreases somewhere)");
+  if (!a.odds_steps.empty()) print_odds_steps(a);
   if (a.cross_fit.is_object()) print_cross_fit(a.cross_fit);
-  std::printf("\nparameters\n");
+  std::printf(a.odds_steps.empty() ? "\nparameters\n" : "\nparameters (the fitted map's, before the odds adjustment)\n");
   print_parameters(a.map->parameters(), o.all);
   return 0;
 }

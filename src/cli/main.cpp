@@ -21,6 +21,7 @@ int main(int argc, char** argv) {
       "  plumb cross-fit --map auto --score risk --label missed holdout.csv -o late.map.json\n"
       "  plumb report --score risk --map late.map.json --label missed holdout.csv --svg chart.svg\n"
       "  plumb inspect late.map.json\n"
+      "  plumb adjust late.map.json --prior 0.30 -o late.peak.map.json\n"
       "  plumb tally --score risk --label missed part-0001.csv -o part-0001.tally.json\n"
       "  plumb merge part-*.tally.json -o all.tally.json\n\n"
       "Run 'plumb COMMAND --help' for each command's options.",
@@ -46,6 +47,7 @@ int main(int argc, char** argv) {
   add(plumb::cli::add_cross_fit_command);
   add(plumb::cli::add_report_command);
   add(plumb::cli::add_inspect_command);
+  add(plumb::cli::add_adjust_command);
   add(plumb::cli::add_tally_command);
   add(plumb::cli::add_merge_command);
 

@@ -55,6 +55,13 @@ std::string usage_footer(const std::string& max_gates, const std::string& min_ga
          "model validation; credit, insurance and health uses follow local rules and licensed practice.";
 }
 
+// A map whose artifact adjusts its odds is reported as adjusted; the report
+// says so, since the figures describe the adjusted probabilities.
+std::string odds_caution(const std::string& name, const Artifact& artifact) {
+  return name + ": the map's odds are adjusted as its artifact records, " + odds_steps_text(artifact) +
+         "; the figures are those of the adjusted probabilities";
+}
+
 struct ReportCliOptions {
   InputOptions input;
   std::vector<std::string> scores;
@@ -326,6 +333,7 @@ int run_report(const ReportCliOptions& o) {
       std::uint64_t rows = 0;
       for (std::uint64_t r : cells.rows) rows += r;
       const std::string name = t.score_column + " via " + std::filesystem::path(o.maps[m]).filename().string();
+      if (!artifacts[m].odds_steps.empty()) extra_cautions.push_back(odds_caution(name, artifacts[m]));
       if (static_cast<double>(outside) > outside_share_caution * static_cast<double>(rows))
         extra_cautions.push_back(name + ": " + grouped(outside) +
                                  " scores lie outside the range the map was fitted on and were held at its end values");
@@ -383,6 +391,7 @@ int run_report(const ReportCliOptions& o) {
     }
     const std::string name =
         rows.score_columns[k] + " via " + std::filesystem::path(o.maps[m]).filename().string();
+    if (!artifacts[m].odds_steps.empty()) extra_cautions.push_back(odds_caution(name, artifacts[m]));
     if (static_cast<double>(outside) > outside_share_caution * static_cast<double>(p.size()))
       extra_cautions.push_back(name + ": " + grouped(outside) +
                                " scores lie outside the range the map was fitted on and were held at its end values");

@@ -7,6 +7,7 @@
 
 #include "core/json_fields.hpp"
 #include "io/byte_source.hpp"
+#include "io/artifact_odds.hpp"
 #include "io/json_input.hpp"
 #include "plumb/error.hpp"
 #include "plumb/version.hpp"
@@ -70,7 +71,7 @@ json artifact_to_json(const Artifact& a) {
   const Provenance& p = a.provenance;
   json doc;
   doc["format"] = artifact_format_marker;
-  doc["format_version"] = artifact_format_version;
+  doc["format_version"] = artifact_version(a);
   doc["kind"] = std::string(a.map->kind());
   doc["input"] = {{"score_column", a.score_column}, {"scale", std::string(to_string(a.map->scale()))}};
   doc["parameters"] = a.map->parameters();
@@ -90,6 +91,7 @@ json artifact_to_json(const Artifact& a) {
                        {"created_utc", p.created_utc.empty() ? json(nullptr) : json(p.created_utc)}};
   if (p.rows_skipped) doc["provenance"]["rows_skipped"] = *p.rows_skipped;
   if (!a.cross_fit.is_null()) doc["cross_fit"] = a.cross_fit;
+  if (!a.odds_steps.empty()) doc[io::odds_adjustment_key] = io::odds_adjustment_json(a.odds_steps);
   return doc;
 }
 
@@ -139,13 +141,15 @@ Artifact artifact_from_text(const std::string& text, const std::string& where) {
     throw Error(ErrorKind::artifact, "not a plumb map artifact", loc, {},
                 std::string("a JSON object with \"format\": \"") + artifact_format_marker + "\"");
   const std::int64_t version = jf::require_integer(doc, "format_version", where, "format_version");
-  if (version != artifact_format_version)
+  if (version < artifact_format_version_oldest || version > artifact_format_version)
     throw Error(ErrorKind::artifact,
                 version > artifact_format_version
                     ? "the map artifact has format version " + std::to_string(version) +
                           ", written by a newer plumb"
                     : "the map artifact has unknown format version " + std::to_string(version),
-                loc, {}, "format version " + std::to_string(artifact_format_version) + " (plumb " + version_string + ")");
+                loc, {},
+                "format version " + std::to_string(artifact_format_version_oldest) + " to " +
+                    std::to_string(artifact_format_version) + " (plumb " + version_string + ")");
   const std::string stated = jf::require_string(doc, integrity_key, where, integrity_key);
   json content = doc;
   content.erase(integrity_key);
@@ -210,6 +214,13 @@ Artifact artifact_from_text(const std::string& text, const std::string& where) {
   if (!created.is_string() && !created.is_null())
     jf::fail(where, "provenance.created_utc", "is neither a string nor null", "a UTC time, or null");
   pr.created_utc = created.is_string() ? created.get<std::string>() : std::string();
+  // Last: a prior shift's starting base rate is the fit rows'.
+  if (doc.contains(io::odds_adjustment_key)) {
+    if (version < 2)
+      jf::fail(where, io::odds_adjustment_key, "is present in a format version 1 document",
+               "format version 2 for a map with an odds adjustment");
+    io::read_odds_adjustment(doc, a, where);
+  }
   return a;
 }
 

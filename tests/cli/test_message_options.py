@@ -12,7 +12,7 @@ import unittest
 
 from plumbtest import COMMANDS, SOURCE_DIR, PlumbCase, help_options, run, write
 
-READERS = ("fit", "apply", "cross-fit", "report", "tally")  # commands that read CSV rows
+READERS = ("fit", "apply", "cross-fit", "report", "tally", "adjust")  # commands that read CSV rows
 LABELLED = ("fit", "cross-fit", "report", "tally")           # commands that read labelled rows
 
 # Which commands can print the messages of each source file. A file whose
@@ -28,6 +28,7 @@ REACH = {
     "src/cli/inspect.cpp": ("inspect",),
     "src/cli/tally.cpp": ("tally",),
     "src/cli/merge.cpp": ("merge",),
+    "src/cli/adjust.cpp": ("adjust",),
     "src/cli/common.cpp::add_separator_option": READERS,
     "src/cli/common.cpp::add_quiet_option": READERS,
     "src/cli/common.cpp::add_input_options": ("fit", "cross-fit", "tally"),

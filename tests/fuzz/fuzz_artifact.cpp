@@ -14,7 +14,8 @@
 //    [0, 1], never NaN;
 //  - a map that says it is monotone is non-decreasing over those scores
 //    (up to a few ulps for the kinds that end in the logistic function,
-//    whose e / (1 + e) can fall by an ulp where e rises by one);
+//    whose e / (1 + e) can fall by an ulp where e rises by one); a map
+//    with an odds adjustment falls only where its fitted map falls;
 //  - artifact_to_text of the loaded artifact loads again, gives the same
 //    text when written once more, and maps every score to the same
 //    probability and flags (a round trip).
@@ -30,6 +31,7 @@
 #include "fuzz_support.hpp"
 #include "io/json_input.hpp"
 #include "plumb/artifact.hpp"
+#include "plumb/odds_adjustment.hpp"
 
 namespace {
 
@@ -82,20 +84,33 @@ void check_loaded(const plumb::Artifact& a, const std::string& text, const json*
   FUZZ_CHECK(a.map != nullptr, "an artifact without a map was loaded");
   const plumb::CalibrationMap& map = *a.map;
   const std::vector<double> scores = sample_scores(text, doc, map.scale());
-  double previous = -1.0, previous_score = 0.0;
+  // An adjusted map is checked through its fitted map: the fitted map by
+  // the rule of its kind, and the adjustment exactly (multiply_odds never
+  // falls as p rises), so the adjusted map falls only where the fitted one
+  // does (where a logistic map's rounding drops by an ulp, the odds factor's
+  // slope near 0 or 1 can widen that drop beyond the ulps allowed here).
+  const auto* adjusted = dynamic_cast<const plumb::OddsAdjustedMap*>(&map);
+  const plumb::CalibrationMap& fitted = adjusted ? adjusted->base() : map;
+  double previous = -1.0, previous_fitted = -1.0, previous_score = 0.0;
   for (double s : scores) {
     const double p = map.map(s).probability;
     FUZZ_CHECK(p >= 0.0 && p <= 1.0,
                std::string(map.kind()) + " map: score " + std::to_string(s) + " gives " + std::to_string(p));
+    const double q = fitted.map(s).probability;
     // Exactly for the piecewise kinds; up to a few ulps of rounding in the
     // logistic function for the others (plumb/calibration_map.hpp).
     const bool piecewise = map.kind() == "isotonic" || map.kind() == "histogram";
-    const double slack = piecewise ? 0.0 : 8 * DBL_EPSILON * previous + std::numeric_limits<double>::denorm_min();
-    if (map.monotone())
-      FUZZ_CHECK(p >= previous - slack, std::string(map.kind()) + " map says it is monotone but falls from " +
-                                    std::to_string(previous) + " at " + std::to_string(previous_score) + " to " +
-                                    std::to_string(p) + " at " + std::to_string(s));
+    const double slack = piecewise ? 0.0 : 8 * DBL_EPSILON * previous_fitted + std::numeric_limits<double>::denorm_min();
+    if (fitted.monotone())
+      FUZZ_CHECK(q >= previous_fitted - slack, std::string(map.kind()) + " map says it is monotone but falls from " +
+                                    std::to_string(previous_fitted) + " at " + std::to_string(previous_score) + " to " +
+                                    std::to_string(q) + " at " + std::to_string(s));
+    if (adjusted && q >= previous_fitted)
+      FUZZ_CHECK(p >= previous, "the odds adjustment falls from " + std::to_string(previous) + " at " +
+                                    std::to_string(previous_score) + " to " + std::to_string(p) + " at " +
+                                    std::to_string(s) + " where the fitted map does not");
     previous = p;
+    previous_fitted = q;
     previous_score = s;
   }
 

@@ -110,6 +110,12 @@ done
   -o "$corpus/fuzz_artifact/platt-margin.json"
 "$plumb" cross-fit --score risk --label missed --map platt,isotonic --folds 3 --final folds --no-timestamp -q \
   fit.csv -o "$corpus/fuzz_artifact/fold-average.json"
+# Adjusted maps (format version 2): downsampled negatives at fit time, then
+# a prior shift; and a prior estimated by EM.
+fit --map platt --negative-rate 0.5 -o "$work/platt-sampled.json"
+"$plumb" adjust -q "$work/platt-sampled.json" --prior 0.3 -o "$corpus/fuzz_artifact/platt-adjusted.json"
+"$plumb" adjust -q "$corpus/fuzz_artifact/isotonic.json" --estimate-prior fit.csv --bootstrap 20 \
+  -o "$corpus/fuzz_artifact/isotonic-prior-estimated.json"
 
 # --- Tallies: exact and on a logit grid, weighted, named positive value,
 # logit and margin scales, and a merge of two shards.
