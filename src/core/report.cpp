@@ -83,17 +83,45 @@ class StepIndex {
   std::vector<std::size_t> table_;
 };
 
-// The PAV curve's value at each row's forecast: the block whose range holds
-// the forecast; a forecast of zero weight with no block takes the block to
-// its left (or the first), as pav_values does.
-std::vector<double> pav_value_of_rows(const std::vector<PavBlock>& curve, std::span<const double> forecast) {
-  std::vector<double> value(forecast.size(), 0.0);
-  if (curve.empty()) return value;
+// The CORP sums of corp_decomposition_given over the rows in row order, each
+// row's recalibrated forecast read from the PAV curve by its forecast (the
+// block whose range holds it; a forecast of zero weight with no block takes
+// the block to its left, or the first, as pav_values does) rather than from
+// a vector of them. The log-loss terms of the recalibrated forecast and of
+// the base rate take few values, so those of labels 0 and 1 are computed
+// once: the same terms added in the same order, so the same numbers.
+// `total` and `positives` are the rows' sums in row order.
+void corp_of_rows(ScoreSummary& s, const std::vector<PavBlock>& curve, std::span<const double> forecast,
+                  std::span<const double> label, std::span<const double> weight, double total, double positives) {
+  detail::require_positive_total("corp_decomposition", total);
+  const double rate = positives / total;
   std::vector<double> start(curve.size());
   for (std::size_t j = 0; j < curve.size(); ++j) start[j] = curve[j].score_lo;
   const StepIndex step(std::move(start));
-  for (std::size_t i = 0; i < forecast.size(); ++i) value[i] = curve[step(forecast[i])].value;
-  return value;
+  // Per block: its value and its log-loss terms at labels 0 and 1.
+  std::vector<std::array<double, 3>> block(std::max<std::size_t>(curve.size(), 1), {0.0, 0.0, 0.0});
+  for (std::size_t j = 0; j < curve.size(); ++j)
+    block[j] = {curve[j].value, log_loss_term(curve[j].value, 0.0), log_loss_term(curve[j].value, 1.0)};
+  if (curve.empty()) block[0] = {0.0, log_loss_term(0.0, 0.0), log_loss_term(0.0, 1.0)};
+  const double clim[2] = {log_loss_term(rate, 0.0), log_loss_term(rate, 1.0)};
+  double bx = 0.0, bp = 0.0, bc = 0.0, lx = 0.0, lp = 0.0, lc = 0.0;
+  for (std::size_t i = 0; i < forecast.size(); ++i) {
+    const double w = detail::weight_at(weight, i);
+    if (w == 0.0) continue;  // such rows have no PAV value of their own
+    const double y = label[i], x = forecast[i];
+    const std::array<double, 3>& b = block[curve.empty() ? 0 : step(x)];
+    const double r = b[0];
+    const bool binary = y == 0.0 || y == 1.0;
+    const std::size_t l = y == 1.0 ? 1 : 0;
+    bx += w * (x - y) * (x - y);
+    bp += w * (r - y) * (r - y);
+    bc += w * (rate - y) * (rate - y);
+    lx += w * log_loss_term(x, y);
+    lp += w * (binary ? b[1 + l] : log_loss_term(r, y));
+    lc += w * (binary ? clim[l] : log_loss_term(rate, y));
+  }
+  s.corp_brier = corp_terms(bx, bp, bc, total);
+  s.corp_log_loss = corp_terms(lx, lp, lc, total);
 }
 
 // The equal-mass binning of make_binning over the rows of `cells` (their
@@ -248,11 +276,7 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
   // PAV once, from the cells: the CORP curve, and each row's recalibrated
   // forecast for the CORP sums (taken in row order, as corp_decomposition does).
   s.pav_curve = pav_fit_cells(cells.forecast, cells.positives, cells.weight);
-  {
-    const CorpDecomposition corp = corp_decomposition_given(f, y, w, pav_value_of_rows(s.pav_curve, f));
-    s.corp_brier = corp.brier;
-    s.corp_log_loss = corp.log_loss;
-  }
+  corp_of_rows(s, s.pav_curve, f, y, w, t.weight, t.positives);
 
   // Each binning made once, and its sums taken once.
   Binning width = make_binning(f, w, BinningKind::equal_width, o.bins);
