@@ -75,7 +75,7 @@ struct PoissonTables {
 };
 
 // The first k with u < cdf[k], at most `last` (where inversion stops).
-std::uint64_t invert(const std::vector<double>& cdf, double u, std::size_t last) noexcept {
+inline std::uint64_t invert(const std::vector<double>& cdf, double u, std::size_t last) noexcept {
   std::size_t k = 0;
   while (k < last && u >= cdf[k]) ++k;
   return k;
@@ -86,20 +86,16 @@ const PoissonTables& poisson_tables() {
   return t;
 }
 
-unsigned poisson1(std::mt19937_64& gen) noexcept {
-  return static_cast<unsigned>(invert(poisson_tables().cdf[1], uniform01(gen), 40));
-}
-
 // Poisson(n): the total count of n rows that each draw Poisson(1), which is
 // what the bootstrap needs for n tied rows of equal weight. By inversion for
 // n up to 64 (e^-64 is far from underflow; past mean + 40 sd the remaining
-// mass is below the spacing of u), else as the sum of n Poisson(1).
-std::uint64_t poisson_n(std::mt19937_64& gen, std::uint64_t n) noexcept {
-  const PoissonTables& t = poisson_tables();
+// mass is below the spacing of u), else as the sum of n Poisson(1). `t` is
+// poisson_tables(), looked up once by the caller.
+inline std::uint64_t poisson_n(std::mt19937_64& gen, std::uint64_t n, const PoissonTables& t) noexcept {
   if (n == 1) return invert(t.cdf[1], uniform01(gen), 40);
   if (n > 64) {
     std::uint64_t k = 0;
-    for (std::uint64_t i = 0; i < n; ++i) k += poisson1(gen);
+    for (std::uint64_t i = 0; i < n; ++i) k += invert(t.cdf[1], uniform01(gen), 40);
     return k;
   }
   return invert(t.cdf[n], uniform01(gen), poisson_steps);
@@ -318,6 +314,7 @@ BootstrapResult bootstrap_metrics_of_cells(std::span<const double> p, std::span<
       std::vector<double> w, score, wy, wsum;
       std::vector<BinSums> sums;
     };
+    const PoissonTables& poisson = poisson_tables();
     for_each_replicate<Buffers>(R, options.threads, [&](std::size_t r, Buffers& buf) {
       buf.w.resize(cells);
       buf.score.resize(groups);
@@ -330,7 +327,7 @@ BootstrapResult bootstrap_metrics_of_cells(std::span<const double> p, std::span<
       for (std::size_t g = 0; g < groups; ++g) {
         double pos = 0.0, neg = 0.0, wsum = 0.0;
         for (std::size_t c = group[g]; c < group[g + 1]; ++c) {
-          const double t = static_cast<double>(poisson_n(gen, count[c]));
+          const double t = static_cast<double>(poisson_n(gen, count[c], poisson));
           const double wc = base[c] * t;
           // The sum of the rows' squared weights given the cell's total t:
           // each of the t draws falls on one of the cell's rows at random,
@@ -382,13 +379,14 @@ BootstrapResult bootstrap_metrics_of_cells(std::span<const double> p, std::span<
       area[r] = !(positives > 0.0) || !(negatives_below > 0.0) ? nan : wins / (positives * negatives_below);
     });
   } else {
+    const PoissonTables& poisson = poisson_tables();
     for_each_replicate(R, options.threads, [&](std::size_t r, std::vector<double>& scratch) {
       scratch.resize(2 * cells);
       const std::span<double> w(scratch.data(), cells), w_sq(scratch.data() + cells, cells);
       std::mt19937_64 gen = replicate_generator(options.seed, r);
       double total = 0.0, squared = 0.0;
       for (std::size_t c = 0; c < cells; ++c) {
-        const double t = static_cast<double>(poisson_n(gen, count[c]));
+        const double t = static_cast<double>(poisson_n(gen, count[c], poisson));
         w[c] = base[c] * t;
         // As above: the expected sum of the rows' squared weights.
         w_sq[c] = base[c] * base[c] * (t + t * (t - 1.0) / static_cast<double>(count[c]));
