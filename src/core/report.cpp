@@ -89,7 +89,8 @@ class StepIndex {
 // the block to its left, or the first, as pav_values does) rather than from
 // a vector of them. The log-loss terms of the recalibrated forecast and of
 // the base rate take few values, so those of labels 0 and 1 are computed
-// once: the same terms added in the same order, so the same numbers.
+// once: the same terms added in the same order, so the same numbers. The
+// log loss (log_loss's sums) is taken in the same pass, from the same terms.
 // `total` and `positives` are the rows' sums in row order.
 void corp_of_rows(ScoreSummary& s, const std::vector<PavBlock>& curve, std::span<const double> forecast,
                   std::span<const double> label, std::span<const double> weight, double total, double positives) {
@@ -104,10 +105,10 @@ void corp_of_rows(ScoreSummary& s, const std::vector<PavBlock>& curve, std::span
     block[j] = {curve[j].value, log_loss_term(curve[j].value, 0.0), log_loss_term(curve[j].value, 1.0)};
   if (curve.empty()) block[0] = {0.0, log_loss_term(0.0, 0.0), log_loss_term(0.0, 1.0)};
   const double clim[2] = {log_loss_term(rate, 0.0), log_loss_term(rate, 1.0)};
-  double bx = 0.0, bp = 0.0, bc = 0.0, lx = 0.0, lp = 0.0, lc = 0.0;
+  double bx = 0.0, bp = 0.0, bc = 0.0, lx = 0.0, lp = 0.0, lc = 0.0, log_sum = 0.0, log_total = 0.0;
   for (std::size_t i = 0; i < forecast.size(); ++i) {
     const double w = detail::weight_at(weight, i);
-    if (w == 0.0) continue;  // such rows have no PAV value of their own
+    if (w == 0.0) continue;  // such rows have no PAV value of their own (nor a log loss)
     const double y = label[i], x = forecast[i];
     const std::array<double, 3>& b = block[curve.empty() ? 0 : step(x)];
     const double r = b[0];
@@ -116,12 +117,17 @@ void corp_of_rows(ScoreSummary& s, const std::vector<PavBlock>& curve, std::span
     bx += w * (x - y) * (x - y);
     bp += w * (r - y) * (r - y);
     bc += w * (rate - y) * (rate - y);
-    lx += w * log_loss_term(x, y);
+    const double log_term = log_loss_term(x, y);
+    log_sum += w * log_term;
+    log_total += w;
+    lx += w * log_term;
     lp += w * (binary ? b[1 + l] : log_loss_term(r, y));
     lc += w * (binary ? clim[l] : log_loss_term(rate, y));
   }
   s.corp_brier = corp_terms(bx, bp, bc, total);
   s.corp_log_loss = corp_terms(lx, lp, lc, total);
+  detail::require_positive_total("log_loss", log_total);
+  s.log_loss = log_sum / log_total;
 }
 
 // The equal-mass binning of make_binning over the rows of `cells` (their
@@ -247,7 +253,6 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
   s.observed_rate = s.positives / s.weight;
   s.mean_forecast = t.weighted_forecast / s.weight;
   s.brier = brier_score(f, y, w);
-  s.log_loss = log_loss(f, y, w);
   s.calibration_in_the_large = s.mean_forecast - s.observed_rate;
 
   // One sort of the rows into one cell per distinct forecast (unless the
