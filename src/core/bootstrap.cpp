@@ -74,9 +74,11 @@ struct PoissonTables {
   }
 };
 
-// The first k with u < cdf[k], at most `last` (where inversion stops).
-inline std::uint64_t invert(const std::vector<double>& cdf, double u, std::size_t last) noexcept {
-  std::size_t k = 0;
+// The first k >= `from` with u < cdf[k], at most `last` (where inversion
+// stops), given u >= cdf[k] below `from`.
+inline std::uint64_t invert_from(const std::vector<double>& cdf, double u, std::size_t from,
+                                 std::size_t last) noexcept {
+  std::size_t k = from;
   while (k < last && u >= cdf[k]) ++k;
   return k;
 }
@@ -86,19 +88,29 @@ const PoissonTables& poisson_tables() {
   return t;
 }
 
+// Poisson(1) from its table: the distribution function does not fall, so
+// the k with u >= cdf[k] are a prefix, and for the first eight they are
+// counted without branches (u lies beyond cdf[7] about once in 10^5 draws).
+inline std::uint64_t invert1(const std::vector<double>& cdf, double u) noexcept {
+  std::uint64_t k = 0;
+  for (std::size_t j = 0; j < 8; ++j) k += u >= cdf[j] ? 1 : 0;
+  if (k == 8) return invert_from(cdf, u, 8, 40);
+  return k;
+}
+
 // Poisson(n): the total count of n rows that each draw Poisson(1), which is
 // what the bootstrap needs for n tied rows of equal weight. By inversion for
 // n up to 64 (e^-64 is far from underflow; past mean + 40 sd the remaining
 // mass is below the spacing of u), else as the sum of n Poisson(1). `t` is
 // poisson_tables(), looked up once by the caller.
 inline std::uint64_t poisson_n(std::mt19937_64& gen, std::uint64_t n, const PoissonTables& t) noexcept {
-  if (n == 1) return invert(t.cdf[1], uniform01(gen), 40);
+  if (n == 1) return invert1(t.cdf[1], uniform01(gen));
   if (n > 64) {
     std::uint64_t k = 0;
-    for (std::uint64_t i = 0; i < n; ++i) k += invert(t.cdf[1], uniform01(gen), 40);
+    for (std::uint64_t i = 0; i < n; ++i) k += invert1(t.cdf[1], uniform01(gen));
     return k;
   }
-  return invert(t.cdf[n], uniform01(gen), poisson_steps);
+  return invert_from(t.cdf[n], uniform01(gen), 0, poisson_steps);
 }
 
 // Binomial(n, f): how many of n rows of forecast f draw a positive label,
