@@ -139,12 +139,24 @@ struct BinomialCell {
     const double u = uniform01(gen);
     double term = start, cdf = term;
     std::uint64_t k = 0;
+    const double* q = quotients()[n].data();  // (n - k) / (k + 1), divided once
     while (u >= cdf && k < n) {
-      term *= static_cast<double>(n - k) / static_cast<double>(k + 1) * ratio;
+      term *= q[k] * ratio;
       ++k;
       cdf += term;
     }
     return flip ? n - k : k;
+  }
+  // q[n][k] = (n - k) / (k + 1) for n <= 64, k < n: the same quotients the
+  // inversion's steps multiply by, divided once rather than at every step.
+  static const std::array<std::array<double, 64>, 65>& quotients() noexcept {
+    static const auto table = [] {
+      std::array<std::array<double, 64>, 65> q{};
+      for (std::uint64_t n = 0; n <= 64; ++n)
+        for (std::uint64_t k = 0; k < n; ++k) q[n][k] = static_cast<double>(n - k) / static_cast<double>(k + 1);
+      return q;
+    }();
+    return table;
   }
 };
 
