@@ -262,9 +262,28 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
   if (!column.cells) made = make_forecast_cells(f, y, w);
   const ForecastCells& cells = column.cells ? *column.cells : made;
   s.auc = auc_cells(cells.positives, cells.negatives);
+
+  // Each binning made once, and its sums taken once.
+  Binning width = make_binning(f, w, BinningKind::equal_width, o.bins);
+  const std::vector<BinSums> width_sums = bin_sums(f, y, w, width);
+  std::vector<std::uint32_t> mass_cell_bin;
+  Binning mass = mass_binning_of_rows(cells, f, t.weight, o.bins, &mass_cell_bin);
+  const std::vector<BinSums> mass_sums = bin_sums(f, y, w, mass);
+  // Only the chosen binning's row labels are needed from here on.
+  std::vector<std::uint32_t>().swap(o.binning == BinningKind::equal_mass ? width.bin_of_row : mass.bin_of_row);
+  const Binning& binning = o.binning == BinningKind::equal_mass ? mass : width;
+  const std::vector<BinSums>& sums = o.binning == BinningKind::equal_mass ? mass_sums : width_sums;
+  if (o.hl_groups == o.bins) {
+    s.hosmer_lemeshow = hosmer_lemeshow(mass_sums, o.hl_groups);
+  } else {
+    const Binning groups = mass_binning_of_rows(cells, f, t.weight, o.hl_groups);
+    s.hosmer_lemeshow = hosmer_lemeshow(bin_sums(f, y, w, groups), o.hl_groups);
+  }
+
   // The calibration regression (Newton steps over the cells) reads only the
   // cells, so it runs beside the row passes below unless one thread is
-  // asked for; its numbers do not depend on it.
+  // asked for; its numbers do not depend on it. It starts once the rows'
+  // second binning is released, so that its buffers do not add to that.
   std::future<CalibrationRegression> regression;
   if (o.threads != 1)
     regression = std::async(std::launch::async, [&cells] { return calibration_regression(cells); });
@@ -282,27 +301,10 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
   // forecast for the CORP sums (taken in row order, as corp_decomposition does).
   s.pav_curve = pav_fit_cells(cells.forecast, cells.positives, cells.weight);
   corp_of_rows(s, s.pav_curve, f, y, w, t.weight, t.positives);
-
-  // Each binning made once, and its sums taken once.
-  Binning width = make_binning(f, w, BinningKind::equal_width, o.bins);
-  const std::vector<BinSums> width_sums = bin_sums(f, y, w, width);
-  std::vector<std::uint32_t> mass_cell_bin;
-  Binning mass = mass_binning_of_rows(cells, f, t.weight, o.bins, &mass_cell_bin);
-  const std::vector<BinSums> mass_sums = bin_sums(f, y, w, mass);
-  // Only the chosen binning's row labels are needed from here on.
-  std::vector<std::uint32_t>().swap(o.binning == BinningKind::equal_mass ? width.bin_of_row : mass.bin_of_row);
-  const Binning& binning = o.binning == BinningKind::equal_mass ? mass : width;
-  const std::vector<BinSums>& sums = o.binning == BinningKind::equal_mass ? mass_sums : width_sums;
   s.murphy = murphy_decomposition(f, y, w, binning, sums, s.brier);
   s.table = reliability_table(binning, sums, o.confidence);
   s.ece_equal_width = calibration_error(width_sums, BinningKind::equal_width);
   s.ece_equal_mass = calibration_error(mass_sums, BinningKind::equal_mass);
-  if (o.hl_groups == o.bins) {
-    s.hosmer_lemeshow = hosmer_lemeshow(mass_sums, o.hl_groups);
-  } else {
-    const Binning groups = mass_binning_of_rows(cells, f, t.weight, o.hl_groups);
-    s.hosmer_lemeshow = hosmer_lemeshow(bin_sums(f, y, w, groups), o.hl_groups);
-  }
   s.spiegelhalter = spiegelhalter_z(f, y, w);
   s.histogram = forecast_histogram(f, w, o.histogram_bins);
   if (regression.valid()) s.regression = regression.get();
