@@ -35,7 +35,9 @@ struct ReportOptions {
   double min_segment_weight = 100.0;               // smaller segments say "too few rows"
   double segment_alpha = 0.05;                     // family-wise level of the segment flags
   std::size_t histogram_bins = 50;                 // equal-width forecast histogram (for charts)
-  std::size_t threads = 0;                         // bootstrap threads (0: one per core); never changes a number
+  // Bootstrap threads (0: one per core); with 1 the calibration regression
+  // also stays on the calling thread. Never changes a number.
+  std::size_t threads = 0;
 };
 
 // One forecast column on one set of rows.
@@ -170,6 +172,12 @@ std::string_view gate_comparison(const GateResult& result) noexcept;
 struct ForecastColumn {
   std::string name;
   std::span<const double> forecast;  // probabilities in [0, 1]
+  // May be null. Else the column's cells already counted (say while the
+  // rows were read), equal to make_forecast_cells(forecast, label, weight)
+  // except that `order` and `first` may be empty: only for unweighted rows
+  // with labels 0 or 1 and no forecast -0, where every cell sum is a count.
+  // build_report then does not sort the rows.
+  const ForecastCells* cells = nullptr;
 };
 
 // Computes the whole report. `label` 0/1, `weight` empty or one per row,

@@ -238,7 +238,7 @@ io::LabelledRows read_rows_with_progress(const std::string& what, const InputOpt
 }
 
 io::LabelledRows read_and_tally_with_progress(const std::string& what, const InputOptions& o,
-                                              const io::LabelledColumns& columns, Tally& sums) {
+                                              const io::LabelledColumns& columns, Tally& sums, bool keep_rows) {
   // The reading thread parses; this worker counts the blocks it is handed.
   // A few blocks may wait between them, so memory stays a few blocks.
   struct Block {
@@ -282,12 +282,17 @@ io::LabelledRows read_and_tally_with_progress(const std::string& what, const Inp
     counter.join();
   };
   io::LabelledRows rows;
+  std::vector<double> kept_score, kept_label;
   try {
     Progress progress(what, o.quiet);
     rows = io::read_labelled(
         o.file, with_missing_policy(columns, o), label_rule(o), parse_separator(o.separator),
         [&progress](std::uint64_t r, std::uint64_t b, std::optional<std::uint64_t> t) { progress.update(r, b, t); },
         [&](std::span<const double> score, std::span<const double> label) {
+          if (keep_rows) {
+            kept_score.insert(kept_score.end(), score.begin(), score.end());
+            kept_label.insert(kept_label.end(), label.begin(), label.end());
+          }
           Block b{{score.begin(), score.end()}, {label.begin(), label.end()}};
           std::unique_lock lock(mutex);
           changed.wait(lock, [&] { return waiting.size() < max_waiting || failed; });
@@ -304,6 +309,10 @@ io::LabelledRows read_and_tally_with_progress(const std::string& what, const Inp
   stop();
   if (failure) std::rethrow_exception(failure);
   builder.finish(sums);
+  if (keep_rows) {
+    rows.scores.at(0) = std::move(kept_score);
+    rows.label = std::move(kept_label);
+  }
   return rows;
 }
 

@@ -116,9 +116,12 @@ io::LabelledRows read_rows_with_progress(const std::string& what, const InputOpt
 // while the next block is parsed: `sums` gets score, count, negative and
 // positive exactly as tally_scores on the rows gives them (counts, so the
 // blocks and the threads leave no trace). The returned rows hold every
-// total, name, range and the hash, but no per-row vectors.
+// total, name, range and the hash, but no per-row vectors, unless
+// `keep_rows`: then they hold the score and label of every row as well
+// (copied on the reading thread as each block is handed over).
 io::LabelledRows read_and_tally_with_progress(const std::string& what, const InputOptions& options,
-                                              const io::LabelledColumns& columns, Tally& sums);
+                                              const io::LabelledColumns& columns, Tally& sums,
+                                              bool keep_rows = false);
 
 // The provenance of an artifact fitted on `rows` (the first score column).
 Provenance provenance_of(const io::LabelledRows& rows, const InputOptions& options, bool no_timestamp);

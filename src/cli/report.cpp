@@ -2,6 +2,7 @@
 // labelled rows, for a terminal, a pipeline gate and a review page.
 #include <unistd.h>
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
@@ -361,8 +362,17 @@ int run_report(const ReportCliOptions& o) {
           MapOrigin{t.score_column, o.maps[m], std::string(artifacts[m].map->kind())};
     return emit_report(o, report);
   }
+  // One unweighted score column without segments: its cells are counted on
+  // a second thread while the reader parses (the cell sums are then counts,
+  // so this leaves no trace in any figure), and the report does not sort
+  // the rows.
+  const bool count_while_reading =
+      o.scores.size() == 1 && artifacts.empty() && o.input.weight.empty() && o.by.empty();
+  Tally counted;
   const io::LabelledRows rows = [&] {
     try {
+      if (count_while_reading)
+        return read_and_tally_with_progress("plumb report: reading", o.input, columns, counted, true);
       return read_rows_with_progress("plumb report: reading", o.input, columns);
     } catch (const Error& e) {
       // A map's own column is missing: say how to point the map at another.
@@ -379,6 +389,21 @@ int run_report(const ReportCliOptions& o) {
   std::vector<ForecastColumn> forecasts;
   std::vector<std::string> extra_cautions;
   for (std::size_t k = 0; k < o.scores.size(); ++k) forecasts.push_back({rows.score_columns[k], rows.scores[k]});
+  // The counted cells stand for the rows' cells unless a forecast is -0
+  // (a cell's forecast is its first row's value, and the count keeps +0).
+  ForecastCells counted_cells;
+  if (count_while_reading &&
+      std::none_of(rows.scores[0].begin(), rows.scores[0].end(), [](double s) { return s == 0.0 && std::signbit(s); })) {
+    counted_cells.forecast = std::move(counted.score);
+    counted_cells.positives = std::move(counted.positive);
+    counted_cells.negatives = std::move(counted.negative);
+    counted_cells.rows = std::move(counted.count);
+    counted_cells.weight.resize(counted_cells.size());
+    for (std::size_t c = 0; c < counted_cells.size(); ++c)
+      counted_cells.weight[c] = static_cast<double>(counted_cells.rows[c]);
+    counted_cells.weight_sq = counted_cells.weight;  // every row's square is 1
+    forecasts[0].cells = &counted_cells;
+  }
   for (std::size_t m = 0; m < artifacts.size(); ++m) {
     const std::size_t k = o.scores.size() + m;
     const CalibrationMap& map = *artifacts[m].map;

@@ -36,54 +36,81 @@ double uniform01(std::mt19937_64& gen) noexcept {
   return static_cast<double>(gen() >> 11) * 0x1p-53;
 }
 
-// Poisson(1) by inversion of its distribution function: written out (rather
-// than std::poisson_distribution) so that every standard library gives the
-// same counts for the same seed.
-unsigned poisson1(std::mt19937_64& gen) noexcept {
-  const double u = uniform01(gen);
-  double term = std::exp(-1.0), cdf = term;
-  unsigned k = 0;
-  while (u >= cdf && k < 40) {
-    ++k;
-    term /= k;
-    cdf += term;
+// Poisson(n) for n up to 64 by inversion of its distribution function:
+// written out (rather than std::poisson_distribution) so that every standard
+// library gives the same counts for the same seed. The distribution
+// function's values are summed once, term by term in the order inversion
+// adds them (for n = 1 each term the last divided by k; beyond, the last
+// times n * (1/k), the reciprocals from a table: a division per step would
+// cost more than the rest of the step), so a draw is a search of a table:
+// the same counts as summing the terms at each draw.
+constexpr std::size_t poisson_steps = 512;  // beyond mean + 40 sd for every n <= 64
+struct PoissonTables {
+  // cdf[n][k] = P(X <= k) as inversion adds the terms up (k <= 40 for
+  // n = 1, k <= poisson_steps beyond).
+  std::array<std::vector<double>, 65> cdf;
+  PoissonTables() {
+    std::array<double, poisson_steps + 1> reciprocal{};
+    for (std::size_t k = 1; k <= poisson_steps; ++k) reciprocal[k] = 1.0 / static_cast<double>(k);
+    {
+      double term = std::exp(-1.0), sum = term;
+      cdf[1].push_back(sum);
+      for (unsigned k = 1; k <= 40; ++k) {
+        term /= k;
+        sum += term;
+        cdf[1].push_back(sum);
+      }
+    }
+    for (std::uint64_t n = 2; n <= 64; ++n) {
+      const double lambda = static_cast<double>(n);
+      double term = std::exp(-static_cast<double>(n)), sum = term;
+      cdf[n].push_back(sum);
+      for (std::size_t k = 1; k <= poisson_steps; ++k) {
+        term *= lambda * reciprocal[k];
+        sum += term;
+        cdf[n].push_back(sum);
+      }
+    }
   }
+};
+
+// The first k >= `from` with u < cdf[k], at most `last` (where inversion
+// stops), given u >= cdf[k] below `from`.
+inline std::uint64_t invert_from(const std::vector<double>& cdf, double u, std::size_t from,
+                                 std::size_t last) noexcept {
+  std::size_t k = from;
+  while (k < last && u >= cdf[k]) ++k;
+  return k;
+}
+
+const PoissonTables& poisson_tables() {
+  static const PoissonTables t;
+  return t;
+}
+
+// Poisson(1) from its table: the distribution function does not fall, so
+// the k with u >= cdf[k] are a prefix, and for the first eight they are
+// counted without branches (u lies beyond cdf[7] about once in 10^5 draws).
+inline std::uint64_t invert1(const std::vector<double>& cdf, double u) noexcept {
+  std::uint64_t k = 0;
+  for (std::size_t j = 0; j < 8; ++j) k += u >= cdf[j] ? 1 : 0;
+  if (k == 8) return invert_from(cdf, u, 8, 40);
   return k;
 }
 
 // Poisson(n): the total count of n rows that each draw Poisson(1), which is
 // what the bootstrap needs for n tied rows of equal weight. By inversion for
-// n up to 64 (e^-64 is far from underflow), else as the sum of n Poisson(1).
-std::uint64_t poisson_n(std::mt19937_64& gen, std::uint64_t n) noexcept {
-  if (n == 1) return poisson1(gen);
+// n up to 64 (e^-64 is far from underflow; past mean + 40 sd the remaining
+// mass is below the spacing of u), else as the sum of n Poisson(1). `t` is
+// poisson_tables(), looked up once by the caller.
+inline std::uint64_t poisson_n(std::mt19937_64& gen, std::uint64_t n, const PoissonTables& t) noexcept {
+  if (n == 1) return invert1(t.cdf[1], uniform01(gen));
   if (n > 64) {
     std::uint64_t k = 0;
-    for (std::uint64_t i = 0; i < n; ++i) k += poisson1(gen);
+    for (std::uint64_t i = 0; i < n; ++i) k += invert1(t.cdf[1], uniform01(gen));
     return k;
   }
-  // e^-n and 1/k once, not once per cell and replicate (a division per step
-  // would cost more than the rest of the step).
-  constexpr std::size_t steps = 512;  // beyond mean + 40 sd for every n <= 64
-  struct Tables {
-    std::array<double, 65> exp_minus;
-    std::array<double, steps + 1> reciprocal;
-  };
-  static const Tables t = [] {
-    Tables out{};
-    for (std::size_t i = 0; i < out.exp_minus.size(); ++i) out.exp_minus[i] = std::exp(-static_cast<double>(i));
-    for (std::size_t k = 1; k <= steps; ++k) out.reciprocal[k] = 1.0 / static_cast<double>(k);
-    return out;
-  }();
-  const double lambda = static_cast<double>(n), u = uniform01(gen);
-  double term = t.exp_minus[n], cdf = term;
-  std::uint64_t k = 0;
-  // Past mean + 40 sd the remaining mass is below the spacing of u.
-  while (u >= cdf && k < steps) {
-    ++k;
-    term *= lambda * t.reciprocal[k];
-    cdf += term;
-  }
-  return k;
+  return invert_from(t.cdf[n], uniform01(gen), 0, poisson_steps);
 }
 
 // Binomial(n, f): how many of n rows of forecast f draw a positive label,
@@ -112,12 +139,24 @@ struct BinomialCell {
     const double u = uniform01(gen);
     double term = start, cdf = term;
     std::uint64_t k = 0;
+    const double* q = quotients()[n].data();  // (n - k) / (k + 1), divided once
     while (u >= cdf && k < n) {
-      term *= static_cast<double>(n - k) / static_cast<double>(k + 1) * ratio;
+      term *= q[k] * ratio;
       ++k;
       cdf += term;
     }
     return flip ? n - k : k;
+  }
+  // q[n][k] = (n - k) / (k + 1) for n <= 64, k < n: the same quotients the
+  // inversion's steps multiply by, divided once rather than at every step.
+  static const std::array<std::array<double, 64>, 65>& quotients() noexcept {
+    static const auto table = [] {
+      std::array<std::array<double, 64>, 65> q{};
+      for (std::uint64_t n = 0; n <= 64; ++n)
+        for (std::uint64_t k = 0; k < n; ++k) q[n][k] = static_cast<double>(n - k) / static_cast<double>(k + 1);
+      return q;
+    }();
+    return table;
   }
 };
 
@@ -154,14 +193,14 @@ BootstrapInterval percentile_interval(std::vector<double> values, double confide
 }
 
 // Runs body(r, scratch) for r in [0, replicates) on up to `threads` threads
-// (0: one per core), each thread with its own scratch vector. Replicates are
+// (0: one per core), each thread with its own scratch (a vector by default). Replicates are
 // dealt in interleaved order; the first exception is rethrown.
-template <class Body>
+template <class Scratch = std::vector<double>, class Body>
 void for_each_replicate(std::size_t replicates, std::size_t threads, Body body) {
   if (threads == 0) threads = std::max(1u, std::thread::hardware_concurrency());
   threads = std::min(threads, replicates);
   if (threads <= 1) {
-    std::vector<double> scratch;
+    Scratch scratch;
     for (std::size_t r = 0; r < replicates; ++r) body(r, scratch);
     return;
   }
@@ -170,7 +209,7 @@ void for_each_replicate(std::size_t replicates, std::size_t threads, Body body) 
   for (std::size_t t = 0; t < threads; ++t)
     pool.emplace_back([&, t] {
       try {
-        std::vector<double> scratch;
+        Scratch scratch;
         for (std::size_t r = t; r < replicates; r += threads) body(r, scratch);
       } catch (...) {
         errors[t] = std::current_exception();
@@ -277,38 +316,123 @@ BootstrapResult bootstrap_metrics_of_cells(std::span<const double> p, std::span<
   const std::size_t R = options.replicates;
   std::vector<double> ece(R), l2(R), brier(R), mcb(R), area(R);
   // Replicate r writes only slot r of each vector and uses only its own
-  // generator and weight buffer, so any split of r over threads gives the
-  // same numbers.
-  for_each_replicate(R, options.threads, [&](std::size_t r, std::vector<double>& scratch) {
-    scratch.resize(2 * cells);
-    const std::span<double> w(scratch.data(), cells), w_sq(scratch.data() + cells, cells);
-    std::mt19937_64 gen = replicate_generator(options.seed, r);
-    double total = 0.0, squared = 0.0;
-    for (std::size_t c = 0; c < cells; ++c) {
-      const double t = static_cast<double>(poisson_n(gen, count[c]));
-      w[c] = base[c] * t;
-      // The sum of the rows' squared weights given the cell's total t: each
-      // of the t draws falls on one of the cell's rows at random, so its
-      // expectation is t + t(t - 1)/count (exact for a cell of one row).
-      w_sq[c] = base[c] * base[c] * (t + t * (t - 1.0) / static_cast<double>(count[c]));
-      total += w[c];
-      squared += w[c] * (p[c] - y[c]) * (p[c] - y[c]);
-    }
-    if (!(total > 0.0)) {  // every row drawn zero times: no replicate
-      ece[r] = l2[r] = brier[r] = mcb[r] = area[r] = nan;
-      return;
-    }
-    const Binning binning = make_binning_sorted(p, w, options.binning, options.bins);
-    std::vector<BinSums> sums = bin_sums(p, y, w, binning);
-    for (BinSums& b : sums) b.weight_sq = 0.0;
-    for (std::size_t c = 0; c < cells; ++c) sums[binning.bin_of_row[c]].weight_sq += w_sq[c];
-    const CalibrationError ce = calibration_error(sums, options.binning);
-    ece[r] = ce.ece;
-    l2[r] = ce.l2_debiased;
-    brier[r] = squared / total;
-    mcb[r] = sorted_mcb_brier(p, y, w, total);
-    area[r] = auc_sorted(p, y, w);
-  });
+  // generator and buffers, so any split of r over threads gives the same
+  // numbers.
+  if (options.binning == BinningKind::equal_width) {
+    // Equal-width bins are the cells' own, whatever the draw: one pass per
+    // replicate draws the weights and takes every sum of the binning, the
+    // AUC and PAV's per-forecast sums (each in cell order, as bin_sums,
+    // auc_sorted and pav_fit_sorted add them), PAV runs over the distinct
+    // forecasts, and a second pass takes the CORP sum.
+    if (options.bins == 0)
+      throw Error(ErrorKind::usage, "the number of bins must be positive", {}, "0", "1 or more");
+    std::vector<std::uint32_t> bin(cells);
+    for (std::size_t c = 0; c < cells; ++c) bin[c] = equal_width_bin(p[c], options.bins);
+    // Cells [group[g], group[g + 1]) share one forecast.
+    std::vector<std::size_t> group;
+    for (std::size_t c = 0; c < cells; ++c)
+      if (c == 0 || p[c] != p[c - 1]) group.push_back(c);
+    const std::size_t groups = group.size();
+    group.push_back(cells);
+    struct Buffers {
+      std::vector<double> w, score, wy, wsum;
+      std::vector<BinSums> sums;
+    };
+    const PoissonTables& poisson = poisson_tables();
+    for_each_replicate<Buffers>(R, options.threads, [&](std::size_t r, Buffers& buf) {
+      buf.w.resize(cells);
+      buf.score.resize(groups);
+      buf.wy.resize(groups);
+      buf.wsum.resize(groups);
+      buf.sums.assign(options.bins, BinSums{});
+      std::mt19937_64 gen = replicate_generator(options.seed, r);
+      double total = 0.0, squared = 0.0;
+      double negatives_below = 0.0, wins = 0.0, positives = 0.0;
+      for (std::size_t g = 0; g < groups; ++g) {
+        double pos = 0.0, neg = 0.0, wsum = 0.0;
+        for (std::size_t c = group[g]; c < group[g + 1]; ++c) {
+          const double t = static_cast<double>(poisson_n(gen, count[c], poisson));
+          const double wc = base[c] * t;
+          // The sum of the rows' squared weights given the cell's total t:
+          // each of the t draws falls on one of the cell's rows at random,
+          // so its expectation is t + t(t - 1)/count (exact for a cell of
+          // one row; for t <= 1 the correction is 0 and skipped).
+          const double wc_sq = t > 1.0 ? base[c] * base[c] * (t + t * (t - 1.0) / static_cast<double>(count[c]))
+                                       : base[c] * base[c] * t;
+          buf.w[c] = wc;
+          total += wc;
+          squared += wc * (p[c] - y[c]) * (p[c] - y[c]);
+          BinSums& s = buf.sums[bin[c]];
+          s.weight += wc;
+          s.weight_sq += wc_sq;
+          s.forecast += wc * p[c];
+          s.label += wc * y[c];
+          pos += wc * y[c];
+          neg += wc * (1.0 - y[c]);
+          wsum += wc;
+        }
+        // Within a tie group every positive-negative pair counts one half.
+        wins += pos * (negatives_below + 0.5 * neg);
+        negatives_below += neg;
+        positives += pos;
+        buf.score[g] = p[group[g]];
+        buf.wy[g] = pos;
+        buf.wsum[g] = wsum;
+      }
+      if (!(total > 0.0)) {  // every row drawn zero times: no replicate
+        ece[r] = l2[r] = brier[r] = mcb[r] = area[r] = nan;
+        return;
+      }
+      const CalibrationError ce = calibration_error(buf.sums, BinningKind::equal_width);
+      ece[r] = ce.ece;
+      l2[r] = ce.l2_debiased;
+      brier[r] = squared / total;
+      // CORP miscalibration of the Brier score: the squared error before
+      // (`squared`, the same sum) and after PAV's recalibration.
+      const std::vector<PavBlock> blocks = pav_fit_cells(buf.score, buf.wy, buf.wsum);
+      double recalibrated = 0.0;
+      std::size_t j = 0;
+      for (std::size_t c = 0; c < cells; ++c) {
+        const double wc = buf.w[c];
+        if (wc == 0.0) continue;
+        while (j + 1 < blocks.size() && blocks[j].score_hi < p[c]) ++j;
+        const double v = blocks[j].value;
+        recalibrated += wc * (v - y[c]) * (v - y[c]);
+      }
+      mcb[r] = (squared - recalibrated) / total;
+      area[r] = !(positives > 0.0) || !(negatives_below > 0.0) ? nan : wins / (positives * negatives_below);
+    });
+  } else {
+    const PoissonTables& poisson = poisson_tables();
+    for_each_replicate(R, options.threads, [&](std::size_t r, std::vector<double>& scratch) {
+      scratch.resize(2 * cells);
+      const std::span<double> w(scratch.data(), cells), w_sq(scratch.data() + cells, cells);
+      std::mt19937_64 gen = replicate_generator(options.seed, r);
+      double total = 0.0, squared = 0.0;
+      for (std::size_t c = 0; c < cells; ++c) {
+        const double t = static_cast<double>(poisson_n(gen, count[c], poisson));
+        w[c] = base[c] * t;
+        // As above: the expected sum of the rows' squared weights.
+        w_sq[c] = base[c] * base[c] * (t + t * (t - 1.0) / static_cast<double>(count[c]));
+        total += w[c];
+        squared += w[c] * (p[c] - y[c]) * (p[c] - y[c]);
+      }
+      if (!(total > 0.0)) {
+        ece[r] = l2[r] = brier[r] = mcb[r] = area[r] = nan;
+        return;
+      }
+      const Binning binning = make_binning_sorted(p, w, options.binning, options.bins);
+      std::vector<BinSums> sums = bin_sums(p, y, w, binning);
+      for (BinSums& b : sums) b.weight_sq = 0.0;
+      for (std::size_t c = 0; c < cells; ++c) sums[binning.bin_of_row[c]].weight_sq += w_sq[c];
+      const CalibrationError ce = calibration_error(sums, options.binning);
+      ece[r] = ce.ece;
+      l2[r] = ce.l2_debiased;
+      brier[r] = squared / total;
+      mcb[r] = sorted_mcb_brier(p, y, w, total);
+      area[r] = auc_sorted(p, y, w);
+    });
+  }
   BootstrapResult out;
   out.ece = percentile_interval(std::move(ece), options.confidence);
   out.l2_debiased = percentile_interval(std::move(l2), options.confidence);

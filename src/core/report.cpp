@@ -4,6 +4,7 @@
 #include <array>
 #include <cmath>
 #include <cstdio>
+#include <future>
 #include <limits>
 #include <numeric>
 
@@ -43,6 +44,149 @@ constexpr std::array<GateMetric, 2> older_gate_table{{
 constexpr double cases_per_bin = 10.0;
 // Share of forecasts at exactly 0 or 1 above which the report cautions.
 constexpr double extreme_share = 0.01;
+
+// The step a value falls in, of steps starting at ascending `start`: the
+// last k with start[k] <= value, or 0 when there is none (a value below the
+// first step belongs to it). A table over 2^16 equal slices of [0, 1] holds
+// the step at each slice's left end, so a value costs one table read and a
+// short search among the steps that start within its slice: the rows find
+// their cell's bin or PAV value in one sequential pass, without the sorted
+// row order. Values must lie in [0, 1].
+class StepIndex {
+ public:
+  explicit StepIndex(std::vector<double> start) : start_(std::move(start)), table_(slices + 1, 0) {
+    std::size_t k = 0;
+    for (std::size_t b = 0; b <= slices; ++b) {
+      const double x = static_cast<double>(b) / static_cast<double>(slices);
+      while (k + 1 < start_.size() && start_[k + 1] <= x) ++k;
+      table_[b] = k;
+    }
+  }
+  std::size_t operator()(double value) const noexcept {
+    // value * 2^16 is exact, so slice b holds value: its step lies in
+    // [table_[b], table_[b + 1]].
+    const std::size_t b = std::min(slices - 1, static_cast<std::size_t>(value * static_cast<double>(slices)));
+    std::size_t k = table_[b];
+    const std::size_t last = table_[b + 1];
+    if (last - k > 8) {
+      const auto from = start_.begin() + static_cast<std::ptrdiff_t>(k) + 1;
+      const auto to = start_.begin() + static_cast<std::ptrdiff_t>(last) + 1;
+      return static_cast<std::size_t>(std::upper_bound(from, to, value) - start_.begin()) - 1;
+    }
+    while (k < last && start_[k + 1] <= value) ++k;
+    return k;
+  }
+
+ private:
+  static constexpr std::size_t slices = std::size_t{1} << 16;
+  std::vector<double> start_;
+  std::vector<std::size_t> table_;
+};
+
+// The CORP sums of corp_decomposition_given over the rows in row order, each
+// row's recalibrated forecast read from the PAV curve by its forecast (the
+// block whose range holds it; a forecast of zero weight with no block takes
+// the block to its left, or the first, as pav_values does) rather than from
+// a vector of them. The log-loss terms of the recalibrated forecast and of
+// the base rate take few values, so those of labels 0 and 1 are computed
+// once: the same terms added in the same order, so the same numbers. The
+// log loss (log_loss's sums) is taken in the same pass, from the same terms.
+// `total` and `positives` are the rows' sums in row order.
+void corp_of_rows(ScoreSummary& s, const std::vector<PavBlock>& curve, std::span<const double> forecast,
+                  std::span<const double> label, std::span<const double> weight, double total, double positives) {
+  detail::require_positive_total("corp_decomposition", total);
+  const double rate = positives / total;
+  std::vector<double> start(curve.size());
+  for (std::size_t j = 0; j < curve.size(); ++j) start[j] = curve[j].score_lo;
+  const StepIndex step(std::move(start));
+  // Per block: its value and its log-loss terms at labels 0 and 1.
+  std::vector<std::array<double, 3>> block(std::max<std::size_t>(curve.size(), 1), {0.0, 0.0, 0.0});
+  for (std::size_t j = 0; j < curve.size(); ++j)
+    block[j] = {curve[j].value, log_loss_term(curve[j].value, 0.0), log_loss_term(curve[j].value, 1.0)};
+  if (curve.empty()) block[0] = {0.0, log_loss_term(0.0, 0.0), log_loss_term(0.0, 1.0)};
+  const double clim[2] = {log_loss_term(rate, 0.0), log_loss_term(rate, 1.0)};
+  double bx = 0.0, bp = 0.0, bc = 0.0, lx = 0.0, lp = 0.0, lc = 0.0, log_sum = 0.0, log_total = 0.0;
+  for (std::size_t i = 0; i < forecast.size(); ++i) {
+    const double w = detail::weight_at(weight, i);
+    if (w == 0.0) continue;  // such rows have no PAV value of their own (nor a log loss)
+    const double y = label[i], x = forecast[i];
+    const std::array<double, 3>& b = block[curve.empty() ? 0 : step(x)];
+    const double r = b[0];
+    const bool binary = y == 0.0 || y == 1.0;
+    const std::size_t l = y == 1.0 ? 1 : 0;
+    bx += w * (x - y) * (x - y);
+    bp += w * (r - y) * (r - y);
+    bc += w * (rate - y) * (rate - y);
+    const double log_term = log_loss_term(x, y);
+    log_sum += w * log_term;
+    log_total += w;
+    lx += w * log_term;
+    lp += w * (binary ? b[1 + l] : log_loss_term(r, y));
+    lc += w * (binary ? clim[l] : log_loss_term(rate, y));
+  }
+  s.corp_brier = corp_terms(bx, bp, bc, total);
+  s.corp_log_loss = corp_terms(lx, lp, lc, total);
+  detail::require_positive_total("log_loss", log_total);
+  s.log_loss = log_sum / log_total;
+}
+
+// The equal-mass binning of make_binning over the rows of `cells` (their
+// weights summed in row order to `total`): each cell's bin in `cell_bin`,
+// then each row's, found from its forecast (the bins follow the forecast,
+// so a row lies in the last non-empty bin that starts at or below it).
+Binning mass_binning_of_rows(const ForecastCells& cells, std::span<const double> forecast, double total,
+                             std::size_t bins, std::vector<std::uint32_t>* cell_bin = nullptr) {
+  if (bins == 0) throw Error(ErrorKind::usage, "the number of bins must be positive", {}, "0", "1 or more");
+  Binning out;
+  out.kind = BinningKind::equal_mass;
+  out.bin_count = bins;
+  out.edge_lo.assign(bins, std::numeric_limits<double>::quiet_NaN());
+  out.edge_hi.assign(bins, std::numeric_limits<double>::quiet_NaN());
+  if (cell_bin) cell_bin->resize(cells.size());
+  double before = 0.0;
+  const double k = static_cast<double>(bins);
+  for (std::size_t c = 0; c < cells.size(); ++c) {
+    const double group = cells.weight[c];
+    const double pos = total > 0.0 ? k * (before + 0.5 * group) / total : 0.0;
+    const auto b = static_cast<std::uint32_t>(std::min(std::floor(pos), k - 1.0));
+    if (cell_bin) (*cell_bin)[c] = b;
+    const double p = cells.forecast[c];
+    if (std::isnan(out.edge_lo[b])) out.edge_lo[b] = p;
+    out.edge_hi[b] = p;
+    before += group;
+  }
+  std::vector<double> start;
+  std::vector<std::uint32_t> bin;
+  for (std::size_t b = 0; b < bins; ++b)
+    if (!std::isnan(out.edge_lo[b])) {
+      start.push_back(out.edge_lo[b]);
+      bin.push_back(static_cast<std::uint32_t>(b));
+    }
+  out.bin_of_row.resize(forecast.size());
+  if (!bin.empty()) {
+    const StepIndex step(std::move(start));
+    for (std::size_t i = 0; i < forecast.size(); ++i) out.bin_of_row[i] = bin[step(forecast[i])];
+  }
+  return out;
+}
+
+// The bootstrap's cells of unweighted rows with labels 0 and 1 from their
+// forecast cells, whose sums are then counts: per distinct forecast its
+// negative rows, then its positive rows (what bootstrap_cells gives).
+BootstrapCells counted_bootstrap_cells(const ForecastCells& cells) {
+  BootstrapCells out;
+  for (std::size_t c = 0; c < cells.size(); ++c) {
+    const double tally[2] = {cells.negatives[c], cells.positives[c]};
+    for (int l = 0; l < 2; ++l) {
+      if (!(tally[l] > 0.0)) continue;
+      out.p.push_back(cells.forecast[c]);
+      out.y.push_back(l);
+      out.base.push_back(1.0);
+      out.count.push_back(static_cast<std::uint64_t>(tally[l]));
+    }
+  }
+  return out;
+}
 
 // The PAV curve's value at each cell's forecast, the cells in forecast
 // order: the block whose range holds the forecast; a cell of zero weight
@@ -109,49 +253,61 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
   s.observed_rate = s.positives / s.weight;
   s.mean_forecast = t.weighted_forecast / s.weight;
   s.brier = brier_score(f, y, w);
-  s.log_loss = log_loss(f, y, w);
   s.calibration_in_the_large = s.mean_forecast - s.observed_rate;
 
-  // One sort of the rows into one cell per distinct forecast; everything
-  // that needs the rows in forecast order reads these.
-  ForecastCells cells = make_forecast_cells(f, y, w);
+  // One sort of the rows into one cell per distinct forecast (unless the
+  // caller counted them already); the rank-based figures read these, and
+  // the rows find their bin and PAV value from their forecast.
+  ForecastCells made;
+  if (!column.cells) made = make_forecast_cells(f, y, w);
+  const ForecastCells& cells = column.cells ? *column.cells : made;
   s.auc = auc_cells(cells.positives, cells.negatives);
-  s.regression = calibration_regression(cells);
-
-  // PAV once, from the cells: the CORP curve, and each row's recalibrated
-  // forecast for the CORP sums (taken in row order, as corp_decomposition does).
-  s.pav_curve = pav_fit_cells(cells.forecast, cells.positives, cells.weight);
-  {
-    const std::vector<double> value = pav_value_of_cells(s.pav_curve, cells.forecast);
-    std::vector<double> recalibrated(f.size());
-    for (std::size_t c = 0; c < cells.size(); ++c)
-      for (std::size_t k = cells.first[c]; k < cells.first[c + 1]; ++k) recalibrated[cells.order[k]] = value[c];
-    const CorpDecomposition corp = corp_decomposition_given(f, y, w, std::move(recalibrated));
-    s.corp_brier = corp.brier;
-    s.corp_log_loss = corp.log_loss;
-  }
 
   // Each binning made once, and its sums taken once.
   Binning width = make_binning(f, w, BinningKind::equal_width, o.bins);
   const std::vector<BinSums> width_sums = bin_sums(f, y, w, width);
-  Binning mass = make_mass_binning_of_cells(cells, t.weight, o.bins);
+  std::vector<std::uint32_t> mass_cell_bin;
+  Binning mass = mass_binning_of_rows(cells, f, t.weight, o.bins, &mass_cell_bin);
   const std::vector<BinSums> mass_sums = bin_sums(f, y, w, mass);
   // Only the chosen binning's row labels are needed from here on.
   std::vector<std::uint32_t>().swap(o.binning == BinningKind::equal_mass ? width.bin_of_row : mass.bin_of_row);
   const Binning& binning = o.binning == BinningKind::equal_mass ? mass : width;
   const std::vector<BinSums>& sums = o.binning == BinningKind::equal_mass ? mass_sums : width_sums;
+  if (o.hl_groups == o.bins) {
+    s.hosmer_lemeshow = hosmer_lemeshow(mass_sums, o.hl_groups);
+  } else {
+    const Binning groups = mass_binning_of_rows(cells, f, t.weight, o.hl_groups);
+    s.hosmer_lemeshow = hosmer_lemeshow(bin_sums(f, y, w, groups), o.hl_groups);
+  }
+
+  // The calibration regression (Newton steps over the cells) reads only the
+  // cells, so it runs beside the row passes below unless one thread is
+  // asked for; its numbers do not depend on it. It starts once the rows'
+  // second binning is released, so that its buffers do not add to that.
+  std::future<CalibrationRegression> regression;
+  if (o.threads != 1)
+    regression = std::async(std::launch::async, [&cells] { return calibration_regression(cells); });
+  else
+    s.regression = calibration_regression(cells);
+  // Joined on every way out of this function, before the cells go.
+  struct Join {
+    std::future<CalibrationRegression>& f;
+    ~Join() {
+      if (f.valid()) f.wait();
+    }
+  } join{regression};
+
+  // PAV once, from the cells: the CORP curve, and each row's recalibrated
+  // forecast for the CORP sums (taken in row order, as corp_decomposition does).
+  s.pav_curve = pav_fit_cells(cells.forecast, cells.positives, cells.weight);
+  corp_of_rows(s, s.pav_curve, f, y, w, t.weight, t.positives);
   s.murphy = murphy_decomposition(f, y, w, binning, sums, s.brier);
   s.table = reliability_table(binning, sums, o.confidence);
   s.ece_equal_width = calibration_error(width_sums, BinningKind::equal_width);
   s.ece_equal_mass = calibration_error(mass_sums, BinningKind::equal_mass);
-  if (o.hl_groups == o.bins) {
-    s.hosmer_lemeshow = hosmer_lemeshow(mass_sums, o.hl_groups);
-  } else {
-    const Binning groups = make_mass_binning_of_cells(cells, t.weight, o.hl_groups);
-    s.hosmer_lemeshow = hosmer_lemeshow(bin_sums(f, y, w, groups), o.hl_groups);
-  }
   s.spiegelhalter = spiegelhalter_z(f, y, w);
   s.histogram = forecast_histogram(f, w, o.histogram_bins);
+  if (regression.valid()) s.regression = regression.get();
   if (o.bootstrap > 0) {
     BootstrapOptions b;
     b.replicates = o.bootstrap;
@@ -163,14 +319,20 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
     // The resampled cells, then (without weights) the band's cells and bin
     // weights; the row order and the rows' bins are released first, as the
     // replicates need only cells.
-    const BootstrapCells resampled = bootstrap_cells(f, y, w, cells);
+    const BootstrapCells resampled =
+        cells.order.empty() ? counted_bootstrap_cells(cells) : bootstrap_cells(f, y, w, cells);
     b.binning = o.binning;
     if (w.empty()) {
-      std::vector<std::uint32_t> band_bin(cells.size());
-      for (std::size_t c = 0; c < cells.size(); ++c) band_bin[c] = binning.bin_of_row[cells.order[cells.first[c]]];
+      std::vector<std::uint32_t> band_bin;
+      if (o.binning == BinningKind::equal_mass) {
+        band_bin = std::move(mass_cell_bin);
+      } else {
+        band_bin.resize(cells.size());
+        for (std::size_t c = 0; c < cells.size(); ++c) band_bin[c] = equal_width_bin(cells.forecast[c], o.bins);
+      }
       std::vector<double> bin_weight(sums.size());
       for (std::size_t i = 0; i < sums.size(); ++i) bin_weight[i] = sums[i].weight;
-      std::vector<std::uint32_t>().swap(cells.order);
+      std::vector<std::uint32_t>().swap(made.order);
       std::vector<std::uint32_t>().swap(o.binning == BinningKind::equal_mass ? mass.bin_of_row : width.bin_of_row);
       s.band = consistency_band_of_cells(cells.forecast, cells.rows, band_bin, bin_weight, b);
     } else {

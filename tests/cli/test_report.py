@@ -84,6 +84,24 @@ class Report(PlumbCase):
         self.assertIsNone(none["scores"][0]["bootstrap"])
         self.assertNotIn("band", none["scores"][0]["reliability_table"]["bins"][0])
 
+    def test_rows_counted_while_read_give_the_figures_of_sorted_rows(self):
+        # One unweighted --score without --by is counted into cells while the
+        # rows are read; with --by the rows are sorted into cells after the
+        # read. Both must give the column the same figures, intervals and
+        # band, number for number (ties at 0.5 and at 0 included; a forecast
+        # written -0 keeps the sorted path, as the counted cells hold +0).
+        for extra in ([], ["-0,0,tiny", "0,1,tiny", "-0,1,tiny"]):
+            if extra:
+                with open(self.path("scored.csv"), "a") as f:
+                    f.write("\n".join(f"z{i},{line}" for i, line in enumerate(extra)) + "\n")
+            for args in (["--bootstrap", "40", "--seed", "3"],
+                         ["--binning", "equal_mass", "--bins", "7", "--groups", "9", "--bootstrap", "30"]):
+                counted = self.json_report("--score", "risk", *args)["scores"][0]
+                sorted_rows = self.json_report("--score", "risk", "--by", "depot", *args)["scores"][0]
+                self.assertEqual(counted.pop("segments"), [])
+                sorted_rows.pop("segments")
+                self.assertEqual(counted, sorted_rows, (extra, args))
+
     def test_gates_fail_exactly_when_crossed(self):
         base = self.json_report("--score", "risk", "--bootstrap", "0")
         ece = base["scores"][0]["calibration_error"]["equal_width"]["ece"]

@@ -275,3 +275,31 @@ TEST_CASE("Report on weighted cells of several rows: the Kish sizes read the cel
   CHECK(std::abs(bin.effective_size - 25.0 / 11.0) <= 1e-15);
   CHECK(std::abs(bin.observed - 0.2) <= 1e-15);
 }
+
+TEST_CASE("Report given counted cells (no row order): the figures of the rows sorted into cells, bit for bit",
+          "[report][cells]") {
+  // What report does for one unweighted column counted while read: the cells
+  // without their row order, so the rows find their bins and PAV values
+  // from their forecast and the bootstrap's cells come from the counts.
+  const Rows r = tied_rows(4000, 53, false, 7);
+  plumb::ForecastCells counted = plumb::make_forecast_cells(r.p, r.y, {});
+  counted.order.clear();
+  counted.first.clear();
+  for (plumb::BinningKind kind : {plumb::BinningKind::equal_width, plumb::BinningKind::equal_mass})
+    for (std::size_t threads : {std::size_t{1}, std::size_t{2}}) {
+      plumb::ReportOptions o;
+      o.bootstrap = 30;
+      o.threads = threads;
+      o.binning = kind;
+      o.bins = 9;
+      o.hl_groups = 7;
+      const plumb::ForecastColumn sorted{"p", r.p};
+      const plumb::ForecastColumn given{"p", r.p, &counted};
+      const plumb::Report a = plumb::build_report(std::span(&sorted, 1), r.y, {}, {}, {}, {}, o);
+      const plumb::Report b = plumb::build_report(std::span(&given, 1), r.y, {}, {}, {}, {}, o);
+      check_same(a.scores[0].overall, b.scores[0].overall, 0.0);
+      CHECK(a.scores[0].overall.regression.slope == b.scores[0].overall.regression.slope);
+      CHECK(a.scores[0].overall.regression.intercept_at_unit_slope ==
+            b.scores[0].overall.regression.intercept_at_unit_slope);
+    }
+}
