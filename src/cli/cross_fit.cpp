@@ -15,6 +15,7 @@
 #include "plumb/error.hpp"
 #include "plumb/maps/fold_average_map.hpp"
 #include "plumb/output.hpp"
+#include "plumb/tally.hpp"
 
 namespace plumb::cli {
 namespace {
@@ -185,10 +186,11 @@ void write_oof(const CrossFitOptions& o, const io::LabelledRows& rows, const Cro
     // Folds read from a column keep its values; made folds are numbered from 1.
     if (r.folds.kind == SplitKind::column) out.write(rows.segment_names[rows.segment[i]]);
     else out.write(std::to_string(r.folds.fold_of_row[i] + 1));
-    for (const Candidate& c : r.candidates) {
+    for (std::size_t c = 0; c < r.candidates.size(); ++c) {
       out.put(d);
-      if (std::isfinite(c.oof[i])) {
-        const auto [end, ec] = std::to_chars(number, number + sizeof number, c.oof[i]);
+      const double p = r.oof(c, i);
+      if (std::isfinite(p)) {
+        const auto [end, ec] = std::to_chars(number, number + sizeof number, p);
         out.write(std::string_view(number, static_cast<std::size_t>(end - number)));
       }
     }
@@ -239,7 +241,9 @@ int run_cross_fit(const CrossFitOptions& o) {
     d.notes.push_back("the mean of " + std::to_string(result.folds.count) + " fold maps of kind " + chosen.kind);
     artifact.map->restore_diagnostics(std::move(d));
   } else {
-    artifact.map = fit_map(chosen.kind, data, map_options);
+    // The sums of every row, kept by cross_fit: the map fit_map gives on the
+    // rows, without sorting them again.
+    artifact.map = fit_map_on_tally(chosen.kind, result.all_rows, map_options);
   }
   artifact.score_column = rows.score_columns[0];
   artifact.fit_options = o.choices.recorded(chosen.kind);
