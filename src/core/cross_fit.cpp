@@ -2,12 +2,14 @@
 
 #include <algorithm>
 #include <array>
+#include <atomic>
 #include <cmath>
 #include <cstring>
 #include <exception>
 #include <limits>
 #include <numeric>
 #include <queue>
+#include <thread>
 
 #include "plumb/binning.hpp"
 #include "plumb/calibration_error.hpp"
@@ -121,10 +123,11 @@ void fold_training_sums(const FitData& d, const Folds& folds, std::size_t j, Tal
 }
 
 // Fits every candidate on every scored fold's training sums (made by
-// sums_of(j, tally)), one fold at a time: its sums once, fitted by every
-// candidate. A failed fit is kept and, once every fold is done, the first
-// failure in candidate-major order is raised, as fitting candidate by
-// candidate would.
+// sums_of(j, tally)): each fold's sums once, fitted by every candidate. The
+// folds are shared out over the cores (up to one thread per core, each fold
+// on one thread with its own sums), which changes no fit. A failed fit is
+// kept and, once every fold is done, the first failure in candidate-major
+// order is raised, as fitting candidate by candidate would.
 template <class SumsOf>
 void fit_folds(CrossFitResult& r, const Folds& folds, std::span<const std::string> kinds,
                const std::vector<std::size_t>& tested, Scale scale, const MapOptions& options, SumsOf sums_of) {
@@ -133,28 +136,46 @@ void fit_folds(CrossFitResult& r, const Folds& folds, std::span<const std::strin
     r.candidates[c].kind = kinds[c];
     r.candidates[c].fold_maps.resize(folds.count);
   }
+  std::vector<std::size_t> todo;
+  for (std::size_t j = 0; j < folds.count; ++j)
+    if (tested[j] > 0) todo.push_back(j);  // time split: the first block is never scored
   std::vector<std::exception_ptr> failure(kinds.size() * folds.count);
-  Tally sums;
-  sums.scale = scale;
-  for (std::size_t j = 0; j < folds.count; ++j) {
-    if (tested[j] == 0) continue;  // time split: the first block is never scored
-    sums_of(j, sums);
-    for (std::size_t c = 0; c < kinds.size(); ++c) {
-      Candidate& cand = r.candidates[c];
+  std::atomic<std::size_t> next{0};
+  const auto work = [&] {
+    Tally sums;
+    sums.scale = scale;
+    for (std::size_t t; (t = next.fetch_add(1)) < todo.size();) {
+      const std::size_t j = todo[t];
       try {
-        cand.fold_maps[j] = fit_map_on_tally(cand.kind, sums, options);
-      } catch (const Error& e) {
-        failure[c * folds.count + j] =
-            e.kind() != ErrorKind::fit
-                ? std::current_exception()
-                : std::make_exception_ptr(Error(ErrorKind::fit,
-                                                "fold " + std::to_string(j + 1) + " of the " + cand.kind +
-                                                    " map: " + e.message(),
-                                                {}, e.value(), e.expected()));
+        sums_of(j, sums);
       } catch (...) {
-        failure[c * folds.count + j] = std::current_exception();
+        failure[j] = std::current_exception();  // candidate 0's slot: raised first for this fold
+        continue;
+      }
+      for (std::size_t c = 0; c < kinds.size(); ++c) {
+        Candidate& cand = r.candidates[c];
+        try {
+          cand.fold_maps[j] = fit_map_on_tally(cand.kind, sums, options);
+        } catch (const Error& e) {
+          failure[c * folds.count + j] =
+              e.kind() != ErrorKind::fit
+                  ? std::current_exception()
+                  : std::make_exception_ptr(Error(ErrorKind::fit,
+                                                  "fold " + std::to_string(j + 1) + " of the " + cand.kind +
+                                                      " map: " + e.message(),
+                                                  {}, e.value(), e.expected()));
+        } catch (...) {
+          failure[c * folds.count + j] = std::current_exception();
+        }
       }
     }
+  };
+  const std::size_t threads =
+      std::min<std::size_t>(todo.size(), std::max(1u, std::thread::hardware_concurrency()));
+  {
+    std::vector<std::jthread> pool;
+    for (std::size_t t = 1; t < threads; ++t) pool.emplace_back(work);
+    work();
   }
   for (const std::exception_ptr& e : failure)
     if (e) std::rethrow_exception(e);
