@@ -3,6 +3,7 @@
 // and scores only that fold's held-out rows, so every figure is out of fold.
 #include <cstddef>
 #include <cstdint>
+#include <functional>
 #include <limits>
 #include <memory>
 #include <span>
@@ -79,7 +80,11 @@ int complexity(std::string_view kind) noexcept;
 // order, so the figures are those of the per-row computation bit for bit;
 // memory holds the cells and a 32-bit cell number per row, not a probability
 // per row and candidate.
-CrossFitResult cross_fit(const FitData& data, const Folds& folds, std::span<const std::string> kinds,
-                         const MapOptions& options);
+// `folds` is moved into the result. `rows_read`, when given, is called once
+// cross_fit will read data's spans no more (on the cell path, once the cells
+// are made; on the per-row path, once the rows are copied in score order),
+// so that a caller may give their memory back while the maps are fitted.
+CrossFitResult cross_fit(const FitData& data, Folds folds, std::span<const std::string> kinds,
+                         const MapOptions& options, const std::function<void()>& rows_read = {});
 
 }  // namespace plumb

@@ -6,6 +6,7 @@
 #include <cmath>
 #include <cstring>
 #include <exception>
+#include <functional>
 #include <limits>
 #include <numeric>
 #include <queue>
@@ -230,7 +231,6 @@ CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::sp
                                 const MapOptions& options) {
   const std::size_t n = data.score.size();
   CrossFitResult r;
-  r.folds = folds;
   std::vector<std::size_t> tested(folds.count, 0);
   std::size_t scored = 0;
   for (std::size_t i = 0; i < n; ++i)
@@ -307,7 +307,7 @@ CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::sp
 // same rows would add them), cross-fitted in score order, put back.
 template <class Index>
 CrossFitResult cross_fit_reordered(const FitData& data, const Folds& folds, std::span<const std::string> kinds,
-                                   const MapOptions& options) {
+                                   const MapOptions& options, const std::function<void()>& rows_read) {
   const std::size_t n = data.score.size();
   std::vector<Index> order(n);
   std::iota(order.begin(), order.end(), Index{0});
@@ -320,8 +320,8 @@ CrossFitResult cross_fit_reordered(const FitData& data, const Folds& folds, std:
     if (!data.weight.empty()) weight[k] = data.weight[order[k]];
     sorted_folds.fold_of_row[k] = folds.fold_of_row[order[k]];
   }
+  if (rows_read) rows_read();
   CrossFitResult r = cross_fit_sorted(FitData{score, label, weight, data.scale}, sorted_folds, kinds, options);
-  r.folds = folds;
   // The sorted copies are done with: give their memory back before each
   // out-of-fold vector is put in input order.
   std::vector<double>().swap(score);
@@ -587,10 +587,10 @@ OutOfFoldFigures cell_figures(std::span<const double> f, const Cells& c, const F
 }
 
 CrossFitResult cross_fit_cells(const FitData& data, const Folds& folds, std::span<const std::string> kinds,
-                               const MapOptions& options) {
+                               const MapOptions& options, const std::function<void()>& rows_read) {
   CrossFitResult r;
-  r.folds = folds;
   const Cells c = make_cells(data, folds, r.cell_of_row);
+  if (rows_read) rows_read();
   const std::size_t m = c.size();
   std::vector<std::size_t> tested(folds.count, 0);
   std::size_t scored = 0;
@@ -671,16 +671,23 @@ bool cells_apply(const FitData& data) {
 
 }  // namespace
 
-CrossFitResult cross_fit(const FitData& data, const Folds& folds, std::span<const std::string> kinds,
-                         const MapOptions& options) {
+CrossFitResult cross_fit(const FitData& data, Folds folds, std::span<const std::string> kinds,
+                         const MapOptions& options, const std::function<void()>& rows_read) {
   if (kinds.empty()) throw Error(ErrorKind::usage, "no candidate maps", {}, {}, "at least one kind in --map");
   const std::size_t n = data.score.size();
   if (folds.fold_of_row.size() != n) throw Error(ErrorKind::internal, "cross_fit: folds made for other rows");
-  if (cells_apply(data)) return cross_fit_cells(data, folds, kinds, options);
-  if (std::is_sorted(data.score.begin(), data.score.end())) return cross_fit_sorted(data, folds, kinds, options);
+  CrossFitResult r;
+  if (cells_apply(data))
+    r = cross_fit_cells(data, folds, kinds, options, rows_read);
+  else if (std::is_sorted(data.score.begin(), data.score.end()))
+    r = cross_fit_sorted(data, folds, kinds, options);
   // 32-bit row numbers where they suffice: half the memory and the traffic.
-  if (n <= std::numeric_limits<std::uint32_t>::max()) return cross_fit_reordered<std::uint32_t>(data, folds, kinds, options);
-  return cross_fit_reordered<std::size_t>(data, folds, kinds, options);
+  else if (n <= std::numeric_limits<std::uint32_t>::max())
+    r = cross_fit_reordered<std::uint32_t>(data, folds, kinds, options, rows_read);
+  else
+    r = cross_fit_reordered<std::size_t>(data, folds, kinds, options, rows_read);
+  r.folds = std::move(folds);
+  return r;
 }
 
 }  // namespace plumb

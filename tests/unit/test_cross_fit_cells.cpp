@@ -9,6 +9,7 @@
 #include <bit>
 #include <cmath>
 #include <cstdint>
+#include <limits>
 #include <random>
 #include <string>
 #include <vector>
@@ -315,4 +316,41 @@ TEST_CASE("cross-fit: weighted rows and a score of -0 keep one cell per row", "[
   const auto b = plumb::cross_fit(plumb::FitData{zero.score, zero.label, {}, plumb::Scale::probability},
                                   plumb::stratified_folds(zero.label, 3, 1), std::vector<std::string>{"platt"}, {});
   CHECK(b.cell_of_row.empty());
+}
+
+TEST_CASE("cross-fit: once rows_read is called the rows are read no more", "[cross_fit]") {
+  // The caller may give the rows' memory back from rows_read (the command
+  // does, before the folds are fitted). Overwriting them there with NaN
+  // must change nothing: every number comes from what was taken before.
+  for (const bool weighted : {false, true}) {
+    INFO((weighted ? "weighted: per-row path" : "unweighted: cell path"));
+    Rows r = make_rows(1500, weighted, 51);
+    for (double& s : r.score) s += 0.0;
+    const plumb::Folds folds = plumb::stratified_folds(r.label, 4, 2);
+    const std::vector<std::string> kinds{"isotonic", "platt"};
+    const auto plain =
+        plumb::cross_fit(plumb::FitData{r.score, r.label, r.weight, plumb::Scale::probability}, folds, kinds, {});
+    int calls = 0;
+    const auto spoiled = plumb::cross_fit(plumb::FitData{r.score, r.label, r.weight, plumb::Scale::probability}, folds,
+                                          kinds, {}, [&] {
+                                            ++calls;
+                                            const double nan = std::numeric_limits<double>::quiet_NaN();
+                                            std::fill(r.score.begin(), r.score.end(), nan);
+                                            std::fill(r.label.begin(), r.label.end(), nan);
+                                            std::fill(r.weight.begin(), r.weight.end(), nan);
+                                          });
+    CHECK(calls == 1);
+    CHECK(spoiled.cell_of_row.empty() == weighted);
+    for (std::size_t c = 0; c < kinds.size(); ++c) {
+      CHECK(bits(spoiled.candidates[c].figures.log_loss) == bits(plain.candidates[c].figures.log_loss));
+      CHECK(bits(spoiled.candidates[c].figures.mcb) == bits(plain.candidates[c].figures.mcb));
+      CHECK(bits(spoiled.candidates[c].diff_se) == bits(plain.candidates[c].diff_se));
+      std::size_t mismatched = 0;
+      for (std::size_t i = 0; i < r.score.size(); ++i) mismatched += bits(spoiled.oof(c, i)) != bits(plain.oof(c, i));
+      CHECK(mismatched == 0);
+    }
+    CHECK(plumb::fit_map_on_tally("platt", spoiled.all_rows, {})->parameters().dump() ==
+          plumb::fit_map_on_tally("platt", plain.all_rows, {})->parameters().dump());
+    CHECK(spoiled.folds.fold_of_row == folds.fold_of_row);
+  }
 }
