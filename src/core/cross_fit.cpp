@@ -349,29 +349,46 @@ CrossFitResult cross_fit_reordered(const FitData& data, const Folds& folds, std:
 
 constexpr std::uint32_t label_bit = 0x80000000u;
 
-// Stable sort of row indices by score: an LSD radix sort of the scores' bit
-// patterns made to order as the values do (sign bit flipped for positives,
-// every bit for negatives; -0 does not occur on this path), four 16-bit
-// digits, a digit every row shares skipped.
+// The rows in score order, ties in input order (what a stable sort by score
+// gives), each with what the cells need of it: an LSD radix sort of
+// (key, fold and label, row) records on the scores' bit patterns made to
+// order as the values do (sign bit flipped for positives, every bit for
+// negatives; -0 does not occur on this path), six digits of 11 bits, a
+// digit every row shares skipped. Carrying the fold and label along keeps
+// every pass sequential in its reads.
+struct SortedRow {
+  std::uint64_t key;
+  std::uint32_t tag;  // fold << 1 | label
+  std::uint32_t row;
+};
+
 std::uint64_t order_key(double s) noexcept {
   std::uint64_t bits;
   std::memcpy(&bits, &s, sizeof bits);
   return (bits >> 63) != 0 ? ~bits : bits | (std::uint64_t{1} << 63);
 }
 
-std::vector<std::uint32_t> score_order(std::span<const double> score) {
-  const std::size_t n = score.size();
-  std::vector<std::uint32_t> a(n), b;
-  for (std::size_t i = 0; i < n; ++i) a[i] = static_cast<std::uint32_t>(i);
-  if (std::is_sorted(score.begin(), score.end())) return a;
-  constexpr std::size_t radix = 1u << 16;
-  std::vector<std::array<std::uint32_t, 4>> count(radix, std::array<std::uint32_t, 4>{});
-  for (std::size_t i = 0; i < n; ++i) {
-    const std::uint64_t key = order_key(score[i]);
-    for (std::size_t d = 0; d < 4; ++d) ++count[(key >> (16 * d)) & (radix - 1)][d];
-  }
+double score_of_key(std::uint64_t key) noexcept {
+  const std::uint64_t bits = (key >> 63) != 0 ? key & ~(std::uint64_t{1} << 63) : ~key;
+  double s;
+  std::memcpy(&s, &bits, sizeof s);
+  return s;
+}
+
+std::vector<SortedRow> sorted_rows(const FitData& data, const Folds& folds) {
+  const std::size_t n = data.score.size();
+  std::vector<SortedRow> a(n), b;
+  for (std::size_t i = 0; i < n; ++i)
+    a[i] = SortedRow{order_key(data.score[i]), folds.fold_of_row[i] << 1 | (data.label[i] == 1.0 ? 1u : 0u),
+                     static_cast<std::uint32_t>(i)};
+  if (std::is_sorted(data.score.begin(), data.score.end())) return a;
+  constexpr unsigned digit_bits = 11, digits = 6;
+  constexpr std::size_t radix = std::size_t{1} << digit_bits;
+  std::vector<std::array<std::uint32_t, digits>> count(radix, std::array<std::uint32_t, digits>{});
+  for (const SortedRow& r : a)
+    for (unsigned d = 0; d < digits; ++d) ++count[(r.key >> (digit_bits * d)) & (radix - 1)][d];
   std::vector<std::size_t> start(radix);
-  for (std::size_t d = 0; d < 4; ++d) {
+  for (unsigned d = 0; d < digits; ++d) {
     bool one_digit = false;
     for (std::size_t v = 0; v < radix; ++v)
       if (count[v][d] == n) one_digit = true;
@@ -382,7 +399,7 @@ std::vector<std::uint32_t> score_order(std::span<const double> score) {
       sum += count[v][d];
     }
     b.resize(n);
-    for (std::uint32_t i : a) b[start[(order_key(score[i]) >> (16 * d)) & (radix - 1)]++] = i;
+    for (const SortedRow& r : a) b[start[(r.key >> (digit_bits * d)) & (radix - 1)]++] = r;
     a.swap(b);
   }
   return a;
@@ -407,21 +424,22 @@ Cells make_cells(const FitData& data, const Folds& folds, std::vector<std::uint3
   const std::size_t n = data.score.size();
   Cells c;
   {
-    const std::vector<std::uint32_t> order = score_order(data.score);
+    const std::vector<SortedRow> sorted = sorted_rows(data, folds);
     c.code.resize(n);
     cell_of_row.resize(n);
     constexpr std::uint32_t none = 0xFFFFFFFFu;
     std::vector<std::uint32_t> slot(folds.count, none);
+    std::uint64_t key = 0;
     for (std::size_t k = 0; k < n; ++k) {
-      const std::uint32_t i = order[k];
-      const double s = data.score[i];
-      if (c.group_score.empty() || s != c.group_score.back()) {
+      const SortedRow& row = sorted[k];
+      if (k == 0 || row.key != key) {
+        key = row.key;
         if (!c.group_first.empty())
           for (std::size_t e = c.group_first.back(); e < c.fold.size(); ++e) slot[c.fold[e]] = none;
-        c.group_score.push_back(s);
+        c.group_score.push_back(score_of_key(key));
         c.group_first.push_back(static_cast<std::uint32_t>(c.fold.size()));
       }
-      const std::uint32_t j = folds.fold_of_row[i];
+      const std::uint32_t j = row.tag >> 1;
       std::uint32_t e = slot[j];
       if (e == none) {
         e = slot[j] = static_cast<std::uint32_t>(c.fold.size());
@@ -429,14 +447,16 @@ Cells make_cells(const FitData& data, const Folds& folds, std::vector<std::uint3
         c.rows.push_back(0);
         c.positives.push_back(0);
       }
-      const bool positive = data.label[i] == 1.0;
+      const std::uint32_t positive = row.tag & 1u;
       ++c.rows[e];
-      c.positives[e] += positive ? 1u : 0u;
-      c.code[k] = e | (positive ? label_bit : 0u);
-      cell_of_row[i] = e;
+      c.positives[e] += positive;
+      c.code[k] = e | (positive != 0 ? label_bit : 0u);
+      cell_of_row[row.row] = e;
     }
   }
   c.group_first.push_back(static_cast<std::uint32_t>(c.fold.size()));
+  c.group_score.shrink_to_fit();
+  c.group_first.shrink_to_fit();
   c.fold.shrink_to_fit();
   c.rows.shrink_to_fit();
   c.positives.shrink_to_fit();
@@ -659,9 +679,11 @@ CrossFitResult cross_fit_cells(const FitData& data, const Folds& folds, std::spa
 
 // Whether the cells give the per-row numbers bit for bit: no weights, labels
 // exactly 0 or 1, no score of -0 (a map may tell it from +0, a cell would
-// not), fewer than 2^31 rows (a cell number and the label share 32 bits).
-bool cells_apply(const FitData& data) {
+// not), fewer than 2^31 rows and folds (a cell number or a fold and the label
+// share 32 bits).
+bool cells_apply(const FitData& data, const Folds& folds) {
   if (!data.weight.empty() || data.score.size() >= label_bit) return false;
+  if (folds.count >= label_bit) return false;  // the fold and the label share 32 bits while sorting
   for (double y : data.label)
     if (y != 0.0 && y != 1.0) return false;
   for (double s : data.score)
@@ -677,7 +699,7 @@ CrossFitResult cross_fit(const FitData& data, Folds folds, std::span<const std::
   const std::size_t n = data.score.size();
   if (folds.fold_of_row.size() != n) throw Error(ErrorKind::internal, "cross_fit: folds made for other rows");
   CrossFitResult r;
-  if (cells_apply(data))
+  if (cells_apply(data, folds))
     r = cross_fit_cells(data, folds, kinds, options, rows_read);
   else if (std::is_sorted(data.score.begin(), data.score.end()))
     r = cross_fit_sorted(data, folds, kinds, options);
