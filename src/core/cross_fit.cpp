@@ -128,10 +128,13 @@ void fold_training_sums(const FitData& d, const Folds& folds, std::size_t j, Tal
 // folds are shared out over the cores (up to one thread per core, each fold
 // on one thread with its own sums), which changes no fit. A failed fit is
 // kept and, once every fold is done, the first failure in candidate-major
-// order is raised, as fitting candidate by candidate would.
+// order is raised, as fitting candidate by candidate would. `also`, when
+// given, is one more task for the first thread to run out of folds (work
+// that needs no fold map), raised after the fits' failures.
 template <class SumsOf>
 void fit_folds(CrossFitResult& r, const Folds& folds, std::span<const std::string> kinds,
-               const std::vector<std::size_t>& tested, Scale scale, const MapOptions& options, SumsOf sums_of) {
+               const std::vector<std::size_t>& tested, Scale scale, const MapOptions& options, SumsOf sums_of,
+               const std::function<void()>& also = {}) {
   r.candidates.resize(kinds.size());
   for (std::size_t c = 0; c < kinds.size(); ++c) {
     r.candidates[c].kind = kinds[c];
@@ -142,10 +145,20 @@ void fit_folds(CrossFitResult& r, const Folds& folds, std::span<const std::strin
     if (tested[j] > 0) todo.push_back(j);  // time split: the first block is never scored
   std::vector<std::exception_ptr> failure(kinds.size() * folds.count);
   std::atomic<std::size_t> next{0};
+  std::exception_ptr also_failed;
+  const std::size_t tasks = todo.size() + (also ? 1 : 0);
   const auto work = [&] {
     Tally sums;
     sums.scale = scale;
-    for (std::size_t t; (t = next.fetch_add(1)) < todo.size();) {
+    for (std::size_t t; (t = next.fetch_add(1)) < tasks;) {
+      if (t == todo.size()) {
+        try {
+          also();
+        } catch (...) {
+          also_failed = std::current_exception();
+        }
+        continue;
+      }
       const std::size_t j = todo[t];
       try {
         sums_of(j, sums);
@@ -171,8 +184,7 @@ void fit_folds(CrossFitResult& r, const Folds& folds, std::span<const std::strin
       }
     }
   };
-  const std::size_t threads =
-      std::min<std::size_t>(todo.size(), std::max(1u, std::thread::hardware_concurrency()));
+  const std::size_t threads = std::min<std::size_t>(tasks, std::max(1u, std::thread::hardware_concurrency()));
   {
     std::vector<std::jthread> pool;
     for (std::size_t t = 1; t < threads; ++t) pool.emplace_back(work);
@@ -180,6 +192,7 @@ void fit_folds(CrossFitResult& r, const Folds& folds, std::span<const std::strin
   }
   for (const std::exception_ptr& e : failure)
     if (e) std::rethrow_exception(e);
+  if (also_failed) std::rethrow_exception(also_failed);
 }
 
 // The choice, once every candidate's figures and paired differences are
@@ -622,8 +635,19 @@ CrossFitResult cross_fit_cells(const FitData& data, const Folds& folds, std::spa
   r.scored_rows = scored;
   if (scored == 0) throw Error(ErrorKind::fit, "no row is scored out of fold");
 
-  fit_folds(r, folds, kinds, tested, data.scale, options,
-            [&](std::size_t j, Tally& sums) { cell_training_sums(c, folds, j, sums); });
+  // The raw score's figures need no map: they are worked out beside the
+  // fits, by the first thread to run out of folds.
+  const auto raw_figures = [&] {
+    std::vector<double> raw(m);
+    for (std::size_t g = 0; g + 1 < c.group_first.size(); ++g)
+      for (std::size_t e = c.group_first[g]; e < c.group_first[g + 1]; ++e) raw[e] = c.group_score[g];
+    r.raw = cell_figures(raw, c, folds);
+    r.has_raw = true;
+  };
+  fit_folds(
+      r, folds, kinds, tested, data.scale, options,
+      [&](std::size_t j, Tally& sums) { cell_training_sums(c, folds, j, sums); },
+      data.scale == Scale::probability ? std::function<void()>(raw_figures) : std::function<void()>());
   r.all_rows.scale = data.scale;
   cell_training_sums(c, folds, folds.count, r.all_rows);
 
@@ -635,24 +659,29 @@ CrossFitResult cross_fit_cells(const FitData& data, const Folds& folds, std::spa
         if (fold_scored(folds, c.fold[e])) cand.oof[e] = cand.fold_maps[c.fold[e]]->map(c.group_score[g]).probability;
     cand.figures = cell_figures(cand.oof, c, folds);
   }
-  if (data.scale == Scale::probability) {
-    r.has_raw = true;
-    std::vector<double> raw(m);
-    for (std::size_t g = 0; g + 1 < c.group_first.size(); ++g)
-      for (std::size_t e = c.group_first[g]; e < c.group_first[g + 1]; ++e) raw[e] = c.group_score[g];
-    r.raw = cell_figures(raw, c, folds);
-  }
 
   // Best by out-of-fold log loss; then paired differences against it, per
-  // cell and label once, summed row by row.
+  // cell and label once, summed row by row. The best's own differences are
+  // all 0 (a term minus itself), which the passes below add up to 0 too.
   pick_best(r);
   const Candidate& best = r.candidates[r.best];
-  std::vector<double> diff(2 * m);
-  for (Candidate& cand : r.candidates) {
+  std::vector<double> best_term(2 * m), diff(2 * m);
+  for (std::size_t e = 0; e < m; ++e) {
+    if (!fold_scored(folds, c.fold[e])) continue;
+    best_term[2 * e] = log_loss_term(best.oof[e], 0.0);
+    best_term[2 * e + 1] = log_loss_term(best.oof[e], 1.0);
+  }
+  for (std::size_t k = 0; k < r.candidates.size(); ++k) {
+    Candidate& cand = r.candidates[k];
+    if (k == r.best) {
+      cand.diff_vs_best = 0.0;
+      cand.diff_se = 0.0;
+      continue;
+    }
     for (std::size_t e = 0; e < m; ++e) {
       if (!fold_scored(folds, c.fold[e])) continue;
-      diff[2 * e] = log_loss_term(cand.oof[e], 0.0) - log_loss_term(best.oof[e], 0.0);
-      diff[2 * e + 1] = log_loss_term(cand.oof[e], 1.0) - log_loss_term(best.oof[e], 1.0);
+      diff[2 * e] = log_loss_term(cand.oof[e], 0.0) - best_term[2 * e];
+      diff[2 * e + 1] = log_loss_term(cand.oof[e], 1.0) - best_term[2 * e + 1];
     }
     const double w = 1.0;
     double w_total = 0.0, sum = 0.0;
