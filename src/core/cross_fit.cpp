@@ -564,57 +564,72 @@ std::vector<double> cell_pav(std::span<const double> f, const Cells& c, const Fo
 // every row's weight 1.
 OutOfFoldFigures cell_figures(std::span<const double> f, const Cells& c, const Folds& folds) {
   const std::size_t m = c.size();
-  std::vector<double> term(2 * m, 0.0);
-  for (std::size_t e = 0; e < m; ++e) {
-    if (!fold_scored(folds, c.fold[e])) continue;
-    term[2 * e] = log_loss_term(f[e], 0.0);
-    term[2 * e + 1] = log_loss_term(f[e], 1.0);
-  }
-  const std::vector<double> r = cell_pav(f, c, folds);
   constexpr std::size_t bins = 10;
+  // Per cell what its rows add: the forecast, its PAV value, the log-loss
+  // term of either label (one cache line holds two cells), and its bin.
+  struct Terms {
+    double p, r, t[2];
+  };
+  std::vector<Terms> cell(m);
+  std::vector<std::uint8_t> bin(m);
+  {
+    const std::vector<double> r = cell_pav(f, c, folds);
+    for (std::size_t e = 0; e < m; ++e) {
+      if (!fold_scored(folds, c.fold[e])) continue;
+      cell[e] = Terms{f[e], r[e], {log_loss_term(f[e], 0.0), log_loss_term(f[e], 1.0)}};
+      bin[e] = static_cast<std::uint8_t>(equal_width_bin(f[e], bins));
+    }
+  }
+  // Counts (rows, positives: the bins' weights, squared weights and labels,
+  // the totals, the folds' weights) are the same summed per cell as per row;
+  // the sums of per-row terms are added row by row, as figures() adds them.
+  // Every row weighs 1, so w * x is x and w * d * d is d * d.
   std::vector<BinSums> sums(bins);
   for (auto& s : sums) s.forecast_min = s.forecast_max = std::numeric_limits<double>::quiet_NaN();
-  double log_sum = 0.0, log_total = 0.0, brier_sum = 0.0, brier_total = 0.0;
-  double corp_total = 0.0, brier_x = 0.0, brier_pav = 0.0;
   std::vector<double> loss(folds.count, 0.0), weight(folds.count, 0.0);
-  const double w = 1.0;
+  double total = 0.0;
+  for (std::size_t e = 0; e < m; ++e) {
+    if (!fold_scored(folds, c.fold[e])) continue;
+    BinSums& s = sums[bin[e]];
+    const double rows = static_cast<double>(c.rows[e]);
+    if (s.rows == 0) {
+      s.forecast_min = s.forecast_max = f[e];
+    } else {
+      s.forecast_min = std::min(s.forecast_min, f[e]);
+      s.forecast_max = std::max(s.forecast_max, f[e]);
+    }
+    s.rows += c.rows[e];
+    s.weight += rows;
+    s.weight_sq += rows;
+    s.label += static_cast<double>(c.positives[e]);
+    weight[c.fold[e]] += rows;
+    total += rows;
+  }
+  double log_sum = 0.0, brier_sum = 0.0, brier_pav = 0.0;
+  std::array<double, bins> forecast{};
+  const bool all_scored = !folds.forward_chaining;
   for (const std::uint32_t code : c.code) {
     const std::uint32_t e = code & ~label_bit;
     const std::uint32_t j = c.fold[e];
-    if (!fold_scored(folds, j)) continue;
-    const bool positive = (code & label_bit) != 0;
-    const double y = positive ? 1.0 : 0.0;
-    const double p = f[e];
-    const double t = term[2 * e + (positive ? 1 : 0)];
-    log_sum += w * t;
-    log_total += w;
-    const double d = p - y;
-    brier_sum += w * d * d;
-    brier_total += w;
-    BinSums& s = sums[equal_width_bin(p, bins)];
-    if (s.rows == 0) {
-      s.forecast_min = s.forecast_max = p;
-    } else {
-      s.forecast_min = std::min(s.forecast_min, p);
-      s.forecast_max = std::max(s.forecast_max, p);
-    }
-    ++s.rows;
-    s.weight += w;
-    s.weight_sq += w * w;
-    s.forecast += w * p;
-    s.label += w * y;
-    corp_total += w;
-    brier_x += w * (p - y) * (p - y);
-    const double rp = r[e];
-    brier_pav += w * (rp - y) * (rp - y);
-    loss[j] += w * t;
-    weight[j] += w;
+    if (!all_scored && !fold_scored(folds, j)) continue;
+    const std::size_t positive = (code & label_bit) != 0 ? 1 : 0;
+    const double y = static_cast<double>(positive);
+    const Terms& ct = cell[e];
+    const double t = ct.t[positive];
+    log_sum += t;
+    const double d = ct.p - y;
+    brier_sum += d * d;  // the Brier score's sum, and corp_decomposition's of the forecasts
+    forecast[bin[e]] += ct.p;
+    const double dr = ct.r - y;
+    brier_pav += dr * dr;
+    loss[j] += t;
   }
+  for (std::size_t b = 0; b < bins; ++b) sums[b].forecast = forecast[b];
   OutOfFoldFigures out;
-  out.log_loss = log_sum / log_total;
-  out.brier = brier_sum / brier_total;
+  out.log_loss = log_sum / total;
+  out.brier = brier_sum / total;
   out.ece = calibration_error(sums, BinningKind::equal_width).ece;
-  out.mcb = (brier_x - brier_pav) / corp_total;  // corp_terms' mcb
+  out.mcb = (brier_sum - brier_pav) / total;  // corp_terms' mcb
   set_fold_log_loss(out, loss, weight);
   return out;
 }
