@@ -440,6 +440,13 @@ Cells make_cells(const FitData& data, const Folds& folds, std::vector<std::uint3
     const std::vector<SortedRow> sorted = sorted_rows(data, folds);
     c.code.resize(n);
     cell_of_row.resize(n);
+    // Room for the most cells and groups there can be, so that no vector is
+    // copied as it grows: pages never written cost address space, not memory.
+    c.group_score.reserve(n);
+    c.group_first.reserve(n + 1);
+    c.fold.reserve(n);
+    c.rows.reserve(n);
+    c.positives.reserve(n);
     constexpr std::uint32_t none = 0xFFFFFFFFu;
     std::vector<std::uint32_t> slot(folds.count, none);
     std::uint64_t key = 0;
@@ -468,11 +475,6 @@ Cells make_cells(const FitData& data, const Folds& folds, std::vector<std::uint3
     }
   }
   c.group_first.push_back(static_cast<std::uint32_t>(c.fold.size()));
-  c.group_score.shrink_to_fit();
-  c.group_first.shrink_to_fit();
-  c.fold.shrink_to_fit();
-  c.rows.shrink_to_fit();
-  c.positives.shrink_to_fit();
   return c;
 }
 
@@ -536,6 +538,9 @@ std::vector<double> cell_pav(std::span<const double> f, const Cells& c, const Fo
     }
   };
   std::vector<double> score, positive, weight;
+  score.reserve(m);
+  positive.reserve(m);
+  weight.reserve(m);
   merged([&](std::uint32_t e) {
     if (score.empty() || f[e] != score.back()) {
       score.push_back(f[e]);
