@@ -125,8 +125,8 @@ void fold_training_sums(const FitData& d, const Folds& folds, std::size_t j, Tal
 
 // Fits every candidate on every scored fold's training sums (made by
 // sums_of(j, tally)): each fold's sums once, fitted by every candidate. The
-// folds are shared out over the cores (up to one thread per core, each fold
-// on one thread with its own sums), which changes no fit. A failed fit is
+// folds are shared out over two threads (one per core on a two-core machine;
+// each fold on one thread with its own sums), which changes no fit. A failed fit is
 // kept and, once every fold is done, the first failure in candidate-major
 // order is raised, as fitting candidate by candidate would. `also`, when
 // given, is one more task for the first thread to run out of folds (work
@@ -184,7 +184,12 @@ void fit_folds(CrossFitResult& r, const Folds& folds, std::span<const std::strin
       }
     }
   };
-  const std::size_t threads = std::min<std::size_t>(tasks, std::max(1u, std::thread::hardware_concurrency()));
+  // At most two: each thread holds one fit's buffers (about 150 bytes per
+  // distinct score), so more threads would raise the peak memory with the
+  // core count.
+  constexpr std::size_t most_threads = 2;
+  const std::size_t threads =
+      std::min({tasks, most_threads, static_cast<std::size_t>(std::max(1u, std::thread::hardware_concurrency()))});
   {
     std::vector<std::jthread> pool;
     for (std::size_t t = 1; t < threads; ++t) pool.emplace_back(work);
