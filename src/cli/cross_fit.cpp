@@ -184,6 +184,11 @@ void write_oof(const CrossFitOptions& o, const io::LabelledRows& rows, const Cro
       continue;
     }
     if (i >= rows.rows) throw Error(ErrorKind::io, "the input changed while cross-fit was reading it");
+    // A row's probabilities sit in its cell, and input order visits the
+    // cells at random: ask for those of a row some way ahead, so the wait
+    // for memory overlaps the writing of the rows between.
+    if (constexpr std::size_t ahead = 32; i + ahead < r.cell_of_row.size())
+      for (const Candidate& c : r.candidates) __builtin_prefetch(&c.oof[r.cell_of_row[i + ahead]]);
     out.write(record.raw);
     out.put(d);
     // Folds read from a column keep its values; made folds are numbered from 1.
