@@ -2,6 +2,9 @@
 // Cross-fitting: every candidate map is fitted on each fold's training rows
 // and scores only that fold's held-out rows, so every figure is out of fold.
 #include <cstddef>
+#include <cstdint>
+#include <functional>
+#include <limits>
 #include <memory>
 #include <span>
 #include <string>
@@ -9,6 +12,7 @@
 
 #include "plumb/calibration_map.hpp"
 #include "plumb/folds.hpp"
+#include "plumb/tally.hpp"
 
 namespace plumb {
 
@@ -24,7 +28,10 @@ struct OutOfFoldFigures {
 
 struct Candidate {
   std::string kind;
-  std::vector<double> oof;  // out-of-fold probability per row; NaN where the row is not scored
+  // Out-of-fold probability per cell of CrossFitResult::cell_of_row (one per
+  // row when that is empty); NaN for cells of rows that are not scored. Read
+  // a row's probability with CrossFitResult::oof.
+  std::vector<double> oof;
   OutOfFoldFigures figures;
   // Paired per-row difference of log loss against the best candidate
   // (this minus best): weighted mean and its standard error. 0 for the best.
@@ -43,6 +50,21 @@ struct CrossFitResult {
   std::size_t chosen = 0;  // the simplest candidate within one standard error of the best
   std::string reason;      // why, in plain clauses without the chosen kind's name in front
                            // ("beta has the lowest out-of-fold log loss; platt is simpler and ...")
+  // The cell of each input row: rows of one score and one fold share their
+  // out-of-fold probabilities, so each candidate keeps one per (score, fold)
+  // cell. Empty when every row is its own cell (weighted rows, fractional
+  // labels, a score of -0: the per-row computation).
+  std::vector<std::uint32_t> cell_of_row;
+  // The per-score sums of every row, exactly as tally_scores gives them, so
+  // that fit_map_on_tally(kind, all_rows, options) is fit_map(kind, rows,
+  // options) bit for bit without sorting the rows again (the final refit).
+  Tally all_rows;
+
+  // Candidate c's out-of-fold probability of input row i (NaN when the row is
+  // not scored).
+  double oof(std::size_t c, std::size_t i) const noexcept {
+    return candidates[c].oof[cell_of_row.empty() ? i : cell_of_row[i]];
+  }
 };
 
 // Rank of a kind's flexibility, lower is simpler: the map registry's
@@ -53,8 +75,17 @@ int complexity(std::string_view kind) noexcept;
 // Cross-fits every kind in `kinds` on `data` over `folds`. Precondition: the
 // folds were made for these rows. Throws plumb::Error(fit) when a fold's
 // training rows cannot support a fit (say, one class only), naming the fold.
-// Deterministic: the same inputs give the same result.
-CrossFitResult cross_fit(const FitData& data, const Folds& folds, std::span<const std::string> kinds,
-                         const MapOptions& options);
+// Deterministic: the same inputs give the same result. Unweighted rows with
+// 0/1 labels are computed on per-(score, fold) cells: one sort of the rows
+// (a stable radix sort), each sum over rows still added row by row in score
+// order, so the figures are those of the per-row computation bit for bit;
+// memory holds the cells and a 32-bit cell number per row, not a probability
+// per row and candidate.
+// `folds` is moved into the result. `rows_read`, when given, is called once
+// cross_fit will read data's spans no more (on the cell path, once the cells
+// are made; on the per-row path, once the rows are copied in score order),
+// so that a caller may give their memory back while the maps are fitted.
+CrossFitResult cross_fit(const FitData& data, Folds folds, std::span<const std::string> kinds,
+                         const MapOptions& options, const std::function<void()>& rows_read = {});
 
 }  // namespace plumb

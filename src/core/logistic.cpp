@@ -95,6 +95,7 @@ class Problem {
   }
 
   Evaluation evaluate(const Eigen::VectorXd& beta) const {
+    if (dim() <= small_dim) return evaluate_small(beta);
     const auto d = static_cast<Eigen::Index>(dim());
     Evaluation ev;
     ev.gradient = Eigen::VectorXd::Zero(d);
@@ -117,6 +118,58 @@ class Problem {
       ev.hessian.selfadjointView<Eigen::Lower>().rankUpdate(row, w * p * q);
     }
     ev.hessian = ev.hessian.selfadjointView<Eigen::Lower>();
+    return ev;
+  }
+
+  // evaluate() for at most three coefficients (every map's fit: platt two,
+  // beta three), on plain arrays instead of Eigen's dynamic-size vectors and
+  // its out-of-line rank-one update. Each operation is the one Eigen does,
+  // in its order, so the result is the same bit for bit: the dot product of
+  // up to three terms is summed left to right (Eigen's packet of two, then
+  // the third), the gradient takes g_j + (w r) x_j, and the rank-one update
+  // of the lower triangle h_rc + (a x_c) x_r for r >= c, a = w p q
+  // (selfadjoint_rank1_update of Eigen 3.4). No fused multiply-add: the
+  // build targets the baseline instruction set, as Eigen's packets do.
+  static constexpr std::size_t small_dim = 3;
+  Evaluation evaluate_small(const Eigen::VectorXd& beta) const {
+    const std::size_t d = dim();
+    double b[small_dim] = {0.0, 0.0, 0.0}, g[small_dim] = {0.0, 0.0, 0.0}, x[small_dim] = {0.0, 0.0, 0.0};
+    double h[small_dim][small_dim] = {};
+    for (std::size_t j = 0; j < d; ++j) b[j] = beta[static_cast<Eigen::Index>(j)];
+    double total = 0.0;
+    Terms terms;
+    const bool cached = !cache_.empty();
+    for (std::size_t i = 0; i < n_; ++i) {
+      const double w = weight(i);
+      if (!(w > 0.0)) continue;
+      for (std::size_t j = 0; j < d; ++j) x[j] = feature(j, i);
+      double e = x[0] * b[0];
+      for (std::size_t j = 1; j < d; ++j) e += x[j] * b[j];
+      if (cached)
+        terms.at(e, cache_[3 * i], cache_[3 * i + 1], cache_[3 * i + 2]);
+      else
+        terms.at(e);
+      const double p = terms.sigmoid_pos(), q = terms.sigmoid_neg();
+      const double residual = (1.0 - t_[i]) * p - t_[i] * q;
+      total += w * ((1.0 - t_[i]) * terms.softplus_pos() + t_[i] * terms.softplus_neg());
+      const double gs = w * residual;
+      for (std::size_t j = 0; j < d; ++j) g[j] += gs * x[j];
+      const double a = w * p * q;
+      for (std::size_t c = 0; c < d; ++c) {
+        const double ac = a * x[c];
+        for (std::size_t r = c; r < d; ++r) h[r][c] += ac * x[r];
+      }
+    }
+    Evaluation ev;
+    const auto dd = static_cast<Eigen::Index>(d);
+    ev.loss = total;
+    ev.gradient.resize(dd);
+    ev.hessian.resize(dd, dd);
+    for (std::size_t r = 0; r < d; ++r) {
+      ev.gradient[static_cast<Eigen::Index>(r)] = g[r];
+      for (std::size_t c = 0; c < d; ++c)
+        ev.hessian(static_cast<Eigen::Index>(r), static_cast<Eigen::Index>(c)) = r >= c ? h[r][c] : h[c][r];
+    }
     return ev;
   }
 
