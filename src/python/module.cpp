@@ -143,7 +143,7 @@ struct Map {
 
   const plumb::CalibrationMap& map() const { return *artifact->map; }
 
-  py::object call(py::handle scores, const std::string& missing) const {
+  py::object call(py::handle scores, const std::string& missing, py::handle out_in) const {
     if (missing != "refuse" && missing != "empty")
       throw usage("unknown missing policy", missing, "refuse (NaN is an error) or empty (NaN maps to NaN)");
     const bool nan_is_missing = missing == "empty";
@@ -179,7 +179,22 @@ struct Map {
 
     const std::vector<py::ssize_t> shape(a.shape(), a.shape() + a.ndim());
     const std::vector<py::ssize_t> strides(a.strides(), a.strides() + a.ndim());
-    py::array_t<double> out(shape);
+    py::array_t<double> out;
+    if (out_in.is_none()) {
+      out = py::array_t<double>(shape);
+    } else {
+      // A caller's buffer: float64, C order, writable, of the scores' shape.
+      const bool fits = py::isinstance<py::array_t<double>>(out_in) &&
+                        py::reinterpret_borrow<py::array>(out_in).dtype().is(py::dtype::of<double>());
+      if (fits) out = py::reinterpret_borrow<py::array_t<double>>(out_in);
+      if (!fits || !(out.flags() & py::array::c_style) || !out.writeable() ||
+          !std::equal(shape.begin(), shape.end(), out.shape(), out.shape() + out.ndim()) ||
+          static_cast<std::size_t>(out.ndim()) != shape.size())
+        throw usage("out is not a writable float64 array in C order of the scores' shape",
+                    py::str(py::repr(out_in)).cast<std::string>().substr(0, 80),
+                    "an array like numpy.empty(scores.shape)");
+      if (shape.empty()) throw usage("out is given for a single score", {}, "out for an array of scores");
+    }
     double* o = out.mutable_data();
     const char* base = static_cast<const char*>(a.data());
     const std::size_t size = a.itemsize();
@@ -458,9 +473,11 @@ PYBIND11_MODULE(plumb, m) {
                   "shape gives a float64 array of the same shape (read in place, without a copy, for float32, "
                   "float64 and longdouble in the machine's byte order; the GIL is released while mapping); a "
                   "Python number gives a float.")
-      .def("__call__", &Map::call, py::arg("scores"), py::arg("missing") = "refuse",
+      .def("__call__", &Map::call, py::arg("scores"), py::arg("missing") = "refuse", py::arg("out") = py::none(),
            "The probability of each score, exactly as `plumb apply` writes it. A score that is not valid on the "
-           "map's scale raises plumb.Error naming its position; missing='empty' maps NaN to NaN instead.")
+           "map's scale raises plumb.Error naming its position; missing='empty' maps NaN to NaN instead. With "
+           "out (a float64 array in C order of the scores' shape) the probabilities are written there and out "
+           "is returned, so that repeated calls allocate nothing.")
       .def_property_readonly("kind", [](const Map& self) { return std::string(self.map().kind()); })
       .def_property_readonly("scale", [](const Map& self) { return std::string(plumb::to_string(self.map().scale())); })
       .def_property_readonly("score_column", [](const Map& self) { return self.artifact->score_column; })

@@ -146,6 +146,26 @@ class DtypesAndShapes(Shared):
         self.assertFalse(np.shares_memory(out, x))
         self.assertTrue(out.flags.c_contiguous and out.flags.writeable)
 
+    def test_out_buffer(self):
+        x = self.scores[:6000].reshape(60, 100)
+        buf = np.empty((60, 100))
+        got = self.iso(x, out=buf)
+        self.assertIs(got, buf)
+        self.assertTrue(np.array_equal(buf, self.iso(x)))
+        # In place: the scores' own float64 buffer.
+        y = x.copy()
+        self.iso(y, out=y)
+        self.assertTrue(np.array_equal(y, self.iso(x)))
+        for bad in [np.empty((100, 60)), np.empty((60, 100), dtype=np.float32), np.empty((60, 100), order="F"),
+                    np.empty((60, 200))[:, ::2], [0.0] * 6000]:
+            with self.assertRaises(plumb.Error) as e:
+                self.iso(x, out=bad)
+            self.assertIn("out is not a writable float64 array in C order of the scores' shape", str(e.exception))
+        ro = np.empty((60, 100))
+        ro.flags.writeable = False
+        with self.assertRaises(plumb.Error):
+            self.iso(x, out=ro)
+
     def test_no_copy_of_float_scores(self):
         # NumPy reports its buffers to tracemalloc, so the peak during a call
         # shows every array allocated in it: the float64 result (n * 8 bytes)
