@@ -33,8 +33,50 @@ using nlohmann::json;
 
 namespace {
 
-// plumb.Error, created at import.
+// plumb.Error and plumb.FitWarning, created at import.
 PyObject* error_type = nullptr;
+PyObject* fit_warning_type = nullptr;
+
+// Below this many rows the trade prefers a parametric map to isotonic or
+// histogram binning (common practice; as `plumb fit`, src/cli/fit.cpp).
+constexpr double few_rows_for_nonparametric = 1000;
+
+// The cautions `plumb fit` prints (src/cli/fit.cpp), as Python warnings
+// whose hints name this module's keywords. Throws py::error_already_set
+// when warnings are turned into errors.
+void warn_like_fit(const plumb::CalibrationMap& map, const std::string& kind, double weight_total) {
+  const auto warn = [](const std::string& text) {
+    if (PyErr_WarnEx(fit_warning_type, text.c_str(), 2) != 0) throw py::error_already_set();
+  };
+  const plumb::FitDiagnostics& d = map.diagnostics();
+  const bool bins = kind == "histogram";
+  if (!d.converged)
+    warn("the fit did not converge after " + std::to_string(d.iterations) +
+         " iterations (are the labels separated by the score?); the map is usable but its parameters are not a "
+         "maximum");
+  if (map.decreases_overall())
+    warn("the fitted map decreases (higher scores get lower probabilities); is the score oriented the other way, or "
+         "are the labels' 0 and 1 swapped?");
+  else if (!map.monotone())
+    warn(std::string("the fitted map is not monotone: it rises with the score as a whole but falls between some "
+                     "neighbouring ") +
+         (bins ? "bins (noise in bins of few rows); fewer bins=, or kind='isotonic', gives a monotone map"
+               : "scores; kind='isotonic' gives a monotone map"));
+  if (map.reaches_zero_or_one())
+    warn(std::string("the map gives a probability of exactly 0 or 1 for some scores (") + (bins ? "bins" : "blocks") +
+         " whose rows all have one outcome), so any row there with the other outcome has infinite log loss; " +
+         (bins ? "use fewer bins=, or kind='platt' or 'beta'"
+               : "kind='platt' or 'beta' keeps every probability strictly between 0 and 1"));
+  if (d.clipped > 0)
+    warn(std::to_string(d.clipped) +
+         " rows had probability scores within 1e-12 of 0 or 1 and were clipped there before taking log-odds");
+  if ((kind == "isotonic" || bins) && weight_total < few_rows_for_nonparametric) {
+    char total[32];
+    const auto end = std::to_chars(total, total + sizeof total, weight_total).ptr;
+    warn(std::string(total, end) + " rows is few for " + plumb::kind_with_article(kind) +
+         " map (common practice: about 1,000 or more); a platt or beta map is less likely to overfit");
+  }
+}
 
 const char* kind_name(plumb::ErrorKind k) {
   switch (k) {
@@ -380,6 +422,7 @@ Map fit(py::handle scores_in, py::handle labels_in, const std::string& kind, py:
   p.score_max = *hi;
   p.tool = std::string("plumb ") + plumb::version_string;
   p.created_utc = timestamp ? utc_now() : std::string();
+  warn_like_fit(*artifact->map, kind, p.weight_total);
   return Map{artifact};
 }
 
@@ -457,6 +500,13 @@ PYBIND11_MODULE(plumb, m) {
       "A refusal from plumb, carrying plumb's one-line message; .kind names the category (usage, input, "
       "artifact, io, fit, internal) and .exit_code the code `plumb` exits with for it.";
   error_type = error.ptr();
+  fit_warning_type = PyErr_NewExceptionWithDoc(
+      "plumb.FitWarning",
+      "A caution about a fitted map (plumb fit prints the same on its standard error): few rows, a map that "
+      "decreases or reaches 0 or 1, a fit that did not converge.",
+      PyExc_UserWarning, nullptr);
+  if (fit_warning_type == nullptr) throw py::error_already_set();
+  m.attr("FitWarning") = py::reinterpret_borrow<py::object>(fit_warning_type);
   py::register_exception_translator([](std::exception_ptr p) {
     try {
       if (p) std::rethrow_exception(p);

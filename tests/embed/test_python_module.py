@@ -14,6 +14,7 @@ import sys
 import tempfile
 import tracemalloc
 import unittest
+import warnings
 
 import numpy as np
 
@@ -276,18 +277,24 @@ class FitLikeCli(Shared):
     def fit_both(self, rows_csv, score, label, kind, cli_options=(), weight=None, **keywords):
         cli_path = os.path.join(self.work, "cli.map.json")
         py_path = os.path.join(self.work, "py.map.json")
-        args = ["fit", "-q", "--no-timestamp", "--map", kind, "--score", score, "--label", label,
+        args = ["fit", "--no-timestamp", "--map", kind, "--score", score, "--label", label,
                 *cli_options, rows_csv, "-o", cli_path]
         if weight:
             args[-3:-3] = ["--weight", weight]
-        cases.plumb(*args)
+        proc = subprocess.run([cases.PLUMB, *args], capture_output=True, text=True, check=True)
+        # After its summary line, fit prints one line per warning or caution.
+        cli_cautions = proc.stderr.splitlines()[1:]
         with open(rows_csv, "rb") as f:
             sha = hashlib.sha256(f.read()).hexdigest()
         scores = np.array([float(v) for v in column(rows_csv, score)])
         labels = np.array([float(v) for v in column(rows_csv, label)])
         weights = np.array([float(v) for v in column(rows_csv, weight)]) if weight else None
-        m = plumb.fit(scores, labels, kind, weights, score_column=score, label_column=label, weight_column=weight,
-                      source=rows_csv, source_sha256=sha, timestamp=False, **keywords)
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            m = plumb.fit(scores, labels, kind, weights, score_column=score, label_column=label,
+                          weight_column=weight, source=rows_csv, source_sha256=sha, timestamp=False, **keywords)
+        self.assertTrue(all(w.category is plumb.FitWarning for w in caught))
+        self.assertEqual(len(caught), len(cli_cautions), (cli_cautions, [str(w.message) for w in caught]))
         m.save(py_path)
         with open(cli_path, "rb") as f:
             cli = f.read()
@@ -312,6 +319,17 @@ class FitLikeCli(Shared):
         z = os.path.join(self.work, "holdout.z.csv")
         self.fit_both(z, "z", "missed", "temperature", ["--scale", "logit"], scale="logit")
         self.fit_both(z, "m", "missed", "platt", ["--scale", "margin"], scale="margin")
+
+    def test_cautions_are_warnings(self):
+        few = self.scores[:200]
+        with self.assertWarnsRegex(plumb.FitWarning, r"^200 rows is few for an isotonic map \(common practice"):
+            plumb.fit(few, (few > 0.3).astype(float), "isotonic")
+        with self.assertWarnsRegex(plumb.FitWarning, r"^the fitted map decreases"):
+            plumb.fit(self.scores[:5000], (self.scores[:5000] < 0.3).astype(float), "platt")
+        with warnings.catch_warnings():
+            warnings.simplefilter("error")
+            with self.assertRaises(plumb.FitWarning):
+                plumb.fit(few, (few > 0.3).astype(float), "histogram")
 
     def test_defaults_and_timestamp(self):
         m = plumb.fit(self.scores[:500], (self.scores[:500] > 0.3).astype(float), "platt")
