@@ -9,10 +9,18 @@
  *       document that is not an artifact, MAP with one parameter changed (its
  *       integrity hash no longer matches), NaN and out-of-range scores, NULL
  *       arguments; each must fail with plumb's exit code and message.
+ *   check_c_api threads MAP SCORES EXPECTED   four threads map the scores
+ *       with one shared map at once, each checking apply's bits; each then
+ *       fails on a score of its own and must read its own message from
+ *       plumb_last_error, not another thread's.
  *
  * Prints one line per failure and "N checks, M failed"; exits 1 on any. */
+/* pthread barriers are POSIX, outside strict C11. */
+#define _POSIX_C_SOURCE 200809L
+
 #include <plumb/c.h>
 
+#include <pthread.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -170,13 +178,79 @@ static void run_errors(const char* map_path) {
   check(strcmp(plumb_version(), "") != 0, "a version", NULL);
 }
 
+enum { thread_count = 4 };
+
+struct thread_job {
+  const plumb_map* map;
+  const double* scores;
+  const double* expected;
+  size_t n;
+  int index;                /* this thread's number: its bad score goes at this index */
+  pthread_barrier_t* barrier;
+  size_t differ;            /* results, read after join */
+  int refused, own_message;
+  char message[256];
+};
+
+static void* map_concurrently(void* arg) {
+  struct thread_job* job = arg;
+  double* out = malloc(job->n * sizeof *out);
+  pthread_barrier_wait(job->barrier);
+  for (int round = 0; round < 5; ++round) {
+    if (plumb_map_apply(job->map, job->scores, out, job->n) != 0) break;
+    for (size_t i = 0; i < job->n; ++i) job->differ += !same_bits(out[i], job->expected[i]);
+  }
+  /* Each thread fails at its own index; all fail before any reads back. */
+  double bad[thread_count];
+  for (int i = 0; i < thread_count; ++i) bad[i] = 0.5;
+  bad[job->index] = strtod("nan", NULL);
+  job->refused = plumb_map_apply(job->map, bad, bad, thread_count) == 3;
+  pthread_barrier_wait(job->barrier);
+  char own[32];
+  snprintf(own, sizeof own, "index %d ", job->index);
+  job->own_message = strstr(plumb_last_error(), own) != NULL;
+  snprintf(job->message, sizeof job->message, "%s", plumb_last_error());
+  free(out);
+  return NULL;
+}
+
+static void run_threads(const char* map_path, const char* scores_path, const char* expected_path) {
+  size_t n, m;
+  double* scores = read_numbers(scores_path, &n);
+  double* expected = read_numbers(expected_path, &m);
+  check(n == m && n > 0, "as many expected probabilities as scores", NULL);
+  plumb_map* map = plumb_map_load(map_path);
+  check(map != NULL, "load", plumb_last_error());
+  if (!map || n != m) return;
+  pthread_barrier_t barrier;
+  pthread_barrier_init(&barrier, NULL, thread_count);
+  pthread_t threads[thread_count];
+  struct thread_job jobs[thread_count];
+  for (int t = 0; t < thread_count; ++t) {
+    jobs[t] = (struct thread_job){map, scores, expected, n, t, &barrier, 0, 0, 0, {0}};
+    pthread_create(&threads[t], NULL, map_concurrently, &jobs[t]);
+  }
+  for (int t = 0; t < thread_count; ++t) pthread_join(threads[t], NULL);
+  for (int t = 0; t < thread_count; ++t) {
+    check(jobs[t].differ == 0, "a thread's probabilities are apply's bits", NULL);
+    check(jobs[t].refused, "a thread's NaN is refused", NULL);
+    check(jobs[t].own_message, "a thread reads its own last error", jobs[t].message);
+  }
+  pthread_barrier_destroy(&barrier);
+  plumb_map_free(map);
+  free(scores);
+  free(expected);
+}
+
 int main(int argc, char** argv) {
   if (argc == 5 && strcmp(argv[1], "map") == 0) {
     run_map(argv[2], argv[3], argv[4]);
+  } else if (argc == 5 && strcmp(argv[1], "threads") == 0) {
+    run_threads(argv[2], argv[3], argv[4]);
   } else if (argc == 3 && strcmp(argv[1], "errors") == 0) {
     run_errors(argv[2]);
   } else {
-    fprintf(stderr, "usage: check_c_api map MAP SCORES EXPECTED | errors MAP\n");
+    fprintf(stderr, "usage: check_c_api map|threads MAP SCORES EXPECTED | errors MAP\n");
     return 2;
   }
   printf("%d checks, %d failed\n", checks, failures);

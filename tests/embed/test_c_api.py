@@ -29,16 +29,26 @@ class CApi(unittest.TestCase):
         self.assertIn(" 0 failed", proc.stdout)
         return proc.stdout
 
+    def files(self, name, scores, probabilities):
+        """The scores and apply's probabilities, one per line, for check_c_api."""
+        s, p = os.path.join(self.tmp.name, name + ".s"), os.path.join(self.tmp.name, name + ".p")
+        with open(s, "w") as f:
+            f.write("\n".join(scores) + "\n")
+        with open(p, "w") as f:
+            f.write("\n".join(probabilities) + "\n")
+        return s, p
+
     def test_every_case_bit_identical_to_apply(self):
         for name, map_path, scores, probabilities in self.cases:
             with self.subTest(case=name):
                 self.assertGreater(len(scores), 1000)
-                s, p = os.path.join(self.tmp.name, name + ".s"), os.path.join(self.tmp.name, name + ".p")
-                with open(s, "w") as f:
-                    f.write("\n".join(scores) + "\n")
-                with open(p, "w") as f:
-                    f.write("\n".join(probabilities) + "\n")
-                self.run_check("map", map_path, s, p)
+                self.run_check("map", map_path, *self.files(name, scores, probabilities))
+
+    def test_threads_share_a_map(self):
+        for name, map_path, scores, probabilities in self.cases:
+            if name in ("demo.isotonic", "demo.beta"):
+                with self.subTest(case=name):
+                    self.run_check("threads", map_path, *self.files(name, scores, probabilities))
 
     def test_refusals(self):
         for name in ["demo.isotonic", "logit.platt"]:
