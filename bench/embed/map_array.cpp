@@ -6,8 +6,8 @@
 //   plumb_bench_map_array MAP SCORES.f64 REPEAT
 #include <algorithm>
 #include <chrono>
-#include <cstdlib>
 #include <cstdio>
+#include <cstdlib>
 #include <ctime>
 #include <fstream>
 #include <vector>

@@ -55,8 +55,9 @@ void warn_like_fit(const plumb::CalibrationMap& map, const std::string& kind, do
          " iterations (are the labels separated by the score?); the map is usable but its parameters are not a "
          "maximum");
   if (map.decreases_overall())
-    warn("the fitted map decreases (higher scores get lower probabilities); is the score oriented the other way, or "
-         "are the labels' 0 and 1 swapped?");
+    warn(
+        "the fitted map decreases (higher scores get lower probabilities); is the score oriented the other way, or "
+        "are the labels' 0 and 1 swapped?");
   else if (!map.monotone())
     warn(std::string("the fitted map is not monotone: it rises with the score as a whole but falls between some "
                      "neighbouring ") +
@@ -80,25 +81,38 @@ void warn_like_fit(const plumb::CalibrationMap& map, const std::string& kind, do
 
 const char* kind_name(plumb::ErrorKind k) {
   switch (k) {
-    case plumb::ErrorKind::internal: return "internal";
-    case plumb::ErrorKind::usage: return "usage";
-    case plumb::ErrorKind::input: return "input";
-    case plumb::ErrorKind::artifact: return "artifact";
-    case plumb::ErrorKind::io: return "io";
-    case plumb::ErrorKind::fit: return "fit";
-    case plumb::ErrorKind::threshold: return "threshold";
+    case plumb::ErrorKind::internal:
+      return "internal";
+    case plumb::ErrorKind::usage:
+      return "usage";
+    case plumb::ErrorKind::input:
+      return "input";
+    case plumb::ErrorKind::artifact:
+      return "artifact";
+    case plumb::ErrorKind::io:
+      return "io";
+    case plumb::ErrorKind::fit:
+      return "fit";
+    case plumb::ErrorKind::threshold:
+      return "threshold";
   }
   return "internal";
 }
 
 py::object to_python(const json& j) {
   switch (j.type()) {
-    case json::value_t::null: return py::none();
-    case json::value_t::boolean: return py::bool_(j.get<bool>());
-    case json::value_t::number_integer: return py::int_(j.get<std::int64_t>());
-    case json::value_t::number_unsigned: return py::int_(j.get<std::uint64_t>());
-    case json::value_t::number_float: return py::float_(j.get<double>());
-    case json::value_t::string: return py::str(j.get_ref<const std::string&>());
+    case json::value_t::null:
+      return py::none();
+    case json::value_t::boolean:
+      return py::bool_(j.get<bool>());
+    case json::value_t::number_integer:
+      return py::int_(j.get<std::int64_t>());
+    case json::value_t::number_unsigned:
+      return py::int_(j.get<std::uint64_t>());
+    case json::value_t::number_float:
+      return py::float_(j.get<double>());
+    case json::value_t::string:
+      return py::str(j.get_ref<const std::string&>());
     case json::value_t::array: {
       py::list l;
       for (const json& e : j) l.append(to_python(e));
@@ -109,7 +123,8 @@ py::object to_python(const json& j) {
       for (auto it = j.begin(); it != j.end(); ++it) d[py::str(it.key())] = to_python(it.value());
       return d;
     }
-    default: return py::none();
+    default:
+      return py::none();
   }
 }
 
@@ -191,7 +206,8 @@ struct Map {
     const bool nan_is_missing = missing == "empty";
     const plumb::Scale scale = map().scale();
     // A Python number gives a Python float.
-    if (py::isinstance<py::float_>(scores) || (py::isinstance<py::int_>(scores) && !py::isinstance<py::bool_>(scores))) {
+    if (py::isinstance<py::float_>(scores) ||
+        (py::isinstance<py::int_>(scores) && !py::isinstance<py::bool_>(scores))) {
       const double s = scores.cast<double>();
       if (plumb::embed::admissible(s, scale)) return py::float_(map().map(s).probability);
       if (nan_is_missing && std::isnan(s)) return py::float_(s);
@@ -213,9 +229,9 @@ struct Map {
     const char order = a.dtype().byteorder();
     const bool native =
         order == '=' || order == '|' || order == (std::endian::native == std::endian::little ? '<' : '>');
-    const bool in_place = kind == 'f' && native &&
-                          (a.itemsize() == sizeof(double) || a.itemsize() == sizeof(float) ||
-                           a.itemsize() == sizeof(long double));
+    const bool in_place =
+        kind == 'f' && native &&
+        (a.itemsize() == sizeof(double) || a.itemsize() == sizeof(float) || a.itemsize() == sizeof(long double));
     if (!in_place) a = py::array_t<double, py::array::forcecast>::ensure(a);
     if (!a) throw py::error_already_set();
 
@@ -311,8 +327,8 @@ void check_labels(const std::vector<double>& label) {
     if (label[i] != 0.0 && label[i] != 1.0) {
       char text[32];
       const auto end = std::to_chars(text, text + sizeof text, label[i]).ptr;
-      throw plumb::Error(plumb::ErrorKind::input, "the label at index " + std::to_string(i) + " is neither 0 nor 1",
-                         {}, std::string(text, end), "1/0 or true/false");
+      throw plumb::Error(plumb::ErrorKind::input, "the label at index " + std::to_string(i) + " is neither 0 nor 1", {},
+                         std::string(text, end), "1/0 or true/false");
     }
 }
 
@@ -321,8 +337,9 @@ void check_weights(const std::vector<double>& weight) {
     if (!std::isfinite(weight[i]) || weight[i] < 0.0) {
       char text[32];
       const auto end = std::to_chars(text, text + sizeof text, weight[i]).ptr;
-      throw plumb::Error(plumb::ErrorKind::input, "the weight at index " + std::to_string(i) + " is not a finite number >= 0",
-                         {}, std::string(text, end), "a finite number >= 0");
+      throw plumb::Error(plumb::ErrorKind::input,
+                         "the weight at index " + std::to_string(i) + " is not a finite number >= 0", {},
+                         std::string(text, end), "a finite number >= 0");
     }
 }
 
@@ -383,10 +400,14 @@ Map fit(py::handle scores_in, py::handle labels_in, const std::string& kind, py:
   }
   artifact->score_column = score_column;
   // What `plumb fit` records for these options (MapChoices::recorded).
-  if (kind == "isotonic") artifact->fit_options = {{"between_blocks", between_blocks}};
-  else if (kind == "platt") artifact->fit_options = {{"platt_targets", platt_targets}};
-  else if (kind == "beta") artifact->fit_options = {{"beta_form", beta_form}};
-  else if (kind == "histogram") artifact->fit_options = {{"bins", bins}};
+  if (kind == "isotonic")
+    artifact->fit_options = {{"between_blocks", between_blocks}};
+  else if (kind == "platt")
+    artifact->fit_options = {{"platt_targets", platt_targets}};
+  else if (kind == "beta")
+    artifact->fit_options = {{"beta_form", beta_form}};
+  else if (kind == "histogram")
+    artifact->fit_options = {{"bins", bins}};
 
   // The provenance `plumb fit` records for the same rows read from a file:
   // rows, weights and the score range summed and found in row order as the
@@ -459,9 +480,12 @@ py::dict report(py::handle forecasts_in, py::handle labels_in, py::handle weight
   check_weights(weight);
 
   plumb::ReportOptions ro;
-  if (binning == "equal_width") ro.binning = plumb::BinningKind::equal_width;
-  else if (binning == "equal_mass") ro.binning = plumb::BinningKind::equal_mass;
-  else throw usage("unknown binning", binning, "equal_width or equal_mass");
+  if (binning == "equal_width")
+    ro.binning = plumb::BinningKind::equal_width;
+  else if (binning == "equal_mass")
+    ro.binning = plumb::BinningKind::equal_mass;
+  else
+    throw usage("unknown binning", binning, "equal_width or equal_mass");
   if (bins < 1) throw usage("bins out of range", std::to_string(bins), "1 or more");
   if (!(confidence > 0.0 && confidence < 1.0))
     throw usage("confidence out of range", std::to_string(confidence), "a level strictly between 0 and 1");
@@ -533,14 +557,16 @@ PYBIND11_MODULE(plumb, m) {
       .def_property_readonly("score_column", [](const Map& self) { return self.artifact->score_column; })
       .def_property_readonly("parameters", [](const Map& self) { return to_python(self.map().parameters()); })
       .def_property_readonly("provenance", [](const Map& self) { return to_python(self.document()["provenance"]); })
-      .def_property_readonly("fit", [](const Map& self) { return to_python(self.document()["fit"]); },
-                             "The fit's diagnostics and options, as the artifact records them.")
+      .def_property_readonly(
+          "fit", [](const Map& self) { return to_python(self.document()["fit"]); },
+          "The fit's diagnostics and options, as the artifact records them.")
       .def_property_readonly("cross_fit", [](const Map& self) { return to_python(self.artifact->cross_fit); })
       .def("save", &Map::save, py::arg("path"),
            "Write the artifact to `path`, whole or not at all (the bytes `plumb fit` writes for the same rows, "
            "names and source).")
-      .def("text", [](const Map& self) { return plumb::artifact_to_text(*self.artifact); },
-           "The artifact's JSON text, as save() writes it.")
+      .def(
+          "text", [](const Map& self) { return plumb::artifact_to_text(*self.artifact); },
+          "The artifact's JSON text, as save() writes it.")
       .def("__repr__", [](const Map& self) {
         return "<plumb.Map " + std::string(self.map().kind()) + " on " +
                std::string(plumb::to_string(self.map().scale())) + " scores of '" + self.artifact->score_column + "'>";

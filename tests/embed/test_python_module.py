@@ -357,8 +357,9 @@ class ReportLikeCli(Shared):
         labels = np.array([float(v) for v in column(HOLDOUT, "missed")])
         got = plumb.report({"risk": scores}, labels, bootstrap=50, seed=7, bins=12, label_column="missed",
                            source=HOLDOUT)
+        # Every figure, name and option, as the CLI wrote them.
         self.assertEqual(got, cli)
-        self.assertEqual(got["scores"][0]["name"] if "name" in got["scores"][0] else "risk", "risk")
+        self.assertEqual(got["scores"][0]["name"], "risk")
 
     def test_report_of_one_array(self):
         labels = (self.scores > 0.5).astype(float)
