@@ -13,9 +13,10 @@ plumb_build_packages=(cmake ninja-build g++ libcli11-dev nlohmann-json3-dev libe
 # The reference checks ask R (stats, Iso, MASS) at test time; the CLI tests
 # run on Debian's python3; the artifact schema is checked with jsonschema.
 # The fuzz targets build with clang and its libFuzzer runtime; the sharded
-# example runs on Dask.
+# example runs on Dask; the Python module builds with pybind11 against
+# Debian's python3 headers and is tested with NumPy.
 plumb_test_packages=(catch2 r-base-core r-cran-iso r-cran-mass python3-jsonschema clang libclang-rt-14-dev
-                     python3-dask python3-distributed)
+                     python3-dask python3-distributed pybind11-dev python3-pybind11 python3-dev python3-numpy)
 
 plumb_missing_packages() {
   local p
@@ -54,7 +55,9 @@ plumb_setup() {
     cmake -S "$root" -B "$dir" -G Ninja -DPLUMB_BUILD_TESTS=ON -DPLUMB_WERROR=ON "$@"
   else
     plumb_install "${plumb_build_packages[@]}"
-    cmake -S "$root" -B "$dir" -G Ninja -DPLUMB_BUILD_TESTS=OFF "$@"
+    # The Python module needs pybind11 and the Python headers, which only
+    # the test set-up installs (docs/library.md says how to build it).
+    cmake -S "$root" -B "$dir" -G Ninja -DPLUMB_BUILD_TESTS=OFF -DPLUMB_BUILD_PYTHON=OFF "$@"
   fi
   cmake --build "$dir" -j "$(nproc)"
 }
