@@ -13,9 +13,10 @@ plumb_build_packages=(cmake ninja-build g++ libcli11-dev nlohmann-json3-dev libe
 # The reference checks ask R (stats, Iso, MASS) at test time; the CLI tests
 # run on Debian's python3; the artifact schema is checked with jsonschema.
 # The fuzz targets build with clang and its libFuzzer runtime; the sharded
-# example runs on Dask.
+# example runs on Dask; plumb export --sql is checked in SQLite (the sqlite3
+# shell) and in a throwaway PostgreSQL cluster.
 plumb_test_packages=(catch2 r-base-core r-cran-iso r-cran-mass python3-jsonschema clang libclang-rt-14-dev
-                     python3-dask python3-distributed)
+                     python3-dask python3-distributed sqlite3 postgresql)
 
 plumb_missing_packages() {
   local p

@@ -16,5 +16,6 @@ Command add_report_command(CLI::App& app);
 Command add_cross_fit_command(CLI::App& app);
 Command add_tally_command(CLI::App& app);
 Command add_merge_command(CLI::App& app);
+Command add_export_command(CLI::App& app);
 
 }  // namespace plumb::cli

@@ -48,6 +48,7 @@ int main(int argc, char** argv) {
   add(plumb::cli::add_inspect_command);
   add(plumb::cli::add_tally_command);
   add(plumb::cli::add_merge_command);
+  add(plumb::cli::add_export_command);
 
   try {
     app.parse(argc, argv);
