@@ -73,8 +73,10 @@ struct SqlExportOptions {
 // statements, if any; then, for sqlite and ansi, a comment line starting
 // "-- The probability" followed by the expression (no terminating
 // semicolon), or for postgresql a CREATE OR REPLACE FUNCTION statement.
-// Every number is written as the shortest text that reads back to the same
-// double. Identifiers are double-quoted. Throws plumb::Error(usage) when the
+// Every number reads back as the same double: the shortest decimal text for
+// postgresql and ansi; for sqlite, whose decimal reader is not always
+// correctly rounded, an integer divided by powers of two (exact in SQLite)
+// with the decimal in a comment. Identifiers are double-quoted. Throws plumb::Error(usage) when the
 // score column's name is one of the knot tables' column names (the lookup
 // could not tell them apart), when a name is empty, or when the map is of a
 // kind it does not know.

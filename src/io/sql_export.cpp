@@ -1,5 +1,6 @@
 #include "plumb/sql_export.hpp"
 
+#include <algorithm>
 #include <array>
 #include <charconv>
 #include <cmath>
@@ -50,6 +51,37 @@ std::size_t pieces(const CalibrationMap& map) {
   return n;
 }
 
+// A double as SQLite reads it exactly. SQLite (3.40 at least) does not
+// always read a decimal as the nearest double: it reads 0.953347 one ulp low,
+// which an interpolation over a gap of 1e-6 would turn into 1e-10. It reads
+// an integer below 2^63 exactly, converts it to a double exactly when below
+// 2^53, and a division by a power of two is exact. So a double that is not
+// a whole number is written as its odd significand divided by powers of two,
+// followed by its shortest decimal `text` as a comment; whole numbers below
+// 2^53 as "N.0" (read as N * 10 / 10, exact). Precondition: x finite.
+std::string sqlite_exact(double x, const std::string& text) {
+  if (x == std::trunc(x) && std::abs(x) < 0x1p53) {
+    std::string whole = std::to_string(static_cast<long long>(x)) + ".0";
+    return whole[0] == '-' ? "(" + whole + ")" : whole;
+  }
+  int exponent = 0;
+  const double fraction = std::frexp(x, &exponent);  // x = fraction * 2^exponent, 0.5 <= |fraction| < 1
+  auto significand = static_cast<long long>(std::ldexp(fraction, 53));
+  int divide = 53 - exponent;  // x = significand / 2^divide
+  while (divide > 0 && significand % 2 == 0) {
+    significand /= 2;
+    --divide;
+  }
+  std::string out = "(CAST(" + std::to_string(significand) + " AS REAL)";
+  if (divide < 0) {  // whole numbers of 2^53 or more
+    for (; divide < 0; divide += std::min(-divide, 62))
+      out += " * CAST(" + std::to_string(1LL << std::min(-divide, 62)) + " AS REAL)";
+  }
+  for (; divide > 0; divide -= std::min(divide, 62))
+    out += " / CAST(" + std::to_string(1LL << std::min(divide, 62)) + " AS REAL)";
+  return out + " /* " + text + " */)";
+}
+
 class Writer {
  public:
   Writer(const SqlExportOptions& o) : o_(o) {}
@@ -62,8 +94,7 @@ class Writer {
     std::string s(text, ec == std::errc{} ? end : text);
     switch (o_.dialect) {
       case SqlDialect::sqlite:
-        if (s.find_first_of(".en") == std::string::npos) s += ".0";
-        return s[0] == '-' ? "(" + s + ")" : s;
+        return sqlite_exact(x, s);
       case SqlDialect::postgresql:
         return "'" + s + "'::float8";
       case SqlDialect::ansi:
@@ -114,8 +145,10 @@ class Writer {
     if (const auto* m = dynamic_cast<const HistogramMap*>(&map)) return histogram(*m, s);
     if (const auto* m = dynamic_cast<const FoldAverageMap*>(&map)) {
       std::string sum;
-      for (const auto& fold : m->maps()) sum = sum.empty() ? probability(*fold, s) : "(" + sum + " + " + probability(*fold, s) + ")";
-      return "(" + sum + " / " + num(static_cast<double>(m->maps().size())) + ")";
+      // a + b + c adds left to right, as FoldAverageMap::map does; unnested,
+      // it keeps SQLite's parser stack shallow.
+      for (const auto& fold : m->maps()) sum += (sum.empty() ? "" : " + ") + probability(*fold, s);
+      return "((" + sum + ") / " + num(static_cast<double>(m->maps().size())) + ")";
     }
     throw Error(ErrorKind::usage, "no SQL form for " + kind_with_article(map.kind()) + " map", {},
                 std::string(map.kind()), "platt, temperature, beta, isotonic, histogram or fold_average");
@@ -179,12 +212,12 @@ class Writer {
       std::function<std::string(std::size_t, std::size_t)> search = [&](std::size_t i, std::size_t j) {
         if (j - i > 1) {
           const std::size_t mid = i + (j - i) / 2;
-          return "(CASE WHEN " + s + " < " + num(blocks[mid].score_lo) + " THEN " + search(i, mid) + " ELSE " +
-                 search(mid, j) + " END)";
+          return "CASE WHEN " + s + " < " + num(blocks[mid].score_lo) + " THEN " + search(i, mid) + " ELSE " +
+                 search(mid, j) + " END";
         }
         if (i + 1 == blocks.size()) return num(last.value);  // s <= last.score_hi here
-        return "(CASE WHEN " + s + " <= " + num(blocks[i].score_hi) + " THEN " + num(blocks[i].value) + " ELSE " +
-               between(i) + " END)";
+        return "CASE WHEN " + s + " <= " + num(blocks[i].score_hi) + " THEN " + num(blocks[i].value) + " ELSE " +
+               between(i) + " END";
       };
       return out + " ELSE " + search(0, blocks.size()) + " END)";
     }
@@ -220,10 +253,10 @@ class Writer {
       std::function<std::string(std::size_t, std::size_t)> search = [&](std::size_t i, std::size_t j) {
         if (j - i == 1) return num(bins[i].value);
         const std::size_t mid = i + (j - i) / 2;
-        return "(CASE WHEN " + s + " <= " + num(upper[mid - 1]) + " THEN " + search(i, mid) + " ELSE " +
-               search(mid, j) + " END)";
+        return "CASE WHEN " + s + " <= " + num(upper[mid - 1]) + " THEN " + search(i, mid) + " ELSE " +
+               search(mid, j) + " END";
       };
-      return search(0, bins.size());
+      return "(" + search(0, bins.size()) + ")";
     }
     const std::string table = sql_name(next_table());
     tables += "CREATE TABLE " + table +

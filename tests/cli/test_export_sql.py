@@ -122,6 +122,18 @@ def sqlite(database, sql):
     return proc.stdout
 
 
+def sqlite_exact(x):
+    """x as SQLite reads it exactly: an integer over a power of two (SQLite
+    reads integers exactly; dividing by a power of two is exact)."""
+    n, d = x.as_integer_ratio()
+    out = f"CAST({n} AS REAL)"
+    while d > 1:
+        step = min(d, 2**62)
+        out += f" / CAST({step} AS REAL)"
+        d //= step
+    return out
+
+
 def split_export(text):
     """(statements before the expression, the expression) of --sql sqlite/ansi."""
     head, expression = text.split("-- The probability for the score column", 1)
@@ -155,10 +167,20 @@ class ExportSql(PlumbCase):
         # apply's probabilities, loaded into both engines beside the score.
         for name, (column, rows) in cls.maps.items():
             run("apply", w(name + ".map.json"), rows, "--as", "ref", "-q", "-o", w(name + ".ref.csv"), check=True)
+        # SQLite 3.40 reads some decimals an ulp away from the nearest double
+        # (0.953347 one ulp low), so the scores go in as exact quotients of
+        # integers by powers of two: the doubles plumb apply read. apply's
+        # probabilities are read as text (an ulp there is far below 1e-12).
         cls.db = w("demo.db")
-        script = []
+        script = ["BEGIN;", "CREATE TABLE scores (risk REAL, z REAL);"]
+        with open(os.path.join(DEMO, "tonight.csv")) as f, open(w("tonight_z.csv")) as g:
+            next(f), next(g)
+            for a, b in zip(f, g):
+                script.append(f"INSERT INTO scores VALUES ({sqlite_exact(float(a.split(',')[3]))}, "
+                              f"{sqlite_exact(float(b.split(',')[3]))});")
+        script.append("COMMIT;")
         for name, (column, _) in cls.maps.items():
-            script.append(f'CREATE TABLE "{name}" (parcel_id TEXT, depot TEXT, route_km REAL, {column} REAL, ref REAL);')
+            script.append(f'CREATE TABLE "{name}" (parcel_id TEXT, depot TEXT, route_km REAL, score_text TEXT, ref REAL);')
             script.append(f'.import --csv --skip 1 {w(name + ".ref.csv")} "{name}"')
         sqlite(cls.db, "\n".join(script) + "\n")
         cls.cluster = Cluster()
@@ -202,7 +224,8 @@ class ExportSql(PlumbCase):
                     statements, expression = split_export(
                         self.export(name, "--sql", "sqlite", "--inline-max", ladder, "--knot-table", f"k_{name}_{ladder}"))
                     result = sqlite(self.db, statements + f"\nSELECT count(*), sum(p IS NULL), max(abs(p - ref)), "
-                                    f"sum(p = ref) FROM (SELECT {expression} AS p, ref FROM \"{name}\");\n")
+                                    f"sum(p = ref) FROM (SELECT {expression} AS p, r.ref FROM scores "
+                                    f"JOIN \"{name}\" AS r ON r.rowid = scores.rowid);\n")
                     self.assert_agrees(name, result, f"sqlite, inline-max {ladder}")
 
     def test_postgresql_function_agrees_with_apply(self):
@@ -232,6 +255,24 @@ class ExportSql(PlumbCase):
                     statements + f"\nSELECT count(*), count(*) FILTER (WHERE p IS NULL), max(abs(p - ref)) "
                     f"FROM (SELECT {expression} AS p, ref FROM \"{name}\" OFFSET 0) AS x;\n")
                 self.assert_agrees(name, result, "ansi on postgresql")
+
+    def test_sqlite_reads_every_number_as_plumb_wrote_it(self):
+        """SQLite 3.40 reads the decimal 0.953347 one ulp below the nearest
+        double. Written as a decimal, an isotonic block ending there would
+        send the score 0.953347 itself into the 1e-6 gap to the next block,
+        1.1e-10 up the interpolation; the export writes numbers SQLite reads
+        exactly, so the score gets its block's value, 0, as in apply."""
+        self.assertEqual(sqlite(":memory:", "SELECT 0.953347 = 0.95334700000000005548;\n").strip(), "0",
+                         "this SQLite reads decimals exactly; the check below no longer shows the difference")
+        write(self.path("edge.csv"), "s,y\n" + "0.953347,0\n" * 3 + "0.953348,1\n" * 3)
+        run("fit", "--map", "isotonic", "--score", "s", "--label", "y", self.path("edge.csv"), "-q", "-o",
+            self.path("edge.map.json"), check=True)
+        rc, text, err = run("export", "--sql", "sqlite", self.path("edge.map.json"))
+        self.assertEqual(rc, 0, err)
+        _, expression = split_export(text)
+        out = sqlite(":memory:", f"CREATE TABLE t (s REAL);\nINSERT INTO t VALUES ({sqlite_exact(0.953347)});\n"
+                     f"SELECT printf('%!.17g', {expression}) FROM t;\n")
+        self.assertLessEqual(abs(float(out)), TOLERANCE, out)
 
     def test_large_maps_use_knot_tables_by_default(self):
         """--inline-max (128) counts the pieces of every fold: a fold average
