@@ -151,7 +151,10 @@ std::string c_export(const CalibrationMap& map, const CExportOptions& options) {
   Writer w(name);
   const std::string top = w.function(map);
   const bool probability = map.scale() == Scale::probability;
-  std::string out = "/* plumb: " + (options.source_note.empty() ? kind_with_article(map.kind()) + " map" : options.source_note) +
+  // The note names files and columns: "*/" in it would end the comment.
+  std::string note = options.source_note.empty() ? kind_with_article(map.kind()) + " map" : options.source_note;
+  for (std::size_t at; (at = note.find("*/")) != std::string::npos;) note.replace(at, 2, "* /");
+  std::string out = "/* plumb: " + note +
                     ", on " + std::string(to_string(map.scale())) + " scores.\n"
                     " * " + name + "(score) returns the probability plumb apply gives, bit for bit when built with\n"
                     " * the same C library, without -ffast-math and without fused multiply-add contraction\n"

@@ -298,7 +298,11 @@ std::string sql_export(const CalibrationMap& map, const SqlExportOptions& option
                 w.num(std::numeric_limits<double>::max());
   const std::string expression = "CASE WHEN " + valid + " THEN " + w.probability(map, s) + " END";
 
-  std::string out = "-- plumb: " + (options.source_note.empty() ? kind_with_article(map.kind()) + " map" : options.source_note) +
+  // The note names files and columns: a line break in it would end the comment.
+  std::string note = options.source_note.empty() ? kind_with_article(map.kind()) + " map" : options.source_note;
+  for (char& c : note)
+    if (c == '\n' || c == '\r') c = ' ';
+  std::string out = "-- plumb: " + note +
                     ", on " + std::string(to_string(map.scale())) + " scores.\n";
   out += map.scale() == Scale::probability
              ? "-- NULL for a NULL score and for a score plumb apply refuses (below 0, above 1, not a number).\n"
@@ -312,7 +316,10 @@ std::string sql_export(const CalibrationMap& map, const SqlExportOptions& option
            "(score double precision) RETURNS double precision\n  LANGUAGE sql " +
            (w.tables.empty() ? "IMMUTABLE" : "STABLE") + " PARALLEL SAFE\n  RETURN " + expression + ";\n";
   } else {
-    out += "-- The probability for the score column " + sql_name(options.score_column) + ":\n" + expression + "\n";
+    std::string column = sql_name(options.score_column);
+    for (char& c : column)
+      if (c == '\n' || c == '\r') c = ' ';
+    out += "-- The probability for the score column " + column + ":\n" + expression + "\n";
   }
   return out;
 }

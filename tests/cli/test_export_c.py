@@ -117,6 +117,13 @@ class ExportC(PlumbCase):
                              check=True).stdout.split()
         self.assertEqual([math.isnan(float(v)) for v in out], [True, True, True, True, False])
 
+    def test_a_map_name_cannot_end_the_comment(self):
+        map_path = self.path("late*/x.map.json")
+        os.makedirs(os.path.dirname(map_path))
+        run("fit", "--map", "histogram", "--score", "risk", "--label", "missed", os.path.join(DEMO, "holdout.csv"),
+            "-q", "-o", map_path, check=True)
+        self.check_map("commented", map_path, "risk", os.path.join(DEMO, "tonight.csv"))
+
     def test_refusals(self):
         map_path = self.path("p.map.json")
         run("fit", "--map", "platt", "--score", "risk", "--label", "missed", os.path.join(DEMO, "holdout.csv"), "-q",

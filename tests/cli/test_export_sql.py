@@ -342,6 +342,19 @@ class ExportSql(PlumbCase):
             self.assertEqual(int(count), sum(1 for r in rows if r[1] == depot))
             self.assertEqual(expected, f"{sums[depot]:.1f}", line)
 
+    def test_names_stay_inside_the_comments(self):
+        """A map file or column name with a line break is still one comment
+        line: nothing of it runs as SQL."""
+        weird = self.path("late\nDROP TABLE scores;.map.json")
+        shutil.copy(os.path.join(self.work, "platt.map.json"), weird)
+        rc, text, err = run("export", "--sql", "sqlite", "--score", "risk\nDROP TABLE x;", weird)
+        self.assertEqual(rc, 0, err)
+        lines = text.splitlines()
+        self.assertEqual([l.startswith("--") for l in lines[:4]], [True, True, True, False], text[:300])
+        self.assertIn("DROP TABLE scores;", lines[0])
+        self.assertIn('column "risk DROP TABLE x;":', lines[2])
+        self.assertIn('"risk\nDROP TABLE x;"', text)  # the column's line break stays inside its quotes
+
     def test_refusals(self):
         self.assert_refused(["export", "--sql", "postgresql", "--score", "risk", os.path.join(self.work, "platt.map.json")],
                             2, "plumb export: --score names the column of an expression")
