@@ -17,5 +17,6 @@ Command add_cross_fit_command(CLI::App& app);
 Command add_tally_command(CLI::App& app);
 Command add_merge_command(CLI::App& app);
 Command add_adjust_command(CLI::App& app);
+Command add_export_command(CLI::App& app);
 
 }  // namespace plumb::cli

@@ -23,7 +23,8 @@ int main(int argc, char** argv) {
       "  plumb inspect late.map.json\n"
       "  plumb adjust late.map.json --prior 0.30 -o late.peak.map.json\n"
       "  plumb tally --score risk --label missed part-0001.csv -o part-0001.tally.json\n"
-      "  plumb merge part-*.tally.json -o all.tally.json\n\n"
+      "  plumb merge part-*.tally.json -o all.tally.json\n"
+      "  plumb export --sql postgresql late.map.json -o late_map.sql\n\n"
       "Run 'plumb COMMAND --help' for each command's options.",
       "plumb"};
   app.footer(
@@ -50,6 +51,7 @@ int main(int argc, char** argv) {
   add(plumb::cli::add_adjust_command);
   add(plumb::cli::add_tally_command);
   add(plumb::cli::add_merge_command);
+  add(plumb::cli::add_export_command);
 
   try {
     app.parse(argc, argv);

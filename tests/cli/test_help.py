@@ -51,6 +51,9 @@ BAD_USAGE = [
     ("tally", ["tally", "--logit-grid", "0", "--score", "s", "--label", "y", "x.csv"]),
     ("merge", ["merge"]),
     ("merge", ["merge", "-x", "a.json"]),
+    ("export", ["export", "--sql", "mysql", "a.json"]),
+    ("export", ["export", "a.json"]),
+    ("export", ["export", "--sql", "sqlite"]),
 ]
 
 

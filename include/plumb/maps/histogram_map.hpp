@@ -45,6 +45,9 @@ class HistogramMap final : public CalibrationMap {
   bool reaches_zero_or_one() const noexcept override { return certain_; }
 
   const std::vector<HistogramBin>& bins() const noexcept { return bins_; }
+  // The decision boundary to the right of each bin but the last: a score
+  // belongs to the first bin whose boundary is at or above it.
+  const std::vector<double>& boundaries() const noexcept { return upper_; }
 
  private:
   Scale scale_;

@@ -1,0 +1,188 @@
+#include "plumb/c_export.hpp"
+
+#include <charconv>
+#include <cmath>
+#include <vector>
+
+#include "plumb/error.hpp"
+#include "plumb/maps/beta_map.hpp"
+#include "plumb/maps/fold_average_map.hpp"
+#include "plumb/maps/histogram_map.hpp"
+#include "plumb/maps/isotonic_map.hpp"
+#include "plumb/maps/platt_map.hpp"
+#include "plumb/maps/temperature_map.hpp"
+#include "plumb/scale.hpp"
+
+namespace plumb::io {
+namespace {
+
+// A C double literal that reads back as the same double.
+std::string num(double x) {
+  char text[64];
+  const auto [end, ec] = std::to_chars(text, text + sizeof text, x);
+  std::string s(text, ec == std::errc{} ? end : text);
+  if (s.find_first_of(".en") == std::string::npos) s += ".0";
+  return s[0] == '-' ? "(" + s + ")" : s;
+}
+
+bool is_identifier(const std::string& name) {
+  if (name.empty() || (name[0] >= '0' && name[0] <= '9')) return false;
+  for (char c : name)
+    if (!((c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || (c >= '0' && c <= '9') || c == '_')) return false;
+  return true;
+}
+
+std::string array(const std::string& name, std::size_t n, auto value) {
+  std::string out = "static const double " + name + "[" + std::to_string(n) + "] = {";
+  for (std::size_t i = 0; i < n; ++i) out += (i % 4 == 0 ? "\n    " : " ") + num(value(i)) + (i + 1 < n ? "," : "");
+  return out + "\n};\n";
+}
+
+class Writer {
+ public:
+  explicit Writer(std::string prefix) : prefix_(std::move(prefix)) {}
+
+  // Defines a static function PREFIX_mapN(double score) for `map` (score
+  // already valid) in `code` and returns its name.
+  std::string function(const CalibrationMap& map) {
+    const std::string name = prefix_ + "_map" + std::to_string(++made_);
+    std::string body;
+    if (const auto* m = dynamic_cast<const PlattMap*>(&map)) {
+      body = "  const double f = " + std::string(map.scale() == Scale::probability ? logit() : "score") +
+             ";\n  return " + sigmoid() + "(-(" + num(m->a()) + " * f + " + num(m->b()) + "));\n";
+    } else if (const auto* m = dynamic_cast<const TemperatureMap*>(&map)) {
+      body = "  const double z = " + std::string(map.scale() == Scale::probability ? logit() : "score") +
+             ";\n  return " + sigmoid() + "(z / " + num(m->temperature()) + ");\n";
+    } else if (const auto* m = dynamic_cast<const BetaMap*>(&map)) {
+      body = "  const double s = " + clip() + "(score);\n  return " + sigmoid() + "(" + num(m->a()) +
+             " * log(s) - " + num(m->b()) + " * log1p(-s) + " + num(m->c()) + ");\n";
+    } else if (const auto* m = dynamic_cast<const IsotonicMap*>(&map)) {
+      const auto& b = m->blocks();
+      const bool linear = map.parameters().at("between_blocks") == "linear";
+      const std::size_t n = b.size();
+      code += array(name + "_lo", n, [&](std::size_t i) { return b[i].score_lo; });
+      code += array(name + "_hi", n, [&](std::size_t i) { return b[i].score_hi; });
+      code += array(name + "_value", n, [&](std::size_t i) { return b[i].value; });
+      const std::string lo = name + "_lo", hi = name + "_hi", value = name + "_value", last = std::to_string(n - 1);
+      body = "  if (score < " + lo + "[0]) return " + value + "[0];\n" +
+             "  if (score > " + hi + "[" + last + "]) return " + value + "[" + last + "];\n" +
+             "  /* the last block starting at or before the score */\n"
+             "  unsigned long i = 0, n = " + std::to_string(n) + ";\n"
+             "  while (n > 1) {\n"
+             "    const unsigned long half = n / 2;\n"
+             "    if (" + lo + "[i + half] <= score) i += half;\n"
+             "    n -= half;\n"
+             "  }\n";
+      if (!linear) {
+        body += "  return " + value + "[i];\n";
+      } else {
+        body += "  if (score <= " + hi + "[i]) return " + value + "[i];\n"
+                "  const double l = " + value + "[i], r = " + value + "[i + 1];\n"
+                "  const double gap = " + lo + "[i + 1] - " + hi + "[i];\n"
+                "  const double t = isfinite(gap) ? (score - " + hi + "[i]) / gap\n"
+                "                                 : (0.5 * score - 0.5 * " + hi + "[i]) / (0.5 * " + lo +
+                "[i + 1] - 0.5 * " + hi + "[i]);\n"
+                "  const double p = l + t * (r - l);\n"
+                "  return p < l ? l : r < p ? r : p;\n";
+      }
+    } else if (const auto* m = dynamic_cast<const HistogramMap*>(&map)) {
+      const auto& bins = m->bins();
+      const auto& upper = m->boundaries();
+      code += array(name + "_value", bins.size(), [&](std::size_t i) { return bins[i].value; });
+      if (upper.empty()) {
+        body = "  (void)score;\n  return " + name + "_value[0];\n";
+      } else {
+        code += array(name + "_upper", upper.size(), [&](std::size_t i) { return upper[i]; });
+        body = "  /* the first bin whose boundary is at or above the score */\n"
+               "  unsigned long first = 0, count = " + std::to_string(upper.size()) + ";\n"
+               "  while (count > 0) {\n"
+               "    const unsigned long step = count / 2;\n"
+               "    if (" + name + "_upper[first + step] < score) {\n"
+               "      first += step + 1;\n"
+               "      count -= step + 1;\n"
+               "    } else {\n"
+               "      count = step;\n"
+               "    }\n"
+               "  }\n"
+               "  return " + name + "_value[first];\n";
+      }
+    } else if (const auto* m = dynamic_cast<const FoldAverageMap*>(&map)) {
+      std::vector<std::string> folds;
+      for (const auto& fold : m->maps()) folds.push_back(function(*fold));
+      body = "  double sum = 0.0;\n";
+      for (const std::string& f : folds) body += "  sum += " + f + "(score);\n";
+      body += "  return sum / " + num(static_cast<double>(folds.size())) + ";\n";
+    } else {
+      throw Error(ErrorKind::usage, "no C form for " + kind_with_article(map.kind()) + " map", {},
+                  std::string(map.kind()), "platt, temperature, beta, isotonic, histogram or fold_average");
+    }
+    code += "static double " + name + "(double score) {\n" + body + "}\n\n";
+    return name;
+  }
+
+  std::string code;
+  bool uses_clip = false, uses_logit = false, uses_sigmoid = false;
+
+ private:
+  std::string clip() {
+    uses_clip = true;
+    return prefix_ + "_clip";
+  }
+  std::string logit() {
+    uses_clip = uses_logit = true;
+    return prefix_ + "_logit(score)";
+  }
+  std::string sigmoid() {
+    uses_sigmoid = true;
+    return prefix_ + "_sigmoid";
+  }
+
+  std::string prefix_;
+  int made_ = 0;
+};
+
+}  // namespace
+
+std::string c_export(const CalibrationMap& map, const CExportOptions& options) {
+  const std::string& name = options.function_name;
+  if (!is_identifier(name))
+    throw Error(ErrorKind::usage, "the function name is not a C identifier", {}, name,
+                "letters, digits and underscores, not starting with a digit");
+  Writer w(name);
+  const std::string top = w.function(map);
+  const bool probability = map.scale() == Scale::probability;
+  // The note names files and columns: "*/" in it would end the comment.
+  std::string note = options.source_note.empty() ? kind_with_article(map.kind()) + " map" : options.source_note;
+  for (std::size_t at; (at = note.find("*/")) != std::string::npos;) note.replace(at, 2, "* /");
+  std::string out = "/* plumb: " + note +
+                    ", on " + std::string(to_string(map.scale())) + " scores.\n"
+                    " * " + name + "(score) returns the probability plumb apply gives, bit for bit when built with\n"
+                    " * the same C library, without -ffast-math and without fused multiply-add contraction\n"
+                    " * (-ffp-contract=off). NaN for a score apply refuses (" +
+                    (probability ? "outside [0, 1], not a number" : "infinite, not a number") + "). */\n"
+                    "#include <math.h>\n\n";
+  // plumb's clipping and logistic function (include/plumb/scale.hpp), when used.
+  if (w.uses_clip)
+    out += "static double " + name + "_clip(double p) {\n"
+           "  if (p < " + num(probability_clip) + ") p = " + num(probability_clip) + ";\n"
+           "  if (p > " + num(1.0 - probability_clip) + ") p = " + num(1.0 - probability_clip) + ";\n"
+           "  return p;\n}\n\n";
+  if (w.uses_logit)
+    out += "static double " + name + "_logit(double p) {\n"
+           "  const double q = " + name + "_clip(p);\n"
+           "  return log(q) - log1p(-q);\n}\n\n";
+  if (w.uses_sigmoid)
+    out += "static double " + name + "_sigmoid(double x) {\n"
+           "  if (x >= 0) return 1.0 / (1.0 + exp(-x));\n"
+           "  const double e = exp(x);\n"
+           "  return e / (1.0 + e);\n}\n\n";
+  out += w.code;
+  out += "double " + name + "(double score);\n\n";
+  out += "double " + name + "(double score) {\n";
+  out += probability ? "  if (!(score >= 0.0 && score <= 1.0)) return NAN;\n"
+                     : "  if (!isfinite(score)) return NAN;\n";
+  out += "  return " + top + "(score);\n}\n";
+  return out;
+}
+
+}  // namespace plumb::io
