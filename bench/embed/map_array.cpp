@@ -12,7 +12,7 @@
 #include <fstream>
 #include <vector>
 
-#include "plumb/artifact.hpp"
+#include "plumb/io/artifact.hpp"
 
 namespace {
 double thread_cpu_seconds() {

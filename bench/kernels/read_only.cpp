@@ -5,7 +5,7 @@
 #include <cstdio>
 #include <exception>
 
-#include "plumb/labelled_input.hpp"
+#include "plumb/io/labelled_input.hpp"
 
 int main(int argc, char** argv) {
   if (argc != 4) {

@@ -1,6 +1,6 @@
 // Load a map artifact once, then map scores given on the command line.
 //   score_one late.map.json 0.12 0.5 0.93
-#include <plumb/artifact.hpp>
+#include <plumb/io/artifact.hpp>
 #include <plumb/error.hpp>
 
 #include <charconv>

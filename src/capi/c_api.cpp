@@ -9,7 +9,7 @@
 #include <string>
 
 #include "capi/map_scores.hpp"
-#include "plumb/artifact.hpp"
+#include "plumb/io/artifact.hpp"
 #include "plumb/error.hpp"
 #include "plumb/version.hpp"
 

@@ -8,11 +8,11 @@
 
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
-#include "plumb/artifact.hpp"
-#include "plumb/csv.hpp"
+#include "plumb/io/artifact.hpp"
+#include "plumb/io/csv.hpp"
 #include "plumb/error.hpp"
-#include "plumb/labelled_input.hpp"
-#include "plumb/output.hpp"
+#include "plumb/io/labelled_input.hpp"
+#include "plumb/io/output.hpp"
 #include "plumb/prior_estimate.hpp"
 
 namespace plumb::cli {

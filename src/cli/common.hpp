@@ -8,9 +8,9 @@
 #include <optional>
 #include <string>
 
-#include "plumb/artifact.hpp"
+#include "plumb/io/artifact.hpp"
 #include "plumb/calibration_map.hpp"
-#include "plumb/labelled_input.hpp"
+#include "plumb/io/labelled_input.hpp"
 #include "plumb/map_registry.hpp"
 #include "plumb/number_text.hpp"  // the formatting layer, for every summary line
 #include "plumb/tally.hpp"

@@ -12,13 +12,13 @@
 
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
-#include "plumb/artifact.hpp"
+#include "plumb/io/artifact.hpp"
 #include "plumb/cross_fit.hpp"
-#include "plumb/csv.hpp"
+#include "plumb/io/csv.hpp"
 #include "plumb/error.hpp"
 #include "plumb/map_registry.hpp"
 #include "plumb/maps/fold_average_map.hpp"
-#include "plumb/output.hpp"
+#include "plumb/io/output.hpp"
 #include "plumb/tally.hpp"
 
 namespace plumb::cli {

@@ -4,11 +4,11 @@
 
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
-#include "plumb/artifact.hpp"
-#include "plumb/c_export.hpp"
+#include "plumb/io/artifact.hpp"
+#include "plumb/io/c_export.hpp"
 #include "plumb/error.hpp"
-#include "plumb/output.hpp"
-#include "plumb/sql_export.hpp"
+#include "plumb/io/output.hpp"
+#include "plumb/io/sql_export.hpp"
 
 namespace plumb::cli {
 namespace {

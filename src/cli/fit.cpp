@@ -5,13 +5,13 @@
 
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
-#include "plumb/artifact.hpp"
+#include "plumb/io/artifact.hpp"
 #include "plumb/calibration_map.hpp"
 #include "plumb/error.hpp"
 #include "plumb/map_registry.hpp"
-#include "plumb/output.hpp"
+#include "plumb/io/output.hpp"
 #include "plumb/tally.hpp"
-#include "plumb/tally_io.hpp"
+#include "plumb/io/tally_io.hpp"
 #include "plumb/version.hpp"
 
 namespace plumb::cli {

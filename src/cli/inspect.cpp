@@ -7,7 +7,7 @@
 
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
-#include "plumb/artifact.hpp"
+#include "plumb/io/artifact.hpp"
 #include "plumb/version.hpp"
 
 namespace plumb::cli {

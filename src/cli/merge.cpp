@@ -6,9 +6,9 @@
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
 #include "plumb/error.hpp"
-#include "plumb/output.hpp"
+#include "plumb/io/output.hpp"
 #include "plumb/tally.hpp"
-#include "plumb/tally_io.hpp"
+#include "plumb/io/tally_io.hpp"
 
 namespace plumb::cli {
 namespace {

@@ -12,13 +12,13 @@
 
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
-#include "plumb/artifact.hpp"
+#include "plumb/io/artifact.hpp"
 #include "plumb/error.hpp"
-#include "plumb/output.hpp"
+#include "plumb/io/output.hpp"
 #include "plumb/report.hpp"
-#include "plumb/report_render.hpp"
+#include "plumb/io/report_render.hpp"
 #include "plumb/tally.hpp"
-#include "plumb/tally_io.hpp"
+#include "plumb/io/tally_io.hpp"
 
 namespace plumb::cli {
 namespace {

@@ -1,4 +1,4 @@
-#include "plumb/apply_stream.hpp"
+#include "plumb/io/apply_stream.hpp"
 
 #include <charconv>
 #include <cmath>
@@ -13,7 +13,7 @@
 
 #include "io/csv_errors.hpp"
 #include "plumb/error.hpp"
-#include "plumb/labelled_input.hpp"
+#include "plumb/io/labelled_input.hpp"
 #include "plumb/scale.hpp"
 
 #if defined(__SSE2__)

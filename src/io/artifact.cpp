@@ -1,4 +1,4 @@
-#include "plumb/artifact.hpp"
+#include "plumb/io/artifact.hpp"
 
 #include <fstream>
 #include <iterator>

@@ -2,12 +2,12 @@
 // The odds_adjustment member of the map artifact (docs/artifact-format.md):
 // written beside the fitted map, and read back through add_odds_step so
 // that the loaded map applies it. The public side (add_odds_step,
-// target_base_rate, artifact_version) is declared in plumb/artifact.hpp.
+// target_base_rate, artifact_version) is declared in plumb/io/artifact.hpp.
 #include <nlohmann/json.hpp>
 #include <string>
 #include <vector>
 
-#include "plumb/artifact.hpp"
+#include "plumb/io/artifact.hpp"
 
 namespace plumb::io {
 

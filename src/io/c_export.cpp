@@ -1,4 +1,4 @@
-#include "plumb/c_export.hpp"
+#include "plumb/io/c_export.hpp"
 
 #include <charconv>
 #include <cmath>

@@ -1,4 +1,4 @@
-#include "plumb/csv.hpp"
+#include "plumb/io/csv.hpp"
 
 #include <algorithm>
 #include <charconv>

@@ -1,10 +1,10 @@
-#include "plumb/labelled_input.hpp"
+#include "plumb/io/labelled_input.hpp"
 
 #include <algorithm>
 #include <cctype>
 #include <unordered_map>
 
-#include "plumb/csv.hpp"
+#include "plumb/io/csv.hpp"
 #include "plumb/error.hpp"
 
 namespace plumb::io {

@@ -1,4 +1,4 @@
-#include "plumb/output.hpp"
+#include "plumb/io/output.hpp"
 
 #include <fcntl.h>
 #include <sys/stat.h>

@@ -5,7 +5,7 @@
 // and its key are named in one place.
 #include <cmath>
 
-#include "plumb/report_render.hpp"
+#include "plumb/io/report_render.hpp"
 #include "plumb/version.hpp"
 #include "report_names.hpp"
 

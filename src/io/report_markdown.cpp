@@ -17,7 +17,7 @@
 #include <utility>
 #include <vector>
 
-#include "plumb/report_render.hpp"
+#include "plumb/io/report_render.hpp"
 #include "report_names.hpp"
 
 namespace plumb {

@@ -19,7 +19,7 @@
 #include <string_view>
 #include <vector>
 
-#include "plumb/report_render.hpp"
+#include "plumb/io/report_render.hpp"
 #include "report_names.hpp"
 
 namespace plumb {

@@ -13,7 +13,7 @@
 #include <string_view>
 #include <vector>
 
-#include "plumb/report_render.hpp"
+#include "plumb/io/report_render.hpp"
 #include "report_names.hpp"
 #include "text_chart.hpp"
 #include "text_layout.hpp"

@@ -1,4 +1,4 @@
-#include "plumb/sql_export.hpp"
+#include "plumb/io/sql_export.hpp"
 
 #include <algorithm>
 #include <array>

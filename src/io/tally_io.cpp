@@ -1,4 +1,4 @@
-#include "plumb/tally_io.hpp"
+#include "plumb/io/tally_io.hpp"
 
 #include <algorithm>
 #include <charconv>
@@ -11,7 +11,7 @@
 #include "io/byte_source.hpp"
 #include "io/json_input.hpp"
 #include "plumb/error.hpp"
-#include "plumb/output.hpp"
+#include "plumb/io/output.hpp"
 #include "plumb/version.hpp"
 
 namespace plumb {

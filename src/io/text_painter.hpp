@@ -14,7 +14,7 @@
 #include <string>
 #include <string_view>
 
-#include "plumb/report_render.hpp"
+#include "plumb/io/report_render.hpp"
 
 namespace plumb::text {
 

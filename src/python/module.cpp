@@ -20,13 +20,13 @@
 
 #include "capi/map_scores.hpp"
 #include "io/byte_source.hpp"
-#include "plumb/artifact.hpp"
+#include "plumb/io/artifact.hpp"
 #include "plumb/calibration_map.hpp"
 #include "plumb/error.hpp"
 #include "plumb/map_registry.hpp"
-#include "plumb/output.hpp"
+#include "plumb/io/output.hpp"
 #include "plumb/report.hpp"
-#include "plumb/report_render.hpp"
+#include "plumb/io/report_render.hpp"
 #include "plumb/version.hpp"
 
 namespace py = pybind11;

@@ -1,4 +1,4 @@
-// Fuzz target for apply's streaming path (plumb/apply_stream.hpp), against
+// Fuzz target for apply's streaming path (plumb/io/apply_stream.hpp), against
 // a reference built from the record reader alone.
 //
 // Input layout: byte 0 chooses the options (bits 0-1: threads 1 to 4;
@@ -37,11 +37,11 @@
 #include <nlohmann/json.hpp>
 
 #include "fuzz_support.hpp"
-#include "plumb/apply_stream.hpp"
+#include "plumb/io/apply_stream.hpp"
 #include "plumb/calibration_map.hpp"
-#include "plumb/csv.hpp"
-#include "plumb/labelled_input.hpp"
-#include "plumb/output.hpp"
+#include "plumb/io/csv.hpp"
+#include "plumb/io/labelled_input.hpp"
+#include "plumb/io/output.hpp"
 #include "plumb/scale.hpp"
 
 namespace {

@@ -1,5 +1,5 @@
 // Fuzz target for the map artifact loader, artifact_from_text
-// (plumb/artifact.hpp). The input is the artifact text itself.
+// (plumb/io/artifact.hpp). The input is the artifact text itself.
 //
 // Each input is loaded twice: as it is, and, when it is a JSON object, with
 // its integrity hash recomputed, so that mutations of the fields reach the
@@ -30,7 +30,7 @@
 
 #include "fuzz_support.hpp"
 #include "io/json_input.hpp"
-#include "plumb/artifact.hpp"
+#include "plumb/io/artifact.hpp"
 #include "plumb/odds_adjustment.hpp"
 
 namespace {

@@ -1,4 +1,4 @@
-// Fuzz target for the CSV/TSV reader (plumb/csv.hpp) and io::parse_number.
+// Fuzz target for the CSV/TSV reader (plumb/io/csv.hpp) and io::parse_number.
 //
 // Input layout: byte 0 chooses the options (bits 0-1: separator detected,
 // comma, tab, or byte 2; bit 2: a small max_record_bytes of
@@ -32,7 +32,7 @@
 #include <vector>
 
 #include "fuzz_support.hpp"
-#include "plumb/csv.hpp"
+#include "plumb/io/csv.hpp"
 
 namespace {
 

@@ -1,4 +1,4 @@
-// Fuzz target for io::read_labelled (plumb/labelled_input.hpp) with the
+// Fuzz target for io::read_labelled (plumb/io/labelled_input.hpp) with the
 // columns score, label and weight.
 //
 // Input layout: byte 0 chooses the options (bits 0-1: the score's scale,
@@ -21,8 +21,8 @@
 #include <string>
 
 #include "fuzz_support.hpp"
-#include "plumb/csv.hpp"
-#include "plumb/labelled_input.hpp"
+#include "plumb/io/csv.hpp"
+#include "plumb/io/labelled_input.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {
   if (size < 1) return 0;

@@ -1,5 +1,5 @@
 // Fuzz target for the tally file reader, tally_from_text
-// (plumb/tally_io.hpp), and for merging. The input is the tally text.
+// (plumb/io/tally_io.hpp), and for merging. The input is the tally text.
 //
 // Invariants beyond "no crash":
 //  - only plumb::Error escapes;
@@ -27,7 +27,7 @@
 #include "fuzz_support.hpp"
 #include "io/json_input.hpp"
 #include "plumb/tally.hpp"
-#include "plumb/tally_io.hpp"
+#include "plumb/io/tally_io.hpp"
 
 namespace {
 

@@ -14,8 +14,8 @@
 #include <random>
 #include <string>
 
-#include "plumb/apply_stream.hpp"
-#include "plumb/csv.hpp"
+#include "plumb/io/apply_stream.hpp"
+#include "plumb/io/csv.hpp"
 
 namespace {
 

@@ -6,7 +6,7 @@
 #include <string>
 #include <vector>
 
-#include "plumb/csv.hpp"
+#include "plumb/io/csv.hpp"
 #include "support/reference.hpp"
 
 namespace {

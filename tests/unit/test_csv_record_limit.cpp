@@ -5,7 +5,7 @@
 #include <fstream>
 #include <string>
 
-#include "plumb/csv.hpp"
+#include "plumb/io/csv.hpp"
 #include "plumb/error.hpp"
 #include "support/reference.hpp"
 

@@ -9,7 +9,7 @@
 #include <optional>
 #include <string>
 
-#include "plumb/labelled_input.hpp"
+#include "plumb/io/labelled_input.hpp"
 
 using plumb::io::is_missing_value;
 using plumb::io::LabelRule;

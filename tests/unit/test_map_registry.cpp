@@ -11,7 +11,7 @@
 #include <string>
 #include <vector>
 
-#include "plumb/artifact.hpp"
+#include "plumb/io/artifact.hpp"
 #include "plumb/cross_fit.hpp"
 #include "plumb/error.hpp"
 #include "plumb/map_registry.hpp"

@@ -9,7 +9,7 @@
 #include <random>
 #include <vector>
 
-#include "plumb/artifact.hpp"
+#include "plumb/io/artifact.hpp"
 #include "plumb/calibration_map.hpp"
 #include "plumb/error.hpp"
 #include "plumb/odds_adjustment.hpp"

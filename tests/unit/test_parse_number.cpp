@@ -8,7 +8,7 @@
 #include <random>
 #include <string>
 
-#include "plumb/csv.hpp"
+#include "plumb/io/csv.hpp"
 
 namespace {
 

@@ -11,7 +11,7 @@
 
 #include "io/report_names.hpp"
 #include "plumb/report.hpp"
-#include "plumb/report_render.hpp"
+#include "plumb/io/report_render.hpp"
 #include "support/test_helpers.hpp"
 
 namespace {

@@ -16,7 +16,7 @@
 #include <vector>
 
 #include "plumb/report.hpp"
-#include "plumb/report_render.hpp"
+#include "plumb/io/report_render.hpp"
 #include "support/test_helpers.hpp"
 
 namespace {

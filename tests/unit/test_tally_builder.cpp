@@ -14,7 +14,7 @@
 #include <string>
 #include <vector>
 
-#include "plumb/labelled_input.hpp"
+#include "plumb/io/labelled_input.hpp"
 #include "plumb/tally.hpp"
 #include "support/test_helpers.hpp"
 

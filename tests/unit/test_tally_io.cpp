@@ -1,4 +1,4 @@
-// The tally file's reader and writer (plumb/tally_io.hpp), which stream the
+// The tally file's reader and writer (plumb/io/tally_io.hpp), which stream the
 // document instead of building a JSON tree of it. The outside reference is
 // nlohmann_json's own tree: its parser's error offset (turned into a line
 // and column as the reader did before it streamed) and its dump(1) of the
@@ -16,9 +16,9 @@
 
 #include "io/json_input.hpp"
 #include "plumb/error.hpp"
-#include "plumb/output.hpp"
+#include "plumb/io/output.hpp"
 #include "plumb/tally.hpp"
-#include "plumb/tally_io.hpp"
+#include "plumb/io/tally_io.hpp"
 #include "plumb/version.hpp"
 
 using nlohmann::json;

@@ -17,9 +17,9 @@
 #include <utility>
 
 #include "plumb/calibration_map.hpp"
-#include "plumb/csv.hpp"
-#include "plumb/labelled_input.hpp"
-#include "plumb/output.hpp"
+#include "plumb/io/csv.hpp"
+#include "plumb/io/labelled_input.hpp"
+#include "plumb/io/output.hpp"
 
 namespace plumb::io {
 
