@@ -191,11 +191,12 @@ int run_adjust(const AdjustOptions& o) {
   for (const OddsStep& s : artifact.odds_steps) factor *= s.factor;
   if (estimate)
     std::fprintf(stderr,
-                 "plumb adjust: base rate estimated by EM from %s: %s (%s%% bootstrap interval %s to %s, %s "
+                 "plumb adjust: base rate estimated by EM from %s: %s (%s%% bootstrap interval %s, %s "
                  "resamples), %d EM step%s\n",
                  estimated_from.c_str(), significant(estimate->base_rate, 4).c_str(),
-                 significant(100.0 * o.confidence, 4).c_str(), significant(estimate->lo, 4).c_str(),
-                 significant(estimate->hi, 4).c_str(), grouped(estimate->resamples_used).c_str(),
+                 significant(100.0 * o.confidence, 4).c_str(),
+                 interval_text(significant(estimate->lo, 4), significant(estimate->hi, 4)).c_str(),
+                 grouped(estimate->resamples_used).c_str(),
                  estimate->iterations, estimate->iterations == 1 ? "" : "s");
   std::fprintf(stderr, "plumb adjust: %s map; base rate %s -> %s, odds x %s on the fitted map's; written to %s\n",
                std::string(artifact.map->kind()).c_str(), significant(before, 4).c_str(),

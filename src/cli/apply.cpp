@@ -10,6 +10,7 @@
 #include "cli/common.hpp"
 #include "plumb/io/apply_stream.hpp"
 #include "plumb/io/artifact.hpp"
+#include "plumb/map_registry.hpp"
 #include "plumb/io/csv.hpp"
 #include "plumb/error.hpp"
 #include "plumb/io/labelled_input.hpp"
@@ -130,11 +131,18 @@ int run_apply(const ApplyOptions& o) {
         stream.missing == io::MissingPolicy::skip
             ? grouped(skipped) + (skipped == 1 ? " row" : " rows") + " with a missing score left out"
             : grouped(missing) + " missing scores left empty";
-    std::fprintf(stderr, "plumb apply: %s rows, %s outside the fitted scores [%s, %s] (%s held at the map's end "
-                         "values), %s clipped near 0 or 1, %s; written to %s\n",
+    // Only an isotonic or histogram map holds a score outside its fitted
+    // scores at its end value; a parametric curve goes on beyond them, so
+    // for it the count of held rows (always 0) would say nothing.
+    const MapKind* kind = find_map_kind(map.kind());
+    const std::string held_part = clamped > 0 || (kind != nullptr && kind->nonparametric)
+                                      ? " (" + grouped(clamped) + " held at the map's end values)"
+                                      : "";
+    std::fprintf(stderr, "plumb apply: %s rows, %s outside the fitted scores [%s, %s]%s, %s clipped near 0 or 1, %s; "
+                         "written to %s\n",
                  grouped(rows).c_str(), grouped(outside).c_str(), shortest(fitted_min).c_str(),
-                 shortest(fitted_max).c_str(), grouped(clamped).c_str(), grouped(clipped).c_str(),
-                 missing_part.c_str(), out.name().c_str());
+                 shortest(fitted_max).c_str(), held_part.c_str(), grouped(clipped).c_str(), missing_part.c_str(),
+                 out.name().c_str());
     if (!artifact.odds_steps.empty())
       std::fprintf(stderr, "plumb apply: the map's odds are adjusted as its artifact records, %s\n",
                    odds_steps_text(artifact).c_str());

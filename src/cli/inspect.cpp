@@ -145,8 +145,8 @@ void print_odds_steps(const Artifact& a) {
           e["interval"][0].is_number() && e["interval"][1].is_number() && e.contains("confidence") &&
           e["confidence"].is_number())
         how += ", " + significant(100.0 * e["confidence"].get<double>(), 4) + "% bootstrap interval " +
-               significant(e["interval"][0].get<double>(), 4) + " to " +
-               significant(e["interval"][1].get<double>(), 4);
+               interval_text(significant(e["interval"][0].get<double>(), 4),
+                             significant(e["interval"][1].get<double>(), 4));
     }
     std::printf("  %-14s x %s: prior shift, base rate %s -> %s (%s)\n", "", significant(s.factor, 6).c_str(),
                 significant(s.base_rate_from, 4).c_str(), significant(s.base_rate_to, 4).c_str(), how.c_str());

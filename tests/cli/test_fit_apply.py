@@ -107,6 +107,20 @@ class FitApply(PlumbCase):
         self.assertTrue(0 < values[0] < values[2] < values[1] < 1)
         self.assertIn("2 clipped near 0 or 1", err)
 
+    def test_summary_counts_held_rows_only_for_maps_that_hold_at_their_ends(self):
+        # Scores below and above every fitted score: isotonic and histogram
+        # maps hold them at their end values (docs/methods.md) and the summary
+        # counts them; a platt curve goes on beyond the fitted scores, so its
+        # summary has no count of held rows (it would always read 0).
+        write(self.path("beyond.csv"), "risk\n0.0000001\n0.9999999\n0.5\n")
+        for kind, held in (("isotonic", True), ("histogram", True), ("platt", False)):
+            path, _ = self.fit(kind)
+            rc, _, err = run("apply", path, self.path("beyond.csv"))
+            self.assertEqual(rc, 0, err)
+            self.assertIn("3 rows, 2 outside the fitted scores", err)
+            self.assertEqual("(2 held at the map's end values)" in err, held, (kind, err))
+            self.assertEqual("held at the map's end values" in err, held, (kind, err))
+
     def test_apply_passes_columns_through_and_keeps_order(self):
         path, _ = self.fit("temperature")
         with open(self.path("holdout.csv"), newline="") as f:
