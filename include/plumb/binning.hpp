@@ -64,6 +64,12 @@ Binning make_binning_ordered(std::span<const double> forecast, std::span<const d
 // weight summed in row order (as make_binning sums it).
 Binning make_mass_binning_of_cells(const ForecastCells& cells, double total, std::size_t bins);
 
+// The same bins found from the cells alone: the edges, and each cell's bin
+// in `cell_bin` when it is given; bin_of_row is left empty (the report finds
+// each row's bin from its forecast).
+Binning mass_binning_of_cell_sums(const ForecastCells& cells, double total, std::size_t bins,
+                                  std::vector<std::uint32_t>* cell_bin = nullptr);
+
 struct BinSums {
   std::size_t rows = 0;     // rows in the bin (zero-weight rows included)
   double weight = 0.0;      // sum w

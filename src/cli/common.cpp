@@ -10,7 +10,6 @@
 #include <mutex>
 #include <thread>
 #include <cstdio>
-#include <ctime>
 
 #include "plumb/error.hpp"
 #include "plumb/version.hpp"
@@ -332,15 +331,6 @@ Provenance provenance_of(const io::LabelledRows& rows, const InputOptions& o, bo
   p.tool = std::string("plumb ") + version_string;
   p.created_utc = no_timestamp ? std::string() : utc_now();
   return p;
-}
-
-std::string utc_now() {
-  const std::time_t t = std::time(nullptr);
-  std::tm tm{};
-  ::gmtime_r(&t, &tm);
-  char text[32];
-  std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", &tm);
-  return text;
 }
 
 std::string grouped(std::uint64_t n) { return count_text(n); }

@@ -126,9 +126,6 @@ io::LabelledRows read_and_tally_with_progress(const std::string& what, const Inp
 // The provenance of an artifact fitted on `rows` (the first score column).
 Provenance provenance_of(const io::LabelledRows& rows, const InputOptions& options, bool no_timestamp);
 
-// The current time as ISO 8601 UTC with seconds ("2026-12-02T11:32:40Z").
-std::string utc_now();
-
 // A count with thousands separators ("20,000"): the formatting layer's
 // count_text (plumb/number_text.hpp), under the name the commands use.
 std::string grouped(std::uint64_t n);

@@ -54,27 +54,37 @@ Binning make_binning_ordered(std::span<const double> forecast, std::span<const d
                                kind == BinningKind::equal_mass ? order.data() : static_cast<const std::uint32_t*>(nullptr));
 }
 
-Binning make_mass_binning_of_cells(const ForecastCells& cells, double total, std::size_t bins) {
+Binning mass_binning_of_cell_sums(const ForecastCells& cells, double total, std::size_t bins,
+                                  std::vector<std::uint32_t>* cell_bin) {
   if (bins == 0)
     throw Error(ErrorKind::usage, "the number of bins must be positive", {}, "0", "1 or more");
   Binning out;
   out.kind = BinningKind::equal_mass;
   out.bin_count = bins;
-  out.bin_of_row.resize(cells.order.size());
   out.edge_lo.assign(bins, nan);
   out.edge_hi.assign(bins, nan);
+  if (cell_bin) cell_bin->resize(cells.size());
   double before = 0.0;
   const double k = static_cast<double>(bins);
   for (std::size_t c = 0; c < cells.size(); ++c) {
     const double group = cells.weight[c];
     const double pos = total > 0.0 ? k * (before + 0.5 * group) / total : 0.0;
     const auto b = static_cast<std::uint32_t>(std::min(std::floor(pos), k - 1.0));
-    for (std::size_t t = cells.first[c]; t < cells.first[c + 1]; ++t) out.bin_of_row[cells.order[t]] = b;
+    if (cell_bin) (*cell_bin)[c] = b;
     const double p = cells.forecast[c];
     if (std::isnan(out.edge_lo[b])) out.edge_lo[b] = p;
     out.edge_hi[b] = p;
     before += group;
   }
+  return out;
+}
+
+Binning make_mass_binning_of_cells(const ForecastCells& cells, double total, std::size_t bins) {
+  std::vector<std::uint32_t> cell_bin;
+  Binning out = mass_binning_of_cell_sums(cells, total, bins, &cell_bin);
+  out.bin_of_row.resize(cells.order.size());
+  for (std::size_t c = 0; c < cells.size(); ++c)
+    for (std::size_t t = cells.first[c]; t < cells.first[c + 1]; ++t) out.bin_of_row[cells.order[t]] = cell_bin[c];
   return out;
 }
 

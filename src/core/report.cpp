@@ -136,25 +136,7 @@ void corp_of_rows(ScoreSummary& s, const std::vector<PavBlock>& curve, std::span
 // so a row lies in the last non-empty bin that starts at or below it).
 Binning mass_binning_of_rows(const ForecastCells& cells, std::span<const double> forecast, double total,
                              std::size_t bins, std::vector<std::uint32_t>* cell_bin = nullptr) {
-  if (bins == 0) throw Error(ErrorKind::usage, "the number of bins must be positive", {}, "0", "1 or more");
-  Binning out;
-  out.kind = BinningKind::equal_mass;
-  out.bin_count = bins;
-  out.edge_lo.assign(bins, std::numeric_limits<double>::quiet_NaN());
-  out.edge_hi.assign(bins, std::numeric_limits<double>::quiet_NaN());
-  if (cell_bin) cell_bin->resize(cells.size());
-  double before = 0.0;
-  const double k = static_cast<double>(bins);
-  for (std::size_t c = 0; c < cells.size(); ++c) {
-    const double group = cells.weight[c];
-    const double pos = total > 0.0 ? k * (before + 0.5 * group) / total : 0.0;
-    const auto b = static_cast<std::uint32_t>(std::min(std::floor(pos), k - 1.0));
-    if (cell_bin) (*cell_bin)[c] = b;
-    const double p = cells.forecast[c];
-    if (std::isnan(out.edge_lo[b])) out.edge_lo[b] = p;
-    out.edge_hi[b] = p;
-    before += group;
-  }
+  Binning out = mass_binning_of_cell_sums(cells, total, bins, cell_bin);
   std::vector<double> start;
   std::vector<std::uint32_t> bin;
   for (std::size_t b = 0; b < bins; ++b)

@@ -1,5 +1,6 @@
 #include "plumb/io/artifact.hpp"
 
+#include <ctime>
 #include <fstream>
 #include <iterator>
 #include <limits>
@@ -244,6 +245,15 @@ Artifact load_artifact(const std::string& path) {
     throw Error(ErrorKind::artifact, "the map artifact is empty", loc, {}, "a JSON document written by plumb fit");
   }
   return artifact_from_text(text, source.name());
+}
+
+std::string utc_now() {
+  const std::time_t t = std::time(nullptr);
+  std::tm tm{};
+  ::gmtime_r(&t, &tm);
+  char text[32];
+  std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", &tm);
+  return text;
 }
 
 }  // namespace plumb

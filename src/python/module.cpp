@@ -12,7 +12,6 @@
 #include <cmath>
 #include <cstdint>
 #include <cstring>
-#include <ctime>
 #include <memory>
 #include <optional>
 #include <string>
@@ -124,15 +123,6 @@ py::object to_python(const json& j) {
     default:
       return py::none();
   }
-}
-
-std::string utc_now() {
-  const std::time_t t = std::time(nullptr);
-  std::tm tm{};
-  ::gmtime_r(&t, &tm);
-  char text[32];
-  std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", &tm);
-  return text;
 }
 
 plumb::Error usage(const std::string& message, const std::string& value, const std::string& expected) {
@@ -433,7 +423,7 @@ Map fit(py::handle scores_in, py::handle labels_in, const std::string& kind, py:
   p.score_min = *lo;
   p.score_max = *hi;
   p.tool = std::string("plumb ") + plumb::version_string;
-  p.created_utc = timestamp ? utc_now() : std::string();
+  p.created_utc = timestamp ? plumb::utc_now() : std::string();
   warn_like_fit(*artifact->map, kind, p.weight_total);
   return Map{artifact};
 }

@@ -31,8 +31,12 @@ struct Provenance {
   std::optional<std::uint64_t> rows_skipped;
   double score_min = 0.0, score_max = 0.0;
   std::string tool;            // "plumb 0.1.0"
-  std::string created_utc;     // ISO 8601, empty when written with --no-timestamp
+  std::string created_utc;     // ISO 8601 (utc_now), empty when written with --no-timestamp
 };
+
+// The current time as ISO 8601 UTC with seconds ("2026-12-02T11:32:40Z"),
+// as a provenance's created_utc records it.
+std::string utc_now();
 
 // One adjustment of the map's odds, as the artifact records it
 // (docs/artifact-format.md, "odds_adjustment"; docs/methods.md).
