@@ -242,3 +242,28 @@ TEST_CASE("centered isotonic: the artifact's parameters are checked on load", "[
   weak["tilt"] = 0.0;
   CHECK_FALSE(plumb::test::error_kind([&] { load(weak); }));
 }
+
+TEST_CASE("centered isotonic: the map is the line through its points at any score (the search's guide)",
+          "[centered_isotonic]") {
+  // The demo's 51 points (enough for the map's search guide): every score
+  // maps to the straight line between the two points around it, found here
+  // by a plain scan.
+  Half a, b;
+  read_demo(a, b);
+  const auto map = plumb::fit_map("centered_isotonic", FitData{a.score, a.label, {}, Scale::probability});
+  const auto& m = dynamic_cast<const plumb::CenteredIsotonicMap&>(*map);
+  const std::vector<double>&x = m.point_score(), &y = m.point_value();
+  REQUIRE(x.size() >= 16);
+  std::mt19937_64 g(2017);
+  std::vector<double> scores = x;  // the points themselves, and random scores
+  for (int k = 0; k < 20000; ++k) scores.push_back(plumb::test::uniform01(g));
+  for (double s : scores) {
+    double expected = y.front();
+    if (s >= x.back()) expected = y.back();
+    else
+      for (std::size_t i = 0; i + 1 < x.size(); ++i)
+        if (x[i] <= s && s < x[i + 1]) expected = y[i] + (s - x[i]) / (x[i + 1] - x[i]) * (y[i + 1] - y[i]);
+    INFO("score " << s);
+    CHECK(m.map(s).probability == Approx(expected).margin(1e-15));
+  }
+}

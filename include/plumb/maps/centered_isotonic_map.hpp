@@ -8,6 +8,7 @@
 // only below the first point and above the last, where it holds the end
 // values as isotonic holds its ends. With `strict`, a minimal slope is added
 // everywhere so that distinct scores get distinct probabilities.
+#include <cstdint>
 #include <memory>
 #include <vector>
 
@@ -61,6 +62,10 @@ class CenteredIsotonicMap final : public CalibrationMap {
   std::vector<double> x_, y_, w_;
   double lo_, hi_, tilt_;
   double middle_ = 0.0, half_width_ = 1.0;
+  // A guide for the search of line(): see the constructor. Empty for fewer
+  // than 16 points or a range that is not a finite positive width.
+  std::vector<std::uint32_t> guide_;
+  double guide_origin_ = 0.0, guide_scale_ = 0.0;
   double line(double score) const noexcept;
 };
 

@@ -2,6 +2,8 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdint>
+#include <limits>
 
 #include "core/json_fields.hpp"
 #include "plumb/error.hpp"
@@ -33,6 +35,25 @@ CenteredIsotonicMap::CenteredIsotonicMap(Scale scale, std::vector<double> point_
       hi_(fitted_hi),
       tilt_(tilt) {
   middle_ = 0.5 * lo_ + 0.5 * hi_;
+  // A guide for the search, as the isotonic map's: [x_.front(), x_.back()]
+  // cut into equal buckets, each holding the last point at or before the
+  // bucket's start.
+  if (x_.size() >= 16 && x_.size() <= std::numeric_limits<std::uint32_t>::max()) {
+    const double width = x_.back() - x_.front();
+    const std::size_t buckets = std::min<std::size_t>(4 * x_.size(), std::size_t{1} << 16);
+    if (std::isfinite(width) && width > 0.0) {
+      guide_origin_ = x_.front();
+      guide_scale_ = static_cast<double>(buckets) / width;
+      if (std::isfinite(guide_scale_)) {
+        guide_.resize(buckets);
+        for (std::size_t b = 0; b < buckets; ++b) {
+          const double start = guide_origin_ + static_cast<double>(b) / guide_scale_;
+          const auto after = std::upper_bound(x_.begin(), x_.end(), start);
+          guide_[b] = static_cast<std::uint32_t>(after == x_.begin() ? 0 : after - x_.begin() - 1);
+        }
+      }
+    }
+  }
   const double half = 0.5 * hi_ - 0.5 * lo_;
   half_width_ = half > 0.0 ? half : 1.0;
 }
@@ -40,8 +61,29 @@ CenteredIsotonicMap::CenteredIsotonicMap(Scale scale, std::vector<double> point_
 double CenteredIsotonicMap::line(double score) const noexcept {
   if (!(score > x_.front())) return y_.front();
   if (!(score < x_.back())) return y_.back();
-  // The last point at or below the score; it has a point above it.
-  const std::size_t i = static_cast<std::size_t>(std::upper_bound(x_.begin(), x_.end(), score) - x_.begin()) - 1;
+  // The last point at or below the score; it has a point above it. A binary
+  // search whose step is a conditional move, not a branch: scores arrive in
+  // no order, so a branch would be mispredicted half the time.
+  std::size_t j = 0;
+  if (!guide_.empty()) {
+    // The guide's bucket, then a few steps to the exact point: down when
+    // rounding put the score one bucket high, up through the points that
+    // lie inside the bucket. The answer does not depend on the guide.
+    const double at = (score - guide_origin_) * guide_scale_;
+    const std::size_t b = at < static_cast<double>(guide_.size()) ? static_cast<std::size_t>(at) : guide_.size() - 1;
+    j = guide_[b];
+    while (j > 0 && x_[j] > score) --j;
+    for (int steps = 0; j + 1 < x_.size() && x_[j + 1] <= score; ++j)
+      if (++steps == 8) break;
+  }
+  const double* base = x_.data() + j;
+  if (!(j + 1 == x_.size() || x_[j + 1] > score))
+    for (std::size_t n = x_.size() - j; n > 1;) {
+      const std::size_t half = n / 2;
+      base = base[half] <= score ? base + half : base;
+      n -= half;
+    }
+  const std::size_t i = static_cast<std::size_t>(base - x_.data());
   const double p = between(y_[i], y_[i + 1], fraction(score, x_[i], x_[i + 1]));
   return std::clamp(p, y_[i], y_[i + 1]);
 }
