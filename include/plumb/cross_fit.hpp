@@ -75,7 +75,7 @@ struct CrossFitResult {
 
 // Rank of a kind's flexibility, lower is simpler: the map registry's
 // MapKind::complexity (temperature 1, platt 2, beta 3, histogram 4, isotonic
-// 5); above every rank for a kind that is not fittable.
+// 5, centered_isotonic 6); above every rank for a kind that is not fittable.
 int complexity(std::string_view kind) noexcept;
 
 // Cross-fits every kind in `kinds` on `data` over `folds`. Precondition: the
