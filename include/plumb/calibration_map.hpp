@@ -35,6 +35,9 @@ struct MapOptions {
   std::string beta_form = "full";
   // histogram: number of equal-mass bins (at most the number of distinct scores).
   int histogram_bins = 10;
+  // centered_isotonic: add the minimal slope so that distinct scores get
+  // distinct probabilities (the strict form), or not (weak).
+  bool centered_strict = false;
 };
 
 // What the fit did, for the artifact and for `inspect`.

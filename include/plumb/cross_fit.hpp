@@ -22,6 +22,12 @@ struct OutOfFoldFigures {
   double brier = 0.0;
   double ece = 0.0;        // equal-width, 10 bins
   double mcb = 0.0;        // CORP miscalibration of the Brier score
+  // Area under the ROC curve (plumb/auc.hpp, ties counting one half) of each
+  // scored fold's rows under that fold's map, averaged over the folds
+  // weighted by their rows' weight (folds of one class left out; NaN when
+  // all are): the ranking one map gives rows it did not see, so a strictly
+  // increasing map has the raw score's AUC and isotonic's ties show.
+  double auc = 0.0;
   std::vector<double> fold_log_loss;  // per scored fold, in fold order
   double fold_log_loss_sd = 0.0;      // their standard deviation (n - 1 divisor)
 };
@@ -69,7 +75,7 @@ struct CrossFitResult {
 
 // Rank of a kind's flexibility, lower is simpler: the map registry's
 // MapKind::complexity (temperature 1, platt 2, beta 3, histogram 4, isotonic
-// 5); above every rank for a kind that is not fittable.
+// 5, centered_isotonic 6); above every rank for a kind that is not fittable.
 int complexity(std::string_view kind) noexcept;
 
 // Cross-fits every kind in `kinds` on `data` over `folds`. Precondition: the

@@ -132,11 +132,11 @@ std::string kinds_by_complexity() {
 void print_evidence(const CrossFitResult& r, const std::string& skipped) {
   std::fprintf(stderr, "plumb cross-fit: %zu folds (%s), %s rows scored out of fold%s\n", r.folds.count,
                std::string(to_string(r.folds.kind)).c_str(), grouped(r.scored_rows).c_str(), skipped.c_str());
-  std::fprintf(stderr, "  %-14s %9s %9s %8s %8s %9s  %s\n", "map", "log loss", "Brier", "ECE", "MCB", "fold sd",
-               "vs best (se)");
+  std::fprintf(stderr, "  %-19s %9s %9s %8s %8s %8s %9s  %s\n", "map", "log loss", "Brier", "ECE", "MCB", "AUC",
+               "fold sd", "vs best (se)");
   auto row = [](const char* name, const OutOfFoldFigures& f, const std::string& versus) {
-    std::fprintf(stderr, "  %-14s %9.5f %9.5f %8.5f %8.5f %9.5f  %s\n", name, f.log_loss, f.brier, f.ece, f.mcb,
-                 f.fold_log_loss_sd, versus.c_str());
+    std::fprintf(stderr, "  %-19s %9.5f %9.5f %8.5f %8.5f %8.5f %9.5f  %s\n", name, f.log_loss, f.brier, f.ece, f.mcb,
+                 f.auc, f.fold_log_loss_sd, versus.c_str());
   };
   if (r.has_raw) row("(raw score)", r.raw, "");
   for (std::size_t k = 0; k < r.candidates.size(); ++k) {

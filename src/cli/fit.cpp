@@ -214,10 +214,13 @@ int write_and_summarise(const FitOptions& o, const Artifact& artifact, const std
 // The footer's list of kinds, one line each from the map registry.
 std::string maps_help() {
   std::string out = "Maps:\n";
+  std::size_t width = 13;  // the names in one column, two spaces after the longest
+  for (const MapKind& kind : map_registry())
+    if (kind.fittable) width = std::max(width, kind.name.size() + 2);
   for (const MapKind& kind : map_registry()) {
     if (!kind.fittable) continue;
     std::string name(kind.name);
-    name.resize(std::max<std::size_t>(name.size() + 2, 13), ' ');
+    name.resize(width, ' ');
     out += "  " + name + std::string(kind.help) + "\n";
   }
   return out + "\n";

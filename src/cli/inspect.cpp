@@ -108,10 +108,19 @@ void print_cross_fit(const nlohmann::json& e) {
               text("folds").c_str(), split.c_str(), text("seed").c_str(), scored.c_str(), text("final").c_str());
   std::printf("  %-14s %s. %s.\n", "chosen", text("chosen").c_str(), text("reason").c_str());
   if (!e.contains("candidates") || !e["candidates"].is_array()) return;
-  std::printf("  %-14s %12s %12s %10s\n", "candidate", "oof log loss", "oof Brier", "oof ECE");
-  auto row = [](const std::string& name, const nlohmann::json& c) {
+  // The names in one column, as wide as the longest kind.
+  int width = 14;
+  for (const auto& c : e["candidates"])
+    if (c.is_object() && c.contains("kind"))
+      width = std::max(width, static_cast<int>(scalar_text(c["kind"]).size()));
+  std::printf("  %-*s %12s %12s %10s %10s\n", width, "candidate", "oof log loss", "oof Brier", "oof ECE", "oof AUC");
+  auto row = [width](const std::string& name, const nlohmann::json& c) {
     auto num = [&](const char* k) { return c.contains(k) && c[k].is_number() ? c[k].get<double>() : NAN; };
-    std::printf("  %-14s %12.6f %12.6f %10.6f\n", name.c_str(), num("log_loss"), num("brier"), num("ece"));
+    // Artifacts written before the AUC was part of the evidence have none.
+    char auc[32] = "-";
+    if (c.contains("auc") && c["auc"].is_number()) std::snprintf(auc, sizeof auc, "%.6f", c["auc"].get<double>());
+    std::printf("  %-*s %12.6f %12.6f %10.6f %10s\n", width, name.c_str(), num("log_loss"), num("brier"), num("ece"),
+                auc);
   };
   if (e.contains("raw") && e["raw"].is_object()) row("(raw score)", e["raw"]);
   for (const auto& c : e["candidates"])

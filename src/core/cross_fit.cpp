@@ -12,6 +12,7 @@
 #include <queue>
 #include <thread>
 
+#include "plumb/auc.hpp"
 #include "plumb/binning.hpp"
 #include "plumb/calibration_error.hpp"
 #include "plumb/corp.hpp"
@@ -37,6 +38,18 @@ void set_fold_log_loss(OutOfFoldFigures& out, const std::vector<double>& loss, c
     for (double v : out.fold_log_loss) ss += (v - mean) * (v - mean);
     out.fold_log_loss_sd = std::sqrt(ss / (m - 1));
   }
+}
+
+// The weighted mean over folds of each fold's AUC, weights the folds'
+// weights; folds of one class (AUC NaN) are left out; NaN when every fold is.
+double mean_fold_auc(std::span<const double> fold_auc, std::span<const double> fold_weight) {
+  double sum = 0.0, weight = 0.0;
+  for (std::size_t j = 0; j < fold_auc.size(); ++j)
+    if (std::isfinite(fold_auc[j]) && fold_weight[j] > 0.0) {
+      sum += fold_weight[j] * fold_auc[j];
+      weight += fold_weight[j];
+    }
+  return weight > 0.0 ? sum / weight : std::numeric_limits<double>::quiet_NaN();
 }
 
 // Figures of a forecast (one per row) on the scored rows, visited in row
@@ -67,6 +80,27 @@ OutOfFoldFigures figures(std::span<const double> forecast, const FitData& d, con
   out.brier = brier_score(f, y, w);
   out.ece = calibration_error(f, y, w, BinningKind::equal_width, 10).ece;
   out.mcb = corp_decomposition(f, y, w).brier.mcb;
+  {
+    // Each scored fold's AUC on its own rows, then their weighted mean.
+    std::vector<double> fold_auc(folds.count, std::numeric_limits<double>::quiet_NaN()), fold_weight(folds.count, 0.0);
+    std::vector<double> ff, fy, fw;
+    for (std::size_t j = 0; j < folds.count; ++j) {
+      ff.clear();
+      fy.clear();
+      fw.clear();
+      for (std::size_t i = 0, k = 0; i < n; ++i) {
+        if (!folds.scored(i)) continue;
+        const std::size_t at = k++;
+        if (folds.fold_of_row[i] != j) continue;
+        ff.push_back(f[at]);
+        fy.push_back(y[at]);
+        if (!w.empty()) fw.push_back(w[at]);
+        fold_weight[j] += weight_at(d, i);
+      }
+      if (!ff.empty()) fold_auc[j] = auc(ff, fy, fw);
+    }
+    out.auc = mean_fold_auc(fold_auc, fold_weight);
+  }
   std::vector<double> loss(folds.count, 0.0), weight(folds.count, 0.0);
   for (std::size_t i = 0, k = 0; i < n; ++i) {
     if (!folds.scored(i)) continue;
@@ -565,6 +599,39 @@ std::vector<double> cell_pav(std::span<const double> f, const Cells& c, const Fo
   return r;
 }
 
+// Each scored fold's AUC of forecast f (one per cell), over that fold's
+// cells, then their mean (mean_fold_auc). A fold's cells come in score
+// order, so under a monotone map they are already sorted by forecast.
+double cell_auc(std::span<const double> f, const Cells& c, const Folds& folds) {
+  std::vector<std::vector<std::uint32_t>> members(folds.count);
+  for (std::size_t e = 0; e < c.size(); ++e)
+    if (fold_scored(folds, c.fold[e])) members[c.fold[e]].push_back(static_cast<std::uint32_t>(e));
+  std::vector<double> fold_auc(folds.count, std::numeric_limits<double>::quiet_NaN()), fold_weight(folds.count, 0.0);
+  std::vector<double> positives, negatives;
+  for (std::size_t j = 0; j < folds.count; ++j) {
+    std::vector<std::uint32_t>& m = members[j];
+    if (m.empty()) continue;
+    auto by_forecast = [&](std::uint32_t a, std::uint32_t b) { return f[a] < f[b]; };
+    if (!std::is_sorted(m.begin(), m.end(), by_forecast)) std::stable_sort(m.begin(), m.end(), by_forecast);
+    positives.clear();
+    negatives.clear();
+    for (std::size_t k = 0; k < m.size(); ++k) {
+      const std::uint32_t e = m[k];
+      const double pos = c.positives[e], neg = static_cast<double>(c.rows[e]) - c.positives[e];
+      fold_weight[j] += c.rows[e];
+      if (k > 0 && f[e] == f[m[k - 1]]) {
+        positives.back() += pos;
+        negatives.back() += neg;
+      } else {
+        positives.push_back(pos);
+        negatives.push_back(neg);
+      }
+    }
+    fold_auc[j] = auc_cells(positives, negatives);
+  }
+  return mean_fold_auc(fold_auc, fold_weight);
+}
+
 // The figures of forecast f (one per cell) on the scored rows, each sum
 // added row by row in score order as figures() adds it over the same rows:
 // log_loss, brier_score, calibration_error (equal width, 10 bins),
@@ -638,6 +705,7 @@ OutOfFoldFigures cell_figures(std::span<const double> f, const Cells& c, const F
   out.brier = brier_sum / total;
   out.ece = calibration_error(sums, BinningKind::equal_width).ece;
   out.mcb = (brier_sum - brier_pav) / total;  // corp_terms' mcb
+  out.auc = cell_auc(f, c, folds);
   set_fold_log_loss(out, loss, weight);
   return out;
 }

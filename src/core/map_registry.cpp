@@ -14,6 +14,7 @@
 #include "plumb/calibration_map.hpp"
 #include "plumb/error.hpp"
 #include "plumb/maps/beta_map.hpp"
+#include "plumb/maps/centered_isotonic_map.hpp"
 #include "plumb/maps/fold_average_map.hpp"
 #include "plumb/maps/histogram_map.hpp"
 #include "plumb/maps/isotonic_map.hpp"
@@ -77,6 +78,19 @@ constexpr std::array histogram_options{MapOption{
     .record = [](const MapOptions& m) { return nlohmann::json(m.histogram_bins); },
 }};
 
+constexpr std::array<std::string_view, 2> increase_rules{"weak", "strict"};
+constexpr std::array centered_isotonic_options{MapOption{
+    .name = "increase",
+    .recorded = "increase",
+    .value_word = "RULE",
+    .help = "centered_isotonic: weak holds the end values below the first point and above the last (ties there); "
+            "strict adds a minimal slope (weight 1e-6) so that distinct scores get distinct probabilities",
+    .choices = increase_rules,
+    .default_text = "weak",
+    .set = [](MapOptions& m, std::string_view text, int) { m.centered_strict = text == "strict"; },
+    .record = [](const MapOptions& m) { return nlohmann::json(m.centered_strict ? "strict" : "weak"); },
+}};
+
 template <class M>
 constexpr MapKind with_functions(MapKind k) {
   k.accepts = &M::accepts;
@@ -95,6 +109,15 @@ constexpr std::array registry{
         .zero_or_one_pieces = "blocks",
         .zero_or_one_advice = "--map platt or beta keeps every probability strictly between 0 and 1",
         .options = isotonic_options,
+    }),
+    with_functions<CenteredIsotonicMap>({
+        .name = "centered_isotonic",
+        .help = "isotonic through its blocks' mean scores, joined by lines; keeps ranks",
+        .complexity = 6,
+        .nonparametric = true,
+        .zero_or_one_pieces = "end points",
+        .zero_or_one_advice = "--map platt or beta keeps every probability strictly between 0 and 1",
+        .options = centered_isotonic_options,
     }),
     with_functions<PlattMap>({
         .name = "platt",

@@ -35,6 +35,7 @@ json figures_json(const OutOfFoldFigures& f) {
           {"brier", f.brier},
           {"ece", f.ece},
           {"mcb", f.mcb},
+          {"auc", f.auc},
           {"fold_log_loss", f.fold_log_loss},
           {"fold_log_loss_sd", f.fold_log_loss_sd}};
 }

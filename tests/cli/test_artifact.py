@@ -38,7 +38,7 @@ class Artifacts(PlumbCase):
         return self.path(name)
 
     def test_no_timestamp_is_byte_identical_and_timestamp_is_the_only_difference(self):
-        for kind in ("isotonic", "platt", "beta", "temperature", "histogram"):
+        for kind in ("isotonic", "centered_isotonic", "platt", "beta", "temperature", "histogram"):
             a, b = self.fit(kind, "--no-timestamp"), self.fit(kind, "--no-timestamp")
             self.assertEqual(a, b)
             stamped = json.loads(self.fit(kind))
@@ -55,7 +55,7 @@ class Artifacts(PlumbCase):
         jsonschema.Draft202012Validator.check_schema(schema)
         validator = jsonschema.Draft202012Validator(schema)
         write(self.path("w.csv"), "risk,missed,w\n0.1,0,1\n0.4,1,2\n0.3,0,0.5\n0.8,1,1\n")
-        for kind in ("isotonic", "platt", "beta", "temperature", "histogram"):
+        for kind in ("isotonic", "centered_isotonic", "platt", "beta", "temperature", "histogram"):
             for extra in ((), ("--no-timestamp",)):
                 doc = json.loads(self.fit(kind, *extra))
                 errors = [e.message for e in validator.iter_errors(doc)]
@@ -64,9 +64,45 @@ class Artifacts(PlumbCase):
                                self.path("w.csv"), "-q")
             self.assertEqual(rc, 0, err)
             self.assertEqual([e.message for e in validator.iter_errors(json.loads(out))], [], kind)
+        doc = json.loads(self.fit("centered_isotonic", "--increase", "strict"))
+        self.assertEqual([e.message for e in validator.iter_errors(doc)], [], "centered_isotonic, strict")
         doc = json.loads(self.fit("platt"))
         doc["kind"] = "spline"
         self.assertTrue(list(validator.iter_errors(doc)), "the schema accepts an unknown kind")
+
+    def test_centered_isotonic_applies_the_documented_formula(self):
+        # docs/artifact-format.md: the line through the points, held beyond
+        # the end points; strict: (1 - tilt) line + tilt (1 + tanh((s - m) / h)) / 2.
+        import math
+        for increase in ("weak", "strict"):
+            rc, out, err = run("fit", "-q", "--map", "centered_isotonic", "--increase", increase, "--score", "risk",
+                               "--label", "missed", self.path("h.csv"), "-o", self.path("c.json"))
+            self.assertEqual(rc, 0, err)
+            p = self.load_json(self.path("c.json"))["parameters"]
+            xs, ys = p["point_score"], p["point_value"]
+            lo, hi, tilt = p["fitted_score_lo"], p["fitted_score_hi"], p["tilt"]
+            self.assertEqual(tilt, 0 if increase == "weak" else 1e-6)
+            m, h = (lo + hi) / 2, ((hi - lo) / 2 or 1.0)
+
+            def expected(s):
+                if s <= xs[0]:
+                    c = ys[0]
+                elif s >= xs[-1]:
+                    c = ys[-1]
+                else:
+                    i = max(k for k in range(len(xs)) if xs[k] <= s)
+                    c = ys[i] + (s - xs[i]) / (xs[i + 1] - xs[i]) * (ys[i + 1] - ys[i])
+                return (1 - tilt) * c + tilt * (1 + math.tanh((s - m) / h)) / 2
+
+            grid = [k / 200 for k in range(201)]
+            write(self.path("grid.csv"), "risk\n" + "\n".join(repr(s) for s in grid) + "\n")
+            rc, out, err = run("apply", "-q", self.path("c.json"), self.path("grid.csv"))
+            self.assertEqual(rc, 0, err)
+            got = [float(line.split(",")[-1]) for line in out.splitlines()[1:]]
+            for s, g in zip(grid, got):
+                self.assertAlmostEqual(g, expected(s), delta=1e-12, msg=f"{increase} at {s}")
+            if increase == "strict":
+                self.assertTrue(all(a < b for a, b in zip(got, got[1:])), "strictly increasing")
 
     def test_integrity_hash_follows_the_documented_rule(self):
         for kind in ("isotonic", "platt"):

@@ -33,7 +33,8 @@ namespace {
 // al. 2017), which a probability or a logit gives and a bare margin does
 // not; Platt scaling (1999), isotonic regression (Zadrozny and Elkan 2002)
 // and equal-mass binning (Zadrozny and Elkan 2001) only need scores that
-// order the rows. A kind registered without a row here fails the test.
+// order the rows, as does centered isotonic regression (Oron and Flournoy
+// 2017, whose doses need only an order and a mean). A kind registered without a row here fails the test.
 struct Facts {
   bool probability, logit, margin;
   bool nonparametric;  // its shape follows the rows, not a formula
@@ -42,6 +43,7 @@ const std::map<std::string, Facts> facts{
     {"isotonic", {true, true, true, true}},  {"platt", {true, true, true, false}},
     {"beta", {true, false, false, false}},   {"temperature", {true, true, false, false}},
     {"histogram", {true, true, true, true}}, {"fold_average", {true, true, true, false}},
+    {"centered_isotonic", {true, true, true, true}},
 };
 
 bool accepts_per_facts(const Facts& f, Scale s) {
@@ -193,8 +195,8 @@ TEST_CASE("map registry: an unknown kind is refused with every fittable kind lis
     CHECK(fit_list.find(std::string(k.name)) != std::string::npos);
     CHECK(load_list.find(std::string(k.name)) != std::string::npos);
   }
-  // Five kinds are fitted today (docs/methods.md); fold_average is only loaded.
-  CHECK(fittable == 5);
+  // Six kinds are fitted today (docs/methods.md); fold_average is only loaded.
+  CHECK(fittable == 6);
   CHECK(plumb::map_kinds().size() == fittable);
 }
 
@@ -207,8 +209,11 @@ TEST_CASE("map registry: nonparametric kinds and the complexity order of the one
     CHECK(k.nonparametric == facts.at(std::string(k.name)).nonparametric);
   }
   // By number of free parameters (temperature 1, platt 2, beta 3), then the
-  // nonparametric kinds, binning before the finer isotonic fit.
-  const std::vector<std::string> simplest_first{"temperature", "platt", "beta", "histogram", "isotonic"};
+  // nonparametric kinds, binning before the finer isotonic fit, and the
+  // centered isotonic line last: as many free values as isotonic's blocks,
+  // and a newer method, so plain isotonic is kept within one standard error.
+  const std::vector<std::string> simplest_first{"temperature", "platt",    "beta",
+                                                "histogram",   "isotonic", "centered_isotonic"};
   for (std::size_t i = 0; i + 1 < simplest_first.size(); ++i) {
     INFO(simplest_first[i] << " before " << simplest_first[i + 1]);
     CHECK(plumb::complexity(simplest_first[i]) < plumb::complexity(simplest_first[i + 1]));
@@ -224,7 +229,9 @@ TEST_CASE("map registry: the options each kind records in the artifact, from Map
   CHECK(plumb::recorded_options(*plumb::find_map_kind("beta"), m) == nlohmann::json{{"beta_form", "full"}});
   CHECK(plumb::recorded_options(*plumb::find_map_kind("histogram"), m) == nlohmann::json{{"bins", 10}});
   CHECK(plumb::recorded_options(*plumb::find_map_kind("temperature"), m) == nlohmann::json::object());
+  CHECK(plumb::recorded_options(*plumb::find_map_kind("centered_isotonic"), m) == nlohmann::json{{"increase", "weak"}});
   m.isotonic_interpolate = false;
+  m.centered_strict = true;
   m.platt_smoothed_targets = false;
   m.beta_form = "shared";
   m.histogram_bins = 7;
@@ -232,6 +239,7 @@ TEST_CASE("map registry: the options each kind records in the artifact, from Map
   CHECK(plumb::recorded_options(*plumb::find_map_kind("platt"), m) == nlohmann::json{{"platt_targets", "labels"}});
   CHECK(plumb::recorded_options(*plumb::find_map_kind("beta"), m) == nlohmann::json{{"beta_form", "shared"}});
   CHECK(plumb::recorded_options(*plumb::find_map_kind("histogram"), m) == nlohmann::json{{"bins", 7}});
+  CHECK(plumb::recorded_options(*plumb::find_map_kind("centered_isotonic"), m) == nlohmann::json{{"increase", "strict"}});
   // Each option's setter puts what the recorder reads back.
   for (const MapKind& k : plumb::map_registry())
     for (const MapOption& o : k.options) {
