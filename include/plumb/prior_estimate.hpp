@@ -43,9 +43,11 @@ struct PriorEstimate {
 //
 // The rows are merged by probability (a piecewise-constant map gives few
 // distinct values). Each resample gives every distinct value a Poisson
-// count of mean its number of rows (the Poisson bootstrap of the report:
-// exact by inversion up to 64 rows, above that the normal law of the same
-// mean and variance, rounded), and its estimate is the maximum of the same
+// count of mean its number of rows (a Poisson bootstrap, as the report's):
+// exact by inversion up to 64 rows; above that, unlike the report (which
+// sums exact draws), the normal law of the same mean and variance, rounded:
+// an approximation whose error is small beside the bootstrap's own for such
+// counts. Its estimate is the maximum of the same
 // likelihood, found by a safeguarded Newton iteration from the full
 // estimate (EM's fixed point, reached in a few steps instead of many).
 // Resample r draws from std::mt19937_64 seeded with
