@@ -22,7 +22,7 @@ PLUMB = os.environ.get("PLUMB_BIN", "plumb")
 SOURCE_DIR = os.environ.get("PLUMB_SOURCE_DIR", os.path.join(os.path.dirname(__file__), "..", ".."))
 DATA = os.path.join(SOURCE_DIR, "data")
 
-KINDS = ["isotonic", "platt", "beta", "temperature", "histogram"]
+KINDS = ["isotonic", "centered_isotonic", "platt", "beta", "temperature", "histogram"]
 
 
 def plumb(*args):

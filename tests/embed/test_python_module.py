@@ -316,6 +316,7 @@ class FitLikeCli(Shared):
         self.fit_both(HOLDOUT, "risk", "missed", "platt", ["--platt-targets", "labels"], platt_targets="labels")
         self.fit_both(HOLDOUT, "risk", "missed", "beta", ["--beta-form", "shared"], beta_form="shared")
         self.fit_both(HOLDOUT, "risk", "missed", "histogram", ["--bins", "25"], bins=25)
+        self.fit_both(HOLDOUT, "risk", "missed", "centered_isotonic", ["--increase", "strict"], increase="strict")
         z = os.path.join(self.work, "holdout.z.csv")
         self.fit_both(z, "z", "missed", "temperature", ["--scale", "logit"], scale="logit")
         self.fit_both(z, "m", "missed", "platt", ["--scale", "margin"], scale="margin")
