@@ -12,6 +12,7 @@
 
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
+#include "plumb/io/apply_stream.hpp"
 #include "plumb/io/artifact.hpp"
 #include "plumb/cross_fit.hpp"
 #include "plumb/io/csv.hpp"
@@ -55,6 +56,7 @@ struct CrossFitOptions {
   std::string split = "stratified";
   std::uint64_t seed = 1;
   std::string oof;
+  int oof_digits = 0;  // 0: the shortest text that reads back to the same double
   std::string output = "-";
   std::string json_path;
   std::string final_kind = "refit";
@@ -193,7 +195,7 @@ void write_oof(const CrossFitOptions& o, const io::LabelledRows& rows, const Cro
       out.put(d);
       const double p = r.oof(c, i);
       if (std::isfinite(p)) {
-        const auto [end, ec] = std::to_chars(number, number + sizeof number, p);
+        const char* end = io::probability_text(number, number + sizeof number, p, o.oof_digits);
         out.write(std::string_view(number, static_cast<std::size_t>(end - number)));
       }
     }
@@ -205,6 +207,9 @@ void write_oof(const CrossFitOptions& o, const io::LabelledRows& rows, const Cro
 }
 
 int run_cross_fit(const CrossFitOptions& o) {
+  if (o.oof_digits != 0 && o.oof.empty())
+    throw Error(ErrorKind::usage, "--digits sets the digits of the --oof file, and no --oof was given", {},
+                std::to_string(o.oof_digits), "--oof FILE with --digits");
 #if defined(__GLIBC__)
   // Blocks of 4 MB and more straight from the system and back to it when
   // freed. glibc otherwise raises its threshold to the size of the first
@@ -326,6 +331,10 @@ Command add_cross_fit_command(CLI::App& app) {
   cmd->add_option("--seed", o->seed, "Seed of the stratified and grouped splits")->default_str("1");
   cmd->add_option("--oof", o->oof,
                   "Write every input row with its fold (oof_fold) and each candidate's out-of-fold probability (oof_KIND)");
+  cmd->add_option("--digits", o->oof_digits,
+                  "Significant digits of the --oof probabilities, 1 to 17 (default: the shortest text that reads "
+                  "back to the same double), as apply's --digits")
+      ->check(CLI::Range(1, 17));
   cmd->add_option("-o,--output", o->output, "Where to write the chosen map's artifact (- for standard output)")
       ->default_str("-");
   cmd->add_option("--json", o->json_path, "Also write the evidence as JSON");

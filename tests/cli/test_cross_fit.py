@@ -52,6 +52,23 @@ class CrossFit(PlumbCase):
             evidence = json.load(f)
         return self.load_json(art), read_rows(oof), evidence, err
 
+    def test_oof_digits_round_each_probability_as_apply_digits_does(self):
+        # --digits N writes each out-of-fold probability to N significant
+        # digits: the nearest N-digit decimal to the shortest exact value
+        # (C's %.Ng, which Python's format follows), as apply --digits does.
+        data = self.write_rows("h.csv", simulate(800, 11, sigmoid_distortion))
+        _, full, _, _ = self.cross_fit(data, "--map", "platt,isotonic", "--seed", "2")
+        _, short, _, _ = self.cross_fit(data, "--map", "platt,isotonic", "--seed", "2", "--digits", "4")
+        self.assertEqual(full[0], short[0])
+        for a, b in zip(full[1:], short[1:]):
+            for col in ("oof_platt", "oof_isotonic"):
+                k = full[0].index(col)
+                self.assertEqual(b[k], format(float(a[k]), ".4g"), (col, a[k], b[k]))
+        rc, _, err = run("cross-fit", "--score", "risk", "--label", "missed", data, "-o", self.path("x.json"),
+                         "--digits", "4")
+        self.assertEqual(rc, 2, err)
+        self.assertIn("--oof", err)
+
     def test_oof_equals_fitting_each_fold_through_the_cli(self):
         rows = simulate(1500, 3, sigmoid_distortion)
         data = self.write_rows("h.csv", rows)
