@@ -6,6 +6,7 @@
 
 #include "plumb/error.hpp"
 #include "plumb/maps/beta_map.hpp"
+#include "plumb/maps/centered_isotonic_map.hpp"
 #include "plumb/maps/fold_average_map.hpp"
 #include "plumb/maps/histogram_map.hpp"
 #include "plumb/maps/isotonic_map.hpp"
@@ -85,6 +86,8 @@ class Writer {
                 "  const double p = l + t * (r - l);\n"
                 "  return p < l ? l : r < p ? r : p;\n";
       }
+    } else if (const auto* m = dynamic_cast<const CenteredIsotonicMap*>(&map)) {
+      body = centered(name, *m);
     } else if (const auto* m = dynamic_cast<const HistogramMap*>(&map)) {
       const auto& bins = m->bins();
       const auto& upper = m->boundaries();
@@ -114,7 +117,7 @@ class Writer {
       body += "  return sum / " + num(static_cast<double>(folds.size())) + ";\n";
     } else {
       throw Error(ErrorKind::usage, "no C form for " + kind_with_article(map.kind()) + " map", {},
-                  std::string(map.kind()), "platt, temperature, beta, isotonic, histogram or fold_average");
+                  std::string(map.kind()), "platt, temperature, beta, isotonic, centered_isotonic, histogram or fold_average");
     }
     code += "static double " + name + "(double score) {\n" + body + "}\n\n";
     return name;
@@ -124,6 +127,45 @@ class Writer {
   bool uses_clip = false, uses_logit = false, uses_sigmoid = false;
 
  private:
+  // CenteredIsotonicMap::line and map: the line through the points, ends
+  // held, then the strict form's minimal slope.
+  std::string centered(const std::string& name, const CenteredIsotonicMap& m) {
+    const auto& x = m.point_score();
+    const auto& y = m.point_value();
+    const std::size_t n = x.size();
+    code += array(name + "_x", n, [&](std::size_t i) { return x[i]; });
+    code += array(name + "_y", n, [&](std::size_t i) { return y[i]; });
+    const std::string px = name + "_x", py = name + "_y", last = std::to_string(n - 1);
+    std::string body = "  double p;\n"
+                       "  if (!(score > " + px + "[0])) {\n    p = " + py + "[0];\n"
+                       "  } else if (!(score < " + px + "[" + last + "])) {\n    p = " + py + "[" + last + "];\n"
+                       "  } else {\n"
+                       "    /* the last point at or below the score */\n"
+                       "    unsigned long i = 0, n = " + std::to_string(n) + ";\n"
+                       "    while (n > 1) {\n"
+                       "      const unsigned long half = n / 2;\n"
+                       "      if (" + px + "[i + half] <= score) i += half;\n"
+                       "      n -= half;\n"
+                       "    }\n"
+                       "    const double l = " + py + "[i], r = " + py + "[i + 1];\n"
+                       "    const double gap = " + px + "[i + 1] - " + px + "[i];\n"
+                       "    const double t = isfinite(gap) ? (score - " + px + "[i]) / gap\n"
+                       "                                   : (0.5 * score - 0.5 * " + px + "[i]) / (0.5 * " + px +
+                       "[i + 1] - 0.5 * " + px + "[i]);\n"
+                       "    const double rise = r - l;\n"
+                       "    const double q = isfinite(rise) ? l + t * rise : l + 2.0 * (t * (0.5 * r - 0.5 * l));\n"
+                       "    p = q < l ? l : r < q ? r : q;\n"
+                       "  }\n";
+    if (m.strict()) {
+      body += "  {\n"
+              "    const double t = 0.5 + 0.5 * tanh((0.5 * score - " + num(0.5 * m.middle()) + ") / " +
+              num(0.5 * m.half_width()) + ");\n"
+              "    const double q = " + num(1.0 - m.tilt()) + " * p + " + num(m.tilt()) + " * t;\n"
+              "    p = q < 0.0 ? 0.0 : 1.0 < q ? 1.0 : q;\n"
+              "  }\n";
+    }
+    return body + "  return p;\n";
+  }
   std::string clip() {
     uses_clip = true;
     return prefix_ + "_clip";

@@ -10,6 +10,7 @@
 
 #include "plumb/error.hpp"
 #include "plumb/maps/beta_map.hpp"
+#include "plumb/maps/centered_isotonic_map.hpp"
 #include "plumb/maps/fold_average_map.hpp"
 #include "plumb/maps/histogram_map.hpp"
 #include "plumb/maps/isotonic_map.hpp"
@@ -45,6 +46,7 @@ std::string sql_name(std::string_view name) {
 std::size_t pieces(const CalibrationMap& map) {
   if (const auto* m = dynamic_cast<const IsotonicMap*>(&map)) return m->blocks().size();
   if (const auto* m = dynamic_cast<const HistogramMap*>(&map)) return m->bins().size();
+  if (const auto* m = dynamic_cast<const CenteredIsotonicMap*>(&map)) return m->point_score().size();
   std::size_t n = 0;
   if (const auto* m = dynamic_cast<const FoldAverageMap*>(&map))
     for (const auto& fold : m->maps()) n += pieces(*fold);
@@ -142,6 +144,7 @@ class Writer {
     }
     if (const auto* m = dynamic_cast<const IsotonicMap*>(&map))
       return isotonic(m->blocks(), map.parameters().at("between_blocks") == "linear", s);
+    if (const auto* m = dynamic_cast<const CenteredIsotonicMap*>(&map)) return centered(*m, s);
     if (const auto* m = dynamic_cast<const HistogramMap*>(&map)) return histogram(*m, s);
     if (const auto* m = dynamic_cast<const FoldAverageMap*>(&map)) {
       std::string sum;
@@ -151,7 +154,8 @@ class Writer {
       return "((" + sum + ") / " + num(static_cast<double>(m->maps().size())) + ")";
     }
     throw Error(ErrorKind::usage, "no SQL form for " + kind_with_article(map.kind()) + " map", {},
-                std::string(map.kind()), "platt, temperature, beta, isotonic, histogram or fold_average");
+                std::string(map.kind()),
+                "platt, temperature, beta, isotonic, centered_isotonic, histogram or fold_average");
   }
 
   std::string tables;       // the knot tables' statements, in order
@@ -242,6 +246,55 @@ class Writer {
                : std::string("k.knot_value");
     return out + " ELSE (SELECT " + inside + " FROM " + table + " AS k WHERE k.knot_lo <= " + s +
            " ORDER BY k.knot_lo DESC" + first_row() + ") END)";
+  }
+
+  // CenteredIsotonicMap::line and map: the line through the points (the
+  // last point at or below the score and the next), the end values held,
+  // then the strict form's minimal slope.
+  std::string centered(const CenteredIsotonicMap& m, const std::string& s) {
+    const auto& x = m.point_score();
+    const auto& y = m.point_value();
+    const std::size_t n = x.size();
+    bool finite_gaps = true;
+    for (std::size_t i = 0; i + 1 < n; ++i) finite_gaps = finite_gaps && std::isfinite(x[i + 1] - x[i]);
+    // The line from point i to point i + 1 (y never overflows: it lies in [0, 1]).
+    auto segment = [&](std::size_t i) {
+      const double gap = x[i + 1] - x[i];
+      const std::string t = std::isfinite(gap)
+                                ? "((" + s + " - " + num(x[i]) + ") / " + num(gap) + ")"
+                                : "(((" + num(0.5) + " * " + s + ") - " + num(0.5 * x[i]) + ") / " +
+                                      num(0.5 * x[i + 1] - 0.5 * x[i]) + ")";
+      return clamp("(" + num(y[i]) + " + (" + t + " * " + num(y[i + 1] - y[i]) + "))", num(y[i]), num(y[i + 1]));
+    };
+    std::string line = "(CASE WHEN " + s + " <= " + num(x.front()) + " THEN " + num(y.front()) + " WHEN " + s +
+                       " >= " + num(x.back()) + " THEN " + num(y.back());
+    if (!use_tables || !finite_gaps) {
+      // A binary search for the last point at or below the score, as nested
+      // CASEs over the segments [i, j) (segment i joins points i and i + 1).
+      std::function<std::string(std::size_t, std::size_t)> search = [&](std::size_t i, std::size_t j) {
+        if (j - i == 1) return segment(i);
+        const std::size_t mid = i + (j - i) / 2;
+        return "CASE WHEN " + s + " < " + num(x[mid]) + " THEN " + search(i, mid) + " ELSE " + search(mid, j) + " END";
+      };
+      line += " ELSE " + search(0, n - 1) + " END)";
+    } else {
+      const std::string table = sql_name(next_table());
+      tables += "CREATE TABLE " + table +
+                " (knot_lo DOUBLE PRECISION PRIMARY KEY, knot_value DOUBLE PRECISION NOT NULL, knot_gap DOUBLE "
+                "PRECISION NOT NULL, knot_rise DOUBLE PRECISION NOT NULL, knot_next DOUBLE PRECISION NOT NULL);\n";
+      for (std::size_t i = 0; i + 1 < n; ++i)
+        tables += "INSERT INTO " + table + " VALUES (" + num(x[i]) + ", " + num(y[i]) + ", " + num(x[i + 1] - x[i]) +
+                  ", " + num(y[i + 1] - y[i]) + ", " + num(y[i + 1]) + ");\n";
+      line += " ELSE (SELECT " +
+              clamp("(k.knot_value + (((" + s + " - k.knot_lo) / k.knot_gap) * k.knot_rise))", "k.knot_value",
+                    "k.knot_next") +
+              " FROM " + table + " AS k WHERE k.knot_lo <= " + s + " ORDER BY k.knot_lo DESC" + first_row() + ") END)";
+    }
+    if (!m.strict()) return line;
+    const std::string t = "(" + num(0.5) + " + (" + num(0.5) + " * tanh(((" + num(0.5) + " * " + s + ") - " +
+                          num(0.5 * m.middle()) + ") / " + num(0.5 * m.half_width()) + ")))";
+    return clamp("((" + num(1.0 - m.tilt()) + " * " + line + ") + (" + num(m.tilt()) + " * " + t + "))", num(0.0),
+                 num(1.0));
   }
 
   std::string histogram(const HistogramMap& m, const std::string& s) {

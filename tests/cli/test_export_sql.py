@@ -36,6 +36,8 @@ MAPS = [
     ("temperature", ["--map", "temperature"]),
     ("histogram", ["--map", "histogram"]),
     ("histogram_100", ["--map", "histogram", "--bins", "100"]),
+    ("centered", ["--map", "centered_isotonic"]),
+    ("centered_strict", ["--map", "centered_isotonic", "--increase", "strict"]),
 ]
 # Maps of the log-odds column (logit scale) and a margin map.
 LOGIT_MAPS = [
@@ -43,6 +45,7 @@ LOGIT_MAPS = [
     ("temperature_logit", ["--map", "temperature", "--scale", "logit"]),
     ("isotonic_margin", ["--map", "isotonic", "--scale", "margin"]),
     ("histogram_margin", ["--map", "histogram", "--scale", "margin", "--bins", "20"]),
+    ("centered_margin", ["--map", "centered_isotonic", "--scale", "margin", "--increase", "strict"]),
 ]
 
 

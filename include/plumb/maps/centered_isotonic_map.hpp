@@ -56,6 +56,11 @@ class CenteredIsotonicMap final : public CalibrationMap {
   const std::vector<double>& point_score() const noexcept { return x_; }
   const std::vector<double>& point_value() const noexcept { return y_; }
   bool strict() const noexcept { return tilt_ > 0.0; }
+  // The strict form's weight and its tanh's middle and half-width, as map()
+  // uses them (the SQL and C exports repeat map()'s operations with them).
+  double tilt() const noexcept { return tilt_; }
+  double middle() const noexcept { return middle_; }
+  double half_width() const noexcept { return half_width_; }
 
  private:
   Scale scale_;
