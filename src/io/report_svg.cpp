@@ -413,8 +413,8 @@ void draw_trend_panel(Svg& svg, const Report& report, const TrendSeries& s, doub
   }
   for (const Gate& g : s.gates) take(g.limit);
   std::string title = s.column + " \u00b7 " + s.figure + " \u00b7 " + count_text(n) + (n == 1 ? " night" : " nights");
-  svg.out += "<g class=\"trend\" data-column=\"" + xml_escape(s.column) + "\" data-figure=\"" + xml_escape(s.figure) +
-             "\">\n";
+  svg.out += "<g class=\"trend\" data-trend-column=\"" + xml_escape(s.column) + "\" data-trend-figure=\"" +
+             xml_escape(s.figure) + "\">\n";
   svg.fitted_text(left + kTextLeft, top + 20, title, 13.0, width - 2 * kTextLeft, "trend-title", "bold");
   if (!finite(lo)) {
     svg.text(x0, y0 + 20, "No night has a value of this figure.", 11.0);
