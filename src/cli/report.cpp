@@ -54,7 +54,14 @@ std::string usage_footer(const std::string& max_gates, const std::string& min_ga
          "  plumb report --map late.map.json --map-score risk_v2 --label missed holdout.csv\n"
          "  plumb report --score risk_calibrated --label missed --max ece=0.02 --max mcb=0.004 -q scored.csv || page-the-on-call\n"
          "  plumb report --map late.map.json --score risk --label missed --max ece=0.02 --min auc=0.7 -q holdout.csv\n"
-         "  plumb report --score risk --map late.map.json --tally all.tally.json\n\n"
+         "  plumb report --score risk --map late.map.json --tally all.tally.json\n"
+         "  plumb report --map late.map.json --label missed --max ece=0.02 --history nightly.jsonl --html review.html "
+         "tonight.csv\n\n"
+         "History: --history FILE appends one JSON line per run (the date, the input's SHA-256, the rows, each\n"
+         "column's map identity and every gate figure with its interval, the gates' outcomes), under a lock, in one\n"
+         "write, then shows each calibrated column's figures over the nights (text, --svg, --html), with the gate\n"
+         "limits and the nights the map was refitted. A torn last line (a run killed while writing) is refused with\n"
+         "FILE:LINE unless --torn-history cut (docs/history-format.md).\n\n"
          "With --tally the report is that of the tallied rows (the figures are sums over rows, which the\n"
          "tally keeps per score; it is read as one cell per score and label, so memory grows with the\n"
          "distinct scores, not the rows). A tally of weighted rows needs --bootstrap 0 (the bootstrap\n"
@@ -308,11 +315,11 @@ io::TornHistory torn_policy(const ReportCliOptions& o) {
   return o.torn_history == "cut" ? io::TornHistory::cut : io::TornHistory::refuse;
 }
 
-// The one line on stderr when a torn last line was left out or cut off.
-void note_cut(const io::History& h, bool appended) {
+// The one line on stderr when a torn last line was cut off.
+void note_cut(const io::History& h) {
   if (!h.cut_line) return;
-  std::fprintf(stderr, "plumb report: %s the torn last line %llu of %s (%s bytes; --torn-history cut)\n",
-               appended ? "cut off" : "left out", static_cast<unsigned long long>(*h.cut_line), h.path.c_str(),
+  std::fprintf(stderr, "plumb report: cut off the torn last line %llu of %s (%s bytes; --torn-history cut)\n",
+               static_cast<unsigned long long>(*h.cut_line), h.path.c_str(),
                count_text(h.cut_bytes).c_str());
 }
 
@@ -512,7 +519,7 @@ int emit_report(const ReportCliOptions& o, Report& report, const std::string& in
   if (!o.markdown_path.empty()) files.emplace_back(std::make_unique<io::OutputFile>(o.markdown_path), markdown_file);
   if (!o.html_path.empty()) files.emplace_back(std::make_unique<io::OutputFile>(o.html_path), html_file);
   if (history) {
-    note_cut(*history, false);
+    // A torn line the early read left out is cut off by the append, which says so.
     io::HistoryRun run;
     const std::string now = utc_now();
     run.time_utc = now;
@@ -521,7 +528,7 @@ int emit_report(const ReportCliOptions& o, Report& report, const std::string& in
     run.tool = std::string("plumb ") + version_string;
     const io::History after =
         io::append_history(o.history, io::report_history_entry(report, run), torn_policy(o));
-    if (!history->cut_line) note_cut(after, true);
+    note_cut(after);
     report.trend = io::trend_of_history(after, report);
   }
   // Files first, each whole or not at all; then the terminal report.
@@ -615,16 +622,21 @@ Command add_report_command(CLI::App& app) {
   cmd->add_option("--svg", o->svg_path, "Also write reliability diagrams as SVG");
   cmd->add_option("--markdown", o->markdown_path, "Also write a Markdown report for a review");
   cmd->add_option("--html", o->html_path,
-                  "Also write a self-contained review page (HTML with inline charts; no script, works offline)");
+                  "Also write a self-contained review page (HTML with inline charts; no script, works offline; "
+                  "docs/review-page.md)")
+      ->option_text("FILE");
   cmd->add_option("--history", o->history,
                   "Append this run's figures as one line to a history file (JSON Lines) and show each figure's "
-                  "trend over its nights (docs/history-format.md)");
+                  "trend over its nights (docs/history-format.md)")
+      ->option_text("FILE");
   cmd->add_option("--history-date", o->history_date,
-                  "The night this run stands for in the history, YYYY-MM-DD (default: today, UTC)");
+                  "The night this run stands for in the history, YYYY-MM-DD (default: today, UTC)")
+      ->option_text("DATE");
   cmd->add_option("--torn-history", o->torn_history,
                   "A torn last line of the history (a run killed while writing): refuse, or cut it off and go on")
       ->check(CLI::IsMember({"refuse", "cut"}))
-      ->default_str("refuse");
+      ->default_str("refuse")
+      ->option_text("POLICY");
   cmd->add_flag("--ascii", o->ascii, "Draw the terminal chart with ASCII characters only");
   add_separator_option(*cmd, o->input.separator);
   cmd->add_flag("-q,--quiet", o->input.quiet, "No terminal report and no progress (files and gates still work)");

@@ -128,7 +128,7 @@ class TestTornHistory(HistoryCase):
         # The user's policy: cut the torn line off, say so, go on.
         rc, _, err = self.night("2026-11-03", "--torn-history", "cut", "-q")
         self.assertEqual(rc, 0, err)
-        self.assertIn(f"the torn last line 3 of {self.history}", err)
+        self.assertIn(f"cut off the torn last line 3 of {self.history}", err)
         self.assertEqual([l["date"] for l in self.lines()], ["2026-11-01", "2026-11-02", "2026-11-03"])
 
     def test_a_bad_line_in_the_middle_is_refused_whatever_the_policy(self):
