@@ -387,7 +387,7 @@ double draw_legend(Svg& svg, const Report& report, double left, double y, double
 // night breached a gate), each gate a dashed red rule with its limit, each
 // refit a dotted orange rule with the word "refit" above the plot.
 
-constexpr double kTrendPanelHeight = 206.0;
+constexpr double kTrendPanelHeight = 214.0;
 constexpr double kTrendPlotTop = 40.0;  // within a panel
 constexpr double kTrendPlotHeight = 110.0;
 constexpr double kTrendPlotLeft = 86.0;
@@ -462,9 +462,10 @@ void draw_trend_panel(Svg& svg, const Report& report, const TrendSeries& s, doub
     }
   for (const Gate& g : s.gates) {
     svg.line(x0, Y(g.limit), x1, Y(g.limit), kGate, 1.4, "7 4", "trend-gate");
-    svg.text(x1 + 2, Y(g.limit) - 4, (g.bound == GateBound::max ? "max " : "min ") +
-                                         text::trend_value_text(s.figure, g.limit),
-             9.5, "end", {}, 0.0, "normal", kGate);
+    svg.text(x0 + 4, Y(g.limit) - 4,
+             std::string(g.bound == GateBound::max ? "gate --max " : "gate --min ") +
+                 text::trend_value_text(s.figure, g.limit),
+             9.5, "start", {}, 0.0, "normal", kGate);
   }
   std::string path;
   bool pen_down = false;
@@ -495,13 +496,19 @@ void draw_trend_panel(Svg& svg, const Report& report, const TrendSeries& s, doub
   svg.rect(x0, y0, x1 - x0, y1 - y0, "none", kInk, 1.0);
   svg.text(x0, y1 + 16, s.points.front().date, 10.5, "start");
   if (n > 1) svg.text(x1, y1 + 16, s.points.back().date, 10.5, "end");
+  // The legend names only what the panel draws, on two lines.
   std::string legend = "dots: each night's value";
-  bool any_interval = false;
-  for (const TrendPoint& t : s.points) any_interval = any_interval || (finite(t.lo) && finite(t.hi));
+  std::string legend2;
+  bool any_interval = false, any_refit = false;
+  for (const TrendPoint& t : s.points) {
+    any_interval = any_interval || (finite(t.lo) && finite(t.hi));
+    any_refit = any_refit || t.refit;
+  }
   if (any_interval) legend += "; band: " + percent_text(report.options.confidence) + " bootstrap interval";
-  if (!s.gates.empty()) legend += "; dashed red: gate, ring: beyond it";
-  legend += "; dotted orange: map refitted";
-  svg.fitted_text(x0, y1 + 36, legend, 10.5, x1 - x0, "trend-legend");
+  if (!s.gates.empty()) legend2 = "dashed red: gate; ring: beyond it";
+  if (any_refit) legend2 += std::string(legend2.empty() ? "" : "; ") + "dotted orange: refit";
+  svg.fitted_text(x0, y1 + 34, legend, 10.5, x1 - x0, "trend-legend");
+  if (!legend2.empty()) svg.fitted_text(x0, y1 + 49, legend2, 10.5, x1 - x0, "trend-legend");
   svg.out += "</g>\n";
 }
 

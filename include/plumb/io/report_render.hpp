@@ -36,7 +36,8 @@ std::string render_svg(const Report& report);
 
 // The trend panels alone (Report::trend) as an SVG element without an XML
 // declaration, for the review page; render_svg draws the same panels under
-// the diagrams when the report has a trend. Empty panels list when no trend.
+// the diagrams when the report has a trend. Without a trend: an SVG of its
+// margin only.
 std::string render_trend_svg(const Report& report);
 
 // The review page: one self-contained HTML document (inline CSS and SVG, no
