@@ -11,6 +11,7 @@ import json
 import os
 import subprocess
 import unittest
+import xml.etree.ElementTree as ElementTree
 
 from plumbtest import PLUMB, PlumbCase, run, simulated_holdout, write
 
@@ -92,6 +93,10 @@ class TestHistoryLine(HistoryCase):
         self.assertIn("= gate --max 0.0200", out)
         with open(self.path("r.svg")) as f:
             svg = f.read()
+        ElementTree.fromstring(svg.encode())  # well-formed XML with the trend panels in it
+        # One panel per figure of the calibrated column: ece, mcb, brier, auc.
+        self.assertEqual([m for m in ("ece", "mcb", "brier", "auc") if f'data-trend-figure="{m}"' in svg],
+                         ["ece", "mcb", "brier", "auc"])
         self.assertEqual(svg.count('class="trend-refit"'), svg.count('class="trend"'))  # one refit per panel
         self.assertIn('class="trend-gate"', svg)
         self.assertEqual(svg.count('class="trend-point"') + svg.count('class="trend-breach"'),
