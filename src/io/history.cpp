@@ -7,6 +7,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <cerrno>
 #include <cmath>
 #include <cstring>
@@ -362,7 +363,7 @@ std::vector<TrendSeries> trend_of_history(const History& history, const Report& 
       TrendSeries series;
       series.column = column;
       series.figure = figure;
-      std::optional<std::string> previous_map;
+      std::vector<std::string> identities;  // of each point's map, for the refits
       for (const HistoryLine& hl : history.lines) {
         const nlohmann::json& e = hl.entry;
         if (e.value("command", "") != "report") continue;
@@ -382,12 +383,24 @@ std::vector<TrendSeries> trend_of_history(const History& history, const Report& 
           std::string identity;
           const auto m = c.find("map");
           if (m != c.end() && m->is_object()) identity = m->value("integrity", "");
-          p.refit = previous_map.has_value() && *previous_map != identity;
-          previous_map = identity;
+          identities.push_back(std::move(identity));
           series.points.push_back(std::move(p));
           break;
         }
       }
+      // Nights in date order (a backfilled night takes its place); runs of
+      // one date stay in the order they appended.
+      std::vector<std::size_t> order(series.points.size());
+      for (std::size_t i = 0; i < order.size(); ++i) order[i] = i;
+      std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) {
+        return series.points[a].date < series.points[b].date;
+      });
+      std::vector<TrendPoint> sorted;
+      for (std::size_t k = 0; k < order.size(); ++k) {
+        sorted.push_back(series.points[order[k]]);
+        sorted.back().refit = k > 0 && identities[order[k]] != identities[order[k - 1]];
+      }
+      series.points = std::move(sorted);
       for (const GateResult& g : tonight.gates) {
         const GateMetric* m = find_gate_metric(g.gate.metric);
         // Older spellings that read another quantity (citl, slope_gap) have no line on this chart.

@@ -219,8 +219,9 @@ TEST_CASE("the trend follows a column over the report lines and marks a change o
   };
   append_history(file, line("2026-11-01", "aaa", 0.010, 0.008, 0.013), TornHistory::refuse);
   append_history(file, {{"command", "drift"}, {"date", "2026-11-01"}}, TornHistory::refuse);  // not the report's
-  append_history(file, line("2026-11-02", "aaa", 0.012, 0.009, 0.016), TornHistory::refuse);
-  const History h = append_history(file, line("2026-11-03", "bbb", 0.030, 0.025, 0.036), TornHistory::refuse);
+  append_history(file, line("2026-11-03", "bbb", 0.030, 0.025, 0.036), TornHistory::refuse);
+  // A night backfilled after a later one: it takes its place by date.
+  const History h = append_history(file, line("2026-11-02", "aaa", 0.012, 0.009, 0.016), TornHistory::refuse);
 
   plumb::Report tonight;
   plumb::ScoreReport sr;

@@ -99,7 +99,8 @@ nlohmann::json report_history_entry(const Report& report, const HistoryRun& run)
 // brier and auc, then any other figure a gate of tonight's reads on that
 // column, each with tonight's gates on it. A point is marked refit when
 // the column's map integrity differs from that of the column's previous
-// point. Lines are taken in file order (the order the nights ran).
+// point. The points are in date order; lines of one date keep their file
+// order (the order the runs appended them).
 std::vector<TrendSeries> trend_of_history(const History& history, const Report& tonight);
 
 // Whether `text` is a date YYYY-MM-DD of the Gregorian calendar.
