@@ -143,7 +143,7 @@ void headline(std::string& out, const Report& report) {
         {"mcb", rn::brier_mcb.markdown_label(), s.corp_brier.mcb, metric_text(s.corp_brier.mcb),
          b ? &b->mcb_brier : nullptr},
         {"log_loss", rn::log_loss.markdown_label(), s.log_loss, metric_text(s.log_loss)},
-        {"slope", rn::calibration_slope.markdown_label(), s.regression.slope, stat_text(s.regression.slope)},
+        {"slope", rn::calibration_slope.markdown_label(), s.regression.slope, fixed_text(s.regression.slope, 4)},
         {"auc", rn::auc.markdown_label(), s.auc, metric_text(s.auc), b ? &b->auc : nullptr},
         {"hosmer_lemeshow_p", rn::hosmer_lemeshow_p.markdown_label(), s.hosmer_lemeshow.p_value,
          p_value_text(s.hosmer_lemeshow.p_value)},

@@ -105,6 +105,19 @@ class TestHistoryLine(HistoryCase):
         self.assertEqual(integrity[0], integrity[1])
         self.assertNotEqual(integrity[1], integrity[2])
 
+    def test_a_tally_records_the_tally_files_hash(self):
+        run("tally", "--score", "risk", "--label", "late", self.path("night.csv"), "-o", self.path("n.tally.json"),
+            check=True)
+        rc, _, err = run("report", "--score", "risk", "--tally", self.path("n.tally.json"), "--bootstrap", "0",
+                         "--history", self.history, "--history-date", "2026-11-05", "-q")
+        self.assertEqual(rc, 0, err)
+        line = self.lines()[0]
+        with open(self.path("n.tally.json"), "rb") as f:
+            self.assertEqual(line["input"]["sha256"], hashlib.sha256(f.read()).hexdigest())
+        self.assertEqual(line["input"]["rows"], 3000)
+        self.assertIsNone(line["columns"][0]["map"])
+        self.assertIsNone(line["columns"][0]["figures"]["ece"]["low"])  # --bootstrap 0: no interval
+
     def test_refusals_of_dates_and_options(self):
         self.assert_refused(["report", "--score", "risk", "--label", "late", "--history", self.history,
                              "--history-date", "2026-02-30", self.path("night.csv")], USAGE, "--history-date")

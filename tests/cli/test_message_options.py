@@ -51,6 +51,7 @@ REACH = {
     "include/plumb/io/apply_stream.hpp": ("apply",),
     "src/io/report_text.cpp": ("report",),
     "src/io/text_trend.cpp": ("report",),
+    "src/io/report_svg.cpp": ("report",),
     "src/io/report_html.cpp": ("report",),
     # The history's refusals name --torn-history: every command that appends
     # to a history (report; drift once it takes --history) must offer it.
