@@ -92,11 +92,10 @@ nlohmann::json check_line(std::string_view text, const std::string& path, std::u
   const auto version = j.find("version");
   if (version == j.end() || !version->is_number_integer() || version->get<std::int64_t>() != history_format_version) {
     const std::string got = version == j.end() ? "no version" : "version " + version->dump();
-    const bool newer = version != j.end() && version->is_number_integer() &&
-                       version->get<std::int64_t>() > history_format_version;
+    const bool newer =
+        version != j.end() && version->is_number_integer() && version->get<std::int64_t>() > history_format_version;
     throw Error(ErrorKind::input,
-                std::string("a history line of another format version") +
-                    (newer ? " (written by a newer plumb)" : ""),
+                std::string("a history line of another format version") + (newer ? " (written by a newer plumb)" : ""),
                 at(path, line_no, 1), got,
                 "history format version " + std::to_string(history_format_version) +
                     ", which this plumb reads; start a new history file, or read it with the plumb that wrote it");
@@ -214,15 +213,17 @@ History append_history(const std::string& path, nlohmann::json entry, TornHistor
   std::string text = std::string("{\"format\":\"") + history_format_marker +
                      "\",\"version\":" + std::to_string(history_format_version);
   const std::string body = rest.dump(-1, ' ', false, nlohmann::json::error_handler_t::replace);
-  if (body.size() > 2) text += "," + body.substr(1);
-  else text += "}";
+  if (body.size() > 2)
+    text += "," + body.substr(1);
+  else
+    text += "}";
   text += "\n";
 
   Fd f;
   f.fd = ::open(path.c_str(), O_RDWR | O_APPEND | O_CREAT | O_CLOEXEC, 0644);
   if (f.fd < 0)
-    throw Error(ErrorKind::io, "cannot open the history file for appending (" + errno_text(errno) + ")",
-                at(path, 0), path, "a writable file, or a path in a writable directory");
+    throw Error(ErrorKind::io, "cannot open the history file for appending (" + errno_text(errno) + ")", at(path, 0),
+                path, "a writable file, or a path in a writable directory");
   while (::flock(f.fd, LOCK_EX) != 0)
     if (errno != EINTR)
       throw Error(ErrorKind::io, "cannot lock the history file (" + errno_text(errno) + ")", at(path, 0), path,
@@ -242,7 +243,8 @@ History append_history(const std::string& path, nlohmann::json entry, TornHistor
   const ssize_t n = ::write(f.fd, text.data(), text.size());
   if (n != static_cast<ssize_t>(text.size())) {
     const int e = n < 0 ? errno : ENOSPC;
-    if (::ftruncate(f.fd, size) != 0) { /* the next reader finds the torn line and refuses it */ }
+    if (::ftruncate(f.fd, size) != 0) { /* the next reader finds the torn line and refuses it */
+    }
     throw Error(ErrorKind::io, "cannot append to the history file (" + errno_text(e) + ")", at(path, 0), path,
                 "a writable file on a file system with room");
   }
@@ -392,9 +394,8 @@ std::vector<TrendSeries> trend_of_history(const History& history, const Report& 
       // one date stay in the order they appended.
       std::vector<std::size_t> order(series.points.size());
       for (std::size_t i = 0; i < order.size(); ++i) order[i] = i;
-      std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) {
-        return series.points[a].date < series.points[b].date;
-      });
+      std::stable_sort(order.begin(), order.end(),
+                       [&](std::size_t a, std::size_t b) { return series.points[a].date < series.points[b].date; });
       std::vector<TrendPoint> sorted;
       for (std::size_t k = 0; k < order.size(); ++k) {
         sorted.push_back(series.points[order[k]]);

@@ -72,14 +72,26 @@ std::string esc(std::string_view text) {
   for (const char c : text) {
     const auto u = static_cast<unsigned char>(c);
     switch (c) {
-      case '&': out += "&amp;"; break;
-      case '<': out += "&lt;"; break;
-      case '>': out += "&gt;"; break;
-      case '"': out += "&quot;"; break;
-      case '\'': out += "&#39;"; break;
+      case '&':
+        out += "&amp;";
+        break;
+      case '<':
+        out += "&lt;";
+        break;
+      case '>':
+        out += "&gt;";
+        break;
+      case '"':
+        out += "&quot;";
+        break;
+      case '\'':
+        out += "&#39;";
+        break;
       default:
-        if (u < 0x20 && c != '\t' && c != '\n') out += "\xEF\xBF\xBD";
-        else out += c;
+        if (u < 0x20 && c != '\t' && c != '\n')
+          out += "\xEF\xBF\xBD";
+        else
+          out += c;
     }
   }
   return out;
@@ -116,7 +128,8 @@ struct Row {
 
 // Every figure with a bootstrap interval is a metric (plumb/number_text.hpp).
 std::string interval_cell(const BootstrapInterval* i) {
-  if (i == nullptr || i->used == 0 || !std::isfinite(i->lo) || !std::isfinite(i->hi)) return "<td class=\"interval\"></td>";
+  if (i == nullptr || i->used == 0 || !std::isfinite(i->lo) || !std::isfinite(i->hi))
+    return "<td class=\"interval\"></td>";
   const std::string lo = metric_text(i->lo), hi = metric_text(i->hi);
   return "<td class=\"interval\">" + esc(interval_text(lo, hi)) + "</td>";
 }
@@ -165,8 +178,9 @@ void headline(std::string& out, const Report& report) {
 void reliability(std::string& out, const Report& report) {
   Report plain = report;
   plain.trend.clear();
-  std::string desc = "Observed frequency against forecast probability for each score column, with the diagonal of "
-                     "perfect calibration, the PAV (CORP) curve and the bins; the numbers are in the tables below.";
+  std::string desc =
+      "Observed frequency against forecast probability for each score column, with the diagonal of "
+      "perfect calibration, the PAV (CORP) curve and the bins; the numbers are in the tables below.";
   out += "<section aria-labelledby=\"reliability\">\n<h2 id=\"reliability\">Reliability</h2>\n<div class=\"chart\">\n";
   out += inline_svg(render_svg(plain), "reliability-chart", "Reliability diagrams of " + report.source, desc);
   out += "</div>\n";
@@ -174,10 +188,11 @@ void reliability(std::string& out, const Report& report) {
     const ScoreSummary& s = report.scores[k].overall;
     out += "<table class=\"bins\">\n<caption>" + esc(s.name) + ": " + count_text(report.options.bins) + " " +
            esc(rn::binning(report.options.binning).markdown_label()) + " bins</caption>\n";
-    out += "<thead><tr><th scope=\"col\">bin</th><th scope=\"col\">rows</th><th scope=\"col\">mean forecast</th>"
-           "<th scope=\"col\">observed</th><th scope=\"col\">" +
-           esc(percent_text(report.options.confidence)) +
-           " Wilson interval</th><th scope=\"col\">gap</th></tr></thead>\n<tbody>\n";
+    out +=
+        "<thead><tr><th scope=\"col\">bin</th><th scope=\"col\">rows</th><th scope=\"col\">mean forecast</th>"
+        "<th scope=\"col\">observed</th><th scope=\"col\">" +
+        esc(percent_text(report.options.confidence)) +
+        " Wilson interval</th><th scope=\"col\">gap</th></tr></thead>\n<tbody>\n";
     for (std::size_t i = 0; i < s.table.bins.size(); ++i) {
       const ReliabilityBin& b = s.table.bins[i];
       out += "<tr><th scope=\"row\">" + esc(range_text(probability_text(b.edge_lo), probability_text(b.edge_hi))) +
@@ -215,8 +230,8 @@ void segments(std::string& out, const Report& report) {
       out += "<td class=\"num\">" + probability_text(g.mean_forecast) + "</td><td class=\"num\">" +
              probability_text(g.observed_rate) + "</td><td class=\"num\">" +
              difference_text(g.calibration_in_the_large) + "</td><td class=\"num\">" + metric_text(g.ece) +
-             "</td><td class=\"num\">" + p_value_text(g.p_adjusted) + "</td><td>" +
-             (g.flagged ? "miscalibrated" : "") + "</td></tr>\n";
+             "</td><td class=\"num\">" + p_value_text(g.p_adjusted) + "</td><td>" + (g.flagged ? "miscalibrated" : "") +
+             "</td></tr>\n";
     }
     out += "</tbody>\n</table>\n";
   }
@@ -225,9 +240,10 @@ void segments(std::string& out, const Report& report) {
 
 void gates(std::string& out, const Report& report) {
   if (report.gates.empty()) return;
-  out += "<section aria-labelledby=\"gates\">\n<h2 id=\"gates\">Gates</h2>\n<table class=\"gates\">\n"
-         "<thead><tr><th scope=\"col\">outcome</th><th scope=\"col\">column</th><th scope=\"col\">metric</th>"
-         "<th scope=\"col\">value</th><th scope=\"col\">bound</th><th scope=\"col\">limit</th></tr></thead>\n<tbody>\n";
+  out +=
+      "<section aria-labelledby=\"gates\">\n<h2 id=\"gates\">Gates</h2>\n<table class=\"gates\">\n"
+      "<thead><tr><th scope=\"col\">outcome</th><th scope=\"col\">column</th><th scope=\"col\">metric</th>"
+      "<th scope=\"col\">value</th><th scope=\"col\">bound</th><th scope=\"col\">limit</th></tr></thead>\n<tbody>\n";
   for (const GateResult& g : report.gates) {
     out += std::string(g.exceeded ? "<tr class=\"breached\">" : "<tr>") + "<th scope=\"row\">" +
            (g.exceeded ? "BREACHED" : "held") + "</th><td>" + esc(g.column) + "</td><td>" + esc(g.gate.metric) +

@@ -86,7 +86,8 @@ void render_trend(Document& doc, const Painter& p, const Report& report) {
     }
     std::size_t label_width = 0;
     for (double v : {lo, hi}) label_width = std::max(label_width, visible_width(trend_value_text(s.figure, v)));
-    for (const Gate& g : s.gates) label_width = std::max(label_width, visible_width(trend_value_text(s.figure, g.limit)));
+    for (const Gate& g : s.gates)
+      label_width = std::max(label_width, visible_width(trend_value_text(s.figure, g.limit)));
     margin = std::max(kMinMargin, label_width + 4);
     if (p.width < margin + 13) continue;
     const std::size_t W = std::min(kMaxColumns, p.width - margin - 1);
@@ -176,8 +177,10 @@ void render_trend(Document& doc, const Painter& p, const Report& report) {
     if (n > 1) {
       const std::string& last = s.points.back().date;
       const std::size_t end = margin + W;
-      if (end > dates.size() + last.size()) dates += std::string(end - dates.size() - last.size(), ' ');
-      else dates += "  ";
+      if (end > dates.size() + last.size())
+        dates += std::string(end - dates.size() - last.size(), ' ');
+      else
+        dates += "  ";
       dates += last;
     }
     doc.line(dates);

@@ -50,7 +50,9 @@ void spill(const fs::path& p, const std::string& bytes) {
 }
 
 nlohmann::json night(const std::string& date, double ece) {
-  return {{"command", "report"}, {"date", date}, {"columns", {{{"name", "risk"}, {"figures", {{"ece", {{"value", ece}}}}}}}}};
+  return {{"command", "report"},
+          {"date", date},
+          {"columns", {{{"name", "risk"}, {"figures", {{"ece", {{"value", ece}}}}}}}}};
 }
 
 // The error `f` throws, which must be a plumb::Error.
@@ -146,15 +148,16 @@ TEST_CASE("a line of another format version is refused with its line and version
   TempDir d;
   const fs::path file = d.path / "h.jsonl";
   append_history(file.string(), night("2026-11-01", 0.01), TornHistory::refuse);
-  spill(file, slurp(file) +
-                  R"({"format":"plumb-history","version":2,"command":"report","date":"2026-11-02"})" "\n");
+  spill(file, slurp(file) + R"({"format":"plumb-history","version":2,"command":"report","date":"2026-11-02"})"
+                            "\n");
   const Error e = thrown([&] { read_history(file.string(), TornHistory::cut); });
   CHECK(e.kind() == ErrorKind::input);
   CHECK(e.where().line == 2);
   CHECK(e.value() == "version 2");
   CHECK(e.message().find("newer plumb") != std::string::npos);
   // Not a history line at all (another tool's JSON Lines).
-  spill(file, R"({"event":"x"})" "\n");
+  spill(file, R"({"event":"x"})"
+              "\n");
   CHECK(thrown([&] { read_history(file.string(), TornHistory::refuse); }).message() ==
         "a line that is not a plumb history line");
 }
@@ -209,13 +212,12 @@ TEST_CASE("the trend follows a column over the report lines and marks a change o
   TempDir d;
   const std::string file = (d.path / "h.jsonl").string();
   const auto line = [](const std::string& date, const std::string& integrity, double ece, double lo, double hi) {
-    return nlohmann::json{
-        {"command", "report"},
-        {"date", date},
-        {"columns",
-         {{{"name", "risk via late.map.json"},
-           {"map", {{"integrity", integrity}}},
-           {"figures", {{"ece", {{"value", ece}, {"low", lo}, {"high", hi}}}}}}}}};
+    return nlohmann::json{{"command", "report"},
+                          {"date", date},
+                          {"columns",
+                           {{{"name", "risk via late.map.json"},
+                             {"map", {{"integrity", integrity}}},
+                             {"figures", {{"ece", {{"value", ece}, {"low", lo}, {"high", hi}}}}}}}}};
   };
   append_history(file, line("2026-11-01", "aaa", 0.010, 0.008, 0.013), TornHistory::refuse);
   append_history(file, {{"command", "drift"}, {"date", "2026-11-01"}}, TornHistory::refuse);  // not the report's
