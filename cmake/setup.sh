@@ -15,10 +15,11 @@ plumb_build_packages=(cmake ninja-build g++ libcli11-dev nlohmann-json3-dev libe
 # The fuzz targets build with clang and its libFuzzer runtime; the sharded
 # example runs on Dask; the Python module builds with pybind11 against
 # Debian's python3 headers and is tested with NumPy; plumb export --sql is
-# checked in SQLite (the sqlite3 shell) and in a throwaway PostgreSQL cluster.
+# checked in SQLite (the sqlite3 shell) and in a throwaway PostgreSQL cluster;
+# the review page (plumb report --html) is loaded in headless Chromium.
 plumb_test_packages=(catch2 r-base-core r-cran-iso r-cran-mass python3-jsonschema clang libclang-rt-14-dev
                      python3-dask python3-distributed pybind11-dev python3-pybind11 python3-dev python3-numpy
-                     sqlite3 postgresql)
+                     sqlite3 postgresql chromium)
 
 plumb_missing_packages() {
   local p

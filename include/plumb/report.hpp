@@ -93,6 +93,15 @@ struct MapOrigin {
   std::string column;  // the score column the map was applied to
   std::string file;    // the map file as given
   std::string kind;    // "isotonic", "platt", ...
+  // The map's identity and provenance as its artifact records them (empty
+  // when not known): the integrity hash, which changes with every refit;
+  // when and by what it was fitted; the fit input's name, hash and rows.
+  std::string integrity;
+  std::string created_utc;
+  std::string tool;
+  std::string fitted_source;
+  std::string fitted_sha256;
+  std::uint64_t fitted_rows = 0;
 };
 
 struct ScoreReport {
@@ -122,6 +131,25 @@ struct GateResult {
   bool exceeded = false;  // failed: beyond its limit, or a value that could not be computed
 };
 
+// One night of a figure's trend (plumb report --history): the night's
+// value and interval (NaN when it has none), and whether the column's map
+// was refitted since the night before (its identity changed).
+struct TrendPoint {
+  std::string date;  // YYYY-MM-DD, as the history records it
+  double value = 0.0;
+  double lo = 0.0, hi = 0.0;
+  bool refit = false;
+};
+
+// A figure of one column over the nights of a history, oldest first (the
+// last point is the current run), with the current run's gates on it.
+struct TrendSeries {
+  std::string column;
+  std::string figure;  // a gate metric name (gate_metrics())
+  std::vector<TrendPoint> points;
+  std::vector<Gate> gates;
+};
+
 struct Report {
   std::string source;
   std::string label_column;
@@ -134,6 +162,10 @@ struct Report {
   std::vector<ScoreReport> scores;
   std::vector<GateResult> gates;
   std::vector<std::string> cautions;  // plain sentences, in the order found
+  // Set by the caller from a history file (io/history.hpp); empty without
+  // one. The text, SVG and HTML renderers draw it; the JSON report leaves
+  // it out (the history file holds the figures).
+  std::vector<TrendSeries> trend;
   bool any_gate_exceeded() const noexcept;
 };
 

@@ -7,18 +7,26 @@
 #include <cstdio>
 #include <cstdlib>
 #include <filesystem>
+#include <fstream>
 #include <map>
+#include <memory>
+#include <optional>
+#include <sstream>
 #include <string>
+#include <utility>
 
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
+#include "io/byte_source.hpp"
 #include "plumb/io/artifact.hpp"
+#include "plumb/io/history.hpp"
 #include "plumb/error.hpp"
 #include "plumb/io/output.hpp"
 #include "plumb/report.hpp"
 #include "plumb/io/report_render.hpp"
 #include "plumb/tally.hpp"
 #include "plumb/io/tally_io.hpp"
+#include "plumb/version.hpp"
 
 namespace plumb::cli {
 namespace {
@@ -46,7 +54,14 @@ std::string usage_footer(const std::string& max_gates, const std::string& min_ga
          "  plumb report --map late.map.json --map-score risk_v2 --label missed holdout.csv\n"
          "  plumb report --score risk_calibrated --label missed --max ece=0.02 --max mcb=0.004 -q scored.csv || page-the-on-call\n"
          "  plumb report --map late.map.json --score risk --label missed --max ece=0.02 --min auc=0.7 -q holdout.csv\n"
-         "  plumb report --score risk --map late.map.json --tally all.tally.json\n\n"
+         "  plumb report --score risk --map late.map.json --tally all.tally.json\n"
+         "  plumb report --map late.map.json --label missed --max ece=0.02 --history nightly.jsonl --html review.html "
+         "tonight.csv\n\n"
+         "History: --history FILE appends one JSON line per run (the date, the input's SHA-256, the rows, each\n"
+         "column's map identity and every gate figure with its interval, the gates' outcomes), under a lock, in one\n"
+         "write, then shows each calibrated column's figures over the nights (text, --svg, --html), with the gate\n"
+         "limits and the nights the map was refitted. A torn last line (a run killed while writing) is refused with\n"
+         "FILE:LINE unless --torn-history cut (docs/history-format.md).\n\n"
          "With --tally the report is that of the tallied rows (the figures are sums over rows, which the\n"
          "tally keeps per score; it is read as one cell per score and label, so memory grows with the\n"
          "distinct scores, not the rows). A tally of weighted rows needs --bootstrap 0 (the bootstrap\n"
@@ -78,7 +93,10 @@ struct ReportCliOptions {
   std::size_t hl_groups = 10;
   double min_segment = 100;
   std::vector<std::string> max, min;
-  std::string json_path, svg_path, markdown_path;
+  std::string json_path, svg_path, markdown_path, html_path;
+  std::string history;                 // --history FILE.jsonl
+  std::string history_date;            // --history-date (default: today, UTC)
+  std::string torn_history = "refuse";  // --torn-history
   bool ascii = false;
   std::string tally;               // report on this tally instead of rows
   std::vector<std::string> given;  // row-reading options given on the command line
@@ -263,15 +281,59 @@ std::string failed_gates_line(const std::vector<GateResult>& results) {
          (results.size() == 1 ? " gate" : " gates") + " failed: " + detail;
 }
 
-void write_file(const std::string& path, const std::string& text) {
-  io::OutputFile out(path);
-  out.write(text);
-  out.commit();
+int emit_report(const ReportCliOptions& o, Report& report, const std::string& input_sha256,
+                const std::optional<io::History>& history);
+
+// Where a column mapped on the fly came from, with the map's identity (its
+// integrity hash changes with every refit) and its fit's provenance.
+MapOrigin map_origin(const std::string& column, const std::string& file, const Artifact& a) {
+  MapOrigin m;
+  m.column = column;
+  m.file = file;
+  m.kind = std::string(a.map->kind());
+  m.integrity = integrity_hash(artifact_to_json(a));
+  m.created_utc = a.provenance.created_utc;
+  m.tool = a.provenance.tool;
+  m.fitted_source = a.provenance.source;
+  m.fitted_sha256 = a.provenance.source_sha256;
+  m.fitted_rows = a.provenance.rows;
+  return m;
 }
 
-int emit_report(const ReportCliOptions& o, const Report& report);
+// The SHA-256 of a tally file's bytes for the history; empty for standard
+// input, which cannot be read twice.
+std::string tally_sha256(const std::string& path) {
+  if (path == "-") return {};
+  std::ifstream in(path, std::ios::binary);
+  std::ostringstream bytes;
+  bytes << in.rdbuf();
+  if (!in.good() && !in.eof()) return {};
+  return io::sha256_hex(bytes.str());
+}
+
+io::TornHistory torn_policy(const ReportCliOptions& o) {
+  return o.torn_history == "cut" ? io::TornHistory::cut : io::TornHistory::refuse;
+}
+
+// The one line on stderr when a torn last line was cut off.
+void note_cut(const io::History& h) {
+  if (!h.cut_line) return;
+  std::fprintf(stderr, "plumb report: cut off the torn last line %llu of %s (%s bytes; --torn-history cut)\n",
+               static_cast<unsigned long long>(*h.cut_line), h.path.c_str(),
+               count_text(h.cut_bytes).c_str());
+}
 
 int run_report(const ReportCliOptions& o) {
+  // The history is checked before any work, so a torn or foreign line is
+  // refused at once; it is read again, under its lock, when the run appends.
+  if (o.history.empty() && (!o.history_date.empty() || o.torn_history != "refuse"))
+    throw Error(ErrorKind::usage, std::string(o.history_date.empty() ? "--torn-history" : "--history-date") +
+                                      " needs --history", {}, {}, "--history FILE.jsonl");
+  if (!o.history_date.empty() && !io::is_history_date(o.history_date))
+    throw Error(ErrorKind::usage, "--history-date is not a date", {}, o.history_date,
+                "a date YYYY-MM-DD of the calendar, e.g. 2026-11-18");
+  std::optional<io::History> history;
+  if (!o.history.empty()) history = io::read_history(o.history, torn_policy(o));
   std::vector<Gate> gates;
   for (const std::string& m : o.max) gates.push_back(parse_gate(m, GateBound::max));
   for (const std::string& m : o.min) gates.push_back(parse_gate(m, GateBound::min));
@@ -358,9 +420,8 @@ int run_report(const ReportCliOptions& o) {
     if (!t.unit_weights) report.weight_column = t.weight_column;
     report.cautions.insert(report.cautions.end(), extra_cautions.begin(), extra_cautions.end());
     for (std::size_t m = 0; m < artifacts.size(); ++m)
-      report.scores[o.scores.size() + m].map =
-          MapOrigin{t.score_column, o.maps[m], std::string(artifacts[m].map->kind())};
-    return emit_report(o, report);
+      report.scores[o.scores.size() + m].map = map_origin(t.score_column, o.maps[m], artifacts[m]);
+    return emit_report(o, report, tally_sha256(o.tally), history);
   }
   // One unweighted score column without segments: its cells are counted on
   // a second thread while the reader parses (the cell sums are then counts,
@@ -440,16 +501,46 @@ int run_report(const ReportCliOptions& o) {
   report.cautions.insert(report.cautions.end(), extra_cautions.begin(), extra_cautions.end());
   for (std::size_t m = 0; m < artifacts.size(); ++m)
     report.scores[o.scores.size() + m].map =
-        MapOrigin{rows.score_columns[o.scores.size() + m], o.maps[m], std::string(artifacts[m].map->kind())};
-  return emit_report(o, report);
+        map_origin(rows.score_columns[o.scores.size() + m], o.maps[m], artifacts[m]);
+  return emit_report(o, report, rows.source_sha256, history);
 }
 
-// Writes the report's files, then the terminal report; the gates' exit code.
-int emit_report(const ReportCliOptions& o, const Report& report) {
+// Appends the run to the history (with --history) and draws the trend from
+// it, then writes the report's files and the terminal report; the gates'
+// exit code.
+int emit_report(const ReportCliOptions& o, Report& report, const std::string& input_sha256,
+                const std::optional<io::History>& history) {
+  // Every file is opened (a temporary beside it) before the history line
+  // goes out, so an unwritable path is refused before the history grows.
+  std::vector<std::pair<std::unique_ptr<io::OutputFile>, int>> files;
+  enum { json_file, svg_file, markdown_file, html_file };
+  if (!o.json_path.empty()) files.emplace_back(std::make_unique<io::OutputFile>(o.json_path), json_file);
+  if (!o.svg_path.empty()) files.emplace_back(std::make_unique<io::OutputFile>(o.svg_path), svg_file);
+  if (!o.markdown_path.empty()) files.emplace_back(std::make_unique<io::OutputFile>(o.markdown_path), markdown_file);
+  if (!o.html_path.empty()) files.emplace_back(std::make_unique<io::OutputFile>(o.html_path), html_file);
+  if (history) {
+    // A torn line the early read left out is cut off by the append, which says so.
+    io::HistoryRun run;
+    const std::string now = utc_now();
+    run.time_utc = now;
+    run.date = o.history_date.empty() ? now.substr(0, 10) : o.history_date;
+    run.input_sha256 = input_sha256;
+    run.tool = std::string("plumb ") + version_string;
+    const io::History after =
+        io::append_history(o.history, io::report_history_entry(report, run), torn_policy(o));
+    note_cut(after);
+    report.trend = io::trend_of_history(after, report);
+  }
   // Files first, each whole or not at all; then the terminal report.
-  if (!o.json_path.empty()) write_file(o.json_path, report_to_json(report).dump(2) + "\n");
-  if (!o.svg_path.empty()) write_file(o.svg_path, render_svg(report));
-  if (!o.markdown_path.empty()) write_file(o.markdown_path, render_markdown(report));
+  for (auto& [out, what] : files) {
+    switch (what) {
+      case json_file: out->write(report_to_json(report).dump(2) + "\n"); break;
+      case svg_file: out->write(render_svg(report)); break;
+      case markdown_file: out->write(render_markdown(report)); break;
+      default: out->write(render_html(report));
+    }
+  }
+  for (auto& f : files) f.first->commit();
   if (!o.input.quiet) {
     TextStyle style;
     style.unicode = !o.ascii;
@@ -530,6 +621,22 @@ Command add_report_command(CLI::App& app) {
   cmd->add_option("--json", o->json_path, "Also write every number as JSON (docs/report-format.md)");
   cmd->add_option("--svg", o->svg_path, "Also write reliability diagrams as SVG");
   cmd->add_option("--markdown", o->markdown_path, "Also write a Markdown report for a review");
+  cmd->add_option("--html", o->html_path,
+                  "Also write a self-contained review page (HTML with inline charts; no script, works offline; "
+                  "docs/review-page.md)")
+      ->option_text("FILE");
+  cmd->add_option("--history", o->history,
+                  "Append this run's figures as one line to a history file (JSON Lines) and show each figure's "
+                  "trend over its nights (docs/history-format.md)")
+      ->option_text("FILE");
+  cmd->add_option("--history-date", o->history_date,
+                  "The night this run stands for in the history, YYYY-MM-DD (default: today, UTC)")
+      ->option_text("DATE");
+  cmd->add_option("--torn-history", o->torn_history,
+                  "A torn last line of the history (a run killed while writing): refuse, or cut it off and go on")
+      ->check(CLI::IsMember({"refuse", "cut"}))
+      ->default_str("refuse")
+      ->option_text("POLICY");
   cmd->add_flag("--ascii", o->ascii, "Draw the terminal chart with ASCII characters only");
   add_separator_option(*cmd, o->input.separator);
   cmd->add_flag("-q,--quiet", o->input.quiet, "No terminal report and no progress (files and gates still work)");

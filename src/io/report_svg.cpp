@@ -21,6 +21,7 @@
 
 #include "plumb/io/report_render.hpp"
 #include "report_names.hpp"
+#include "text_trend.hpp"
 
 namespace plumb {
 namespace {
@@ -379,6 +380,150 @@ double draw_legend(Svg& svg, const Report& report, double left, double y, double
   return y + 16;
 }
 
+// ---------------------------------------------------------------------------
+// The trend (plumb report --history): one panel per TrendSeries, the nights
+// spaced evenly left to right. The interval is a pale band (the band's
+// violet), the values a slate line with a dot per night (a red ring where a
+// night breached a gate), each gate a dashed red rule with its limit, each
+// refit a dotted orange rule with the word "refit" above the plot.
+
+constexpr double kTrendPanelHeight = 214.0;
+constexpr double kTrendPlotTop = 40.0;  // within a panel
+constexpr double kTrendPlotHeight = 110.0;
+constexpr double kTrendPlotLeft = 86.0;
+constexpr std::string_view kGate = "#a3312a";
+
+bool trend_breach(const Gate& g, double v) { return g.bound == GateBound::max ? !(v <= g.limit) : !(v >= g.limit); }
+
+void draw_trend_panel(Svg& svg, const Report& report, const TrendSeries& s, double left, double top, double width) {
+  const std::size_t n = s.points.size();
+  const double x0 = left + kTrendPlotLeft, x1 = left + width - 24.0;
+  const double y0 = top + kTrendPlotTop, y1 = y0 + kTrendPlotHeight;
+  double lo = INFINITY, hi = -INFINITY;
+  const auto take = [&](double v) {
+    if (finite(v)) {
+      lo = std::min(lo, v);
+      hi = std::max(hi, v);
+    }
+  };
+  for (const TrendPoint& t : s.points) {
+    take(t.value);
+    take(t.lo);
+    take(t.hi);
+  }
+  for (const Gate& g : s.gates) take(g.limit);
+  std::string title = s.column + " \u00b7 " + s.figure + " \u00b7 " + count_text(n) + (n == 1 ? " night" : " nights");
+  svg.out += "<g class=\"trend\" data-trend-column=\"" + xml_escape(s.column) + "\" data-trend-figure=\"" +
+             xml_escape(s.figure) + "\">\n";
+  svg.fitted_text(left + kTextLeft, top + 20, title, 13.0, width - 2 * kTextLeft, "trend-title", "bold");
+  if (!finite(lo)) {
+    svg.text(x0, y0 + 20, "No night has a value of this figure.", 11.0);
+    svg.out += "</g>\n";
+    return;
+  }
+  if (hi - lo < 1e-12 * std::max(1.0, std::fabs(hi))) {
+    const double pad = std::max(std::fabs(hi) * 0.1, 1e-3);
+    lo = lo >= 0.0 ? std::max(0.0, lo - pad) : lo - pad;
+    hi += pad;
+  } else {
+    const double pad = 0.08 * (hi - lo);
+    // Padding never takes a figure that cannot be negative below 0.
+    lo = lo >= 0.0 ? std::max(0.0, lo - pad) : lo - pad;
+    hi += pad;
+  }
+  const auto X = [&](std::size_t i) {
+    return n == 1 ? 0.5 * (x0 + x1) : x0 + (x1 - x0) * static_cast<double>(i) / static_cast<double>(n - 1);
+  };
+  const auto Y = [&](double v) { return y1 - (y1 - y0) * (v - lo) / (hi - lo); };
+
+  // Grid and the vertical axis's three values.
+  for (int k = 0; k <= 2; ++k) {
+    const double v = lo + (hi - lo) * k / 2.0;
+    svg.line(x0, Y(v), x1, Y(v), kGrid, 1.0);
+    svg.text(x0 - 8, Y(v) + 4, text::trend_value_text(s.figure, v), 10.5, "end");
+  }
+  // The interval as a band over the nights that have one.
+  std::string band;
+  std::string band_back;
+  for (std::size_t i = 0; i < n; ++i) {
+    const TrendPoint& t = s.points[i];
+    if (!finite(t.lo) || !finite(t.hi)) continue;
+    band += (band.empty() ? "" : " ") + coord(X(i)) + "," + coord(Y(t.hi));
+    band_back = coord(X(i)) + "," + coord(Y(t.lo)) + (band_back.empty() ? "" : " ") + band_back;
+    svg.line(X(i), Y(t.lo), X(i), Y(t.hi), kBandEdge, 1.0);
+  }
+  if (!band.empty())
+    svg.out += "<polygon class=\"trend-interval\" points=\"" + band + " " + band_back + "\" fill=\"" +
+               std::string(kBandFill) + "\" fill-opacity=\"0.7\" stroke=\"none\"/>\n";
+  for (std::size_t i = 0; i < n; ++i)
+    if (s.points[i].refit) {
+      svg.line(X(i), y0 - 6, X(i), y1, kCurve, 1.4, "2 3", "trend-refit");
+      svg.text(X(i), y0 - 10, "refit", 10.0, "middle", {}, 0.0, "normal", kCurve);
+    }
+  for (const Gate& g : s.gates) {
+    svg.line(x0, Y(g.limit), x1, Y(g.limit), kGate, 1.4, "7 4", "trend-gate");
+    svg.text(x0 + 4, Y(g.limit) - 4,
+             std::string(g.bound == GateBound::max ? "gate --max " : "gate --min ") +
+                 text::trend_value_text(s.figure, g.limit),
+             9.5, "start", {}, 0.0, "normal", kGate);
+  }
+  std::string path;
+  bool pen_down = false;
+  for (std::size_t i = 0; i < n; ++i) {
+    const double v = s.points[i].value;
+    if (!finite(v)) {
+      pen_down = false;
+      continue;
+    }
+    path += std::string(pen_down ? " L" : (path.empty() ? "M" : " M")) + coord(X(i)) + " " + coord(Y(v));
+    pen_down = true;
+  }
+  if (!path.empty())
+    svg.out += "<path class=\"trend-line\" d=\"" + path + "\" fill=\"none\" stroke=\"" + std::string(kPoint) +
+               "\" stroke-width=\"1.8\"/>\n";
+  for (std::size_t i = 0; i < n; ++i) {
+    const double v = s.points[i].value;
+    if (!finite(v)) continue;
+    bool breach = false;
+    for (const Gate& g : s.gates) breach = breach || trend_breach(g, v);
+    if (breach)
+      svg.out += "<circle class=\"trend-breach\" cx=\"" + coord(X(i)) + "\" cy=\"" + coord(Y(v)) +
+                 "\" r=\"4.2\" fill=\"#ffffff\" stroke=\"" + std::string(kGate) + "\" stroke-width=\"2\"/>\n";
+    else
+      svg.out += "<circle class=\"trend-point\" cx=\"" + coord(X(i)) + "\" cy=\"" + coord(Y(v)) + "\" r=\"3.2\" fill=\"" +
+                 std::string(kPoint) + "\"/>\n";
+  }
+  svg.rect(x0, y0, x1 - x0, y1 - y0, "none", kInk, 1.0);
+  svg.text(x0, y1 + 16, s.points.front().date, 10.5, "start");
+  if (n > 1) svg.text(x1, y1 + 16, s.points.back().date, 10.5, "end");
+  // The legend names only what the panel draws, on two lines.
+  std::string legend = "dots: each night's value";
+  std::string legend2;
+  bool any_interval = false, any_refit = false;
+  for (const TrendPoint& t : s.points) {
+    any_interval = any_interval || (finite(t.lo) && finite(t.hi));
+    any_refit = any_refit || t.refit;
+  }
+  if (any_interval) legend += "; band: " + percent_text(report.options.confidence) + " bootstrap interval";
+  if (!s.gates.empty()) legend2 = "dashed red: gate; ring: beyond it";
+  if (any_refit) legend2 += std::string(legend2.empty() ? "" : "; ") + "dotted orange: refit";
+  svg.fitted_text(x0, y1 + 34, legend, 10.5, x1 - x0, "trend-legend");
+  if (!legend2.empty()) svg.fitted_text(x0, y1 + 49, legend2, 10.5, x1 - x0, "trend-legend");
+  svg.out += "</g>\n";
+}
+
+// The trend panels from `top`; returns their height.
+double draw_trend(Svg& svg, const Report& report, double left, double top, double width) {
+  if (report.trend.empty()) return 0.0;
+  svg.text(left, top + 22, "Trend over the history's nights", 15.0, "start", "trend-heading", 0.0, "bold");
+  double y = top + 34;
+  for (const TrendSeries& s : report.trend) {
+    draw_trend_panel(svg, report, s, left, y, width);
+    y += kTrendPanelHeight;
+  }
+  return y - top;
+}
+
 }  // namespace
 
 std::string render_svg(const Report& report) {
@@ -411,7 +556,8 @@ std::string render_svg(const Report& report) {
     const double top = header + static_cast<double>(i / per_row) * kPanelHeight;
     draw_diagram(svg, report, report.scores[i].overall, left, top);
   }
-  const double height = header + static_cast<double>(std::max<std::size_t>(rows, 1)) * kPanelHeight;
+  double height = header + static_cast<double>(std::max<std::size_t>(rows, 1)) * kPanelHeight;
+  height += draw_trend(svg, report, kDocMargin, height, width - 2 * kDocMargin);
 
   std::string doc;
   doc.reserve(svg.out.size() + 1024);
@@ -420,6 +566,23 @@ std::string render_svg(const Report& report) {
          coord(height) + "\" viewBox=\"0 0 " + coord(width) + " " + coord(height) + "\" font-family=\"" +
          std::string(kFontStack) + "\">\n";
   doc += "<title>Reliability diagrams: " + xml_escape(report.source) + "</title>\n";
+  doc += "<rect x=\"0\" y=\"0\" width=\"" + coord(width) + "\" height=\"" + coord(height) + "\" fill=\"#ffffff\"/>\n";
+  doc += svg.out;
+  doc += "</svg>\n";
+  return doc;
+}
+
+}  // namespace plumb
+
+namespace plumb {
+
+std::string render_trend_svg(const Report& report) {
+  const double width = 2 * kDocMargin + kPanelWidth * static_cast<double>(kPerRow);
+  Svg svg;
+  const double height = draw_trend(svg, report, kDocMargin, 0.0, width - 2 * kDocMargin) + kDocMargin;
+  std::string doc = "<svg xmlns=\"http://www.w3.org/2000/svg\" version=\"1.1\" width=\"" + coord(width) +
+                    "\" height=\"" + coord(height) + "\" viewBox=\"0 0 " + coord(width) + " " + coord(height) +
+                    "\" font-family=\"" + std::string(kFontStack) + "\">\n";
   doc += "<rect x=\"0\" y=\"0\" width=\"" + coord(width) + "\" height=\"" + coord(height) + "\" fill=\"#ffffff\"/>\n";
   doc += svg.out;
   doc += "</svg>\n";

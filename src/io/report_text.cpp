@@ -17,6 +17,7 @@
 #include "report_names.hpp"
 #include "text_chart.hpp"
 #include "text_layout.hpp"
+#include "text_trend.hpp"
 
 namespace plumb {
 namespace {
@@ -342,6 +343,7 @@ std::string render_text(const Report& report, const TextStyle& style) {
     render_segments(doc, p, report, score);
   }
   render_gates(doc, p, report);
+  text::render_trend(doc, p, report);
   render_cautions(doc, p, report);
   return doc.text();
 }

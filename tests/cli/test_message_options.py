@@ -50,6 +50,13 @@ REACH = {
     "src/io/apply_stream.cpp": ("apply",),
     "include/plumb/io/apply_stream.hpp": ("apply",),
     "src/io/report_text.cpp": ("report",),
+    "src/io/text_trend.cpp": ("report",),
+    "src/io/report_svg.cpp": ("report",),
+    "src/io/report_html.cpp": ("report",),
+    # The history's refusals name --torn-history: every command that appends
+    # to a history (report; drift once it takes --history) must offer it.
+    "src/io/history.cpp": ("report",),
+    "include/plumb/io/history.hpp": ("report",),
     "src/core/report.cpp": ("report",),
     "src/core/cross_fit.cpp": ("cross-fit",),
     "src/core/folds.cpp": ("cross-fit",),

@@ -550,3 +550,50 @@ TEST_CASE("counts carry thousands separators; a difference of zero carries no si
   CHECK(l.substr(l.size() - 7) == " 0.0000");
   CHECK(text.find("+0.0000") == std::string::npos);
 }
+
+TEST_CASE("the trend section fits every width, marks breaches and refits, and is ASCII when asked") {
+  const Simulation s = simulate(3000, 12);
+  plumb::Report r = make_report(s, {}, 0, false);
+  plumb::TrendSeries t;
+  t.column = "risk_cal";
+  t.figure = "ece";
+  // Five nights: the third breaches the gate, the fourth follows a refit.
+  const double values[] = {0.011, 0.012, 0.031, 0.014, 0.013};
+  for (int i = 0; i < 5; ++i) {
+    plumb::TrendPoint p;
+    p.date = "2026-11-0" + std::to_string(i + 1);
+    p.value = values[i];
+    p.lo = values[i] - 0.004;
+    p.hi = values[i] + 0.005;
+    p.refit = i == 3;
+    t.points.push_back(p);
+  }
+  plumb::Gate g;
+  g.metric = "ece";
+  g.limit = 0.02;
+  t.gates.push_back(g);
+  r.trend.push_back(t);
+  for (bool unicode : {true, false})
+    for (int width : {40, 60, 80, 120}) {
+      const std::string text = plumb::render_text(r, {unicode, true, width});
+      for (const std::string& line : lines_of(text)) CHECK(columns_of(strip_escapes(line)) <= std::size_t(width));
+      const std::string plain = plumb::render_text(r, {unicode, false, width});
+      CHECK(plain.find(unicode ? "\u258c trend" : "[trend]") != std::string::npos);
+      CHECK(plain.find("risk_cal" + std::string(unicode ? " \u00b7 " : ", ") + "ece") != std::string::npos);
+      CHECK(plain.find("5 nights, 2026-11-01") != std::string::npos);
+      // One breach mark (night 3), four held marks; a refit marker; the gate's limit on the axis.
+      const std::string breach = unicode ? "\u00d7" : "X";
+      const std::string held = unicode ? "\u25cf" : "O";
+      std::size_t breaches = 0, helds = 0;
+      const std::string section = plain.substr(plain.find(unicode ? "\u258c trend" : "[trend]"));
+      const std::string chart = section.substr(0, section.find(unicode ? "\u25cf night" : "O night"));
+      for (std::size_t at = chart.find(breach); at != std::string::npos; at = chart.find(breach, at + 1)) ++breaches;
+      for (std::size_t at = chart.find(held); at != std::string::npos; at = chart.find(held, at + 1)) ++helds;
+      CHECK(breaches == 1);
+      CHECK(helds == 4);
+      CHECK(section.find(unicode ? "\u25bc map refitted" : "v map refitted") != std::string::npos);
+      CHECK(section.find("0.0200 ") != std::string::npos);
+      if (!unicode)
+        for (unsigned char c : plain) CHECK(c < 0x80);
+    }
+}

@@ -34,6 +34,23 @@ nlohmann::json report_to_json(const Report& report);
 // on one page per few columns.
 std::string render_svg(const Report& report);
 
+// The trend panels alone (Report::trend) as an SVG element without an XML
+// declaration, for the review page; render_svg draws the same panels under
+// the diagrams when the report has a trend. Without a trend: an SVG of its
+// margin only.
+std::string render_trend_svg(const Report& report);
+
+// The review page: one self-contained HTML document (inline CSS and SVG, no
+// script, no font or other resource, a content security policy that loads
+// nothing): headline figures with intervals, gates, the reliability chart
+// and its tables, segments, the trend when the report has one, the maps'
+// provenance, and the cautions (the report's and the standing one on
+// credit, insurance and health). Every table has header cells with scope,
+// every chart role="img" with a title and a description, and each headline
+// figure data-column, data-figure and data-value attributes
+// (docs/review-page.md).
+std::string render_html(const Report& report);
+
 // A Markdown document to paste into a review: headline tables, reliability
 // tables, segments (capped as in the text), gates, cautions. Numbers follow
 // the text report's formats, one per column.
