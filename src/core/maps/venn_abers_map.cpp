@@ -1,0 +1,460 @@
+#include "plumb/maps/venn_abers_map.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdint>
+#include <limits>
+#include <numeric>
+#include <string>
+
+#include "core/json_fields.hpp"
+#include "plumb/error.hpp"
+#include "plumb/number_text.hpp"
+
+namespace plumb {
+
+namespace {
+
+// A pooled block of the PAV fit: its total weight and weighted label sum.
+struct Pool {
+  double w = 0.0, y = 0.0;
+};
+// a's mean above b's, compared without dividing (weights are positive).
+bool above(const Pool& a, const Pool& b) { return a.y * b.w > b.y * a.w; }
+
+// The value of the test row's block: `b` (the test row, with the point it
+// shares a score with) pooled with the top blocks of `left` (the PAV stack
+// of the points below, values rising to its top) while the one below is
+// above it, and with those of `right` (the stack of the points above,
+// values falling to its top, i.e. rising rightwards) while the one above is
+// below it. Pooling adjacent violators in any order ends at the isotonic
+// fit, and the stacks are each the fit of their side, so the block found is
+// the test row's block in the fit of all rows. The stacks are only read.
+double test_block_value(Pool b, const std::vector<Pool>& left, const std::vector<Pool>& right) {
+  std::size_t l = left.size(), r = right.size();
+  for (;;) {
+    if (l > 0 && above(left[l - 1], b)) {
+      --l;
+      b.w += left[l].w;
+      b.y += left[l].y;
+    } else if (r > 0 && above(b, right[r - 1])) {
+      --r;
+      b.w += right[r].w;
+      b.y += right[r].y;
+    } else {
+      break;
+    }
+  }
+  return std::clamp(b.y / b.w, 0.0, 1.0);
+}
+
+// splitmix64 (Steele, Lea and Flood 2014): the cross form's fixed-seed
+// dealing of rows into folds.
+std::uint64_t splitmix(std::uint64_t& state) {
+  std::uint64_t z = (state += 0x9E3779B97F4A7C15ull);
+  z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9ull;
+  z = (z ^ (z >> 27)) * 0x94D049BB133111EBull;
+  return z ^ (z >> 31);
+}
+constexpr std::uint64_t fold_seed = 0x706C756D62564121ull;
+
+double merged(double p0, double p1) { return p1 / (1.0 - p0 + p1); }
+
+void fill_diagnostics(CalibrationMap& map, FitDiagnostics& d, const FitData& data, std::string note) {
+  d.iterations = 1;
+  d.converged = true;
+  d.log_loss = mean_log_loss(map, data);
+  d.notes.push_back(std::move(note));
+}
+
+}  // namespace
+
+VennAbersPoints venn_abers_points(const FitData& data) {
+  std::vector<std::size_t> order(data.score.size());
+  std::iota(order.begin(), order.end(), std::size_t{0});
+  if (!std::is_sorted(data.score.begin(), data.score.end()))
+    std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return data.score[a] < data.score[b]; });
+  VennAbersPoints p;
+  for (std::size_t i : order) {
+    const double w = data.weight.empty() ? 1.0 : data.weight[i];
+    if (!(w > 0.0)) continue;
+    if (p.score.empty() || p.score.back() != data.score[i]) {
+      p.score.push_back(data.score[i]);
+      p.weight.push_back(0.0);
+      p.label_sum.push_back(0.0);
+    }
+    p.weight.back() += w;
+    p.label_sum.back() += w * data.label[i];
+  }
+  return p;
+}
+
+std::vector<VennAbersPoints> venn_abers_folds(const VennAbersPoints& all, int folds) {
+  // Deal every row (a whole-number weight of a point's label counts rows)
+  // into a fold, point by point in score order, negatives before positives.
+  std::vector<VennAbersPoints> fold(static_cast<std::size_t>(folds));
+  std::uint64_t state = fold_seed;
+  double rows = 0.0;
+  std::vector<double> w(fold.size()), y(fold.size());
+  for (std::size_t i = 0; i < all.score.size(); ++i) {
+    const double positives = all.label_sum[i], negatives = all.weight[i] - all.label_sum[i];
+    for (double count : {negatives, positives})
+      if (!(count == std::floor(count)) || count > 9.0e15)
+        throw Error(ErrorKind::fit, "cross_venn_abers deals rows into folds and needs whole-number weights", {},
+                    shortest_text(count), "whole-number weights, or --map venn_abers");
+    std::fill(w.begin(), w.end(), 0.0);
+    std::fill(y.begin(), y.end(), 0.0);
+    for (int label = 0; label < 2; ++label) {
+      const auto n = static_cast<std::uint64_t>(label == 0 ? negatives : positives);
+      for (std::uint64_t r = 0; r < n; ++r) {
+        const std::size_t f = static_cast<std::size_t>(splitmix(state) % static_cast<std::uint64_t>(folds));
+        w[f] += 1.0;
+        y[f] += label;
+      }
+    }
+    rows += negatives + positives;
+    for (std::size_t f = 0; f < fold.size(); ++f) {
+      if (w[f] == 0.0) continue;
+      fold[f].score.push_back(all.score[i]);
+      fold[f].weight.push_back(w[f]);
+      fold[f].label_sum.push_back(y[f]);
+    }
+  }
+  for (const VennAbersPoints& f : fold)
+    if (f.score.empty())
+      throw Error(ErrorKind::fit, "a fold of cross_venn_abers holds no rows", {},
+                  count_text(static_cast<std::uint64_t>(rows)) + " rows for " + std::to_string(folds) + " folds",
+                  "more rows than --venn-folds");
+  return fold;
+}
+
+VennAbersKnots venn_abers_knots(std::span<const double> score, std::span<const double> weight,
+                                std::span<const double> label_sum) {
+  const std::size_t k = score.size();
+  VennAbersKnots out;
+  out.score.assign(score.begin(), score.end());
+  out.p0_at.resize(k);
+  out.p1_at.resize(k);
+  out.p0_between.resize(k + 1);
+  out.p1_between.resize(k + 1);
+
+  // The PAV stack of the points from the left, with a log of what each push
+  // pooled, so that the pushes can be undone from the right: the stack of
+  // points 0..j-1 for j = k down to 0, in O(k) all told.
+  std::vector<Pool> left;
+  std::vector<Pool> pooled_log;           // the blocks each push pooled, in pop order
+  std::vector<std::size_t> pooled_count;  // per push
+  left.reserve(k);
+  pooled_count.reserve(k);
+  for (std::size_t i = 0; i < k; ++i) {
+    Pool b{weight[i], label_sum[i]};
+    std::size_t n = 0;
+    while (!left.empty() && !above(b, left.back())) {
+      // Pool while the block below is not below the new one: equal means
+      // pool too, which changes no value and keeps the stack short.
+      pooled_log.push_back(left.back());
+      b.w += left.back().w;
+      b.y += left.back().y;
+      left.pop_back();
+      ++n;
+    }
+    left.push_back(b);
+    pooled_count.push_back(n);
+  }
+
+  // The PAV stack of the points from the right (points j..k-1), top leftmost.
+  std::vector<Pool> right;
+  right.reserve(k);
+  const Pool zero{1.0, 0.0}, one{1.0, 1.0};
+  for (std::size_t j = k + 1; j-- > 0;) {
+    // Here left holds points 0..j-1 and right points j..k-1.
+    out.p0_between[j] = test_block_value(zero, left, right);
+    out.p1_between[j] = test_block_value(one, left, right);
+    if (j == 0) break;
+    const std::size_t i = j - 1;
+    // Undo the push of point i.
+    left.pop_back();
+    for (std::size_t n = pooled_count[i]; n-- > 0;) {
+      left.push_back(pooled_log.back());
+      pooled_log.pop_back();
+    }
+    // The test row at point i's score.
+    out.p0_at[i] = test_block_value(Pool{weight[i] + 1.0, label_sum[i]}, left, right);
+    out.p1_at[i] = test_block_value(Pool{weight[i] + 1.0, label_sum[i] + 1.0}, left, right);
+    // Point i onto the right stack.
+    Pool b{weight[i], label_sum[i]};
+    while (!right.empty() && !above(right.back(), b)) {
+      b.w += right.back().w;
+      b.y += right.back().y;
+      right.pop_back();
+    }
+    right.push_back(b);
+  }
+  return out;
+}
+
+VennAbersMap::VennAbersMap(Scale scale, VennAbersKnots knots, int folds, std::vector<double> probability_at,
+                           std::vector<double> probability_between, double calibration_weight)
+    : scale_(scale),
+      k_(std::move(knots)),
+      folds_(folds),
+      p_at_(std::move(probability_at)),
+      p_between_(std::move(probability_between)),
+      calibration_weight_(calibration_weight) {
+  if (folds_ == 0) {
+    p_at_.resize(k_.score.size());
+    p_between_.resize(k_.score.size() + 1);
+    for (std::size_t j = 0; j < p_at_.size(); ++j) p_at_[j] = merged(k_.p0_at[j], k_.p1_at[j]);
+    for (std::size_t j = 0; j < p_between_.size(); ++j) p_between_[j] = merged(k_.p0_between[j], k_.p1_between[j]);
+  }
+  const std::vector<double>& x = k_.score;
+  if (x.size() < 16 || x.size() > std::numeric_limits<std::uint32_t>::max()) return;
+  const double width = x.back() - x.front();
+  const std::size_t buckets = std::min<std::size_t>(4 * x.size(), std::size_t{1} << 16);
+  if (!(std::isfinite(width) && width > 0.0)) return;
+  guide_origin_ = x.front();
+  guide_scale_ = static_cast<double>(buckets) / width;
+  if (!std::isfinite(guide_scale_)) return;
+  guide_.resize(buckets);
+  for (std::size_t b = 0; b < buckets; ++b) {
+    const double start = guide_origin_ + static_cast<double>(b) / guide_scale_;
+    const auto after = std::upper_bound(x.begin(), x.end(), start);
+    guide_[b] = static_cast<std::uint32_t>(after == x.begin() ? 0 : after - x.begin() - 1);
+  }
+}
+
+std::size_t VennAbersMap::place(double score) const noexcept {
+  const std::vector<double>& x = k_.score;
+  if (x.empty() || !(score >= x.front())) return 0;
+  if (score > x.back()) return 2 * x.size();
+  std::size_t j = 0;
+  if (!guide_.empty()) {
+    // As the isotonic map's search: the guide's bucket, a few steps to the
+    // exact knot, else the binary search from there. The answer does not
+    // depend on the guide.
+    const double at = (score - guide_origin_) * guide_scale_;
+    const std::size_t b = at < static_cast<double>(guide_.size()) ? static_cast<std::size_t>(at) : guide_.size() - 1;
+    j = guide_[b];
+    while (j > 0 && x[j] > score) --j;
+    for (int steps = 0; j + 1 < x.size() && x[j + 1] <= score; ++j)
+      if (++steps == 8) break;
+  }
+  if (!(j + 1 == x.size() || x[j + 1] > score)) {
+    const double* base = x.data() + j;
+    for (std::size_t n = x.size() - j; n > 1;) {
+      const std::size_t half = n / 2;
+      base = base[half] <= score ? base + half : base;
+      n -= half;
+    }
+    j = static_cast<std::size_t>(base - x.data());
+  }
+  return x[j] == score ? 2 * j + 1 : 2 * (j + 1);
+}
+
+Mapped VennAbersMap::map(double score) const noexcept {
+  const std::size_t at = place(score);
+  const bool outside = k_.score.empty() || score < k_.score.front() || score > k_.score.back();
+  return {at % 2 == 1 ? p_at_[at / 2] : p_between_[at / 2], outside, false};
+}
+
+std::array<double, 2> VennAbersMap::interval(double score) const noexcept {
+  const std::size_t at = place(score);
+  if (at % 2 == 1) return {k_.p0_at[at / 2], k_.p1_at[at / 2]};
+  return {k_.p0_between[at / 2], k_.p1_between[at / 2]};
+}
+
+std::unique_ptr<CalibrationMap> VennAbersMap::fit(const FitData& data, const MapOptions&) {
+  const VennAbersPoints p = venn_abers_points(data);
+  if (p.score.empty()) throw Error(ErrorKind::fit, "no rows of positive weight to fit");
+  const double total = std::accumulate(p.weight.begin(), p.weight.end(), 0.0);
+  auto map = std::make_unique<VennAbersMap>(data.scale, venn_abers_knots(p.score, p.weight, p.label_sum), 0,
+                                            std::vector<double>{}, std::vector<double>{}, total);
+  fill_diagnostics(*map, map->diagnostics_, data, std::to_string(p.score.size()) + " knots");
+  return map;
+}
+
+std::unique_ptr<CalibrationMap> VennAbersMap::fit_cross(const FitData& data, const MapOptions& options) {
+  const int folds = options.venn_folds;
+  if (folds < 2) throw Error(ErrorKind::usage, "too few folds for cross_venn_abers", {}, std::to_string(folds), "2 or more");
+  const VennAbersPoints all = venn_abers_points(data);
+  if (all.score.empty()) throw Error(ErrorKind::fit, "no rows of positive weight to fit");
+  const std::vector<VennAbersPoints> fold = venn_abers_folds(all, folds);
+  std::vector<VennAbersKnots> knots;
+  for (const VennAbersPoints& f : fold) knots.push_back(venn_abers_knots(f.score, f.weight, f.label_sum));
+
+  // Every fold's p0/p1 at each place of the union of the folds' scores
+  // (every distinct score): a score of the fold is at its knot, any other
+  // place in the fold's gap that holds it. Walked with one index per fold.
+  const std::size_t k = all.score.size();
+  VennAbersKnots out;
+  out.score = all.score;
+  out.p0_at.assign(k, 0.0);
+  out.p1_at.assign(k, 0.0);
+  out.p0_between.assign(k + 1, 0.0);
+  out.p1_between.assign(k + 1, 0.0);
+  std::vector<double> log_g1_at(k, 0.0), log_g0_at(k, 0.0), log_g1_between(k + 1, 0.0), log_g0_between(k + 1, 0.0);
+  const double per = 1.0 / folds;
+  for (const VennAbersKnots& f : knots) {
+    std::size_t next = 0;  // the fold's first knot not below the current score
+    for (std::size_t j = 0; j <= k; ++j) {
+      // Gap j of the union lies strictly between all.score[j-1] and
+      // all.score[j]: in the fold's gap `next`.
+      const double g0 = f.p0_between[next], g1 = f.p1_between[next];
+      out.p0_between[j] += per * g0;
+      out.p1_between[j] += per * g1;
+      log_g0_between[j] += per * std::log1p(-g0);
+      log_g1_between[j] += per * std::log(g1);
+      if (j == k) break;
+      const bool on_knot = next < f.score.size() && f.score[next] == all.score[j];
+      const double a0 = on_knot ? f.p0_at[next] : g0, a1 = on_knot ? f.p1_at[next] : g1;
+      out.p0_at[j] += per * a0;
+      out.p1_at[j] += per * a1;
+      log_g0_at[j] += per * std::log1p(-a0);
+      log_g1_at[j] += per * std::log(a1);
+      if (on_knot) ++next;
+    }
+  }
+  auto merge = [](double log_g0, double log_g1) {
+    const double g0 = std::exp(log_g0), g1 = std::exp(log_g1);
+    return g1 / (g0 + g1);
+  };
+  std::vector<double> p_at(k), p_between(k + 1);
+  for (std::size_t j = 0; j < k; ++j) p_at[j] = merge(log_g0_at[j], log_g1_at[j]);
+  for (std::size_t j = 0; j <= k; ++j) p_between[j] = merge(log_g0_between[j], log_g1_between[j]);
+  // Sums of non-decreasing terms in one order never fall, but log and exp
+  // from the math library need not be monotone to the last bit: a value
+  // that falls by an ulp from place to place is held at the one before.
+  auto hold = [&](std::vector<double>& at, std::vector<double>& between) {
+    double last = 0.0;
+    for (std::size_t j = 0; j <= k; ++j) {
+      between[j] = std::max(between[j], last);
+      last = between[j];
+      if (j == k) break;
+      at[j] = std::max(at[j], last);
+      last = at[j];
+    }
+  };
+  hold(out.p0_at, out.p0_between);
+  hold(out.p1_at, out.p1_between);
+  hold(p_at, p_between);
+  const double total = std::accumulate(all.weight.begin(), all.weight.end(), 0.0);
+  auto map = std::make_unique<VennAbersMap>(data.scale, std::move(out), folds, std::move(p_at), std::move(p_between),
+                                            total);
+  fill_diagnostics(*map, map->diagnostics_, data,
+                   std::to_string(folds) + " folds, " + std::to_string(k) + " knots");
+  return map;
+}
+
+nlohmann::json VennAbersMap::parameters() const {
+  nlohmann::json out = {{"calibration_weight", calibration_weight_},
+                        {"knot_score", k_.score},
+                        {"p0_at_knot", k_.p0_at},
+                        {"p1_at_knot", k_.p1_at},
+                        {"p0_between", k_.p0_between},
+                        {"p1_between", k_.p1_between}};
+  if (folds_ > 0) {
+    out["folds"] = folds_;
+    out["probability_at_knot"] = p_at_;
+    out["probability_between"] = p_between_;
+  }
+  return out;
+}
+
+namespace {
+
+// Reads the knots of either form: lengths k and k + 1, finite, scores
+// strictly increasing (in [0, 1] on the probability scale), every value in
+// [0, 1], p0 <= p1 at each place, and p0 and p1 each non-decreasing along
+// the places (gap 0, knot 0, gap 1, ..., knot k-1, gap k).
+VennAbersKnots read_knots(Scale scale, const nlohmann::json& p, const std::string& where) {
+  namespace jf = json_fields;
+  VennAbersKnots k;
+  k.score = jf::require_finite_array(p, "knot_score", where, "parameters.knot_score");
+  k.p0_at = jf::require_finite_array(p, "p0_at_knot", where, "parameters.p0_at_knot");
+  k.p1_at = jf::require_finite_array(p, "p1_at_knot", where, "parameters.p1_at_knot");
+  k.p0_between = jf::require_finite_array(p, "p0_between", where, "parameters.p0_between");
+  k.p1_between = jf::require_finite_array(p, "p1_between", where, "parameters.p1_between");
+  const std::size_t n = k.score.size();
+  if (n == 0) jf::fail(where, "parameters.knot_score", "is empty", "at least one knot");
+  if (k.p0_at.size() != n || k.p1_at.size() != n)
+    jf::fail(where, "parameters", "has knot arrays of different lengths", "equal lengths");
+  if (k.p0_between.size() != n + 1 || k.p1_between.size() != n + 1)
+    jf::fail(where, "parameters", "has gap arrays whose length is not one more than the knots'",
+             std::to_string(n + 1) + " gaps");
+  for (std::size_t j = 0; j < n; ++j) {
+    const std::string at = "[" + std::to_string(j) + "]";
+    if (j > 0 && !(k.score[j] > k.score[j - 1]))
+      jf::fail(where, "parameters.knot_score" + at, "does not lie above the previous knot", "increasing scores");
+    if (scale == Scale::probability && !(k.score[j] >= 0.0 && k.score[j] <= 1.0))
+      jf::fail(where, "parameters.knot_score" + at, "lies outside [0, 1] on the probability scale");
+  }
+  auto check = [&](const std::vector<double>& lo_at, const std::vector<double>& lo_between, const char* name) {
+    double last = 0.0;
+    for (std::size_t j = 0; j <= n; ++j) {
+      for (int gap = 1; gap >= 0; --gap) {
+        if (gap == 0 && j == n) break;
+        const double v = gap ? lo_between[j] : lo_at[j];
+        const std::string path = std::string("parameters.") + name + (gap ? "_between" : "_at_knot") + "[" +
+                                 std::to_string(j) + "]";
+        if (!(v >= 0.0 && v <= 1.0)) jf::fail(where, path, "lies outside [0, 1]", "a probability");
+        if (!(v >= last)) jf::fail(where, path, "is below the value at the place before it", "non-decreasing values");
+        last = v;
+      }
+    }
+  };
+  check(k.p0_at, k.p0_between, "p0");
+  check(k.p1_at, k.p1_between, "p1");
+  for (std::size_t j = 0; j <= n; ++j) {
+    if (!(k.p0_between[j] <= k.p1_between[j]))
+      jf::fail(where, "parameters.p1_between[" + std::to_string(j) + "]", "is below p0 there", "p0 <= p1");
+    if (j < n && !(k.p0_at[j] <= k.p1_at[j]))
+      jf::fail(where, "parameters.p1_at_knot[" + std::to_string(j) + "]", "is below p0 there", "p0 <= p1");
+  }
+  return k;
+}
+
+double read_weight(const nlohmann::json& p, const std::string& where) {
+  const double w = json_fields::require_finite(p, "calibration_weight", where, "parameters.calibration_weight");
+  if (!(w > 0.0)) json_fields::fail(where, "parameters.calibration_weight", "is not positive");
+  return w;
+}
+
+}  // namespace
+
+std::unique_ptr<CalibrationMap> VennAbersMap::from_parameters(Scale scale, const nlohmann::json& p,
+                                                              const std::string& where) {
+  if (p.is_object() && p.contains("folds"))
+    json_fields::fail(where, "parameters.folds", "is present in an inductive venn_abers map",
+                      "no folds (the kind cross_venn_abers has them)");
+  VennAbersKnots k = read_knots(scale, p, where);
+  return std::make_unique<VennAbersMap>(scale, std::move(k), 0, std::vector<double>{}, std::vector<double>{},
+                                        read_weight(p, where));
+}
+
+std::unique_ptr<CalibrationMap> VennAbersMap::from_parameters_cross(Scale scale, const nlohmann::json& p,
+                                                                    const std::string& where) {
+  namespace jf = json_fields;
+  const std::int64_t folds = jf::require_integer(p, "folds", where, "parameters.folds");
+  if (folds < 2 || folds > 1000) jf::fail(where, "parameters.folds", "lies outside [2, 1000]", "a number of folds");
+  VennAbersKnots k = read_knots(scale, p, where);
+  auto at = jf::require_finite_array(p, "probability_at_knot", where, "parameters.probability_at_knot");
+  auto between = jf::require_finite_array(p, "probability_between", where, "parameters.probability_between");
+  if (at.size() != k.score.size() || between.size() != k.score.size() + 1)
+    jf::fail(where, "parameters", "has probability arrays of the wrong lengths", "one per knot and one per gap");
+  double last = 0.0;
+  for (std::size_t j = 0; j <= at.size(); ++j) {
+    for (int gap = 1; gap >= 0; --gap) {
+      if (gap == 0 && j == at.size()) break;
+      const double v = gap ? between[j] : at[j];
+      const std::string path = std::string("parameters.probability_") + (gap ? "between" : "at_knot") + "[" +
+                               std::to_string(j) + "]";
+      if (!(v > 0.0 && v < 1.0)) jf::fail(where, path, "lies outside (0, 1)", "a probability strictly inside");
+      if (!(v >= last)) jf::fail(where, path, "is below the value at the place before it", "non-decreasing values");
+      last = v;
+    }
+  }
+  return std::make_unique<VennAbersMap>(scale, std::move(k), static_cast<int>(folds), std::move(at),
+                                        std::move(between), read_weight(p, where));
+}
+
+}  // namespace plumb
