@@ -1,0 +1,130 @@
+"""The Venn-Abers kinds through the command line: fit, the artifact (format
+version 3, the published schema), apply's probability and --interval
+columns against the knots as docs/artifact-format.md states them, and the
+refusals (--interval for a map without an interval, fractional weights for
+the cross form)."""
+import bisect
+import json
+import os
+import unittest
+
+import jsonschema  # Debian python3-jsonschema
+
+from plumbtest import SOURCE_DIR, PlumbCase, read_rows, run, simulated_holdout, write
+
+USAGE, FIT = 2, 6
+
+
+def place_values(params, s, names):
+    """The values at score s by the documented rule: a knot's own entry when s
+    equals a knot, else the entry of the gap holding s."""
+    x = params["knot_score"]
+    j = bisect.bisect_left(x, s)
+    if j < len(x) and x[j] == s:
+        return [params[n + "_at_knot"] for n in names], j, True
+    return [params[n + "_between"] for n in names], j, False
+
+
+class VennAbers(PlumbCase):
+    def setUp(self):
+        super().setUp()
+        rows = ["risk,missed"] + [f"{s},{y}" for s, y in simulated_holdout(1200, seed=5)]
+        write(self.path("h.csv"), "\n".join(rows) + "\n")
+        grid = [k / 100 for k in range(101)] + [s for s, _ in simulated_holdout(50, seed=5)]
+        write(self.path("grid.csv"), "id,risk\n" + "\n".join(f"{i},{s!r}" for i, s in enumerate(grid)) + "\n")
+        self.grid = grid
+
+    def fit(self, kind, *extra):
+        out = self.path(kind + ".json")
+        rc, _, err = run("fit", "-q", "--map", kind, "--score", "risk", "--label", "missed", self.path("h.csv"),
+                         "-o", out, *extra)
+        self.assertEqual(rc, 0, err)
+        return out
+
+    def test_artifact_is_version_3_and_matches_the_schema(self):
+        with open(os.path.join(SOURCE_DIR, "docs", "artifact.schema.json")) as f:
+            validator = jsonschema.Draft202012Validator(json.load(f))
+        for kind, extra in (("venn_abers", ()), ("cross_venn_abers", ()), ("cross_venn_abers", ("--venn-folds", "3"))):
+            doc = self.load_json(self.fit(kind, *extra))
+            self.assertEqual(doc["format_version"], 3, kind)
+            self.assertEqual(doc["kind"], kind)
+            self.assertEqual([e.message for e in validator.iter_errors(doc)], [], kind)
+            if kind == "cross_venn_abers":
+                self.assertEqual(doc["fit"]["options"], {"venn_folds": int(extra[1]) if extra else 5})
+                self.assertEqual(doc["parameters"]["folds"], int(extra[1]) if extra else 5)
+            # The schema holds version 3 to the kind: 2 is refused for it.
+            doc["format_version"] = 2
+            self.assertTrue(list(validator.iter_errors(doc)), "the schema accepts version 2 for " + kind)
+        # A plain map stays version 1.
+        self.assertEqual(self.load_json(self.fit("isotonic"))["format_version"], 1)
+
+    def test_apply_writes_the_documented_probability_and_interval(self):
+        # docs/artifact-format.md: p0/p1 at the score's place; the probability
+        # is p1 / (1 - p0 + p1) (Vovk and Petej 2014) for venn_abers and the
+        # stored merged value for cross_venn_abers.
+        for kind in ("venn_abers", "cross_venn_abers"):
+            path = self.fit(kind)
+            params = self.load_json(path)["parameters"]
+            rc, out, err = run("apply", "-q", "--interval", path, self.path("grid.csv"))
+            self.assertEqual(rc, 0, err)
+            rows = read_rows(out, is_text=True)
+            self.assertEqual(rows[0], ["id", "risk", "risk_calibrated", "risk_calibrated_p0", "risk_calibrated_p1"])
+            self.assertEqual(len(rows), len(self.grid) + 1)
+            knots_hit = 0
+            for row, s in zip(rows[1:], self.grid):
+                (p0, p1), j, on_knot = place_values(params, s, ("p0", "p1"))
+                knots_hit += on_knot
+                self.assertEqual(float(row[3]), p0[j], (kind, s))
+                self.assertEqual(float(row[4]), p1[j], (kind, s))
+                if kind == "venn_abers":
+                    self.assertAlmostEqual(float(row[2]), p1[j] / (1 - p0[j] + p1[j]), places=15)
+                else:
+                    (p,), _, _ = place_values(params, s, ("probability",))
+                    self.assertEqual(float(row[2]), p[j])
+                self.assertLessEqual(p0[j], p1[j])
+            self.assertGreater(knots_hit, 0)  # the grid holds knots and gaps
+            # Without --interval: the same probabilities, no interval columns.
+            rc, plain, err = run("apply", "-q", path, self.path("grid.csv"))
+            self.assertEqual(rc, 0, err)
+            self.assertEqual([r[:3] for r in rows], read_rows(plain, is_text=True))
+            # --replace: the interval follows the probability in the score's place.
+            rc, replaced, err = run("apply", "-q", "--interval", "--replace", path, self.path("grid.csv"))
+            self.assertEqual(rc, 0, err)
+            rrows = read_rows(replaced, is_text=True)
+            self.assertEqual(rrows[0], ["id", "risk", "risk_p0", "risk_p1"])
+            self.assertEqual([r[0:1] + r[2:] for r in rows[1:]], rrows[1:])
+
+    def test_interval_columns_for_a_missing_score_are_empty(self):
+        path = self.fit("venn_abers")
+        write(self.path("m.csv"), "risk,x\n0.3,a\n,b\n")
+        rc, out, err = run("apply", "-q", "--interval", "--missing", "empty", path, self.path("m.csv"))
+        self.assertEqual(rc, 0, err)
+        self.assertEqual(out.splitlines()[2], ",b,,,")
+
+    def test_interval_is_refused_for_a_map_without_one(self):
+        path = self.fit("isotonic")
+        line = self.assert_refused(["apply", "--interval", path, self.path("grid.csv")], USAGE,
+                                   "--interval", "an isotonic map has none", "no --interval")
+        self.assertIn(path, line)
+
+    def test_interval_column_names_that_clash_are_refused(self):
+        path = self.fit("venn_abers")
+        write(self.path("c.csv"), "risk,risk_calibrated_p1\n0.3,x\n")
+        self.assert_refused(["apply", "--interval", path, self.path("c.csv")], USAGE,
+                            "already has a column named 'risk_calibrated_p1'", "--as")
+
+    def test_cross_form_refuses_fractional_weights(self):
+        write(self.path("w.csv"), "risk,missed,w\n" + "".join(f"{k / 40},{k % 2},{1.5 if k == 3 else 1}\n"
+                                                              for k in range(40)))
+        self.assert_refused(["fit", "--map", "cross_venn_abers", "--score", "risk", "--label", "missed",
+                             "--weight", "w", self.path("w.csv")], FIT, "whole-number weights", "--map venn_abers")
+
+    def test_inspect_names_the_kind(self):
+        for kind in ("venn_abers", "cross_venn_abers"):
+            rc, out, err = run("inspect", self.fit(kind))
+            self.assertEqual(rc, 0, err)
+            self.assertIn(kind + " map (format plumb-map version 3", out)
+
+
+if __name__ == "__main__":
+    unittest.main()
