@@ -126,5 +126,78 @@ class VennAbers(PlumbCase):
             self.assertIn(kind + " map (format plumb-map version 3", out)
 
 
+class VennAbersReport(VennAbers):
+    def widths_from_apply(self, path, data):
+        rc, out, err = run("apply", "-q", "--interval", path, data)
+        self.assertEqual(rc, 0, err)
+        rows = read_rows(out, is_text=True)[1:]
+        return [float(r[-1]) - float(r[-2]) for r in rows]
+
+    @staticmethod
+    def type1(values, q):
+        """R's quantile(type = 1) (Hyndman and Fan 1996): the inverse of the
+        empirical distribution function, x[ceil(n q)] of the sorted values."""
+        import math
+        v = sorted(values)
+        return v[max(math.ceil(len(v) * q), 1) - 1]
+
+    def test_report_shows_the_interval_width_in_text_json_and_markdown(self):
+        for kind in ("venn_abers", "cross_venn_abers"):
+            path = self.fit(kind)
+            widths = self.widths_from_apply(path, self.path("h.csv"))
+            mean = sum(widths) / len(widths)
+            rc, out, err = run("report", "--label", "missed", "--map", path, "--bootstrap", "0",
+                               "--json", self.path("r.json"), "--markdown", self.path("r.md"), self.path("h.csv"))
+            self.assertEqual(rc, 0, err)
+            got = self.load_json(self.path("r.json"))["scores"][0]["map"]["interval_width"]
+            self.assertAlmostEqual(got["mean"], mean, places=12)
+            self.assertAlmostEqual(got["median"], self.type1(widths, 0.5), places=15)
+            self.assertAlmostEqual(got["p90"], self.type1(widths, 0.9), places=15)
+            with open(os.path.join(SOURCE_DIR, "docs", "report.schema.json")) as f:
+                validator = jsonschema.Draft202012Validator(json.load(f))
+            self.assertEqual([e.message for e in validator.iter_errors(self.load_json(self.path("r.json")))], [])
+            self.assertIn("interval width, mean", out)
+            self.assertIn("median | 90%", out)
+            with open(self.path("r.md")) as f:
+                md = f.read()
+            self.assertIn("interval width p1 - p0 (Venn-Abers), 90th percentile", md)
+        # A map without an interval has no such row or key.
+        rc, out, err = run("report", "--label", "missed", "--map", self.fit("isotonic"), "--bootstrap", "0",
+                           "--json", self.path("i.json"), self.path("h.csv"))
+        self.assertEqual(rc, 0, err)
+        self.assertNotIn("interval width", out)
+        self.assertNotIn("interval_width", self.load_json(self.path("i.json"))["scores"][0]["map"])
+
+    def test_report_from_a_tally_gives_the_same_widths(self):
+        path = self.fit("venn_abers")
+        rc, _, err = run("tally", "-q", "--score", "risk", "--label", "missed", self.path("h.csv"),
+                         "-o", self.path("t.json"))
+        self.assertEqual(rc, 0, err)
+        figures = []
+        for args in (("--label", "missed", self.path("h.csv")), ("--tally", self.path("t.json"))):
+            rc, _, err = run("report", "-q", "--map", path, "--bootstrap", "0", "--json", self.path("r.json"), *args)
+            self.assertEqual(rc, 0, err)
+            figures.append(self.load_json(self.path("r.json"))["scores"][0]["map"]["interval_width"])
+        self.assertEqual(figures[0]["median"], figures[1]["median"])
+        self.assertEqual(figures[0]["p90"], figures[1]["p90"])
+        self.assertAlmostEqual(figures[0]["mean"], figures[1]["mean"], places=14)
+
+
+class VennAbersCrossFit(VennAbers):
+    def test_named_kinds_are_candidates_and_auto_leaves_them_out(self):
+        rc, out, err = run("cross-fit", "--map", "isotonic,venn_abers,cross_venn_abers", "--score", "risk",
+                           "--label", "missed", "--json", self.path("e.json"), self.path("h.csv"))
+        self.assertEqual(rc, 0, err)
+        kinds = [c["kind"] for c in self.load_json(self.path("e.json"))["candidates"]]
+        self.assertEqual(sorted(kinds), ["cross_venn_abers", "isotonic", "venn_abers"])
+        rc, out, err = run("cross-fit", "--score", "risk", "--label", "missed", "--json", self.path("a.json"),
+                           self.path("h.csv"))
+        self.assertEqual(rc, 0, err)
+        kinds = [c["kind"] for c in self.load_json(self.path("a.json"))["candidates"]]
+        self.assertNotIn("venn_abers", kinds)
+        self.assertNotIn("cross_venn_abers", kinds)
+        self.assertIn("isotonic", kinds)
+
+
 if __name__ == "__main__":
     unittest.main()
