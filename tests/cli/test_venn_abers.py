@@ -119,6 +119,12 @@ class VennAbers(PlumbCase):
         self.assert_refused(["fit", "--map", "cross_venn_abers", "--score", "risk", "--label", "missed",
                              "--weight", "w", self.path("w.csv")], FIT, "whole-number weights", "--map venn_abers")
 
+    def test_export_refuses_the_kinds_with_the_kind_named(self):
+        for kind in ("venn_abers", "cross_venn_abers"):
+            path = self.fit(kind)
+            self.assert_refused(["export", "--sql", "sqlite", path], USAGE, "no SQL form for a " + kind + " map")
+            self.assert_refused(["export", "--c", path], USAGE, "no C form for a " + kind + " map")
+
     def test_inspect_names_the_kind(self):
         for kind in ("venn_abers", "cross_venn_abers"):
             rc, out, err = run("inspect", self.fit(kind))
