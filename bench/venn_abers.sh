@@ -36,5 +36,5 @@ for k in "${kinds[@]}"; do
   a=$(median "$work/apply.$k")
   printf "%-18s %12s %12s %10.2f %10.2f\n" "$k" "$f" "$a" "$(echo "$f / $fi" | bc -l)" "$(echo "$a / $ai" | bc -l)"
 done
-echo "knots: $(python3 -c "import json,sys; print(len(json.load(open(sys.argv[1]))['parameters']['knot_score']))" "$work/venn_abers.json")," \
+echo "venn_abers steps: $(python3 -c "import json,sys; print(len(json.load(open(sys.argv[1]))['parameters']['p0']))" "$work/venn_abers.json") for $(python3 -c "import json,sys; print(json.load(open(sys.argv[1]))['parameters']['knots'])" "$work/venn_abers.json") knots," \
   "isotonic blocks: $(python3 -c "import json,sys; print(len(json.load(open(sys.argv[1]))['parameters']['block_score_lo']))" "$work/isotonic.json")"

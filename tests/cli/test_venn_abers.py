@@ -3,7 +3,6 @@ version 3, the published schema), apply's probability and --interval
 columns against the knots as docs/artifact-format.md states them, and the
 refusals (--interval for a map without an interval, fractional weights for
 the cross form)."""
-import bisect
 import json
 import os
 import unittest
@@ -15,14 +14,17 @@ from plumbtest import SOURCE_DIR, PlumbCase, read_rows, run, simulated_holdout, 
 USAGE, FIT = 2, 6
 
 
-def place_values(params, s, names):
-    """The values at score s by the documented rule: a knot's own entry when s
-    equals a knot, else the entry of the gap holding s."""
-    x = params["knot_score"]
-    j = bisect.bisect_left(x, s)
-    if j < len(x) and x[j] == s:
-        return [params[n + "_at_knot"] for n in names], j, True
-    return [params[n + "_between"] for n in names], j, False
+def step_values(params, s, names):
+    """The values at score s by the documented rule: step r + 1 starts at
+    step_score[r], and a score equal to it belongs to step r + 1 when
+    step_closed[r], else to step r."""
+    r = 0
+    for x, closed in zip(params["step_score"], params["step_closed"]):
+        if s > x or (s == x and closed):
+            r += 1
+        else:
+            break
+    return [params[n][r] for n in names]
 
 
 class VennAbers(PlumbCase):
@@ -30,7 +32,7 @@ class VennAbers(PlumbCase):
         super().setUp()
         rows = ["risk,missed"] + [f"{s},{y}" for s, y in simulated_holdout(1200, seed=5)]
         write(self.path("h.csv"), "\n".join(rows) + "\n")
-        grid = [k / 100 for k in range(101)] + [s for s, _ in simulated_holdout(50, seed=5)]
+        grid = [k / 100 for k in range(101)] + [s for s, _ in simulated_holdout(1200, seed=5)]
         write(self.path("grid.csv"), "id,risk\n" + "\n".join(f"{i},{s!r}" for i, s in enumerate(grid)) + "\n")
         self.grid = grid
 
@@ -70,19 +72,18 @@ class VennAbers(PlumbCase):
             rows = read_rows(out, is_text=True)
             self.assertEqual(rows[0], ["id", "risk", "risk_calibrated", "risk_calibrated_p0", "risk_calibrated_p1"])
             self.assertEqual(len(rows), len(self.grid) + 1)
-            knots_hit = 0
             for row, s in zip(rows[1:], self.grid):
-                (p0, p1), j, on_knot = place_values(params, s, ("p0", "p1"))
-                knots_hit += on_knot
-                self.assertEqual(float(row[3]), p0[j], (kind, s))
-                self.assertEqual(float(row[4]), p1[j], (kind, s))
+                p0, p1 = step_values(params, s, ("p0", "p1"))
+                self.assertEqual(float(row[3]), p0, (kind, s))
+                self.assertEqual(float(row[4]), p1, (kind, s))
                 if kind == "venn_abers":
-                    self.assertAlmostEqual(float(row[2]), p1[j] / (1 - p0[j] + p1[j]), places=15)
+                    self.assertAlmostEqual(float(row[2]), p1 / (1 - p0 + p1), places=15)
                 else:
-                    (p,), _, _ = place_values(params, s, ("probability",))
-                    self.assertEqual(float(row[2]), p[j])
-                self.assertLessEqual(p0[j], p1[j])
-            self.assertGreater(knots_hit, 0)  # the grid holds knots and gaps
+                    self.assertEqual(float(row[2]), step_values(params, s, ("probability",))[0])
+                self.assertLessEqual(p0, p1)
+            # The grid meets step scores exactly, closed and open ones.
+            hits = {c for x, c in zip(params["step_score"], params["step_closed"]) if x in self.grid}
+            self.assertEqual(hits, {True, False})
             # Without --interval: the same probabilities, no interval columns.
             rc, plain, err = run("apply", "-q", path, self.path("grid.csv"))
             self.assertEqual(rc, 0, err)

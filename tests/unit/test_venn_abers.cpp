@@ -47,10 +47,6 @@ double refit(const std::vector<double>& x, const std::vector<double>& y, const s
   return -1.0;
 }
 
-const plumb::VennAbersMap& as_venn_abers(const plumb::CalibrationMap& m) {
-  return dynamic_cast<const plumb::VennAbersMap&>(m);
-}
-
 }  // namespace
 
 TEST_CASE("venn_abers: three calibration rows, worked by hand", "[venn_abers]") {
@@ -126,7 +122,7 @@ TEST_CASE("venn_abers: the interval holds the isotonic fit at each calibration s
   MapOptions step;
   step.isotonic_interpolate = false;
   const auto iso = plumb::fit_map("isotonic", data, step);
-  for (double s : as_venn_abers(*va).knots().score) {
+  for (double s : plumb::venn_abers_points(data).score) {
     INFO("score " << s);
     const auto i = va->interval(s);
     const double v = iso->map(s).probability;
@@ -294,4 +290,32 @@ TEST_CASE("venn_abers: validity in a simulation with a known truth", "[venn_aber
   CHECK(std::abs(true_mean) <= 4.5 * true_se);
   CHECK(std::abs(merged_mean) <= 4.5 * merged_se + width);
   CHECK(std::abs(raw_mean) > 4.5 * raw_se + width);  // the check has power
+}
+
+TEST_CASE("venn_abers: the stored steps give the knots' values at every place", "[venn_abers]") {
+  // The map keeps runs of equal values (VennAbersSteps); at each knot, in
+  // each gap and beyond both ends it must give what venn_abers_knots gave.
+  std::mt19937_64 g(3);
+  std::vector<double> x(20000), y(20000);
+  for (std::size_t i = 0; i < x.size(); ++i) {
+    x[i] = std::round(uniform(g) * 5000.0) / 5000.0;
+    y[i] = uniform(g) < 0.05 + 0.9 * x[i] ? 1.0 : 0.0;
+  }
+  const FitData data{x, y, {}, Scale::probability};
+  const plumb::VennAbersPoints pts = plumb::venn_abers_points(data);
+  const plumb::VennAbersKnots k = plumb::venn_abers_knots(pts.score, pts.weight, pts.label_sum);
+  const auto map = plumb::fit_map("venn_abers", data);
+  const auto& steps = dynamic_cast<const plumb::VennAbersMap&>(*map).steps();
+  CHECK(steps.p0.size() < k.score.size() / 4);  // runs, not places
+  for (std::size_t j = 0; j <= k.score.size(); ++j) {
+    const double below = j == 0 ? k.score[0] - 1e-3 : j == k.score.size() ? k.score[j - 1] + 1e-3
+                                                                            : 0.5 * (k.score[j - 1] + k.score[j]);
+    INFO("gap " << j);
+    CHECK(map->interval(below)[0] == k.p0_between[j]);
+    CHECK(map->interval(below)[1] == k.p1_between[j]);
+    if (j == k.score.size()) break;
+    INFO("knot " << j);
+    CHECK(map->interval(k.score[j])[0] == k.p0_at[j]);
+    CHECK(map->interval(k.score[j])[1] == k.p1_at[j]);
+  }
 }

@@ -63,13 +63,33 @@ std::vector<VennAbersPoints> venn_abers_folds(const VennAbersPoints& all, int fo
 VennAbersKnots venn_abers_knots(std::span<const double> score, std::span<const double> weight,
                                 std::span<const double> label_sum);
 
+// The map as stored: the places in order (gap 0, knot 0, gap 1, ..., gap k)
+// cut into runs of equal values, one step per run. With many rows the test
+// row pools with the same blocks over long stretches of places, so the runs
+// are far fewer than the places (845 for 474,273 knots on 10^6 rows of
+// bench/make_rows.py), and the map is as small and as quick as an isotonic
+// map. Step r + 1 starts at step_score[r]: a score equal to it belongs to
+// step r + 1 when step_closed[r] (the run starts at that knot), else to step
+// r (the run starts in the gap above the knot).
+struct VennAbersSteps {
+  std::vector<double> step_score;        // R - 1 entries, non-decreasing
+  std::vector<unsigned char> step_closed;  // R - 1 entries, 0 or 1
+  std::vector<double> p0, p1;            // R entries
+  std::vector<double> probability;       // R entries (cross form); empty: p1 / (1 - p0 + p1)
+};
+// The runs of `knots` (and, when given, of the probability at each place:
+// `at` k entries, `between` k + 1).
+VennAbersSteps venn_abers_steps(const VennAbersKnots& knots, std::span<const double> probability_at = {},
+                                std::span<const double> probability_between = {});
+
 class VennAbersMap final : public CalibrationMap {
  public:
-  // Inductive form: folds = 0, probability computed from p0 and p1. Cross
-  // form: folds >= 2, probability_at/_between the merged probabilities
-  // (same lengths as the p0 arrays). Preconditions as from_parameters checks.
-  VennAbersMap(Scale scale, VennAbersKnots knots, int folds, std::vector<double> probability_at,
-               std::vector<double> probability_between, double calibration_weight);
+  // Inductive form: folds = 0, steps.probability empty (computed from p0
+  // and p1). Cross form: folds >= 2, steps.probability filled.
+  // [fitted_lo, fitted_hi]: the first and last knot; `knots` their number.
+  // Preconditions as from_parameters checks.
+  VennAbersMap(Scale scale, VennAbersSteps steps, int folds, double fitted_lo, double fitted_hi, std::size_t knots,
+               double calibration_weight);
 
   static bool accepts(Scale) noexcept { return true; }
   // The inductive form on every row of `data`.
@@ -87,30 +107,31 @@ class VennAbersMap final : public CalibrationMap {
   Scale scale() const noexcept override { return scale_; }
   // The merged probability at the score's place. Flagged outside_fit_range
   // below the first or above the last calibration score, where the place is
-  // the end gap and the value is held.
+  // an end gap and the value is held.
   Mapped map(double score) const noexcept override;
   nlohmann::json parameters() const override;
-  // p0 and p1 never fall from place to place (checked on load).
+  // p0 and p1 never fall from step to step (checked on load).
   bool monotone() const noexcept override { return true; }
   bool has_interval() const noexcept override { return true; }
   // [p0, p1] at the score's place (cross form: the folds' means).
   std::array<double, 2> interval(double score) const noexcept override;
 
-  const VennAbersKnots& knots() const noexcept { return k_; }
+  const VennAbersSteps& steps() const noexcept { return s_; }
   int folds() const noexcept { return folds_; }
 
  private:
   Scale scale_;
-  VennAbersKnots k_;
+  VennAbersSteps s_;
   int folds_;
-  std::vector<double> p_at_, p_between_;
+  double lo_, hi_;
+  std::size_t knots_;
   double calibration_weight_;
-  // A guide for the search, as the isotonic map's: the knot range cut into
-  // equal buckets, each holding the last knot at or before its start.
+  // A guide for the search, as the isotonic map's: the steps' score range
+  // cut into equal buckets, each holding the last step score at or before
+  // its start.
   std::vector<std::uint32_t> guide_;
   double guide_origin_ = 0.0, guide_scale_ = 0.0;
-  // The score's place: 2 j + 1 at knot j, 2 j in gap j.
-  std::size_t place(double score) const noexcept;
+  std::size_t step_of(double score) const noexcept;
 };
 
 }  // namespace plumb

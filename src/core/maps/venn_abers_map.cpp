@@ -193,21 +193,52 @@ VennAbersKnots venn_abers_knots(std::span<const double> score, std::span<const d
   return out;
 }
 
-VennAbersMap::VennAbersMap(Scale scale, VennAbersKnots knots, int folds, std::vector<double> probability_at,
-                           std::vector<double> probability_between, double calibration_weight)
-    : scale_(scale),
-      k_(std::move(knots)),
-      folds_(folds),
-      p_at_(std::move(probability_at)),
-      p_between_(std::move(probability_between)),
-      calibration_weight_(calibration_weight) {
-  if (folds_ == 0) {
-    p_at_.resize(k_.score.size());
-    p_between_.resize(k_.score.size() + 1);
-    for (std::size_t j = 0; j < p_at_.size(); ++j) p_at_[j] = merged(k_.p0_at[j], k_.p1_at[j]);
-    for (std::size_t j = 0; j < p_between_.size(); ++j) p_between_[j] = merged(k_.p0_between[j], k_.p1_between[j]);
+VennAbersSteps venn_abers_steps(const VennAbersKnots& knots, std::span<const double> probability_at,
+                                std::span<const double> probability_between) {
+  VennAbersSteps out;
+  const std::size_t k = knots.score.size();
+  const bool with_p = !probability_between.empty();
+  // Place q: gap q / 2 when q is even, knot (q - 1) / 2 when odd.
+  auto values = [&](std::size_t q) {
+    const std::size_t j = q / 2;
+    if (q % 2 == 0)
+      return std::array<double, 3>{knots.p0_between[j], knots.p1_between[j], with_p ? probability_between[j] : 0.0};
+    return std::array<double, 3>{knots.p0_at[j], knots.p1_at[j], with_p ? probability_at[j] : 0.0};
+  };
+  std::array<double, 3> last = values(0);
+  auto push = [&](const std::array<double, 3>& v) {
+    out.p0.push_back(v[0]);
+    out.p1.push_back(v[1]);
+    if (with_p) out.probability.push_back(v[2]);
+  };
+  push(last);
+  for (std::size_t q = 1; q <= 2 * k; ++q) {
+    const std::array<double, 3> v = values(q);
+    if (v == last) continue;
+    // A run starting at knot j starts at its score (closed); one starting
+    // in gap j, above knot j - 1 (open).
+    out.step_score.push_back(q % 2 == 1 ? knots.score[q / 2] : knots.score[q / 2 - 1]);
+    out.step_closed.push_back(q % 2 == 1 ? 1 : 0);
+    push(v);
+    last = v;
   }
-  const std::vector<double>& x = k_.score;
+  return out;
+}
+
+VennAbersMap::VennAbersMap(Scale scale, VennAbersSteps steps, int folds, double fitted_lo, double fitted_hi,
+                           std::size_t knots, double calibration_weight)
+    : scale_(scale),
+      s_(std::move(steps)),
+      folds_(folds),
+      lo_(fitted_lo),
+      hi_(fitted_hi),
+      knots_(knots),
+      calibration_weight_(calibration_weight) {
+  if (s_.probability.empty()) {
+    s_.probability.resize(s_.p0.size());
+    for (std::size_t r = 0; r < s_.p0.size(); ++r) s_.probability[r] = merged(s_.p0[r], s_.p1[r]);
+  }
+  const std::vector<double>& x = s_.step_score;
   if (x.size() < 16 || x.size() > std::numeric_limits<std::uint32_t>::max()) return;
   const double width = x.back() - x.front();
   const std::size_t buckets = std::min<std::size_t>(4 * x.size(), std::size_t{1} << 16);
@@ -223,15 +254,15 @@ VennAbersMap::VennAbersMap(Scale scale, VennAbersKnots knots, int folds, std::ve
   }
 }
 
-std::size_t VennAbersMap::place(double score) const noexcept {
-  const std::vector<double>& x = k_.score;
-  if (x.empty() || !(score >= x.front())) return 0;
-  if (score > x.back()) return 2 * x.size();
+std::size_t VennAbersMap::step_of(double score) const noexcept {
+  const std::vector<double>& x = s_.step_score;
+  if (x.empty() || score < x.front()) return 0;
+  // c: the number of step scores at or below the score (the last such is
+  // x[c - 1]), found as the isotonic map finds its block: the guide's
+  // bucket, a few steps to the exact one, else a binary search from there.
+  // The answer does not depend on the guide.
   std::size_t j = 0;
   if (!guide_.empty()) {
-    // As the isotonic map's search: the guide's bucket, a few steps to the
-    // exact knot, else the binary search from there. The answer does not
-    // depend on the guide.
     const double at = (score - guide_origin_) * guide_scale_;
     const std::size_t b = at < static_cast<double>(guide_.size()) ? static_cast<std::size_t>(at) : guide_.size() - 1;
     j = guide_[b];
@@ -248,28 +279,30 @@ std::size_t VennAbersMap::place(double score) const noexcept {
     }
     j = static_cast<std::size_t>(base - x.data());
   }
-  return x[j] == score ? 2 * j + 1 : 2 * (j + 1);
+  std::size_t c = j + 1;
+  // An open step at exactly this score is not passed (a closed one at the
+  // same score, just before it, is).
+  if (x[c - 1] == score && !s_.step_closed[c - 1]) --c;
+  return c;
 }
 
 Mapped VennAbersMap::map(double score) const noexcept {
-  const std::size_t at = place(score);
-  const bool outside = k_.score.empty() || score < k_.score.front() || score > k_.score.back();
-  return {at % 2 == 1 ? p_at_[at / 2] : p_between_[at / 2], outside, false};
+  return {s_.probability[step_of(score)], score < lo_ || score > hi_, false};
 }
 
 std::array<double, 2> VennAbersMap::interval(double score) const noexcept {
-  const std::size_t at = place(score);
-  if (at % 2 == 1) return {k_.p0_at[at / 2], k_.p1_at[at / 2]};
-  return {k_.p0_between[at / 2], k_.p1_between[at / 2]};
+  const std::size_t r = step_of(score);
+  return {s_.p0[r], s_.p1[r]};
 }
 
 std::unique_ptr<CalibrationMap> VennAbersMap::fit(const FitData& data, const MapOptions&) {
   const VennAbersPoints p = venn_abers_points(data);
   if (p.score.empty()) throw Error(ErrorKind::fit, "no rows of positive weight to fit");
   const double total = std::accumulate(p.weight.begin(), p.weight.end(), 0.0);
-  auto map = std::make_unique<VennAbersMap>(data.scale, venn_abers_knots(p.score, p.weight, p.label_sum), 0,
-                                            std::vector<double>{}, std::vector<double>{}, total);
-  fill_diagnostics(*map, map->diagnostics_, data, std::to_string(p.score.size()) + " knots");
+  auto map = std::make_unique<VennAbersMap>(data.scale, venn_abers_steps(venn_abers_knots(p.score, p.weight, p.label_sum)),
+                                            0, p.score.front(), p.score.back(), p.score.size(), total);
+  fill_diagnostics(*map, map->diagnostics_, data,
+                   count_text(p.score.size()) + " knots in " + count_text(map->s_.p0.size()) + " steps");
   return map;
 }
 
@@ -338,97 +371,107 @@ std::unique_ptr<CalibrationMap> VennAbersMap::fit_cross(const FitData& data, con
   hold(out.p1_at, out.p1_between);
   hold(p_at, p_between);
   const double total = std::accumulate(all.weight.begin(), all.weight.end(), 0.0);
-  auto map = std::make_unique<VennAbersMap>(data.scale, std::move(out), folds, std::move(p_at), std::move(p_between),
-                                            total);
+  auto map = std::make_unique<VennAbersMap>(data.scale, venn_abers_steps(out, p_at, p_between), folds,
+                                            all.score.front(), all.score.back(), k, total);
   fill_diagnostics(*map, map->diagnostics_, data,
-                   std::to_string(folds) + " folds, " + std::to_string(k) + " knots");
+                   std::to_string(folds) + " folds, " + count_text(k) + " knots in " + count_text(map->s_.p0.size()) +
+                       " steps");
   return map;
 }
 
 nlohmann::json VennAbersMap::parameters() const {
+  nlohmann::json closed = nlohmann::json::array();
+  for (unsigned char c : s_.step_closed) closed.push_back(c != 0);
   nlohmann::json out = {{"calibration_weight", calibration_weight_},
-                        {"knot_score", k_.score},
-                        {"p0_at_knot", k_.p0_at},
-                        {"p1_at_knot", k_.p1_at},
-                        {"p0_between", k_.p0_between},
-                        {"p1_between", k_.p1_between}};
+                        {"knots", knots_},
+                        {"fitted_score_lo", lo_},
+                        {"fitted_score_hi", hi_},
+                        {"step_score", s_.step_score},
+                        {"step_closed", closed},
+                        {"p0", s_.p0},
+                        {"p1", s_.p1}};
   if (folds_ > 0) {
     out["folds"] = folds_;
-    out["probability_at_knot"] = p_at_;
-    out["probability_between"] = p_between_;
+    out["probability"] = s_.probability;
   }
   return out;
 }
 
 namespace {
 
-// Reads the knots of either form: lengths k and k + 1, finite, scores
-// strictly increasing (in [0, 1] on the probability scale), every value in
-// [0, 1], p0 <= p1 at each place, and p0 and p1 each non-decreasing along
-// the places (gap 0, knot 0, gap 1, ..., knot k-1, gap k).
-VennAbersKnots read_knots(Scale scale, const nlohmann::json& p, const std::string& where) {
+// Reads the members both forms share and checks them: R >= 1 steps, step
+// scores non-decreasing (a score twice only as a closed step then an open
+// one) inside [fitted_score_lo, fitted_score_hi] (in [0, 1] on the
+// probability scale), p0 and p1 in [0, 1], each non-decreasing from step to
+// step, p0 <= p1 in each step.
+struct Shared {
+  VennAbersSteps steps;
+  double lo = 0.0, hi = 0.0, weight = 0.0;
+  std::size_t knots = 0;
+};
+Shared read_shared(Scale scale, const nlohmann::json& p, const std::string& where) {
   namespace jf = json_fields;
-  VennAbersKnots k;
-  k.score = jf::require_finite_array(p, "knot_score", where, "parameters.knot_score");
-  k.p0_at = jf::require_finite_array(p, "p0_at_knot", where, "parameters.p0_at_knot");
-  k.p1_at = jf::require_finite_array(p, "p1_at_knot", where, "parameters.p1_at_knot");
-  k.p0_between = jf::require_finite_array(p, "p0_between", where, "parameters.p0_between");
-  k.p1_between = jf::require_finite_array(p, "p1_between", where, "parameters.p1_between");
-  const std::size_t n = k.score.size();
-  if (n == 0) jf::fail(where, "parameters.knot_score", "is empty", "at least one knot");
-  if (k.p0_at.size() != n || k.p1_at.size() != n)
-    jf::fail(where, "parameters", "has knot arrays of different lengths", "equal lengths");
-  if (k.p0_between.size() != n + 1 || k.p1_between.size() != n + 1)
-    jf::fail(where, "parameters", "has gap arrays whose length is not one more than the knots'",
-             std::to_string(n + 1) + " gaps");
-  for (std::size_t j = 0; j < n; ++j) {
-    const std::string at = "[" + std::to_string(j) + "]";
-    if (j > 0 && !(k.score[j] > k.score[j - 1]))
-      jf::fail(where, "parameters.knot_score" + at, "does not lie above the previous knot", "increasing scores");
-    if (scale == Scale::probability && !(k.score[j] >= 0.0 && k.score[j] <= 1.0))
-      jf::fail(where, "parameters.knot_score" + at, "lies outside [0, 1] on the probability scale");
+  Shared r;
+  r.weight = jf::require_finite(p, "calibration_weight", where, "parameters.calibration_weight");
+  if (!(r.weight > 0.0)) jf::fail(where, "parameters.calibration_weight", "is not positive");
+  const std::uint64_t knots = jf::require_count(p, "knots", where, "parameters.knots");
+  if (knots == 0) jf::fail(where, "parameters.knots", "is 0", "at least one knot");
+  r.knots = static_cast<std::size_t>(knots);
+  r.lo = jf::require_finite(p, "fitted_score_lo", where, "parameters.fitted_score_lo");
+  r.hi = jf::require_finite(p, "fitted_score_hi", where, "parameters.fitted_score_hi");
+  if (!(r.lo <= r.hi)) jf::fail(where, "parameters.fitted_score_hi", "is below fitted_score_lo");
+  if (scale == Scale::probability && (r.lo < 0.0 || r.hi > 1.0))
+    jf::fail(where, "parameters.fitted_score_lo", "lies outside [0, 1] on the probability scale");
+  VennAbersSteps& s = r.steps;
+  s.step_score = jf::require_finite_array(p, "step_score", where, "parameters.step_score");
+  const nlohmann::json& closed = jf::require(p, "step_closed", where, "parameters.step_closed");
+  if (!closed.is_array()) jf::fail(where, "parameters.step_closed", "is not an array", "an array of booleans");
+  for (const nlohmann::json& c : closed) {
+    if (!c.is_boolean()) jf::fail(where, "parameters.step_closed", "holds a value that is not a boolean");
+    s.step_closed.push_back(c.get<bool>() ? 1 : 0);
   }
-  auto check = [&](const std::vector<double>& lo_at, const std::vector<double>& lo_between, const char* name) {
-    double last = 0.0;
-    for (std::size_t j = 0; j <= n; ++j) {
-      for (int gap = 1; gap >= 0; --gap) {
-        if (gap == 0 && j == n) break;
-        const double v = gap ? lo_between[j] : lo_at[j];
-        const std::string path = std::string("parameters.") + name + (gap ? "_between" : "_at_knot") + "[" +
-                                 std::to_string(j) + "]";
-        if (!(v >= 0.0 && v <= 1.0)) jf::fail(where, path, "lies outside [0, 1]", "a probability");
-        if (!(v >= last)) jf::fail(where, path, "is below the value at the place before it", "non-decreasing values");
-        last = v;
-      }
+  s.p0 = jf::require_finite_array(p, "p0", where, "parameters.p0");
+  s.p1 = jf::require_finite_array(p, "p1", where, "parameters.p1");
+  const std::size_t n = s.p0.size();
+  if (n == 0) jf::fail(where, "parameters.p0", "is empty", "at least one step");
+  if (s.p1.size() != n || s.step_score.size() + 1 != n || s.step_closed.size() + 1 != n)
+    jf::fail(where, "parameters", "has step arrays of the wrong lengths",
+             "p0 and p1 of one length, step_score and step_closed one shorter");
+  for (std::size_t r2 = 0; r2 + 1 < n; ++r2) {
+    const std::string at = "[" + std::to_string(r2) + "]";
+    const double x = s.step_score[r2];
+    if (!(x >= r.lo && x <= r.hi))
+      jf::fail(where, "parameters.step_score" + at, "lies outside [fitted_score_lo, fitted_score_hi]");
+    if (r2 > 0) {
+      const double before = s.step_score[r2 - 1];
+      const bool ordered = x > before || (x == before && s.step_closed[r2 - 1] && !s.step_closed[r2]);
+      if (!ordered)
+        jf::fail(where, "parameters.step_score" + at, "does not lie above the previous step",
+                 "steps in increasing score order");
     }
-  };
-  check(k.p0_at, k.p0_between, "p0");
-  check(k.p1_at, k.p1_between, "p1");
-  for (std::size_t j = 0; j <= n; ++j) {
-    if (!(k.p0_between[j] <= k.p1_between[j]))
-      jf::fail(where, "parameters.p1_between[" + std::to_string(j) + "]", "is below p0 there", "p0 <= p1");
-    if (j < n && !(k.p0_at[j] <= k.p1_at[j]))
-      jf::fail(where, "parameters.p1_at_knot[" + std::to_string(j) + "]", "is below p0 there", "p0 <= p1");
   }
-  return k;
-}
-
-double read_weight(const nlohmann::json& p, const std::string& where) {
-  const double w = json_fields::require_finite(p, "calibration_weight", where, "parameters.calibration_weight");
-  if (!(w > 0.0)) json_fields::fail(where, "parameters.calibration_weight", "is not positive");
-  return w;
+  for (std::size_t r2 = 0; r2 < n; ++r2) {
+    const std::string at = "[" + std::to_string(r2) + "]";
+    for (const auto* v : {&s.p0, &s.p1}) {
+      const std::string path = std::string("parameters.") + (v == &s.p0 ? "p0" : "p1") + at;
+      if (!((*v)[r2] >= 0.0 && (*v)[r2] <= 1.0)) jf::fail(where, path, "lies outside [0, 1]", "a probability");
+      if (r2 > 0 && !((*v)[r2] >= (*v)[r2 - 1]))
+        jf::fail(where, path, "is below the previous step's value", "non-decreasing values");
+    }
+    if (!(s.p0[r2] <= s.p1[r2])) jf::fail(where, "parameters.p1" + at, "is below p0 there", "p0 <= p1");
+  }
+  return r;
 }
 
 }  // namespace
 
 std::unique_ptr<CalibrationMap> VennAbersMap::from_parameters(Scale scale, const nlohmann::json& p,
                                                               const std::string& where) {
-  if (p.is_object() && p.contains("folds"))
-    json_fields::fail(where, "parameters.folds", "is present in an inductive venn_abers map",
-                      "no folds (the kind cross_venn_abers has them)");
-  VennAbersKnots k = read_knots(scale, p, where);
-  return std::make_unique<VennAbersMap>(scale, std::move(k), 0, std::vector<double>{}, std::vector<double>{},
-                                        read_weight(p, where));
+  if (p.is_object() && (p.contains("folds") || p.contains("probability")))
+    json_fields::fail(where, p.contains("folds") ? "parameters.folds" : "parameters.probability",
+                      "is present in an inductive venn_abers map", "no folds (the kind cross_venn_abers has them)");
+  Shared r = read_shared(scale, p, where);
+  return std::make_unique<VennAbersMap>(scale, std::move(r.steps), 0, r.lo, r.hi, r.knots, r.weight);
 }
 
 std::unique_ptr<CalibrationMap> VennAbersMap::from_parameters_cross(Scale scale, const nlohmann::json& p,
@@ -436,25 +479,19 @@ std::unique_ptr<CalibrationMap> VennAbersMap::from_parameters_cross(Scale scale,
   namespace jf = json_fields;
   const std::int64_t folds = jf::require_integer(p, "folds", where, "parameters.folds");
   if (folds < 2 || folds > 1000) jf::fail(where, "parameters.folds", "lies outside [2, 1000]", "a number of folds");
-  VennAbersKnots k = read_knots(scale, p, where);
-  auto at = jf::require_finite_array(p, "probability_at_knot", where, "parameters.probability_at_knot");
-  auto between = jf::require_finite_array(p, "probability_between", where, "parameters.probability_between");
-  if (at.size() != k.score.size() || between.size() != k.score.size() + 1)
-    jf::fail(where, "parameters", "has probability arrays of the wrong lengths", "one per knot and one per gap");
-  double last = 0.0;
-  for (std::size_t j = 0; j <= at.size(); ++j) {
-    for (int gap = 1; gap >= 0; --gap) {
-      if (gap == 0 && j == at.size()) break;
-      const double v = gap ? between[j] : at[j];
-      const std::string path = std::string("parameters.probability_") + (gap ? "between" : "at_knot") + "[" +
-                               std::to_string(j) + "]";
-      if (!(v > 0.0 && v < 1.0)) jf::fail(where, path, "lies outside (0, 1)", "a probability strictly inside");
-      if (!(v >= last)) jf::fail(where, path, "is below the value at the place before it", "non-decreasing values");
-      last = v;
-    }
+  Shared r = read_shared(scale, p, where);
+  r.steps.probability = jf::require_finite_array(p, "probability", where, "parameters.probability");
+  if (r.steps.probability.size() != r.steps.p0.size())
+    jf::fail(where, "parameters.probability", "has not one value per step", "as many values as p0");
+  for (std::size_t i = 0; i < r.steps.probability.size(); ++i) {
+    const double v = r.steps.probability[i];
+    const std::string path = "parameters.probability[" + std::to_string(i) + "]";
+    if (!(v > 0.0 && v < 1.0)) jf::fail(where, path, "lies outside (0, 1)", "a probability strictly inside");
+    if (i > 0 && !(v >= r.steps.probability[i - 1]))
+      jf::fail(where, path, "is below the previous step's value", "non-decreasing values");
   }
-  return std::make_unique<VennAbersMap>(scale, std::move(k), static_cast<int>(folds), std::move(at),
-                                        std::move(between), read_weight(p, where));
+  return std::make_unique<VennAbersMap>(scale, std::move(r.steps), static_cast<int>(folds), r.lo, r.hi, r.knots,
+                                        r.weight);
 }
 
 }  // namespace plumb
