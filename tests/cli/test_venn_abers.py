@@ -133,6 +133,32 @@ class VennAbers(PlumbCase):
             self.assertIn(kind + " map (format plumb-map version 3", out)
 
 
+class VennAbersVersions(VennAbers):
+    def test_fold_average_of_venn_abers_maps_and_adjusted_maps_are_version_3(self):
+        rc, out, err = run("cross-fit", "--map", "venn_abers", "--final", "folds", "--score", "risk", "--label",
+                           "missed", self.path("h.csv"), "-o", self.path("f.json"))
+        self.assertEqual(rc, 0, err)
+        doc = self.load_json(self.path("f.json"))
+        self.assertEqual((doc["kind"], doc["format_version"]), ("fold_average", 3))
+        # An adjusted Venn-Abers map: both features, the higher number; the
+        # interval's ends move by the same odds factor as the probability.
+        path = self.fit("venn_abers")
+        rc, out, err = run("adjust", "-q", "--prior", "0.3", path, "-o", self.path("adj.json"))
+        self.assertEqual(rc, 0, err)
+        adj = self.load_json(self.path("adj.json"))
+        self.assertEqual(adj["format_version"], 3)
+        k = adj["odds_adjustment"]["factor"]
+        rc, out, err = run("apply", "-q", "--interval", self.path("adj.json"), self.path("grid.csv"))
+        self.assertEqual(rc, 0, err)
+        params = adj["parameters"]
+        for row, s in zip(read_rows(out, is_text=True)[1:], self.grid):
+            p0, p1 = step_values(params, s, ("p0", "p1"))
+            for got, p in ((float(row[3]), p0), (float(row[4]), p1)):
+                self.assertAlmostEqual(got, k * p / (k * p + 1 - p), places=14)
+            self.assertLessEqual(float(row[3]), float(row[2]))
+            self.assertLessEqual(float(row[2]), float(row[4]))
+
+
 class VennAbersReport(VennAbers):
     def widths_from_apply(self, path, data):
         rc, out, err = run("apply", "-q", "--interval", path, data)
