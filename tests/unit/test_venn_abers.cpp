@@ -22,6 +22,7 @@
 #include "plumb/map_registry.hpp"
 #include "plumb/maps/venn_abers_map.hpp"
 #include "plumb/pav.hpp"
+#include "plumb/report.hpp"
 
 using plumb::FitData;
 using plumb::MapOptions;
@@ -318,4 +319,53 @@ TEST_CASE("venn_abers: the stored steps give the knots' values at every place", 
     CHECK(map->interval(k.score[j])[0] == k.p0_at[j]);
     CHECK(map->interval(k.score[j])[1] == k.p1_at[j]);
   }
+}
+
+TEST_CASE("venn_abers: the binary searches over the stacks find the block the poolings one by one find",
+          "[venn_abers]") {
+  // venn_abers_knots pools one by one up to linear_steps, then searches;
+  // with 0 steps every place takes the searches, with a huge cap none does.
+  std::mt19937_64 g(99);
+  for (int round = 0; round < 60; ++round) {
+    INFO("round " << round);
+    const std::size_t k = 1 + g() % 300;
+    std::vector<double> x(k), w(k), ys(k);
+    const bool whole = round % 3 != 0;
+    for (std::size_t i = 0; i < k; ++i) {
+      x[i] = static_cast<double>(i);
+      // Smoothly rising frequencies with large weights (long poolings) or
+      // noisy small cells, by turns.
+      w[i] = whole ? static_cast<double>(round % 2 == 0 ? 1 + g() % 3 : 50 + g() % 50) : 0.1 + 5.0 * uniform(g);
+      const double f = round % 2 == 0 ? uniform(g) : 0.2 + 0.5 * static_cast<double>(i) / static_cast<double>(k) +
+                                                          0.02 * (uniform(g) - 0.5);
+      ys[i] = whole ? std::round(f * w[i]) : f * w[i];
+    }
+    const plumb::VennAbersKnots a = plumb::venn_abers_knots(x, w, ys, 0), b = plumb::venn_abers_knots(x, w, ys, 1u << 30);
+    for (std::size_t j = 0; j <= k; ++j) {
+      CHECK(a.p0_between[j] == Approx(b.p0_between[j]).margin(1e-12));
+      CHECK(a.p1_between[j] == Approx(b.p1_between[j]).margin(1e-12));
+      if (whole) CHECK(a.p1_between[j] == b.p1_between[j]);  // sums of whole numbers are exact
+      if (j == k) break;
+      CHECK(a.p0_at[j] == Approx(b.p0_at[j]).margin(1e-12));
+      CHECK(a.p1_at[j] == Approx(b.p1_at[j]).margin(1e-12));
+    }
+  }
+}
+
+TEST_CASE("interval width summary: mean and R's type 1 quantiles", "[venn_abers]") {
+  // R: x <- c(0.05, 0.01, 0.03, 0.02, 0.04); mean(x) = 0.03;
+  // quantile(x, c(0.5, 0.9), type = 1) = 0.03, 0.05 (Hyndman and Fan 1996,
+  // definition 1: the inverse of the empirical distribution function;
+  // values worked by hand from the definition).
+  const std::vector<double> x{0.05, 0.01, 0.03, 0.02, 0.04};
+  const plumb::IntervalWidth w = plumb::interval_width_summary(x);
+  CHECK(w.mean == Approx(0.03).margin(1e-15));
+  CHECK(w.median == 0.03);
+  CHECK(w.p90 == 0.05);
+  // Weights count rows: weight 3 on 0.01 is three rows of 0.01.
+  const std::vector<double> y{0.01, 0.05}, wy{3.0, 1.0};
+  const plumb::IntervalWidth v = plumb::interval_width_summary(y, wy);
+  CHECK(v.mean == Approx(0.02).margin(1e-15));
+  CHECK(v.median == 0.01);
+  CHECK(v.p90 == 0.05);
 }

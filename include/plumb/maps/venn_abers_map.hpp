@@ -57,11 +57,14 @@ std::vector<VennAbersPoints> venn_abers_folds(const VennAbersPoints& all, int fo
 // strictly increasing `score`, each with total weight weight[i] > 0 and
 // weighted label sum label_sum[i] in [0, weight[i]]; the test row weighs 1.
 // Each p0/p1 is the value of the test row's block in the PAV fit with the
-// test row added, exactly the fit's value (the sums of its block divided).
-// Cost: O(k) stack operations plus the blocks the test row pools with.
-// Empty input gives one gap with p0 = 0, p1 = 1.
+// test row added (the sums of its block divided). Cost: the stacks of both
+// sides in O(k) all told; per place, up to `linear_steps` poolings one by
+// one, then binary searches over the stacks, O(log^2 k): O(k log^2 k) at
+// worst. The two ways give the same block; its sums are added in another
+// order (exact for whole-number weights). Empty input gives one gap with
+// p0 = 0, p1 = 1.
 VennAbersKnots venn_abers_knots(std::span<const double> score, std::span<const double> weight,
-                                std::span<const double> label_sum);
+                                std::span<const double> label_sum, std::size_t linear_steps = 32);
 
 // The map as stored: the places in order (gap 0, knot 0, gap 1, ..., gap k)
 // cut into runs of equal values, one step per run. With many rows the test

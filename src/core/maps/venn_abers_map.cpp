@@ -22,6 +22,33 @@ struct Pool {
 // a's mean above b's, compared without dividing (weights are positive).
 bool above(const Pool& a, const Pool& b) { return a.y * b.w > b.y * a.w; }
 
+// A PAV stack: its blocks bottom to top, and the running sums of their
+// weights and label sums from the bottom, so that the sums of the top a
+// blocks are one subtraction.
+struct Stack {
+  std::vector<Pool> block;
+  std::vector<double> cw{0.0}, cy{0.0};
+  void push(const Pool& p) {
+    block.push_back(p);
+    cw.push_back(cw.back() + p.w);
+    cy.push_back(cy.back() + p.y);
+  }
+  void pop() {
+    block.pop_back();
+    cw.pop_back();
+    cy.pop_back();
+  }
+  std::size_t size() const { return block.size(); }
+  // The a-th block from the top (0: the top).
+  const Pool& from_top(std::size_t a) const { return block[block.size() - 1 - a]; }
+  Pool top_sum(std::size_t a) const {
+    const std::size_t n = block.size();
+    return {cw[n] - cw[n - a], cy[n] - cy[n - a]};
+  }
+};
+
+Pool plus(Pool a, const Pool& b) { return {a.w + b.w, a.y + b.y}; }
+
 // The value of the test row's block: `b` (the test row, with the point it
 // shares a score with) pooled with the top blocks of `left` (the PAV stack
 // of the points below, values rising to its top) while the one below is
@@ -30,22 +57,56 @@ bool above(const Pool& a, const Pool& b) { return a.y * b.w > b.y * a.w; }
 // below it. Pooling adjacent violators in any order ends at the isotonic
 // fit, and the stacks are each the fit of their side, so the block found is
 // the test row's block in the fit of all rows. The stacks are only read.
-double test_block_value(Pool b, const std::vector<Pool>& left, const std::vector<Pool>& right) {
-  std::size_t l = left.size(), r = right.size();
-  for (;;) {
-    if (l > 0 && above(left[l - 1], b)) {
-      --l;
-      b.w += left[l].w;
-      b.y += left[l].y;
-    } else if (r > 0 && above(b, right[r - 1])) {
-      --r;
-      b.w += right[r].w;
-      b.y += right[r].y;
+//
+// Up to `linear_steps` poolings one by one (the common case: a test row
+// pools with a few blocks); beyond, by binary searches over the stacks'
+// running sums, O(log^2 k). For b right blocks pooled, the left blocks to
+// pool are the top A(b), where A(b) is the first depth a whose block is not
+// above the mean of b, the top a left blocks and the top b right blocks
+// (that test turns from true to false once as a grows: the blocks fall
+// with depth while the mean stays at or above the last one pooled). The
+// right blocks to pool are the top b*, b* the first b whose block is not
+// below that mean h(b) (pooling a right block below h never raises h, and
+// the blocks rise with depth, so that test too turns once). Each pooling
+// on the way is of a violating pair, so (A(b*), b*) is the fit's block.
+double test_block_value(const Pool test, const Stack& left, const Stack& right, std::size_t linear_steps) {
+  Pool b = test;
+  std::size_t l = 0, r = 0;  // blocks pooled from each side
+  for (std::size_t steps = 0;; ++steps) {
+    if (steps == linear_steps) break;
+    if (l < left.size() && above(left.from_top(l), b)) {
+      b = plus(b, left.from_top(l));
+      ++l;
+    } else if (r < right.size() && above(b, right.from_top(r))) {
+      b = plus(b, right.from_top(r));
+      ++r;
     } else {
-      break;
+      return std::clamp(b.y / b.w, 0.0, 1.0);
     }
   }
-  return std::clamp(b.y / b.w, 0.0, 1.0);
+  // The pooled block of the test row, the top a left and top rb right blocks.
+  auto pooled = [&](std::size_t a, std::size_t rb) { return plus(plus(test, left.top_sum(a)), right.top_sum(rb)); };
+  auto left_count = [&](std::size_t rb) {
+    std::size_t lo = 0, hi = left.size();
+    while (lo < hi) {
+      const std::size_t mid = lo + (hi - lo) / 2;
+      if (above(left.from_top(mid), pooled(mid, rb)))
+        lo = mid + 1;
+      else
+        hi = mid;
+    }
+    return lo;
+  };
+  std::size_t lo = 0, hi = right.size();
+  while (lo < hi) {
+    const std::size_t mid = lo + (hi - lo) / 2;
+    if (above(pooled(left_count(mid), mid), right.from_top(mid)))
+      lo = mid + 1;
+    else
+      hi = mid;
+  }
+  const Pool m = pooled(left_count(lo), lo);
+  return std::clamp(m.y / m.w, 0.0, 1.0);
 }
 
 // splitmix64 (Steele, Lea and Flood 2014): the cross form's fixed-seed
@@ -129,7 +190,7 @@ std::vector<VennAbersPoints> venn_abers_folds(const VennAbersPoints& all, int fo
 }
 
 VennAbersKnots venn_abers_knots(std::span<const double> score, std::span<const double> weight,
-                                std::span<const double> label_sum) {
+                                std::span<const double> label_sum, std::size_t linear_steps) {
   const std::size_t k = score.size();
   VennAbersKnots out;
   out.score.assign(score.begin(), score.end());
@@ -141,54 +202,50 @@ VennAbersKnots venn_abers_knots(std::span<const double> score, std::span<const d
   // The PAV stack of the points from the left, with a log of what each push
   // pooled, so that the pushes can be undone from the right: the stack of
   // points 0..j-1 for j = k down to 0, in O(k) all told.
-  std::vector<Pool> left;
+  Stack left;
   std::vector<Pool> pooled_log;           // the blocks each push pooled, in pop order
   std::vector<std::size_t> pooled_count;  // per push
-  left.reserve(k);
   pooled_count.reserve(k);
   for (std::size_t i = 0; i < k; ++i) {
     Pool b{weight[i], label_sum[i]};
     std::size_t n = 0;
-    while (!left.empty() && !above(b, left.back())) {
-      // Pool while the block below is not below the new one: equal means
-      // pool too, which changes no value and keeps the stack short.
-      pooled_log.push_back(left.back());
-      b.w += left.back().w;
-      b.y += left.back().y;
-      left.pop_back();
+    // Pool while the block below is not below the new one: equal means
+    // pool too, which changes no value and keeps the stack short.
+    while (left.size() > 0 && !above(b, left.from_top(0))) {
+      pooled_log.push_back(left.from_top(0));
+      b = plus(b, left.from_top(0));
+      left.pop();
       ++n;
     }
-    left.push_back(b);
+    left.push(b);
     pooled_count.push_back(n);
   }
 
   // The PAV stack of the points from the right (points j..k-1), top leftmost.
-  std::vector<Pool> right;
-  right.reserve(k);
+  Stack right;
   const Pool zero{1.0, 0.0}, one{1.0, 1.0};
   for (std::size_t j = k + 1; j-- > 0;) {
     // Here left holds points 0..j-1 and right points j..k-1.
-    out.p0_between[j] = test_block_value(zero, left, right);
-    out.p1_between[j] = test_block_value(one, left, right);
+    out.p0_between[j] = test_block_value(zero, left, right, linear_steps);
+    out.p1_between[j] = test_block_value(one, left, right, linear_steps);
     if (j == 0) break;
     const std::size_t i = j - 1;
     // Undo the push of point i.
-    left.pop_back();
+    left.pop();
     for (std::size_t n = pooled_count[i]; n-- > 0;) {
-      left.push_back(pooled_log.back());
+      left.push(pooled_log.back());
       pooled_log.pop_back();
     }
     // The test row at point i's score.
-    out.p0_at[i] = test_block_value(Pool{weight[i] + 1.0, label_sum[i]}, left, right);
-    out.p1_at[i] = test_block_value(Pool{weight[i] + 1.0, label_sum[i] + 1.0}, left, right);
+    out.p0_at[i] = test_block_value(Pool{weight[i] + 1.0, label_sum[i]}, left, right, linear_steps);
+    out.p1_at[i] = test_block_value(Pool{weight[i] + 1.0, label_sum[i] + 1.0}, left, right, linear_steps);
     // Point i onto the right stack.
     Pool b{weight[i], label_sum[i]};
-    while (!right.empty() && !above(right.back(), b)) {
-      b.w += right.back().w;
-      b.y += right.back().y;
-      right.pop_back();
+    while (right.size() > 0 && !above(right.from_top(0), b)) {
+      b = plus(b, right.from_top(0));
+      right.pop();
     }
-    right.push_back(b);
+    right.push(b);
   }
   return out;
 }
