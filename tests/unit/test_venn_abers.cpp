@@ -356,7 +356,7 @@ TEST_CASE("interval width summary: mean and R's type 1 quantiles", "[venn_abers]
   // R: x <- c(0.05, 0.01, 0.03, 0.02, 0.04); mean(x) = 0.03;
   // quantile(x, c(0.5, 0.9), type = 1) = 0.03, 0.05 (Hyndman and Fan 1996,
   // definition 1: the inverse of the empirical distribution function;
-  // values worked by hand from the definition).
+  // R 4's quantile prints these values, and for rep(0.01, 3), 0.05 below).
   const std::vector<double> x{0.05, 0.01, 0.03, 0.02, 0.04};
   const plumb::IntervalWidth w = plumb::interval_width_summary(x);
   CHECK(w.mean == Approx(0.03).margin(1e-15));
