@@ -2,6 +2,7 @@
 // A calibration map: fitted on labelled scores, maps a raw score to a
 // probability, and writes and reads itself as JSON. The CLI only ever sees
 // this interface; each kind of map lives in its own file under src/core/maps.
+#include <array>
 #include <cstddef>
 #include <memory>
 #include <nlohmann/json.hpp>
@@ -38,6 +39,8 @@ struct MapOptions {
   // centered_isotonic: add the minimal slope so that distinct scores get
   // distinct probabilities (the strict form), or not (weak).
   bool centered_strict = false;
+  // cross_venn_abers: the number of folds the rows are dealt into.
+  int venn_folds = 5;
 };
 
 // What the fit did, for the artifact and for `inspect`.
@@ -87,6 +90,16 @@ class CalibrationMap {
   // bin or block holding rows of one class only): the log loss of any later
   // row with the contrary outcome there is infinite.
   virtual bool reaches_zero_or_one() const noexcept { return false; }
+  // True when the map gives an interval of probabilities beside its
+  // probability (the Venn-Abers kinds: [p0, p1]); apply's --interval and
+  // report's interval width ask it.
+  virtual bool has_interval() const noexcept { return false; }
+  // The interval at `score`, lower end first, when has_interval(); for a map
+  // without one, the probability twice. Same precondition as map().
+  virtual std::array<double, 2> interval(double score) const noexcept {
+    const double p = map(score).probability;
+    return {p, p};
+  }
 
   const FitDiagnostics& diagnostics() const noexcept { return diagnostics_; }
   // Used when a map is read back from an artifact, whose diagnostics were

@@ -56,6 +56,9 @@ struct MapKind {
   // Nonparametric (its shape follows the rows): fit and cross-fit caution it
   // below few_rows_for_nonparametric rows.
   bool nonparametric = false;
+  // Whether cross-fit's --map auto makes it a candidate (when it accepts the
+  // scale); a kind left out is still a candidate when a --map list names it.
+  bool in_auto = true;
   // fit's notes on the fitted map. When it is not monotone: between what it
   // falls ("scores", "bins (noise in bins of few rows)") and the advice; when
   // it reaches 0 or 1: what holds rows of one outcome ("blocks", "bins") and

@@ -52,6 +52,13 @@ class OddsAdjustedMap final : public CalibrationMap {
   bool monotone() const noexcept override { return base_->monotone(); }
   bool decreases_overall() const noexcept override { return base_->decreases_overall(); }
   bool reaches_zero_or_one() const noexcept override { return base_->reaches_zero_or_one(); }
+  bool has_interval() const noexcept override { return base_->has_interval(); }
+  // The wrapped map's interval with each end's odds multiplied: a monotone
+  // change, so an interval holding the probability still holds it.
+  std::array<double, 2> interval(double score) const noexcept override {
+    const std::array<double, 2> i = base_->interval(score);
+    return {multiply_odds(i[0], factor_), multiply_odds(i[1], factor_)};
+  }
 
   double factor() const noexcept { return factor_; }
   const CalibrationMap& base() const noexcept { return *base_; }

@@ -41,6 +41,18 @@ struct ReportOptions {
 };
 
 // One forecast column on one set of rows.
+// The width p1 - p0 of a map's interval over the reported rows (plumb
+// report --map with a Venn-Abers map): the weighted mean, and the median and
+// 90th percentile as the inverse of the weighted empirical distribution
+// function (the smallest width w whose rows weigh at least q of the total;
+// R's quantile type 1 for unit weights, Hyndman and Fan 1996).
+struct IntervalWidth {
+  double mean = 0.0, median = 0.0, p90 = 0.0;
+};
+// Precondition: width non-empty, finite, >= 0; weight empty (all 1) or of
+// the same length, >= 0 with a positive sum.
+IntervalWidth interval_width_summary(std::span<const double> width, std::span<const double> weight = {});
+
 struct ScoreSummary {
   std::string name;  // the column's name (or "COLUMN via MAP" when mapped on the fly)
   std::uint64_t rows = 0;
@@ -66,6 +78,8 @@ struct ScoreSummary {
   std::vector<PavBlock> pav_curve;           // the CORP reliability curve (PAV of label on forecast)
   std::vector<double> histogram;             // weight of forecasts in histogram_bins equal-width bins of [0, 1]
   std::uint64_t at_zero_or_one = 0;          // forecasts exactly 0 or 1
+  // Set by the caller for a column mapped by a map with an interval.
+  std::optional<IntervalWidth> interval_width;
 };
 
 // The key figures of one forecast column within one segment.

@@ -5,6 +5,7 @@
 #include <cstdio>
 #include <string>
 #include <thread>
+#include <vector>
 
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
@@ -27,6 +28,7 @@ constexpr const char* kUsageFooter =
     "Every input column is passed through byte for byte; the calibrated probability is appended as a new\n"
     "last column (with --replace, written in place of the score column, which keeps its name unless --as\n"
     "gives one), in the shortest digits that read back to the same double unless --digits says how many.\n"
+    "With --interval a Venn-Abers map's interval [p0, p1] follows the probability as two more columns.\n"
     "With -o the output appears only when the whole input has been read without error; a name ending in\n"
     ".gz is written as gzip.\n\n"
     "Examples:\n"
@@ -44,6 +46,7 @@ struct ApplyOptions {
   unsigned threads = 0;
   int digits = 0;  // 0: shortest round trip
   bool replace = false;
+  bool interval = false;
   bool quiet = false;
 };
 
@@ -61,6 +64,13 @@ std::string quoted_if_needed(const std::string& text, char delimiter) {
 int run_apply(const ApplyOptions& o) {
   const Artifact artifact = load_artifact(o.artifact);
   const CalibrationMap& map = *artifact.map;
+  if (o.interval && !map.has_interval()) {
+    Location loc;
+    loc.file = o.artifact;
+    throw Error(ErrorKind::usage, "--interval asks for an interval, and " + kind_with_article(map.kind()) +
+                                      " map has none",
+                loc, std::string(map.kind()), "a Venn-Abers map (venn_abers or cross_venn_abers), or no --interval");
+  }
 
   io::CsvOptions csv;
   csv.delimiter = parse_separator(o.separator);
@@ -78,14 +88,25 @@ int run_apply(const ApplyOptions& o) {
   // With --replace the column keeps its name unless --as renames it.
   const std::string new_name =
       !o.as.empty() ? o.as : o.replace ? reader.header()[score_col] : reader.header()[score_col] + "_calibrated";
-  for (std::size_t c = 0; c < reader.header().size(); ++c)
-    if (reader.header()[c] == new_name && !(o.replace && c == score_col)) {
-      Location loc;
-      loc.file = reader.name();
-      loc.line = 1;
-      throw Error(ErrorKind::usage, "the input already has a column named '" + new_name + "'", loc, {},
-                  "another name for the new column, given with --as");
-    }
+  std::vector<std::string> new_names{new_name};
+  if (o.interval) {
+    new_names.push_back(new_name + "_p0");
+    new_names.push_back(new_name + "_p1");
+  }
+  for (const std::string& name : new_names)
+    for (std::size_t c = 0; c < reader.header().size(); ++c)
+      if (reader.header()[c] == name && !(o.replace && c == score_col && name == new_name)) {
+        Location loc;
+        loc.file = reader.name();
+        loc.line = 1;
+        loc.column = c + 1;
+        loc.column_name = name;
+        throw Error(ErrorKind::usage, "the input already has a column named '" + name + "'", loc, {},
+                    "another name for the new column, given with --as");
+      }
+  std::string interval_header;
+  for (std::size_t n = 1; n < new_names.size(); ++n)
+    interval_header += std::string(1, reader.delimiter()) + quoted_if_needed(new_names[n], reader.delimiter());
   const char delim = reader.delimiter();
   const std::string line_end(reader.header_record().line_end);
 
@@ -95,11 +116,13 @@ int run_apply(const ApplyOptions& o) {
     const auto [at, length] = io::stored_field(header, score_col, delim);
     out.write(header.substr(0, at));
     out.write(o.as.empty() ? header.substr(at, length) : std::string_view(quoted_if_needed(new_name, delim)));
+    out.write(interval_header);
     out.write(header.substr(at + length));
   } else {
     out.write(header);
     out.put(delim);
     out.write(quoted_if_needed(new_name, delim));
+    out.write(interval_header);
   }
   out.write(line_end);
 
@@ -108,6 +131,7 @@ int run_apply(const ApplyOptions& o) {
   stream.missing = parse_missing(o.missing);
   stream.digits = o.digits;
   stream.replace = o.replace;
+  stream.interval = o.interval;
   stream.threads = o.threads == 0 ? std::max(1u, std::thread::hardware_concurrency()) : o.threads;
   stream.fitted_min = artifact.provenance.score_min;
   stream.fitted_max = artifact.provenance.score_max;
@@ -169,6 +193,9 @@ Command add_apply_command(CLI::App& app) {
   cmd->add_flag("--replace", o->replace,
                 "Write the probability in place of the score, in the score column's position, instead of appending "
                 "a column");
+  cmd->add_flag("--interval", o->interval,
+                "After the probability, two columns NAME_p0 and NAME_p1: the lower and upper ends of a Venn-Abers "
+                "map's interval (refused for maps without one)");
   cmd->add_option("--digits", o->digits,
                   "Significant digits of the probability, 1 to 17 (default: the shortest text that reads back to "
                   "the same double)")

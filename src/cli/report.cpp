@@ -3,6 +3,7 @@
 #include <unistd.h>
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
@@ -389,6 +390,7 @@ int run_report(const ReportCliOptions& o) {
     Tally t = load_report_tally(o, columns);
     std::vector<ForecastCellColumn> cell_columns;
     std::vector<std::string> extra_cautions;
+    std::vector<std::optional<IntervalWidth>> widths(artifacts.size());
     for (const std::string& s : o.scores) cell_columns.push_back({s, cells_of_tally(t, nullptr, nullptr)});
     for (std::size_t m = 0; m < artifacts.size(); ++m) {
       std::uint64_t outside = 0;
@@ -401,6 +403,16 @@ int run_report(const ReportCliOptions& o) {
         extra_cautions.push_back(name + ": " + grouped(outside) +
                                  " scores lie outside the range the map was fitted on and were held at its end values");
       cell_columns.push_back({name, std::move(cells)});
+      if (artifacts[m].map->has_interval()) {
+        // One width per tallied score, weighing its rows' weight.
+        std::vector<double> width(t.score.size()), weight(t.score.size());
+        for (std::size_t i = 0; i < t.score.size(); ++i) {
+          const std::array<double, 2> iv = artifacts[m].map->interval(t.score[i]);
+          width[i] = iv[1] - iv[0];
+          weight[i] = t.negative[i] + t.positive[i];
+        }
+        widths[m] = interval_width_summary(width, weight);
+      }
     }
     // The report reads the cells only: the per-score sums go before it runs.
     std::vector<double>().swap(t.score);
@@ -419,8 +431,10 @@ int run_report(const ReportCliOptions& o) {
     report.rows_skipped = t.rows_skipped;
     if (!t.unit_weights) report.weight_column = t.weight_column;
     report.cautions.insert(report.cautions.end(), extra_cautions.begin(), extra_cautions.end());
-    for (std::size_t m = 0; m < artifacts.size(); ++m)
+    for (std::size_t m = 0; m < artifacts.size(); ++m) {
       report.scores[o.scores.size() + m].map = map_origin(t.score_column, o.maps[m], artifacts[m]);
+      report.scores[o.scores.size() + m].overall.interval_width = widths[m];
+    }
     return emit_report(o, report, tally_sha256(o.tally), history);
   }
   // One unweighted score column without segments: its cells are counted on
@@ -447,6 +461,7 @@ int run_report(const ReportCliOptions& o) {
   }();
 
   std::vector<std::vector<double>> mapped;
+  std::vector<std::optional<IntervalWidth>> widths(artifacts.size());
   std::vector<ForecastColumn> forecasts;
   std::vector<std::string> extra_cautions;
   for (std::size_t k = 0; k < o.scores.size(); ++k) forecasts.push_back({rows.score_columns[k], rows.scores[k]});
@@ -475,6 +490,14 @@ int run_report(const ReportCliOptions& o) {
       p[i] = r.probability;
       outside += r.outside_fit_range ? 1 : 0;
     }
+    if (map.has_interval()) {
+      std::vector<double> width(p.size());
+      for (std::size_t i = 0; i < p.size(); ++i) {
+        const std::array<double, 2> iv = map.interval(rows.scores[k][i]);
+        width[i] = iv[1] - iv[0];
+      }
+      if (!width.empty()) widths[m] = interval_width_summary(width, rows.weight);
+    }
     const std::string name =
         rows.score_columns[k] + " via " + std::filesystem::path(o.maps[m]).filename().string();
     if (!artifacts[m].odds_steps.empty()) extra_cautions.push_back(odds_caution(name, artifacts[m]));
@@ -499,9 +522,11 @@ int run_report(const ReportCliOptions& o) {
   report.segment_column = rows.segment_column;
   if (o.tally.empty() && parse_missing(o.input.missing) == io::MissingPolicy::skip) report.rows_skipped = rows.skipped;
   report.cautions.insert(report.cautions.end(), extra_cautions.begin(), extra_cautions.end());
-  for (std::size_t m = 0; m < artifacts.size(); ++m)
+  for (std::size_t m = 0; m < artifacts.size(); ++m) {
     report.scores[o.scores.size() + m].map =
         map_origin(rows.score_columns[o.scores.size() + m], o.maps[m], artifacts[m]);
+    report.scores[o.scores.size() + m].overall.interval_width = widths[m];
+  }
   return emit_report(o, report, rows.source_sha256, history);
 }
 

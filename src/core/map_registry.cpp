@@ -20,6 +20,7 @@
 #include "plumb/maps/isotonic_map.hpp"
 #include "plumb/maps/platt_map.hpp"
 #include "plumb/maps/temperature_map.hpp"
+#include "plumb/maps/venn_abers_map.hpp"
 #include "plumb/tally.hpp"
 
 namespace plumb {
@@ -91,6 +92,19 @@ constexpr std::array centered_isotonic_options{MapOption{
     .record = [](const MapOptions& m) { return nlohmann::json(m.centered_strict ? "strict" : "weak"); },
 }};
 
+constexpr std::array cross_venn_abers_options{MapOption{
+    .name = "venn-folds",
+    .recorded = "venn_folds",
+    .value_word = "",
+    .help = "cross_venn_abers: number of folds the rows are dealt into, each one calibration set",
+    .choices = {},
+    .min = 2,
+    .max = 20,
+    .default_text = "5",
+    .set = [](MapOptions& m, std::string_view, int count) { m.venn_folds = count; },
+    .record = [](const MapOptions& m) { return nlohmann::json(m.venn_folds); },
+}};
+
 template <class M>
 constexpr MapKind with_functions(MapKind k) {
   k.accepts = &M::accepts;
@@ -155,6 +169,30 @@ constexpr std::array registry{
         .zero_or_one_advice = "use fewer --bins, or --map platt or beta",
         .options = histogram_options,
     }),
+    with_functions<VennAbersMap>({
+        .name = "venn_abers",
+        .help = "inductive Venn-Abers: isotonic fits with the score added as 0 and as 1; an interval [p0, p1]",
+        .complexity = 7,
+        .nonparametric = true,
+        .in_auto = false,
+        .zero_or_one_pieces = "knots",
+        .zero_or_one_advice = "--map platt or beta keeps every probability strictly between 0 and 1",
+    }),
+    [] {
+      MapKind k = with_functions<VennAbersMap>({
+          .name = "cross_venn_abers",
+          .help = "cross Venn-Abers: inductive Venn-Abers on each of --venn-folds folds, merged",
+          .complexity = 8,
+          .nonparametric = true,
+          .in_auto = false,
+          .zero_or_one_pieces = "knots",
+          .zero_or_one_advice = "--map platt or beta keeps every probability strictly between 0 and 1",
+          .options = cross_venn_abers_options,
+      });
+      k.fit = &VennAbersMap::fit_cross;
+      k.load = &VennAbersMap::from_parameters_cross;
+      return k;
+    }(),
     with_functions<FoldAverageMap>({
         .name = "fold_average",
         .fittable = false,

@@ -791,4 +791,30 @@ void finish_report(Report& r, const std::vector<Gate>& gates) {
   add_cautions(r);
 }
 
+IntervalWidth interval_width_summary(std::span<const double> width, std::span<const double> weight) {
+  IntervalWidth out;
+  std::vector<std::size_t> order(width.size());
+  std::iota(order.begin(), order.end(), std::size_t{0});
+  std::sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return width[a] < width[b]; });
+  auto w = [&](std::size_t i) { return weight.empty() ? 1.0 : weight[i]; };
+  double total = 0.0, sum = 0.0;
+  for (std::size_t i = 0; i < width.size(); ++i) {
+    total += w(i);
+    sum += w(i) * width[i];
+  }
+  out.mean = total > 0.0 ? sum / total : 0.0;
+  // The inverse of the weighted distribution function at q.
+  auto quantile = [&](double q) {
+    double seen = 0.0;
+    for (std::size_t i : order) {
+      seen += w(i);
+      if (w(i) > 0.0 && seen >= q * total) return width[i];
+    }
+    return order.empty() ? 0.0 : width[order.back()];
+  };
+  out.median = quantile(0.5);
+  out.p90 = quantile(0.9);
+  return out;
+}
+
 }  // namespace plumb

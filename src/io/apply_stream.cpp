@@ -112,7 +112,7 @@ class Mapper {
   // block's output (and moving `w`) when needed.
   static void reserve(Block& block, char*& w, std::size_t raw) {
     const std::size_t used = static_cast<std::size_t>(w - block.out.data());
-    const std::size_t need = used + raw + 64;
+    const std::size_t need = used + raw + 128;
     if (need <= block.out.size()) return;
     block.out.resize(std::max(need, block.out.size() + block.out.size() / 2));
     w = block.out.data() + used;
@@ -152,6 +152,13 @@ class Mapper {
       block.counts.clamped += m.outside_fit_range ? 1 : 0;
       block.counts.clipped += m.clipped ? 1 : 0;
       w = block.text.write(w, m.probability, o_.digits);
+      if (o_.interval) {
+        const std::array<double, 2> i = map_.interval(score);
+        *w++ = delimiter_;
+        w = block.text.write(w, i[0], o_.digits);
+        *w++ = delimiter_;
+        w = block.text.write(w, i[1], o_.digits);
+      }
       return Field::written;
     }
     if (o_.missing != MissingPolicy::refuse && is_missing_value(text)) {
@@ -160,6 +167,10 @@ class Mapper {
         return Field::skipped;
       }
       ++block.counts.missing;
+      if (o_.interval) {
+        *w++ = delimiter_;
+        *w++ = delimiter_;
+      }
       return Field::written;
     }
     block.failure.kind = Failure::Kind::score;

@@ -1,9 +1,11 @@
 #include "io/artifact_odds.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
 #include <memory>
 #include <string>
+#include <string_view>
 
 #include "core/json_fields.hpp"
 #include "plumb/error.hpp"
@@ -133,6 +135,19 @@ void add_odds_step(Artifact& a, OddsStep step) {
   a.map = std::make_unique<OddsAdjustedMap>(std::move(base), k);
 }
 
-int artifact_version(const Artifact& a) { return a.odds_steps.empty() ? 1 : 2; }
+int artifact_version(const Artifact& a) {
+  // The highest version among the features the artifact carries.
+  int version = 1;
+  if (!a.odds_steps.empty()) version = std::max(version, 2);
+  // A Venn-Abers kind, alone or as a part of a fold average: 3.
+  auto venn_abers = [](std::string_view kind) { return kind == "venn_abers" || kind == "cross_venn_abers"; };
+  bool has_venn_abers = a.map && venn_abers(a.map->kind());
+  if (a.map && a.map->kind() == "fold_average")
+    for (const json& part : a.map->parameters().value("maps", json::array()))
+      has_venn_abers = has_venn_abers || (part.contains("kind") && part["kind"].is_string() &&
+                                          venn_abers(part["kind"].get<std::string>()));
+  if (has_venn_abers) version = std::max(version, 3);
+  return version;
+}
 
 }  // namespace plumb

@@ -158,6 +158,10 @@ json report_to_json(const Report& r) {
     entry["name"] = sr.overall.name;
     entry["column"] = sr.map ? sr.map->column : sr.overall.name;
     entry["map"] = sr.map ? json{{"file", sr.map->file}, {"kind", sr.map->kind}} : json(nullptr);
+    if (sr.map && sr.overall.interval_width)
+      entry["map"][std::string(key(rn::interval_width))] = {{"mean", num(sr.overall.interval_width->mean)},
+                                                            {"median", num(sr.overall.interval_width->median)},
+                                                            {"p90", num(sr.overall.interval_width->p90)}};
     entry["segments"] = segments;
     scores.push_back(std::move(entry));
   }

@@ -137,6 +137,11 @@ void headline(std::string& out, const Report& report, const ScoreSummary& s) {
   add(label(rn::spiegelhalter_p), p_value_text(s.spiegelhalter.p_value));
   add(label(rn::auc), metric_text(s.auc), b ? &b->auc : nullptr);
   if (s.at_zero_or_one > 0) add(label(rn::at_zero_or_one), count_text(s.at_zero_or_one));
+  if (s.interval_width) {
+    add(label(rn::interval_width) + ", mean", metric_text(s.interval_width->mean));
+    add(label(rn::interval_width) + ", median", metric_text(s.interval_width->median));
+    add(label(rn::interval_width) + ", 90th percentile", metric_text(s.interval_width->p90));
+  }
   t.write(out);
 }
 

@@ -59,6 +59,8 @@ inline constexpr Name hosmer_lemeshow_p{"p", "Hosmer-Lemeshow p-value", "p_value
 inline constexpr Name spiegelhalter{"Spiegelhalter Z", "Spiegelhalter Z", "spiegelhalter", ""};
 inline constexpr Name spiegelhalter_p{"p", "Spiegelhalter p-value", "p_value", "spiegelhalter_p"};
 inline constexpr Name auc{"AUC", "AUC", "auc", "auc"};
+// A Venn-Abers map's interval [p0, p1]: its width over the rows.
+inline constexpr Name interval_width{"interval width", "interval width p1 - p0 (Venn-Abers)", "interval_width", ""};
 inline constexpr Name at_zero_or_one{"forecasts of 0 or 1", "forecasts exactly 0 or 1", "forecasts_at_0_or_1", ""};
 
 // Reliability tables, segments and charts.
@@ -84,7 +86,7 @@ inline constexpr const Name* all[] = {
     &observed_rate, &mean_forecast, &calibration_in_the_large, &brier, &brier_mcb, &brier_dsc,
     &brier_unc, &log_loss, &log_loss_terms, &ece, &mce, &l2_debiased, &l2_plugin, &calibration_slope,
     &calibration_intercept, &intercept_slope_free, &hosmer_lemeshow, &hosmer_lemeshow_p, &spiegelhalter,
-    &spiegelhalter_p, &auc, &at_zero_or_one,
+    &spiegelhalter_p, &auc, &at_zero_or_one, &interval_width,
     &rows, &weight, &effective_size, &positives, &gap, &holm_p, &pav_curve, &diagonal, &consistency_band,
     &equal_width, &equal_mass};
 

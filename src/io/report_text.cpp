@@ -107,6 +107,17 @@ std::vector<Headline> headline_rows(const Report& report) {
   bool extremes = false;
   for (const ScoreReport& s : scores) extremes = extremes || s.overall.at_zero_or_one > 0;
   if (extremes) add(label(rn::at_zero_or_one), [](const ScoreSummary& s) { return count_text(s.at_zero_or_one); });
+  bool intervals = false;
+  for (const ScoreReport& s : scores) intervals = intervals || s.overall.interval_width.has_value();
+  if (intervals) {
+    add(label(rn::interval_width) + ", mean", [](const ScoreSummary& s) {
+      return s.interval_width ? metric_text(s.interval_width->mean) : std::string("-");
+    });
+    add("  median | 90%", [](const ScoreSummary& s) {
+      return s.interval_width ? metric_text(s.interval_width->median) + " | " + metric_text(s.interval_width->p90)
+                              : std::string("-");
+    });
+  }
   return rows;
 }
 

@@ -339,7 +339,8 @@ plumb::Scale scale_named(const std::string& name) {
 
 Map fit(py::handle scores_in, py::handle labels_in, const std::string& kind, py::handle weights_in,
         const std::string& scale_name, const std::string& between_blocks, const std::string& platt_targets,
-        const std::string& beta_form, int bins, const std::string& increase, const std::string& score_column,
+        const std::string& beta_form, int bins, const std::string& increase, int venn_folds,
+        const std::string& score_column,
         const std::string& label_column,
         const std::optional<std::string>& weight_column, const std::string& source,
         const std::optional<std::string>& source_sha256, bool timestamp) {
@@ -361,6 +362,7 @@ Map fit(py::handle scores_in, py::handle labels_in, const std::string& kind, py:
     throw usage("unknown beta_form", beta_form, "full, midpoint or shared");
   if (bins < 1 || bins > 1000000) throw usage("bins out of range", std::to_string(bins), "1 to 1000000");
   if (increase != "weak" && increase != "strict") throw usage("unknown increase", increase, "weak or strict");
+  if (venn_folds < 2 || venn_folds > 20) throw usage("venn_folds out of range", std::to_string(venn_folds), "2 to 20");
 
   const std::vector<double> score = as_doubles(scores_in, "scores");
   const std::vector<double> label = as_doubles(labels_in, "labels");
@@ -383,6 +385,7 @@ Map fit(py::handle scores_in, py::handle labels_in, const std::string& kind, py:
   options.beta_form = beta_form;
   options.histogram_bins = bins;
   options.centered_strict = increase == "strict";
+  options.venn_folds = venn_folds;
 
   auto artifact = std::make_shared<plumb::Artifact>();
   {
@@ -568,9 +571,10 @@ PYBIND11_MODULE(plumb, m) {
   m.def("fit", &fit, py::arg("scores"), py::arg("labels"), py::arg("kind"), py::arg("weights") = py::none(),
         py::kw_only(), py::arg("scale") = "probability", py::arg("between_blocks") = "linear",
         py::arg("platt_targets") = "smoothed", py::arg("beta_form") = "full", py::arg("bins") = 10,
-        py::arg("increase") = "weak", py::arg("score_column") = "score", py::arg("label_column") = "label", py::arg("weight_column") = py::none(),
+        py::arg("increase") = "weak", py::arg("venn_folds") = 5, py::arg("score_column") = "score", py::arg("label_column") = "label", py::arg("weight_column") = py::none(),
         py::arg("source") = "<array>", py::arg("source_sha256") = py::none(), py::arg("timestamp") = true,
-        "Fit a map of `kind` (isotonic, centered_isotonic, platt, beta, temperature, histogram) on scores and 0/1 labels, with "
+        "Fit a map of `kind` (isotonic, centered_isotonic, platt, beta, temperature, histogram, venn_abers, "
+        "cross_venn_abers) on scores and 0/1 labels, with "
         "optional weights >= 0, as `plumb fit` does. The keywords after weights are fit's options and what the "
         "artifact records about the rows: given the file's name as source, the SHA-256 of its bytes, its column "
         "names and timestamp=False, save() writes the bytes of `plumb fit --no-timestamp`.");

@@ -8,7 +8,8 @@ import unittest
 
 from plumbtest import COMMANDS, PLUMB, SOURCE_DIR, help_options, run
 
-KINDS = ("isotonic", "centered_isotonic", "platt", "beta", "temperature", "histogram")
+KINDS = ("isotonic", "centered_isotonic", "platt", "beta", "temperature", "histogram", "venn_abers",
+         "cross_venn_abers")
 
 # What the argument library prints when left to itself: its section
 # headings, its type hints and its sentences. None may reach a user.

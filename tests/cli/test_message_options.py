@@ -62,6 +62,7 @@ REACH = {
     "src/core/folds.cpp": ("cross-fit",),
     "src/core/map_registry.cpp": ("fit", "cross-fit"),
     "src/core/maps/fold_average_map.cpp": ("fit", "cross-fit"),
+    "src/core/maps/venn_abers_map.cpp": ("fit", "cross-fit"),
 }
 
 # Older spellings still taken but hidden from help: the literal that declares

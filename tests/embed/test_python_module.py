@@ -317,6 +317,8 @@ class FitLikeCli(Shared):
         self.fit_both(HOLDOUT, "risk", "missed", "beta", ["--beta-form", "shared"], beta_form="shared")
         self.fit_both(HOLDOUT, "risk", "missed", "histogram", ["--bins", "25"], bins=25)
         self.fit_both(HOLDOUT, "risk", "missed", "centered_isotonic", ["--increase", "strict"], increase="strict")
+        self.fit_both(HOLDOUT, "risk", "missed", "venn_abers")
+        self.fit_both(HOLDOUT, "risk", "missed", "cross_venn_abers", ["--venn-folds", "3"], venn_folds=3)
         z = os.path.join(self.work, "holdout.z.csv")
         self.fit_both(z, "z", "missed", "temperature", ["--scale", "logit"], scale="logit")
         self.fit_both(z, "m", "missed", "platt", ["--scale", "margin"], scale="margin")

@@ -34,7 +34,8 @@ namespace {
 // not; Platt scaling (1999), isotonic regression (Zadrozny and Elkan 2002)
 // and equal-mass binning (Zadrozny and Elkan 2001) only need scores that
 // order the rows, as does centered isotonic regression (Oron and Flournoy
-// 2017, whose doses need only an order and a mean). A kind registered without a row here fails the test.
+// 2017, whose doses need only an order and a mean), as do the Venn-Abers
+// predictors (Vovk and Petej 2014), isotonic fits of any ordering score. A kind registered without a row here fails the test.
 struct Facts {
   bool probability, logit, margin;
   bool nonparametric;  // its shape follows the rows, not a formula
@@ -44,6 +45,7 @@ const std::map<std::string, Facts> facts{
     {"beta", {true, false, false, false}},   {"temperature", {true, true, false, false}},
     {"histogram", {true, true, true, true}}, {"fold_average", {true, true, true, false}},
     {"centered_isotonic", {true, true, true, true}},
+    {"venn_abers", {true, true, true, true}},        {"cross_venn_abers", {true, true, true, true}},
 };
 
 bool accepts_per_facts(const Facts& f, Scale s) {
@@ -195,8 +197,8 @@ TEST_CASE("map registry: an unknown kind is refused with every fittable kind lis
     CHECK(fit_list.find(std::string(k.name)) != std::string::npos);
     CHECK(load_list.find(std::string(k.name)) != std::string::npos);
   }
-  // Six kinds are fitted today (docs/methods.md); fold_average is only loaded.
-  CHECK(fittable == 6);
+  // Eight kinds are fitted today (docs/methods.md); fold_average is only loaded.
+  CHECK(fittable == 8);
   CHECK(plumb::map_kinds().size() == fittable);
 }
 
@@ -210,10 +212,13 @@ TEST_CASE("map registry: nonparametric kinds and the complexity order of the one
   }
   // By number of free parameters (temperature 1, platt 2, beta 3), then the
   // nonparametric kinds, binning before the finer isotonic fit, and the
-  // centered isotonic line last: as many free values as isotonic's blocks,
-  // and a newer method, so plain isotonic is kept within one standard error.
-  const std::vector<std::string> simplest_first{"temperature", "platt",    "beta",
-                                                "histogram",   "isotonic", "centered_isotonic"};
+  // centered isotonic line after it: as many free values as isotonic's
+  // blocks, and a newer method, so plain isotonic is kept within one standard
+  // error. The Venn-Abers kinds last: a value per distinct score, and the
+  // cross form K such fits.
+  const std::vector<std::string> simplest_first{"temperature", "platt",      "beta",
+                                                "histogram",   "isotonic",   "centered_isotonic",
+                                                "venn_abers",  "cross_venn_abers"};
   for (std::size_t i = 0; i + 1 < simplest_first.size(); ++i) {
     INFO(simplest_first[i] << " before " << simplest_first[i + 1]);
     CHECK(plumb::complexity(simplest_first[i]) < plumb::complexity(simplest_first[i + 1]));
@@ -230,6 +235,10 @@ TEST_CASE("map registry: the options each kind records in the artifact, from Map
   CHECK(plumb::recorded_options(*plumb::find_map_kind("histogram"), m) == nlohmann::json{{"bins", 10}});
   CHECK(plumb::recorded_options(*plumb::find_map_kind("temperature"), m) == nlohmann::json::object());
   CHECK(plumb::recorded_options(*plumb::find_map_kind("centered_isotonic"), m) == nlohmann::json{{"increase", "weak"}});
+  CHECK(plumb::recorded_options(*plumb::find_map_kind("venn_abers"), m) == nlohmann::json::object());
+  CHECK(plumb::recorded_options(*plumb::find_map_kind("cross_venn_abers"), m) == nlohmann::json{{"venn_folds", 5}});
+  m.venn_folds = 3;
+  CHECK(plumb::recorded_options(*plumb::find_map_kind("cross_venn_abers"), m) == nlohmann::json{{"venn_folds", 3}});
   m.isotonic_interpolate = false;
   m.centered_strict = true;
   m.platt_smoothed_targets = false;

@@ -52,7 +52,14 @@ void collect_keys(const nlohmann::json& j, std::set<std::string>& keys) {
 
 TEST_CASE("every JSON key of the concept table is a key of the report JSON", "[report_names]") {
   std::set<std::string> keys;
-  collect_keys(plumb::report_to_json(small_report()), keys);
+  plumb::Report r = small_report();
+  // A column mapped by a Venn-Abers map carries the interval width.
+  r.scores[0].map = plumb::MapOrigin{};
+  r.scores[0].map->column = "risk";
+  r.scores[0].map->file = "late.map.json";
+  r.scores[0].map->kind = "venn_abers";
+  r.scores[0].overall.interval_width = plumb::IntervalWidth{0.01, 0.008, 0.02};
+  collect_keys(plumb::report_to_json(r), keys);
   // The binnings are values of "binning" as well as keys of calibration_error.
   for (const plumb::report_names::Name* n : plumb::report_names::all) {
     if (n->json.empty()) continue;
@@ -78,6 +85,21 @@ TEST_CASE("every gate name of the concept table is a gate metric", "[report_name
     CHECK(named.count(std::string(m.name)) == 1);
   }
   CHECK(gated == plumb::gate_metrics().size());
+}
+
+TEST_CASE("the interval width of a Venn-Abers map: text and Markdown labels, and none without it", "[report_names]") {
+  plumb::Report r = small_report();
+  namespace rn = plumb::report_names;
+  CHECK(plumb::render_text(r, {true, false, 100}).find(std::string(rn::interval_width.text)) == std::string::npos);
+  r.scores[0].map = plumb::MapOrigin{};
+  r.scores[0].map->column = "risk";
+  r.scores[0].map->file = "late.map.json";
+  r.scores[0].map->kind = "venn_abers";
+  r.scores[0].overall.interval_width = plumb::IntervalWidth{0.01, 0.008, 0.02};
+  const std::string text = plumb::render_text(r, {true, false, 100}), md = plumb::render_markdown(r);
+  CHECK(text.find(std::string(rn::interval_width.text) + ", mean") != std::string::npos);
+  CHECK(text.find("0.0080 | 0.0200") != std::string::npos);
+  CHECK(md.find(std::string(rn::interval_width.markdown) + ", 90th percentile | 0.0200") != std::string::npos);
 }
 
 TEST_CASE("the text report shows the text labels, the Markdown report the Markdown labels", "[report_names]") {

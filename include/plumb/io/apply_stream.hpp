@@ -34,6 +34,10 @@ struct ApplyStreamOptions {
   // Write the probability in place of the score field (else append it as a
   // new last field).
   bool replace = false;
+  // After the probability, two more fields: the lower and upper ends of the
+  // map's interval (CalibrationMap::interval), in the same text rule; both
+  // empty where the probability is. The caller checks has_interval().
+  bool interval = false;
   unsigned threads = 1;           // worker threads; 1 parses on the calling thread
   std::size_t block_bytes = std::size_t{1} << 20;
   // The fitted score range, for counting scores outside it.
@@ -66,7 +70,8 @@ std::pair<std::size_t, std::size_t> stored_field(std::string_view record, std::s
 
 // Writes every data record of `reader` to `out` as: its raw bytes, the
 // delimiter, probability_text(map(score)) (or nothing for a missing score
-// under MissingPolicy::empty), its line end; with `replace`, the record's raw
+// under MissingPolicy::empty), with `interval` the delimiter and each end of
+// the interval, its line end; with `replace`, the record's raw
 // bytes with the score field's stored bytes replaced by that text. A record
 // with a missing score under MissingPolicy::skip is left out. Blank lines are
 // dropped, except in a one-column file, where they are records with an empty

@@ -88,7 +88,8 @@ void add_odds_step(Artifact& artifact, OddsStep step);
 // The format version the artifact is written with: 1 for a map as fitted
 // (which every plumb reads), 2 when it carries odds steps (which a plumb
 // that reads only version 1 refuses as "written by a newer plumb", rather
-// than applying the map without them).
+// than applying the map without them), 3 for a Venn-Abers kind
+// (venn_abers, cross_venn_abers); the highest of the features present.
 int artifact_version(const Artifact& artifact);
 
 // The whole document, including its integrity hash. Deterministic: the same
