@@ -27,6 +27,12 @@ PoissonTables::PoissonTables() {
       sum += term;
       cdf[n].push_back(sum);
     }
+    std::size_t k = 0;
+    for (std::size_t j = 0; j < guide_size; ++j) {
+      const double floor_u = static_cast<double>(j) / static_cast<double>(guide_size);
+      while (k < steps && !(cdf[n][k] > floor_u)) ++k;
+      guide[n][j] = static_cast<std::uint16_t>(k);
+    }
   }
 }
 
