@@ -43,8 +43,10 @@ struct CellPoisson {
     for (const std::uint64_t n : count)
       if (n > PoissonCount::inversion_limit) large.emplace_back(n);
   }
-  // Cell of `n` rows; `next` the index of the next large cell's law.
+  // Cell of `n` rows; `next` the index of the next large cell's law. A cell
+  // of no rows draws 0 without a uniform (as if it were not there).
   std::uint64_t draw(std::mt19937_64& gen, std::uint64_t n, std::size_t& next) const noexcept {
+    if (n == 0) return 0;
     if (n <= PoissonCount::inversion_limit) return detail::draw_poisson_small(gen, n, tables);
     return large[next++].draw(gen);
   }

@@ -283,3 +283,33 @@ TEST_CASE("Consistency band over cells of thousands of rows has the binomial spr
     CHECK(std::abs(band[b].hi - band[b].lo - normal_width) <= 0.15 * normal_width + 1.0 / 5000.0);
   }
 }
+
+TEST_CASE("Bootstrap of cells: a cell of no rows changes nothing", "[metrics][bootstrap]") {
+  // bootstrap_metrics_of_cells takes any counts; a cell of count 0 stands
+  // for no rows, so the intervals must be those without it (it draws no
+  // uniform). It used to search an empty table.
+  const std::vector<double> p = {0.1, 0.1, 0.3, 0.3, 0.5, 0.7, 0.7, 0.9};
+  const std::vector<double> y = {0, 1, 0, 1, 1, 0, 1, 1};
+  const std::vector<double> base(p.size(), 1.0);
+  const std::vector<std::uint64_t> count = {40, 5, 30, 12, 20, 9, 31, 70};
+  std::vector<double> p0 = p, y0 = y, base0 = base;
+  std::vector<std::uint64_t> count0 = count;
+  p0.insert(p0.begin() + 4, 0.5);
+  y0.insert(y0.begin() + 4, 0.0);
+  base0.insert(base0.begin() + 4, 1.0);
+  count0.insert(count0.begin() + 4, 0);
+  plumb::BootstrapOptions o;
+  o.replicates = 50;
+  o.seed = 31;
+  for (const plumb::BinningKind kind : {plumb::BinningKind::equal_width, plumb::BinningKind::equal_mass}) {
+    o.binning = kind;
+    const auto a = plumb::bootstrap_metrics_of_cells(p, y, base, count, o);
+    const auto b = plumb::bootstrap_metrics_of_cells(p0, y0, base0, count0, o);
+    CHECK(a.brier.lo == b.brier.lo);
+    CHECK(a.brier.hi == b.brier.hi);
+    CHECK(a.auc.lo == b.auc.lo);
+    CHECK(a.auc.hi == b.auc.hi);
+    CHECK(a.ece.hi == b.ece.hi);
+    CHECK(a.mcb_brier.hi == b.mcb_brier.hi);
+  }
+}
