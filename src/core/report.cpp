@@ -772,7 +772,8 @@ Report build_report_of_cells(std::span<const ForecastCellColumn> columns, const 
   for (const ForecastCellColumn& c : columns) {
     const LabelCells& lc = c.cells;
     const std::size_t n = lc.size();
-    if (lc.label.size() != n || lc.weight.size() != n || lc.rows.size() != n ||
+    if (lc.label.size() != n || (lc.weight.size() != n && !(lc.unit_weights && lc.weight.empty())) ||
+        lc.rows.size() != n ||
         (!lc.unit_weights && lc.weight_sq.size() != n))
       throw Error(ErrorKind::internal, "build_report_of_cells: cell columns differ in length");
     for (std::size_t k = 0; k < n; ++k)

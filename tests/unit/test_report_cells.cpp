@@ -259,6 +259,11 @@ TEST_CASE("Report on cells out of forecast order: the figures of their rows in t
       const plumb::ForecastCellColumn cell_column{"p", cells};
       const plumb::Report b = plumb::build_report_of_cells(std::span(&cell_column, 1), {}, o);
       check_same(a.scores[0].overall, b.scores[0].overall, 0.0);
+      // Unit weights need no weight column (report --tally leaves it empty).
+      plumb::ForecastCellColumn bare{"p", cells};
+      bare.cells.weight.clear();
+      const plumb::Report c = plumb::build_report_of_cells(std::span(&bare, 1), {}, o);
+      check_same(a.scores[0].overall, c.scores[0].overall, 0.0);
     }
   }
 }
