@@ -456,6 +456,32 @@ ScoreSummary summarise_cells(const ForecastCellColumn& column, const ReportOptio
                      [&](std::size_t a, std::size_t b) { return lc.forecast[a] < lc.forecast[b]; });
   }
   const auto at = [&](std::size_t k) { return sorted.empty() ? k : sorted[k]; };
+  // The calibration regression first, from the same per-forecast sums as
+  // the cells below (the same additions in the same order), so that its
+  // observations and its solver's buffers are gone before the cells exist.
+  {
+    RegressionObservations observations;
+    observations.logit.reserve(n);  // at most one observation per cell
+    observations.label.reserve(n);
+    observations.weight.reserve(n);
+    for (std::size_t k = 0; k < n;) {
+      const double f = lc.forecast[at(k)];
+      double w = 0.0, pos = 0.0, neg = 0.0;
+      std::uint64_t rows = 0;
+      for (; k < n && lc.forecast[at(k)] == f; ++k) {
+        const std::size_t c = at(k);
+        const double y = lc.label[c];
+        rows += lc.rows[c];
+        each_row(lc, c, [&](double wi) {
+          w += wi;
+          pos += wi * y;
+          neg += wi * (1.0 - y);
+        });
+      }
+      observations.add(f, rows, w, pos, neg);
+    }
+    s.regression = calibration_regression(observations);
+  }
   ForecastCells fc;
   for (std::size_t k = 0; k < n;) {
     const double f = lc.forecast[at(k)];
@@ -478,7 +504,6 @@ ScoreSummary summarise_cells(const ForecastCellColumn& column, const ReportOptio
     fc.rows.push_back(rows);
   }
   s.auc = auc_cells(fc.positives, fc.negatives);
-  s.regression = calibration_regression(fc);
   s.pav_curve = pav_fit_cells(fc.forecast, fc.positives, fc.weight);
 
   // CORP: each cell's recalibrated forecast, then the sums in row order.

@@ -259,6 +259,14 @@ TEST_CASE("Report on cells out of forecast order: the figures of their rows in t
       const plumb::ForecastCellColumn cell_column{"p", cells};
       const plumb::Report b = plumb::build_report_of_cells(std::span(&cell_column, 1), {}, o);
       check_same(a.scores[0].overall, b.scores[0].overall, 0.0);
+      // The regression, fitted before the cells' ForecastCells exist, is the
+      // fit on the rows' ForecastCells to the bit.
+      const plumb::CalibrationRegression direct =
+          plumb::calibration_regression(plumb::make_forecast_cells(rows.p, rows.y, {}));
+      CHECK(b.scores[0].overall.regression.slope == direct.slope);
+      CHECK(b.scores[0].overall.regression.intercept_free == direct.intercept_free);
+      CHECK(b.scores[0].overall.regression.intercept_at_unit_slope == direct.intercept_at_unit_slope);
+      CHECK(b.scores[0].overall.regression.clipped == direct.clipped);
       // Unit weights need no weight column (report --tally leaves it empty).
       plumb::ForecastCellColumn bare{"p", cells};
       bare.cells.weight.clear();
