@@ -52,10 +52,12 @@ struct BootstrapResult {
 // and no re-sort. Within a cell the sum of squared row weights (for the
 // debiased l2's effective sizes) is its expectation given the cell's total
 // t, t + t(t - 1)/n. With weights every row is a cell.
+// Poisson(n) is one draw per cell and replicate whatever n (count_draws.hpp:
+// inversion for n <= 64, Hörmann's PTRS above, both exact in law).
 // Determinism: replicate r draws from std::mt19937_64 seeded with
-// splitmix64(seed + (r + 1) * 0x9E3779B97F4A7C15) and turns each 64-bit draw
-// into a Poisson count by inversion of its distribution function, so the
-// intervals depend only on (rows, options), not on the thread count.
+// splitmix64(seed + (r + 1) * 0x9E3779B97F4A7C15) and visits the cells in
+// order, so the intervals depend only on (rows, options), not on the thread
+// count.
 // replicates == 0 gives Error(usage).
 BootstrapResult bootstrap_metrics(std::span<const double> forecast,
                                   std::span<const double> label,
@@ -93,7 +95,11 @@ BootstrapResult bootstrap_metrics_of_cells(std::span<const double> p, std::span<
 // percentile interval per bin. A calibrated forecaster's observed
 // frequencies fall inside the band with about `confidence` probability per
 // bin. Bins of zero weight get {NaN, NaN}. Replicate r uses the generator of
-// bootstrap_metrics with seed ^ 0xC2B2AE3D27D4EB4F, one uniform per row.
+// bootstrap_metrics with seed ^ 0xC2B2AE3D27D4EB4F. With weights each row
+// draws one uniform; without, the rows of one forecast are one cell whose
+// positives are one Binomial(rows, forecast) draw (count_draws.hpp:
+// inversion, or Hörmann's BTRS beyond 64 rows when the rarer outcome's mean
+// is 10 or more; exact in law).
 std::vector<Interval> consistency_band(std::span<const double> forecast,
                                        std::span<const double> weight,
                                        const Binning& binning,

@@ -2,7 +2,9 @@
 // Calibration-in-the-large and the logistic recalibration of Cox (1958):
 // regress the label on the forecast's log-odds.
 #include <cstddef>
+#include <cstdint>
 #include <span>
+#include <vector>
 
 #include "plumb/forecast_cells.hpp"
 
@@ -46,5 +48,20 @@ CalibrationRegression calibration_regression(std::span<const double> forecast,
 // cost O(cells) instead of O(rows). The maximiser is the same; the sums are
 // taken in another order, so the last bits can differ from the row form.
 CalibrationRegression calibration_regression(const ForecastCells& cells);
+
+// The weighted observations that fit is made of, gathered one distinct
+// forecast at a time (ascending), for callers that hold per-forecast sums
+// without a ForecastCells (report --tally builds them before its cells, so
+// the two are never held at once). add() takes what the cells' entries
+// hold: the forecast, its rows, weight, positive and negative weight;
+// calibration_regression(observations) then gives calibration_regression's
+// numbers for those cells, bit for bit.
+struct RegressionObservations {
+  std::vector<double> logit, label, weight;
+  double total = 0.0;
+  std::uint64_t clipped = 0;
+  void add(double forecast, std::uint64_t rows, double weight_sum, double positives, double negatives);
+};
+CalibrationRegression calibration_regression(const RegressionObservations& observations);
 
 }  // namespace plumb

@@ -30,10 +30,11 @@ struct ForecastCells {
 // Rows given as cells, in the order of the rows they stand for (report
 // --tally): cell c is rows[c] rows of forecast[c] and label[c] (0 or 1)
 // whose weights sum to weight[c] and their squares to weight_sq[c]. With
-// unit_weights every row weighs 1 (weight[c] == rows[c]) and a sum over the
-// rows is taken row by row, in the same order and with the same rounding as
-// over the rows themselves; otherwise a cell enters a sum once, with its
-// weight.
+// unit_weights every row weighs 1 (weight[c] == rows[c]; weight and
+// weight_sq may then be left empty, as report --tally leaves them: nothing
+// reads them) and a sum over the rows is taken row by row, in the same
+// order and with the same rounding as over the rows themselves; otherwise a
+// cell enters a sum once, with its weight.
 struct LabelCells {
   std::vector<double> forecast, label, weight, weight_sq;
   std::vector<std::uint64_t> rows;

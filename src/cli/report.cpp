@@ -144,7 +144,7 @@ LabelCells cells_of_tally(const Tally& t, const CalibrationMap* map, std::uint64
   for (std::size_t i = 0; i < t.score.size(); ++i) n += (t.negative[i] > 0.0 ? 1 : 0) + (t.positive[i] > 0.0 ? 1 : 0);
   cells.forecast.reserve(n);
   cells.label.reserve(n);
-  cells.weight.reserve(n);
+  if (!t.unit_weights) cells.weight.reserve(n);
   cells.rows.reserve(n);
   if (!t.unit_weights) cells.weight_sq.reserve(n);
   for (std::size_t i = 0; i < t.score.size(); ++i) {
@@ -160,11 +160,12 @@ LabelCells cells_of_tally(const Tally& t, const CalibrationMap* map, std::uint64
       if (!(weight[l] > 0.0)) continue;
       cells.forecast.push_back(f);
       cells.label.push_back(l);
-      cells.weight.push_back(weight[l]);
       if (t.unit_weights) {
-        // Every row's square is 1: the report reads weight_sq only of weighted cells.
+        // Every row weighs 1: the report reads weight and weight_sq only of
+        // weighted cells (forecast_cells.hpp), so they stay empty.
         cells.rows.push_back(static_cast<std::uint64_t>(weight[l]));
       } else {
+        cells.weight.push_back(weight[l]);
         cells.weight_sq.push_back(first ? t.weight_sq[i] : 0.0);
         cells.rows.push_back(first ? t.count[i] : 0);
       }

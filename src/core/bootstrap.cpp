@@ -12,6 +12,7 @@
 #include "core/metric_input.hpp"
 #include "plumb/auc.hpp"
 #include "plumb/calibration_error.hpp"
+#include "plumb/count_draws.hpp"
 #include "plumb/pav.hpp"
 
 namespace plumb {
@@ -31,138 +32,29 @@ std::mt19937_64 replicate_generator(std::uint64_t seed, std::size_t r) {
                                                0x9E3779B97F4A7C15ull));
 }
 
-// A uniform in [0, 1) from the top 53 bits of one draw.
-double uniform01(std::mt19937_64& gen) noexcept {
-  return static_cast<double>(gen() >> 11) * 0x1p-53;
-}
-
-// Poisson(n) for n up to 64 by inversion of its distribution function:
-// written out (rather than std::poisson_distribution) so that every standard
-// library gives the same counts for the same seed. The distribution
-// function's values are summed once, term by term in the order inversion
-// adds them (for n = 1 each term the last divided by k; beyond, the last
-// times n * (1/k), the reciprocals from a table: a division per step would
-// cost more than the rest of the step), so a draw is a search of a table:
-// the same counts as summing the terms at each draw.
-constexpr std::size_t poisson_steps = 512;  // beyond mean + 40 sd for every n <= 64
-struct PoissonTables {
-  // cdf[n][k] = P(X <= k) as inversion adds the terms up (k <= 40 for
-  // n = 1, k <= poisson_steps beyond).
-  std::array<std::vector<double>, 65> cdf;
-  PoissonTables() {
-    std::array<double, poisson_steps + 1> reciprocal{};
-    for (std::size_t k = 1; k <= poisson_steps; ++k) reciprocal[k] = 1.0 / static_cast<double>(k);
-    {
-      double term = std::exp(-1.0), sum = term;
-      cdf[1].push_back(sum);
-      for (unsigned k = 1; k <= 40; ++k) {
-        term /= k;
-        sum += term;
-        cdf[1].push_back(sum);
-      }
-    }
-    for (std::uint64_t n = 2; n <= 64; ++n) {
-      const double lambda = static_cast<double>(n);
-      double term = std::exp(-static_cast<double>(n)), sum = term;
-      cdf[n].push_back(sum);
-      for (std::size_t k = 1; k <= poisson_steps; ++k) {
-        term *= lambda * reciprocal[k];
-        sum += term;
-        cdf[n].push_back(sum);
-      }
-    }
+// The Poisson(count) laws of the bootstrap's cells: a count up to 64 draws
+// by inversion of a table shared by all, a larger one by PTRS with its own
+// constants, kept for those cells only, in cell order (a replicate visits
+// the cells in order, so the next large cell's law is the next in `large`).
+struct CellPoisson {
+  const detail::PoissonTables& tables = detail::poisson_tables();
+  std::vector<PoissonCount> large;
+  explicit CellPoisson(std::span<const std::uint64_t> count) {
+    for (const std::uint64_t n : count)
+      if (n > PoissonCount::inversion_limit) large.emplace_back(n);
   }
-};
-
-// The first k >= `from` with u < cdf[k], at most `last` (where inversion
-// stops), given u >= cdf[k] below `from`.
-inline std::uint64_t invert_from(const std::vector<double>& cdf, double u, std::size_t from,
-                                 std::size_t last) noexcept {
-  std::size_t k = from;
-  while (k < last && u >= cdf[k]) ++k;
-  return k;
-}
-
-const PoissonTables& poisson_tables() {
-  static const PoissonTables t;
-  return t;
-}
-
-// Poisson(1) from its table: the distribution function does not fall, so
-// the k with u >= cdf[k] are a prefix, and for the first eight they are
-// counted without branches (u lies beyond cdf[7] about once in 10^5 draws).
-inline std::uint64_t invert1(const std::vector<double>& cdf, double u) noexcept {
-  std::uint64_t k = 0;
-  for (std::size_t j = 0; j < 8; ++j) k += u >= cdf[j] ? 1 : 0;
-  if (k == 8) return invert_from(cdf, u, 8, 40);
-  return k;
-}
-
-// Poisson(n): the total count of n rows that each draw Poisson(1), which is
-// what the bootstrap needs for n tied rows of equal weight. By inversion for
-// n up to 64 (e^-64 is far from underflow; past mean + 40 sd the remaining
-// mass is below the spacing of u), else as the sum of n Poisson(1). `t` is
-// poisson_tables(), looked up once by the caller.
-inline std::uint64_t poisson_n(std::mt19937_64& gen, std::uint64_t n, const PoissonTables& t) noexcept {
-  if (n == 1) return invert1(t.cdf[1], uniform01(gen));
-  if (n > 64) {
-    std::uint64_t k = 0;
-    for (std::uint64_t i = 0; i < n; ++i) k += invert1(t.cdf[1], uniform01(gen));
-    return k;
-  }
-  return invert_from(t.cdf[n], uniform01(gen), 0, poisson_steps);
-}
-
-// Binomial(n, f): how many of n rows of forecast f draw a positive label,
-// by inversion for n up to 64 on the rarer outcome (so that the chance of no
-// such outcome, at least 2^-64, cannot underflow), else row by row. The
-// cell's fixed numbers, (1 - p)^n and p / (1 - p), are computed once.
-struct BinomialCell {
-  std::uint64_t n;
-  double f;
-  bool flip;
-  double start, ratio;
-  BinomialCell(std::uint64_t count, double forecast) : n(count), f(forecast), flip(forecast > 0.5) {
-    const double p = flip ? 1.0 - f : f;
-    start = std::pow(1.0 - p, static_cast<double>(n));
-    ratio = p / (1.0 - p);
-  }
-  std::uint64_t draw(std::mt19937_64& gen) const noexcept {
-    if (n == 1) return uniform01(gen) < f ? 1 : 0;
-    if (n > 64) {
-      std::uint64_t k = 0;
-      for (std::uint64_t i = 0; i < n; ++i) k += uniform01(gen) < f ? 1 : 0;
-      return k;
-    }
-    if (!(f > 0.0)) return 0;
-    if (!(f < 1.0)) return n;
-    const double u = uniform01(gen);
-    double term = start, cdf = term;
-    std::uint64_t k = 0;
-    const double* q = quotients()[n].data();  // (n - k) / (k + 1), divided once
-    while (u >= cdf && k < n) {
-      term *= q[k] * ratio;
-      ++k;
-      cdf += term;
-    }
-    return flip ? n - k : k;
-  }
-  // q[n][k] = (n - k) / (k + 1) for n <= 64, k < n: the same quotients the
-  // inversion's steps multiply by, divided once rather than at every step.
-  static const std::array<std::array<double, 64>, 65>& quotients() noexcept {
-    static const auto table = [] {
-      std::array<std::array<double, 64>, 65> q{};
-      for (std::uint64_t n = 0; n <= 64; ++n)
-        for (std::uint64_t k = 0; k < n; ++k) q[n][k] = static_cast<double>(n - k) / static_cast<double>(k + 1);
-      return q;
-    }();
-    return table;
+  // Cell of `n` rows; `next` the index of the next large cell's law. A cell
+  // of no rows draws 0 without a uniform (as if it were not there).
+  std::uint64_t draw(std::mt19937_64& gen, std::uint64_t n, std::size_t& next) const noexcept {
+    if (n == 0) return 0;
+    if (n <= PoissonCount::inversion_limit) return detail::draw_poisson_small(gen, n, tables);
+    return large[next++].draw(gen);
   }
 };
 
 // One cell of the consistency band: its label law and its bin.
 struct BandCell {
-  BinomialCell law;
+  BinomialCount law;
   std::uint32_t bin;
 };
 
@@ -338,7 +230,7 @@ BootstrapResult bootstrap_metrics_of_cells(std::span<const double> p, std::span<
       std::vector<double> w, score, wy, wsum;
       std::vector<BinSums> sums;
     };
-    const PoissonTables& poisson = poisson_tables();
+    const CellPoisson poisson(count);
     for_each_replicate<Buffers>(R, options.threads, [&](std::size_t r, Buffers& buf) {
       buf.w.resize(cells);
       buf.score.resize(groups);
@@ -348,10 +240,11 @@ BootstrapResult bootstrap_metrics_of_cells(std::span<const double> p, std::span<
       std::mt19937_64 gen = replicate_generator(options.seed, r);
       double total = 0.0, squared = 0.0;
       double negatives_below = 0.0, wins = 0.0, positives = 0.0;
+      std::size_t large = 0;
       for (std::size_t g = 0; g < groups; ++g) {
         double pos = 0.0, neg = 0.0, wsum = 0.0;
         for (std::size_t c = group[g]; c < group[g + 1]; ++c) {
-          const double t = static_cast<double>(poisson_n(gen, count[c], poisson));
+          const double t = static_cast<double>(poisson.draw(gen, count[c], large));
           const double wc = base[c] * t;
           // The sum of the rows' squared weights given the cell's total t:
           // each of the t draws falls on one of the cell's rows at random,
@@ -403,14 +296,15 @@ BootstrapResult bootstrap_metrics_of_cells(std::span<const double> p, std::span<
       area[r] = !(positives > 0.0) || !(negatives_below > 0.0) ? nan : wins / (positives * negatives_below);
     });
   } else {
-    const PoissonTables& poisson = poisson_tables();
+    const CellPoisson poisson(count);
     for_each_replicate(R, options.threads, [&](std::size_t r, std::vector<double>& scratch) {
       scratch.resize(2 * cells);
       const std::span<double> w(scratch.data(), cells), w_sq(scratch.data() + cells, cells);
       std::mt19937_64 gen = replicate_generator(options.seed, r);
       double total = 0.0, squared = 0.0;
+      std::size_t large = 0;
       for (std::size_t c = 0; c < cells; ++c) {
-        const double t = static_cast<double>(poisson_n(gen, count[c], poisson));
+        const double t = static_cast<double>(poisson.draw(gen, count[c], large));
         w[c] = base[c] * t;
         // As above: the expected sum of the rows' squared weights.
         w_sq[c] = base[c] * base[c] * (t + t * (t - 1.0) / static_cast<double>(count[c]));
@@ -474,7 +368,7 @@ std::vector<Interval> consistency_band(std::span<const double> forecast,
     cells.reserve(forecast_cells.size());
     for (std::size_t c = 0; c < forecast_cells.size(); ++c) {
       const std::size_t row = forecast_cells.order[forecast_cells.first[c]];
-      cells.push_back({BinomialCell(forecast_cells.rows[c], forecast_cells.forecast[c]), binning.bin_of_row[row]});
+      cells.push_back({BinomialCount(forecast_cells.rows[c], forecast_cells.forecast[c]), binning.bin_of_row[row]});
     }
   }
   return band_of_cells(cells, bin_weight, forecast, weight, binning, options);
@@ -522,7 +416,7 @@ std::vector<Interval> consistency_band_of_cells(std::span<const double> forecast
     throw Error(ErrorKind::internal, "consistency_band: cell columns differ in length");
   std::vector<BandCell> cells;
   cells.reserve(forecast.size());
-  for (std::size_t c = 0; c < forecast.size(); ++c) cells.push_back({BinomialCell(count[c], forecast[c]), bin[c]});
+  for (std::size_t c = 0; c < forecast.size(); ++c) cells.push_back({BinomialCount(count[c], forecast[c]), bin[c]});
   Binning none;
   none.bin_count = bin_weight.size();
   return band_of_cells(cells, std::vector<double>(bin_weight.begin(), bin_weight.end()), {}, {}, none, options);

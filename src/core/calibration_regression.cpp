@@ -105,30 +105,38 @@ CalibrationRegression calibration_regression(std::span<const double> forecast,
   return fit_regression(out, logit, label, weight, total);
 }
 
-CalibrationRegression calibration_regression(const ForecastCells& cells) {
-  CalibrationRegression out;
-  std::vector<double> logit, label, weight;
-  logit.reserve(2 * cells.size());
-  label.reserve(2 * cells.size());
-  weight.reserve(2 * cells.size());
-  double total = 0.0;
-  for (std::size_t c = 0; c < cells.size(); ++c) {
-    bool clipped = false;
-    const double l = clipped_logit(cells.forecast[c], &clipped);
-    if (clipped) out.clipped += cells.rows[c];
-    total += cells.weight[c];
-    if (cells.positives[c] > 0.0) {
-      logit.push_back(l);
-      label.push_back(1.0);
-      weight.push_back(cells.positives[c]);
-    }
-    if (cells.negatives[c] > 0.0) {
-      logit.push_back(l);
-      label.push_back(0.0);
-      weight.push_back(cells.negatives[c]);
-    }
+void RegressionObservations::add(double forecast, std::uint64_t rows, double weight_sum, double positives,
+                                 double negatives) {
+  bool is_clipped = false;
+  const double l = clipped_logit(forecast, &is_clipped);
+  if (is_clipped) clipped += rows;
+  total += weight_sum;
+  if (positives > 0.0) {
+    logit.push_back(l);
+    label.push_back(1.0);
+    weight.push_back(positives);
   }
-  return fit_regression(out, logit, label, weight, total);
+  if (negatives > 0.0) {
+    logit.push_back(l);
+    label.push_back(0.0);
+    weight.push_back(negatives);
+  }
+}
+
+CalibrationRegression calibration_regression(const RegressionObservations& observations) {
+  CalibrationRegression out;
+  out.clipped = observations.clipped;
+  return fit_regression(out, observations.logit, observations.label, observations.weight, observations.total);
+}
+
+CalibrationRegression calibration_regression(const ForecastCells& cells) {
+  RegressionObservations observations;
+  observations.logit.reserve(2 * cells.size());
+  observations.label.reserve(2 * cells.size());
+  observations.weight.reserve(2 * cells.size());
+  for (std::size_t c = 0; c < cells.size(); ++c)
+    observations.add(cells.forecast[c], cells.rows[c], cells.weight[c], cells.positives[c], cells.negatives[c]);
+  return calibration_regression(observations);
 }
 
 }  // namespace plumb

@@ -15,8 +15,10 @@ void check_lengths(std::span<const double> x, std::span<const double> y, std::sp
 
 // A block under construction keeps the weighted sum of y rather than its
 // mean, so that pooling is exact addition and the total is preserved.
+// `mean` is wy / w, divided once when the block is made: the comparisons
+// read it instead of dividing again (the same quotient, so the same fit).
 struct Pool {
-  double lo, hi, wy, w;
+  double lo, hi, wy, w, mean;
 };
 
 // The pooling stack: distinct scores are pushed in ascending order with
@@ -26,13 +28,14 @@ class Pooler {
   Pooler() { stack_.reserve(64); }
   void push(double score, double wy, double wsum) {
     if (!(wsum > 0.0)) return;
-    Pool cur{score, score, wy, wsum};
+    Pool cur{score, score, wy, wsum, wy / wsum};
     // Merge backwards while the previous block's mean exceeds this one's.
     // Means are compared as quotients: cross-multiplying (wy * w) overflows
     // or underflows for weights beyond about 1e150 or below 1e-150.
-    while (!stack_.empty() && stack_.back().wy / stack_.back().w > cur.wy / cur.w) {
+    while (!stack_.empty() && stack_.back().mean > cur.mean) {
       const Pool& prev = stack_.back();
-      cur = Pool{prev.lo, cur.hi, prev.wy + cur.wy, prev.w + cur.w};
+      const double pooled_wy = prev.wy + cur.wy, pooled_w = prev.w + cur.w;
+      cur = Pool{prev.lo, cur.hi, pooled_wy, pooled_w, pooled_wy / pooled_w};
       stack_.pop_back();
     }
     stack_.push_back(cur);
@@ -40,7 +43,7 @@ class Pooler {
   std::vector<PavBlock> blocks() const {
     std::vector<PavBlock> out;
     out.reserve(stack_.size());
-    for (const Pool& p : stack_) out.push_back(PavBlock{p.lo, p.hi, p.wy / p.w, p.w});
+    for (const Pool& p : stack_) out.push_back(PavBlock{p.lo, p.hi, p.mean, p.w});
     // Division can break monotonicity by one ulp between nearly equal means.
     for (std::size_t i = 1; i < out.size(); ++i) out[i].value = std::max(out[i].value, out[i - 1].value);
     return out;

@@ -365,9 +365,12 @@ std::vector<BinSums> cell_bin_sums(const LabelCells& cells, const std::vector<st
 
 // The equal-mass binning of make_binning over the rows of the cells:
 // bin_of_row holds one bin per cell. `sorted` lists the cells by forecast
-// (stably); `total` is the rows' weight summed in row order.
+// (stably), empty when they are in ascending forecast already; `total` is
+// the rows' weight summed in row order.
 Binning cell_mass_binning(const LabelCells& cells, const std::vector<std::size_t>& sorted, std::size_t bins,
                           double total) {
+  const std::size_t n = cells.size();
+  const auto at = [&](std::size_t k) { return sorted.empty() ? k : sorted[k]; };
   if (bins == 0) throw Error(ErrorKind::usage, "the number of bins must be positive", {}, "0", "1 or more");
   Binning out;
   out.kind = BinningKind::equal_mass;
@@ -377,17 +380,17 @@ Binning cell_mass_binning(const LabelCells& cells, const std::vector<std::size_t
   out.edge_hi.assign(bins, std::numeric_limits<double>::quiet_NaN());
   const double k = static_cast<double>(bins);
   double before = 0.0;
-  for (std::size_t s = 0; s < sorted.size();) {
+  for (std::size_t s = 0; s < n;) {
     std::size_t e = s;
     double group = 0.0;
-    while (e < sorted.size() && cells.forecast[sorted[e]] == cells.forecast[sorted[s]]) {
-      each_row(cells, sorted[e], [&](double w) { group += w; });
+    while (e < n && cells.forecast[at(e)] == cells.forecast[at(s)]) {
+      each_row(cells, at(e), [&](double w) { group += w; });
       ++e;
     }
     const double pos = total > 0.0 ? k * (before + 0.5 * group) / total : 0.0;
     const auto b = static_cast<std::uint32_t>(std::min(std::floor(pos), k - 1.0));
-    for (std::size_t t = s; t < e; ++t) out.bin_of_row[sorted[t]] = b;
-    const double p = cells.forecast[sorted[s]];
+    for (std::size_t t = s; t < e; ++t) out.bin_of_row[at(t)] = b;
+    const double p = cells.forecast[at(s)];
     if (std::isnan(out.edge_lo[b])) out.edge_lo[b] = p;
     out.edge_hi[b] = p;
     before += group;
@@ -439,46 +442,78 @@ ScoreSummary summarise_cells(const ForecastCellColumn& column, const ReportOptio
   s.calibration_in_the_large = s.mean_forecast - s.observed_rate;
   s.spiegelhalter = spiegelhalter_from_sums(spg_num, spg_var);
 
-  // The cells by forecast (stably), and one cell per distinct forecast.
-  std::vector<std::size_t> sorted(n);
-  std::iota(sorted.begin(), sorted.end(), std::size_t{0});
-  std::stable_sort(sorted.begin(), sorted.end(),
-                   [&](std::size_t a, std::size_t b) { return lc.forecast[a] < lc.forecast[b]; });
+  // The cells by forecast (stably), and one cell per distinct forecast. A
+  // tally's cells come in ascending forecast already (its scores are sorted
+  // and distinct): then the order is the identity and is not stored (`sorted`
+  // empty), which is what the stable sort would give. A forecast's group is
+  // counted as the sorted cells are walked, so no index per cell is kept.
+  // The ForecastCells' weight_sq is left empty: nothing below reads it.
+  std::vector<std::size_t> sorted;
+  if (!std::is_sorted(lc.forecast.begin(), lc.forecast.end())) {
+    sorted.resize(n);
+    std::iota(sorted.begin(), sorted.end(), std::size_t{0});
+    std::stable_sort(sorted.begin(), sorted.end(),
+                     [&](std::size_t a, std::size_t b) { return lc.forecast[a] < lc.forecast[b]; });
+  }
+  const auto at = [&](std::size_t k) { return sorted.empty() ? k : sorted[k]; };
+  // The calibration regression first, from the same per-forecast sums as
+  // the cells below (the same additions in the same order), so that its
+  // observations and its solver's buffers are gone before the cells exist.
+  {
+    RegressionObservations observations;
+    observations.logit.reserve(n);  // at most one observation per cell
+    observations.label.reserve(n);
+    observations.weight.reserve(n);
+    for (std::size_t k = 0; k < n;) {
+      const double f = lc.forecast[at(k)];
+      double w = 0.0, pos = 0.0, neg = 0.0;
+      std::uint64_t rows = 0;
+      for (; k < n && lc.forecast[at(k)] == f; ++k) {
+        const std::size_t c = at(k);
+        const double y = lc.label[c];
+        rows += lc.rows[c];
+        each_row(lc, c, [&](double wi) {
+          w += wi;
+          pos += wi * y;
+          neg += wi * (1.0 - y);
+        });
+      }
+      observations.add(f, rows, w, pos, neg);
+    }
+    s.regression = calibration_regression(observations);
+  }
   ForecastCells fc;
-  std::vector<std::size_t> group_of_sorted(n);
   for (std::size_t k = 0; k < n;) {
-    const double f = lc.forecast[sorted[k]];
-    double w = 0.0, pos = 0.0, neg = 0.0, sq = 0.0;
+    const double f = lc.forecast[at(k)];
+    double w = 0.0, pos = 0.0, neg = 0.0;
     std::uint64_t rows = 0;
-    for (; k < n && lc.forecast[sorted[k]] == f; ++k) {
-      const std::size_t c = sorted[k];
+    for (; k < n && lc.forecast[at(k)] == f; ++k) {
+      const std::size_t c = at(k);
       const double y = lc.label[c];
       rows += lc.rows[c];
       each_row(lc, c, [&](double wi) {
         w += wi;
         pos += wi * y;
         neg += wi * (1.0 - y);
-        if (lc.unit_weights) sq += wi * wi;
       });
-      if (!lc.unit_weights) sq += lc.weight_sq[c];
-      group_of_sorted[k] = fc.size();
     }
     fc.forecast.push_back(f);
     fc.weight.push_back(w);
     fc.positives.push_back(pos);
     fc.negatives.push_back(neg);
-    fc.weight_sq.push_back(sq);
     fc.rows.push_back(rows);
   }
   s.auc = auc_cells(fc.positives, fc.negatives);
-  s.regression = calibration_regression(fc);
   s.pav_curve = pav_fit_cells(fc.forecast, fc.positives, fc.weight);
 
   // CORP: each cell's recalibrated forecast, then the sums in row order.
   {
     const std::vector<double> value = pav_value_of_cells(s.pav_curve, fc.forecast);
     std::vector<double> recalibrated(n);
-    for (std::size_t k = 0; k < n; ++k) recalibrated[sorted[k]] = value[group_of_sorted[k]];
+    for (std::size_t k = 0, g = 0; k < n; ++k) {
+      if (k > 0 && lc.forecast[at(k)] != lc.forecast[at(k - 1)]) ++g;
+      recalibrated[at(k)] = value[g];
+    }
     const double rate = t.positives / t.weight;
     double bx = 0.0, bp = 0.0, bc = 0.0, lx = 0.0, lp = 0.0, lcl = 0.0;
     for (std::size_t c = 0; c < n; ++c) {
@@ -552,19 +587,19 @@ ScoreSummary summarise_cells(const ForecastCellColumn& column, const ReportOptio
     std::vector<double> p, y, base;
     std::vector<std::uint64_t> count;
     std::vector<std::uint32_t> band_bin;
-    for (std::size_t k = 0; k < n;) {
+    for (std::size_t k = 0, g = 0; k < n; ++g) {
       const std::size_t first = k;
       std::uint64_t tally[2] = {0, 0};
-      for (; k < n && lc.forecast[sorted[k]] == lc.forecast[sorted[first]]; ++k)
-        tally[lc.label[sorted[k]] > 0.5 ? 1 : 0] += lc.rows[sorted[k]];
+      for (; k < n && lc.forecast[at(k)] == lc.forecast[at(first)]; ++k)
+        tally[lc.label[at(k)] > 0.5 ? 1 : 0] += lc.rows[at(k)];
       for (int l = 0; l < 2; ++l) {
         if (tally[l] == 0) continue;
-        p.push_back(fc.forecast[group_of_sorted[first]]);
+        p.push_back(fc.forecast[g]);
         y.push_back(l);
         base.push_back(1.0);
         count.push_back(tally[l]);
       }
-      band_bin.push_back(binning.bin_of_row[sorted[first]]);
+      band_bin.push_back(binning.bin_of_row[at(first)]);
     }
     s.bootstrap = bootstrap_metrics_of_cells(p, y, base, count, b);
     b.binning = o.binning;
@@ -762,7 +797,8 @@ Report build_report_of_cells(std::span<const ForecastCellColumn> columns, const 
   for (const ForecastCellColumn& c : columns) {
     const LabelCells& lc = c.cells;
     const std::size_t n = lc.size();
-    if (lc.label.size() != n || lc.weight.size() != n || lc.rows.size() != n ||
+    if (lc.label.size() != n || (lc.weight.size() != n && !(lc.unit_weights && lc.weight.empty())) ||
+        lc.rows.size() != n ||
         (!lc.unit_weights && lc.weight_sq.size() != n))
       throw Error(ErrorKind::internal, "build_report_of_cells: cell columns differ in length");
     for (std::size_t k = 0; k < n; ++k)

@@ -192,3 +192,124 @@ TEST_CASE("Consistency band of tied unweighted rows by cells agrees with the ban
     CHECK(std::abs(cells[b].hi - rows[b].hi) <= slack);
   }
 }
+
+TEST_CASE("Bootstrap over cells of thousands of rows covers the population's Brier score and AUC",
+          "[metrics][bootstrap]") {
+  // 30 forecast levels (j + 1/2) / 30 with 3000 rows each, labels drawn as
+  // Bernoulli(forecast): a calibrated forecaster whose population figures
+  // are known exactly. Every cell (a level's negatives or positives) holds
+  // hundreds to thousands of rows, so each replicate draws its weights by
+  // PTRS (count_draws.hpp), not by inversion.
+  //   Brier: E[(p - Y)^2] = E[p (1 - p)] for Y ~ Bernoulli(p).
+  //   AUC: P(p of a positive > p of a negative) + P(tie) / 2, the positives
+  //   at level j weighing p_j, the negatives 1 - p_j (Hanley and McNeil
+  //   1982's definition of the area).
+  // The 99% percentile interval must cover both, and its width must be that
+  // of the normal interval of a mean, 2 z sd / sqrt(n) with z = 2.5758 (the
+  // standard normal's 0.995 quantile) and sd the sample standard deviation
+  // of (p - y)^2, within 15% (Monte Carlo error of 1000 replicates' tails:
+  // a few percent).
+  constexpr int levels = 30, per_level = 3000;
+  std::mt19937_64 gen(2024);
+  std::uniform_real_distribution<double> u(0.0, 1.0);
+  std::vector<double> p, y;
+  double population_brier = 0.0, positive_mass = 0.0, negative_mass = 0.0;
+  for (int j = 0; j < levels; ++j) {
+    const double f = (j + 0.5) / levels;
+    population_brier += f * (1.0 - f) / levels;
+    positive_mass += f;
+    negative_mass += 1.0 - f;
+    for (int k = 0; k < per_level; ++k) {
+      p.push_back(f);
+      y.push_back(u(gen) < f ? 1.0 : 0.0);
+    }
+  }
+  double population_auc = 0.0;
+  for (int i = 0; i < levels; ++i)
+    for (int j = 0; j < levels; ++j) {
+      const double fi = (i + 0.5) / levels, fj = (j + 0.5) / levels;
+      population_auc += fi * (1.0 - fj) * (i > j ? 1.0 : i == j ? 0.5 : 0.0);
+    }
+  population_auc /= positive_mass * negative_mass;
+
+  plumb::BootstrapOptions o;
+  o.replicates = 1000;
+  o.seed = 17;
+  o.confidence = 0.99;
+  const auto boot = plumb::bootstrap_metrics(p, y, {}, o);
+  INFO("Brier " << population_brier << " in [" << boot.brier.lo << ", " << boot.brier.hi << "]; AUC "
+                << population_auc << " in [" << boot.auc.lo << ", " << boot.auc.hi << "]");
+  CHECK(boot.brier.lo <= population_brier);
+  CHECK(population_brier <= boot.brier.hi);
+  CHECK(boot.auc.lo <= population_auc);
+  CHECK(population_auc <= boot.auc.hi);
+
+  const double n = static_cast<double>(p.size());
+  double mean = 0.0, sq = 0.0;
+  for (std::size_t i = 0; i < p.size(); ++i) mean += (p[i] - y[i]) * (p[i] - y[i]) / n;
+  for (std::size_t i = 0; i < p.size(); ++i) {
+    const double d = (p[i] - y[i]) * (p[i] - y[i]) - mean;
+    sq += d * d;
+  }
+  const double normal_width = 2.0 * 2.5758 * std::sqrt(sq / (n - 1.0)) / std::sqrt(n);
+  INFO("width " << boot.brier.hi - boot.brier.lo << " against the normal interval's " << normal_width);
+  CHECK(std::abs((boot.brier.hi - boot.brier.lo) / normal_width - 1.0) < 0.15);
+}
+
+TEST_CASE("Consistency band over cells of thousands of rows has the binomial spread of each bin",
+          "[metrics][bootstrap]") {
+  // 10 forecast levels, one per equal-width bin, with 5000 rows each: a
+  // bin's observed frequency under calibration is Binomial(5000, f) / 5000,
+  // drawn by BTRS (count_draws.hpp). Its 95% band must hold the mean f and
+  // be about 2 z sqrt(f (1 - f) / 5000) wide (the normal approximation to
+  // the binomial, z = 1.96), within 15% and one step of 1/5000 for the
+  // discreteness of the quantiles.
+  std::vector<double> p;
+  const double levels[] = {0.03, 0.12, 0.25, 0.31, 0.47, 0.5, 0.66, 0.74, 0.88, 0.97};
+  for (const double f : levels)
+    for (int k = 0; k < 5000; ++k) p.push_back(f);
+  const auto bins = plumb::make_binning(p, {}, plumb::BinningKind::equal_width, 10);
+  plumb::BootstrapOptions o;
+  o.replicates = 2000;
+  o.seed = 23;
+  const auto band = plumb::consistency_band(p, {}, bins, o);
+  REQUIRE(band.size() == 10);
+  for (std::size_t b = 0; b < 10; ++b) {
+    const double f = levels[b];
+    const double normal_width = 2.0 * 1.96 * std::sqrt(f * (1.0 - f) / 5000.0);
+    INFO("bin " << b << ": [" << band[b].lo << ", " << band[b].hi << "], normal width " << normal_width);
+    CHECK(band[b].lo < f);
+    CHECK(f < band[b].hi);
+    CHECK(std::abs(band[b].hi - band[b].lo - normal_width) <= 0.15 * normal_width + 1.0 / 5000.0);
+  }
+}
+
+TEST_CASE("Bootstrap of cells: a cell of no rows changes nothing", "[metrics][bootstrap]") {
+  // bootstrap_metrics_of_cells takes any counts; a cell of count 0 stands
+  // for no rows, so the intervals must be those without it (it draws no
+  // uniform). It used to search an empty table.
+  const std::vector<double> p = {0.1, 0.1, 0.3, 0.3, 0.5, 0.7, 0.7, 0.9};
+  const std::vector<double> y = {0, 1, 0, 1, 1, 0, 1, 1};
+  const std::vector<double> base(p.size(), 1.0);
+  const std::vector<std::uint64_t> count = {40, 5, 30, 12, 20, 9, 31, 70};
+  std::vector<double> p0 = p, y0 = y, base0 = base;
+  std::vector<std::uint64_t> count0 = count;
+  p0.insert(p0.begin() + 4, 0.5);
+  y0.insert(y0.begin() + 4, 0.0);
+  base0.insert(base0.begin() + 4, 1.0);
+  count0.insert(count0.begin() + 4, 0);
+  plumb::BootstrapOptions o;
+  o.replicates = 50;
+  o.seed = 31;
+  for (const plumb::BinningKind kind : {plumb::BinningKind::equal_width, plumb::BinningKind::equal_mass}) {
+    o.binning = kind;
+    const auto a = plumb::bootstrap_metrics_of_cells(p, y, base, count, o);
+    const auto b = plumb::bootstrap_metrics_of_cells(p0, y0, base0, count0, o);
+    CHECK(a.brier.lo == b.brier.lo);
+    CHECK(a.brier.hi == b.brier.hi);
+    CHECK(a.auc.lo == b.auc.lo);
+    CHECK(a.auc.hi == b.auc.hi);
+    CHECK(a.ece.hi == b.ece.hi);
+    CHECK(a.mcb_brier.hi == b.mcb_brier.hi);
+  }
+}

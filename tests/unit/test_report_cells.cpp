@@ -221,6 +221,61 @@ TEST_CASE("Report on cells of unit-weight rows: the figures of the rows, bit for
   }
 }
 
+TEST_CASE("Report on cells out of forecast order: the figures of their rows in that order, bit for bit",
+          "[report][cells]") {
+  // A tally's cells come in ascending forecast and the report then keeps no
+  // sorted order of its own; cells in another order (here descending) are
+  // sorted as before. Either way the figures are those of the rows.
+  for (const bool descending : {false, true}) {
+    plumb::LabelCells cells;
+    Rows rows;
+    std::mt19937_64 gen(19);
+    std::uniform_int_distribution<int> count(0, 30);
+    const std::size_t levels = 41;
+    for (std::size_t j = 0; j < levels; ++j) {
+      const std::size_t k = descending ? levels - 1 - j : j;
+      const double p = static_cast<double>(k) / static_cast<double>(levels - 1);
+      for (int l = 0; l < 2; ++l) {
+        const int n = count(gen) + (k % 4 == 0 ? 0 : 1);
+        if (n == 0) continue;
+        cells.forecast.push_back(p);
+        cells.label.push_back(l);
+        cells.weight.push_back(n);
+        cells.rows.push_back(static_cast<std::uint64_t>(n));
+        rows.p.insert(rows.p.end(), static_cast<std::size_t>(n), p);
+        rows.y.insert(rows.y.end(), static_cast<std::size_t>(n), static_cast<double>(l));
+      }
+    }
+    for (plumb::BinningKind kind : {plumb::BinningKind::equal_width, plumb::BinningKind::equal_mass}) {
+      INFO((descending ? "descending" : "ascending") << ", binning " << static_cast<int>(kind));
+      plumb::ReportOptions o;
+      o.bootstrap = 20;
+      o.threads = 1;
+      o.binning = kind;
+      o.bins = 6;
+      o.hl_groups = 7;
+      const plumb::ForecastColumn column{"p", rows.p};
+      const plumb::Report a = plumb::build_report(std::span(&column, 1), rows.y, {}, {}, {}, {}, o);
+      const plumb::ForecastCellColumn cell_column{"p", cells};
+      const plumb::Report b = plumb::build_report_of_cells(std::span(&cell_column, 1), {}, o);
+      check_same(a.scores[0].overall, b.scores[0].overall, 0.0);
+      // The regression, fitted before the cells' ForecastCells exist, is the
+      // fit on the rows' ForecastCells to the bit.
+      const plumb::CalibrationRegression direct =
+          plumb::calibration_regression(plumb::make_forecast_cells(rows.p, rows.y, {}));
+      CHECK(b.scores[0].overall.regression.slope == direct.slope);
+      CHECK(b.scores[0].overall.regression.intercept_free == direct.intercept_free);
+      CHECK(b.scores[0].overall.regression.intercept_at_unit_slope == direct.intercept_at_unit_slope);
+      CHECK(b.scores[0].overall.regression.clipped == direct.clipped);
+      // Unit weights need no weight column (report --tally leaves it empty).
+      plumb::ForecastCellColumn bare{"p", cells};
+      bare.cells.weight.clear();
+      const plumb::Report c = plumb::build_report_of_cells(std::span(&bare, 1), {}, o);
+      check_same(a.scores[0].overall, c.scores[0].overall, 0.0);
+    }
+  }
+}
+
 TEST_CASE("Report on weighted cells: each cell one row of its weight gives the rows' figures", "[report][cells]") {
   // With one row per cell the cell's weight is the row's and weight_sq its
   // square, so every sum is the rows' sum up to rounding.
