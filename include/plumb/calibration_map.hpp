@@ -38,6 +38,11 @@ struct MapOptions {
   // centered_isotonic: add the minimal slope so that distinct scores get
   // distinct probabilities (the strict form), or not (weak).
   bool centered_strict = false;
+  // Not a user's choice, and never recorded: false leaves out the
+  // diagnostics that pass over the fit rows once more after the fit (the
+  // log loss, then NaN, and the clipped rows, then 0). cross_fit's fold
+  // maps, whose diagnostics nothing shows, are fitted so.
+  bool row_diagnostics = true;
 };
 
 // What the fit did, for the artifact and for `inspect`.

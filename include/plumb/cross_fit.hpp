@@ -43,7 +43,10 @@ struct Candidate {
   // (this minus best): weighted mean and its standard error. 0 for the best.
   double diff_vs_best = 0.0;
   double diff_se = 0.0;
-  std::vector<std::unique_ptr<CalibrationMap>> fold_maps;  // one per fold (time: fold 0 has none)
+  // One per fold (time: fold 0 has none), fitted with
+  // MapOptions::row_diagnostics false: their diagnostics hold the fit's
+  // iterations, convergence and notes, a log loss of NaN and no clipped rows.
+  std::vector<std::unique_ptr<CalibrationMap>> fold_maps;
 };
 
 struct CrossFitResult {

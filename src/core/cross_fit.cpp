@@ -175,6 +175,10 @@ void fit_folds(CrossFitResult& r, const Folds& folds, std::span<const std::strin
   std::vector<std::size_t> todo;
   for (std::size_t j = 0; j < folds.count; ++j)
     if (tested[j] > 0) todo.push_back(j);  // time split: the first block is never scored
+  // The fold maps' diagnostics are never shown: no pass over the entries
+  // after each fit for their log loss and clipped rows.
+  MapOptions fold_options = options;
+  fold_options.row_diagnostics = false;
   std::vector<std::exception_ptr> failure(kinds.size() * folds.count);
   std::atomic<std::size_t> next{0};
   std::exception_ptr also_failed;
@@ -201,7 +205,7 @@ void fit_folds(CrossFitResult& r, const Folds& folds, std::span<const std::strin
       for (std::size_t c = 0; c < kinds.size(); ++c) {
         Candidate& cand = r.candidates[c];
         try {
-          cand.fold_maps[j] = fit_map_on_tally(cand.kind, sums, options);
+          cand.fold_maps[j] = fit_map_on_tally(cand.kind, sums, fold_options);
         } catch (const Error& e) {
           failure[c * folds.count + j] =
               e.kind() != ErrorKind::fit
@@ -578,7 +582,11 @@ std::vector<double> cell_pav(std::span<const double> f, const Cells& c, const Fo
   score.reserve(m);
   positive.reserve(m);
   weight.reserve(m);
+  // The merged order, kept for the second visit (the values of the pools).
+  std::vector<std::uint32_t> order;
+  order.reserve(first[folds.count]);
   merged([&](std::uint32_t e) {
+    order.push_back(e);
     if (score.empty() || f[e] != score.back()) {
       score.push_back(f[e]);
       positive.push_back(0.0);
@@ -592,10 +600,10 @@ std::vector<double> cell_pav(std::span<const double> f, const Cells& c, const Fo
   std::vector<double>().swap(weight);
   std::vector<double> r(m, 0.0);
   std::size_t b = 0;
-  merged([&](std::uint32_t e) {
+  for (const std::uint32_t e : order) {
     while (b + 1 < blocks.size() && !(f[e] < blocks[b + 1].score_lo)) ++b;
     r[e] = blocks[b].value;
-  });
+  }
   return r;
 }
 
