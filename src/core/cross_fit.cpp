@@ -614,6 +614,8 @@ std::vector<double> cell_pav(std::span<const double> f, const Cells& c, const Fo
     positive.back() += static_cast<double>(c.positives[e]);
     weight.back() += static_cast<double>(c.rows[e]);
   });
+  // The folds' runs are read no more: their memory goes before the values'.
+  std::vector<std::uint32_t>().swap(by_fold);
   const std::vector<PavBlock> blocks = pav_fit_cells(score, positive, weight);
   std::vector<double>().swap(positive);
   std::vector<double>().swap(weight);
