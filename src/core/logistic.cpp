@@ -79,6 +79,12 @@ class Problem {
   // (1-t) softplus(eta) + t softplus(-eta) equals softplus(eta) - t eta but
   // stays accurate and non-negative when |eta| is large.
   double loss(const Eigen::VectorXd& beta) const {
+    switch (dim()) {
+      case 1: return loss_fixed<1>(beta);
+      case 2: return loss_fixed<2>(beta);
+      case 3: return loss_fixed<3>(beta);
+      default: break;
+    }
     double total = 0.0;
     Terms terms;
     cache_.resize(3 * n_);
@@ -86,6 +92,30 @@ class Problem {
       const double w = weight(i);
       if (!(w > 0.0)) continue;
       terms.at(eta(beta, i));
+      cache_[3 * i] = terms.e();
+      cache_[3 * i + 1] = terms.a();
+      cache_[3 * i + 2] = terms.l();
+      total += w * entry_loss(terms, t_[i]);
+    }
+    return total;
+  }
+
+  // loss() for D coefficients, a constant so that the loops over them
+  // unroll: the same predictor as eta() (0 plus each beta_j x_j in turn),
+  // so the same values.
+  template <std::size_t D>
+  double loss_fixed(const Eigen::VectorXd& beta) const {
+    double b[D];
+    for (std::size_t j = 0; j < D; ++j) b[j] = beta[static_cast<Eigen::Index>(j)];
+    double total = 0.0;
+    Terms terms;
+    cache_.resize(3 * n_);
+    for (std::size_t i = 0; i < n_; ++i) {
+      const double w = weight(i);
+      if (!(w > 0.0)) continue;
+      double e = 0.0;
+      for (std::size_t j = 0; j < D; ++j) e += b[j] * feature(j, i);
+      terms.at(e);
       cache_[3 * i] = terms.e();
       cache_[3 * i + 1] = terms.a();
       cache_[3 * i + 2] = terms.l();
