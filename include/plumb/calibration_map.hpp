@@ -41,6 +41,11 @@ struct MapOptions {
   bool centered_strict = false;
   // cross_venn_abers: the number of folds the rows are dealt into.
   int venn_folds = 5;
+  // Not a user's choice, and never recorded: false leaves out the
+  // diagnostics that pass over the fit rows once more after the fit (the
+  // log loss, then NaN, and the clipped rows, then 0). cross_fit's fold
+  // maps, whose diagnostics nothing shows, are fitted so.
+  bool row_diagnostics = true;
 };
 
 // What the fit did, for the artifact and for `inspect`.

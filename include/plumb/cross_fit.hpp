@@ -43,7 +43,10 @@ struct Candidate {
   // (this minus best): weighted mean and its standard error. 0 for the best.
   double diff_vs_best = 0.0;
   double diff_se = 0.0;
-  std::vector<std::unique_ptr<CalibrationMap>> fold_maps;  // one per fold (time: fold 0 has none)
+  // One per fold (time: fold 0 has none), fitted with
+  // MapOptions::row_diagnostics false: their diagnostics hold the fit's
+  // iterations, convergence and notes, a log loss of NaN and no clipped rows.
+  std::vector<std::unique_ptr<CalibrationMap>> fold_maps;
 };
 
 struct CrossFitResult {
@@ -91,7 +94,17 @@ int complexity(std::string_view kind) noexcept;
 // cross_fit will read data's spans no more (on the cell path, once the cells
 // are made; on the per-row path, once the rows are copied in score order),
 // so that a caller may give their memory back while the maps are fitted.
+// `negative_rate` in (0, 1]: the rows kept each negative at this rate (a
+// downsampled data set; 1: all kept, the default). The fold maps are fitted
+// on the rows as they are; every candidate's out-of-fold probability
+// (Candidate::oof) has its odds multiplied by the rate (multiply_odds), and
+// every figure and paired difference weighs each negative row (label 0.5 or
+// less) by its weight divided by the rate, so the evidence is that of the
+// population the rows were drawn from (the raw score's figures weigh the
+// rows so too, its probabilities as given). Such a rate takes the per-row
+// path. Throws plumb::Error(usage) for a rate outside (0, 1].
 CrossFitResult cross_fit(const FitData& data, Folds folds, std::span<const std::string> kinds,
-                         const MapOptions& options, const std::function<void()>& rows_read = {});
+                         const MapOptions& options, const std::function<void()>& rows_read = {},
+                         double negative_rate = 1.0);
 
 }  // namespace plumb

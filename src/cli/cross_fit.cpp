@@ -45,6 +45,12 @@ std::string usage_footer() {
          "out-of-fold log loss does not weigh). The choice is the simplest map\n"
          "(" + kinds_by_complexity() + ") whose out-of-fold log loss is within one standard\n"
          "error of the best (a paired per-row comparison). The evidence table goes to stderr; --json writes it.\n\n"
+         "Downsampled negatives: when the rows kept only a fraction RATE of the negative rows, --negative-rate RATE\n"
+         "fits every map on the rows as they are, then judges them on the population the rows were drawn from:\n"
+         "each out-of-fold probability (the evidence and the --oof columns) has its odds multiplied by RATE, and\n"
+         "each negative row counts 1/RATE times in every figure, the paired comparison and so the choice (the raw\n"
+         "score's row is weighed so too, its probabilities as given). The artifact records odds x RATE, as\n"
+         "fit --negative-rate does, and the evidence its negative_rate.\n\n"
          "Examples:\n"
          "  plumb cross-fit --map isotonic,platt,beta --score risk --label missed --split group=parcel_route \\\n"
          "      --oof oof.csv -o late.map.json holdout.csv\n"
@@ -64,6 +70,8 @@ struct CrossFitOptions {
   std::string final_kind = "refit";
   MapChoices choices;
   bool no_timestamp = false;
+  double negative_rate = 1.0;  // --negative-rate, when negative_rate_given
+  bool negative_rate_given = false;
 };
 
 struct Split {
@@ -227,6 +235,10 @@ int run_cross_fit(const CrossFitOptions& o) {
   mallopt(M_MMAP_THRESHOLD, 4 << 20);
 #endif
   (void)o.choices.map_options();  // refuses a bad --between-blocks before any reading
+  if (o.negative_rate_given && !(o.negative_rate > 0.0 && o.negative_rate <= 1.0))
+    throw Error(ErrorKind::usage, "--negative-rate lies outside (0, 1]", {}, shortest(o.negative_rate),
+                "the rate at which negative rows were kept when the rows were drawn, such as 0.1 for one in ten "
+                "(1: all kept)");
   const Scale scale = parse_scale_option(o.input.scale);
   const std::vector<std::string> kinds = parse_kinds(o.maps, scale);
   const Split split = parse_split(o.split);
@@ -258,7 +270,7 @@ int run_cross_fit(const CrossFitOptions& o) {
     if (keep_rows) return;
     std::vector<double>().swap(rows.scores[0]);
     std::vector<double>().swap(rows.label);
-  });
+  }, o.negative_rate_given ? o.negative_rate : 1.0);
   Candidate& chosen = result.candidates[result.chosen];
 
   Artifact artifact;
@@ -280,6 +292,15 @@ int run_cross_fit(const CrossFitOptions& o) {
   artifact.score_column = rows.score_columns[0];
   artifact.fit_options = o.choices.recorded(chosen.kind);
   artifact.cross_fit = cross_fit_evidence(result, split.kind, split.column, o.seed, o.final_kind);
+  if (o.negative_rate_given) {
+    // The map fitted on the sample gives the sample's odds; the artifact
+    // records the correction to the population, as fit --negative-rate does.
+    OddsStep step;
+    step.reason = OddsStep::Reason::negative_sampling;
+    step.negative_rate = o.negative_rate;
+    add_odds_step(artifact, step);
+    artifact.cross_fit["negative_rate"] = o.negative_rate;
+  }
   artifact.provenance = provenance_of(rows, o.input, o.no_timestamp);
 
   if (!o.oof.empty()) write_oof(o, rows, result, separator);
@@ -293,7 +314,12 @@ int run_cross_fit(const CrossFitOptions& o) {
   out.commit();
 
   if (!o.input.quiet) {
-    print_evidence(result, skipped_note(o.input, rows.skipped));
+    std::string note = skipped_note(o.input, rows.skipped);
+    if (o.negative_rate_given)
+      note += "; negatives kept at rate " + shortest(o.negative_rate) + ": each negative row weighs " +
+              significant(1.0 / o.negative_rate, 6) + " and each map's probability has odds x " +
+              shortest(o.negative_rate);
+    print_evidence(result, note);
     if (split.kind == SplitKind::time)
       std::fprintf(stderr, "plumb cross-fit: note: the earliest time block (fold 1) is never scored: no earlier "
                            "rows exist to fit its map on\n");
@@ -309,8 +335,9 @@ int run_cross_fit(const CrossFitOptions& o) {
                        ? ". It was the only candidate: compare it with the other kinds, --map auto."
                        : ", and its out-of-fold lead may not hold on new rows.");
     }
-    std::fprintf(stderr, "plumb cross-fit: %s map (%s) written to %s\n", chosen.kind.c_str(),
-                 o.final_kind == "folds" ? "the fold maps, averaged" : "refitted on all rows", out.name().c_str());
+    std::fprintf(stderr, "plumb cross-fit: %s map (%s%s) written to %s\n", chosen.kind.c_str(),
+                 o.final_kind == "folds" ? "the fold maps, averaged" : "refitted on all rows",
+                 o.negative_rate_given ? (", odds x " + shortest(o.negative_rate)).c_str() : "", out.name().c_str());
   }
   return 0;
 }
@@ -350,8 +377,14 @@ Command add_cross_fit_command(CLI::App& app) {
       ->check(CLI::IsMember({"refit", "folds"}))
       ->default_str("refit");
   add_map_options(*cmd, o->choices);
+  cmd->add_option("--negative-rate", o->negative_rate,
+                  "The rows kept each negative row at this rate, in (0, 1] (downsampling): the out-of-fold evidence "
+                  "is judged on the full population (odds x RATE, negatives weighing 1/RATE) and the artifact "
+                  "records odds x RATE")
+      ->option_text("RATE");
   cmd->add_flag("--no-timestamp", o->no_timestamp, "Leave the creation time out of the artifact");
-  return [o, tally] {
+  return [o, tally, cmd] {
+    o->negative_rate_given = cmd->count("--negative-rate") > 0;
     if (!tally->empty())
       throw Error(ErrorKind::usage,
                   "cross-fit cannot read a tally: its folds split the rows, and a tally has merged rows of equal "

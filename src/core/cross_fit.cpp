@@ -18,6 +18,7 @@
 #include "plumb/corp.hpp"
 #include "plumb/error.hpp"
 #include "plumb/map_registry.hpp"
+#include "plumb/odds_adjustment.hpp"
 #include "plumb/pav.hpp"
 #include "plumb/scores.hpp"
 #include "plumb/tally.hpp"
@@ -175,6 +176,10 @@ void fit_folds(CrossFitResult& r, const Folds& folds, std::span<const std::strin
   std::vector<std::size_t> todo;
   for (std::size_t j = 0; j < folds.count; ++j)
     if (tested[j] > 0) todo.push_back(j);  // time split: the first block is never scored
+  // The fold maps' diagnostics are never shown: no pass over the entries
+  // after each fit for their log loss and clipped rows.
+  MapOptions fold_options = options;
+  fold_options.row_diagnostics = false;
   std::vector<std::exception_ptr> failure(kinds.size() * folds.count);
   std::atomic<std::size_t> next{0};
   std::exception_ptr also_failed;
@@ -201,7 +206,7 @@ void fit_folds(CrossFitResult& r, const Folds& folds, std::span<const std::strin
       for (std::size_t c = 0; c < kinds.size(); ++c) {
         Candidate& cand = r.candidates[c];
         try {
-          cand.fold_maps[j] = fit_map_on_tally(cand.kind, sums, options);
+          cand.fold_maps[j] = fit_map_on_tally(cand.kind, sums, fold_options);
         } catch (const Error& e) {
           failure[c * folds.count + j] =
               e.kind() != ErrorKind::fit
@@ -276,11 +281,26 @@ void pick_best(CrossFitResult& r) {
 }
 
 // cross_fit on rows already in score order (out-of-fold vectors in that
-// order too: every pass below reads and writes them in sequence).
+// order too: every pass below reads and writes them in sequence). With a
+// negative_rate other than 1, the maps are fitted on the rows as they are and
+// the evidence is that of the population the rows were drawn from: each
+// out-of-fold probability has its odds multiplied by the rate and each
+// negative row (label 0.5 or less, the class the sums give it) weighs its
+// weight divided by the rate in every figure and paired difference.
 CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::span<const std::string> kinds,
-                                const MapOptions& options) {
+                                const MapOptions& options, double negative_rate = 1.0) {
   const std::size_t n = data.score.size();
   CrossFitResult r;
+  const bool resampled = negative_rate != 1.0;
+  std::vector<double> population_weight;
+  if (resampled) {
+    population_weight.resize(n);
+    for (std::size_t i = 0; i < n; ++i)
+      population_weight[i] = data.label[i] > 0.5 ? weight_at(data, i) : weight_at(data, i) / negative_rate;
+  }
+  // The rows as the figures weigh them.
+  const FitData judged{data.score, data.label, resampled ? std::span<const double>(population_weight) : data.weight,
+                       data.scale};
   std::vector<std::size_t> tested(folds.count, 0);
   std::size_t scored = 0;
   for (std::size_t i = 0; i < n; ++i)
@@ -314,6 +334,7 @@ CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::sp
       Last& m = last[c * folds.count + j];
       if (!m.have || !(s == m.score) || std::signbit(s) != std::signbit(m.score)) {
         m.probability = cand.fold_maps[j]->map(s).probability;
+        if (resampled) m.probability = multiply_odds(m.probability, negative_rate);
         m.score = s;
         m.have = true;
       }
@@ -321,10 +342,10 @@ CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::sp
     }
   }
   for (Candidate& c : r.candidates)
-    c.figures = figures(c.oof, data, folds, scored);
+    c.figures = figures(c.oof, judged, folds, scored);
   if (data.scale == Scale::probability) {
     r.has_raw = true;
-    r.raw = figures(data.score, data, folds, scored);
+    r.raw = figures(data.score, judged, folds, scored);
   }
 
   // Best by out-of-fold log loss; then paired differences against it.
@@ -334,7 +355,7 @@ CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::sp
     double w_total = 0.0, sum = 0.0;
     for (std::size_t i = 0; i < n; ++i) {
       if (!folds.scored(i)) continue;
-      const double w = weight_at(data, i);
+      const double w = weight_at(judged, i);
       sum += w * (log_loss_term(c.oof[i], data.label[i]) - log_loss_term(best.oof[i], data.label[i]));
       w_total += w;
     }
@@ -343,7 +364,7 @@ CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::sp
     for (std::size_t i = 0; i < n; ++i) {
       if (!folds.scored(i)) continue;
       const double d = log_loss_term(c.oof[i], data.label[i]) - log_loss_term(best.oof[i], data.label[i]);
-      ss += weight_at(data, i) * (d - mean) * (d - mean);
+      ss += weight_at(judged, i) * (d - mean) * (d - mean);
     }
     c.diff_vs_best = mean;
     c.diff_se = w_total > 1.0 ? std::sqrt(ss / (w_total - 1.0) / w_total) : 0.0;
@@ -357,7 +378,8 @@ CrossFitResult cross_fit_sorted(const FitData& data, const Folds& folds, std::sp
 // same rows would add them), cross-fitted in score order, put back.
 template <class Index>
 CrossFitResult cross_fit_reordered(const FitData& data, const Folds& folds, std::span<const std::string> kinds,
-                                   const MapOptions& options, const std::function<void()>& rows_read) {
+                                   const MapOptions& options, const std::function<void()>& rows_read,
+                                   double negative_rate) {
   const std::size_t n = data.score.size();
   std::vector<Index> order(n);
   std::iota(order.begin(), order.end(), Index{0});
@@ -371,7 +393,8 @@ CrossFitResult cross_fit_reordered(const FitData& data, const Folds& folds, std:
     sorted_folds.fold_of_row[k] = folds.fold_of_row[order[k]];
   }
   if (rows_read) rows_read();
-  CrossFitResult r = cross_fit_sorted(FitData{score, label, weight, data.scale}, sorted_folds, kinds, options);
+  CrossFitResult r =
+      cross_fit_sorted(FitData{score, label, weight, data.scale}, sorted_folds, kinds, options, negative_rate);
   // The sorted copies are done with: give their memory back before each
   // out-of-fold vector is put in input order.
   std::vector<double>().swap(score);
@@ -578,7 +601,11 @@ std::vector<double> cell_pav(std::span<const double> f, const Cells& c, const Fo
   score.reserve(m);
   positive.reserve(m);
   weight.reserve(m);
+  // The merged order, kept for the second visit (the values of the pools).
+  std::vector<std::uint32_t> order;
+  order.reserve(first[folds.count]);
   merged([&](std::uint32_t e) {
+    order.push_back(e);
     if (score.empty() || f[e] != score.back()) {
       score.push_back(f[e]);
       positive.push_back(0.0);
@@ -587,15 +614,17 @@ std::vector<double> cell_pav(std::span<const double> f, const Cells& c, const Fo
     positive.back() += static_cast<double>(c.positives[e]);
     weight.back() += static_cast<double>(c.rows[e]);
   });
+  // The folds' runs are read no more: their memory goes before the values'.
+  std::vector<std::uint32_t>().swap(by_fold);
   const std::vector<PavBlock> blocks = pav_fit_cells(score, positive, weight);
   std::vector<double>().swap(positive);
   std::vector<double>().swap(weight);
   std::vector<double> r(m, 0.0);
   std::size_t b = 0;
-  merged([&](std::uint32_t e) {
+  for (const std::uint32_t e : order) {
     while (b + 1 < blocks.size() && !(f[e] < blocks[b + 1].score_lo)) ++b;
     r[e] = blocks[b].value;
-  });
+  }
   return r;
 }
 
@@ -814,20 +843,24 @@ bool cells_apply(const FitData& data, const Folds& folds) {
 }  // namespace
 
 CrossFitResult cross_fit(const FitData& data, Folds folds, std::span<const std::string> kinds,
-                         const MapOptions& options, const std::function<void()>& rows_read) {
+                         const MapOptions& options, const std::function<void()>& rows_read, double negative_rate) {
   if (kinds.empty()) throw Error(ErrorKind::usage, "no candidate maps", {}, {}, "at least one kind in --map");
+  if (!(negative_rate > 0.0 && negative_rate <= 1.0))
+    throw Error(ErrorKind::usage, "the negative rate lies outside (0, 1]", {}, std::to_string(negative_rate),
+                "the rate at which negative rows were kept");
   const std::size_t n = data.score.size();
   if (folds.fold_of_row.size() != n) throw Error(ErrorKind::internal, "cross_fit: folds made for other rows");
   CrossFitResult r;
-  if (cells_apply(data, folds))
+  // The cells weigh every row 1: a negative rate takes the per-row path.
+  if (negative_rate == 1.0 && cells_apply(data, folds))
     r = cross_fit_cells(data, folds, kinds, options, rows_read);
   else if (std::is_sorted(data.score.begin(), data.score.end()))
-    r = cross_fit_sorted(data, folds, kinds, options);
+    r = cross_fit_sorted(data, folds, kinds, options, negative_rate);
   // 32-bit row numbers where they suffice: half the memory and the traffic.
   else if (n <= std::numeric_limits<std::uint32_t>::max())
-    r = cross_fit_reordered<std::uint32_t>(data, folds, kinds, options, rows_read);
+    r = cross_fit_reordered<std::uint32_t>(data, folds, kinds, options, rows_read, negative_rate);
   else
-    r = cross_fit_reordered<std::size_t>(data, folds, kinds, options, rows_read);
+    r = cross_fit_reordered<std::size_t>(data, folds, kinds, options, rows_read, negative_rate);
   r.folds = std::move(folds);
   return r;
 }

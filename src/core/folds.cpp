@@ -4,6 +4,7 @@
 #include <cctype>
 #include <charconv>
 #include <cmath>
+#include <limits>
 #include <numeric>
 #include <optional>
 
@@ -216,10 +217,19 @@ std::uint64_t splitmix64(std::uint64_t& state) noexcept {
   return z ^ (z >> 31);
 }
 
-Folds stratified_folds(std::span<const double> label, std::size_t k, std::uint64_t seed) {
-  check_k(k, label.size(), "rows");
-  std::vector<std::size_t> pos, neg;
-  for (std::size_t i = 0; i < label.size(); ++i) (label[i] > 0.5 ? pos : neg).push_back(i);
+namespace {
+
+// stratified_folds with row numbers of type Index: 32 bits where they
+// suffice, half the memory the shuffles walk at random. The shuffles draw
+// the same numbers whatever the type, so the folds are the same.
+template <class Index>
+Folds stratified_folds_as(std::span<const double> label, std::size_t k, std::uint64_t seed) {
+  std::size_t positives = 0;
+  for (double y : label) positives += y > 0.5 ? 1 : 0;
+  std::vector<Index> pos, neg;
+  pos.reserve(positives);
+  neg.reserve(label.size() - positives);
+  for (std::size_t i = 0; i < label.size(); ++i) (label[i] > 0.5 ? pos : neg).push_back(static_cast<Index>(i));
   std::uint64_t state = seed;
   shuffle(pos, state);
   shuffle(neg, state);
@@ -228,9 +238,18 @@ Folds stratified_folds(std::span<const double> label, std::size_t k, std::uint64
   f.count = k;
   f.fold_of_row.assign(label.size(), 0);
   std::size_t next = 0;
-  for (std::size_t i : pos) f.fold_of_row[i] = static_cast<std::uint32_t>(next++ % k);
-  for (std::size_t i : neg) f.fold_of_row[i] = static_cast<std::uint32_t>(next++ % k);
+  for (Index i : pos) f.fold_of_row[i] = static_cast<std::uint32_t>(next++ % k);
+  for (Index i : neg) f.fold_of_row[i] = static_cast<std::uint32_t>(next++ % k);
   return f;
+}
+
+}  // namespace
+
+Folds stratified_folds(std::span<const double> label, std::size_t k, std::uint64_t seed) {
+  check_k(k, label.size(), "rows");
+  if (label.size() <= std::numeric_limits<std::uint32_t>::max())
+    return stratified_folds_as<std::uint32_t>(label, k, seed);
+  return stratified_folds_as<std::size_t>(label, k, seed);
 }
 
 Folds group_folds(std::span<const std::uint32_t> group, std::size_t groups, std::size_t k, std::uint64_t seed) {

@@ -79,6 +79,12 @@ class Problem {
   // (1-t) softplus(eta) + t softplus(-eta) equals softplus(eta) - t eta but
   // stays accurate and non-negative when |eta| is large.
   double loss(const Eigen::VectorXd& beta) const {
+    switch (dim()) {
+      case 1: return loss_fixed<1>(beta);
+      case 2: return loss_fixed<2>(beta);
+      case 3: return loss_fixed<3>(beta);
+      default: break;
+    }
     double total = 0.0;
     Terms terms;
     cache_.resize(3 * n_);
@@ -89,9 +95,46 @@ class Problem {
       cache_[3 * i] = terms.e();
       cache_[3 * i + 1] = terms.a();
       cache_[3 * i + 2] = terms.l();
-      total += w * ((1.0 - t_[i]) * terms.softplus_pos() + t_[i] * terms.softplus_neg());
+      total += w * entry_loss(terms, t_[i]);
     }
     return total;
+  }
+
+  // loss() for D coefficients, a constant so that the loops over them
+  // unroll: the same predictor as eta() (0 plus each beta_j x_j in turn),
+  // so the same values.
+  template <std::size_t D>
+  double loss_fixed(const Eigen::VectorXd& beta) const {
+    double b[D];
+    for (std::size_t j = 0; j < D; ++j) b[j] = beta[static_cast<Eigen::Index>(j)];
+    double total = 0.0;
+    Terms terms;
+    cache_.resize(3 * n_);
+    for (std::size_t i = 0; i < n_; ++i) {
+      const double w = weight(i);
+      if (!(w > 0.0)) continue;
+      double e = 0.0;
+      for (std::size_t j = 0; j < D; ++j) e += b[j] * feature(j, i);
+      terms.at(e);
+      cache_[3 * i] = terms.e();
+      cache_[3 * i + 1] = terms.a();
+      cache_[3 * i + 2] = terms.l();
+      total += w * entry_loss(terms, t_[i]);
+    }
+    return total;
+  }
+
+  // (1-t) softplus(e) + t softplus(-e), the loss of one entry of target t.
+  // For t exactly 0 or 1 and a finite e the sum has one term: (1-0) s + 0 s'
+  // is s + (+0), which is s, since a softplus is finite and never -0 (and
+  // (1-1) s + 1 s' likewise s'); an infinite e takes the full formula, whose
+  // 0 * inf is NaN.
+  static double entry_loss(const Terms& terms, double t) noexcept {
+    if (std::isfinite(terms.e())) {
+      if (t == 0.0) return terms.softplus_pos();
+      if (t == 1.0) return terms.softplus_neg();
+    }
+    return (1.0 - t) * terms.softplus_pos() + t * terms.softplus_neg();
   }
 
   Evaluation evaluate(const Eigen::VectorXd& beta) const {
@@ -132,42 +175,83 @@ class Problem {
   // build targets the baseline instruction set, as Eigen's packets do.
   static constexpr std::size_t small_dim = 3;
   Evaluation evaluate_small(const Eigen::VectorXd& beta) const {
-    const std::size_t d = dim();
-    double b[small_dim] = {0.0, 0.0, 0.0}, g[small_dim] = {0.0, 0.0, 0.0}, x[small_dim] = {0.0, 0.0, 0.0};
-    double h[small_dim][small_dim] = {};
-    for (std::size_t j = 0; j < d; ++j) b[j] = beta[static_cast<Eigen::Index>(j)];
+    switch (dim()) {
+      case 1: return evaluate_fixed<1>(beta);
+      case 2: return evaluate_fixed<2>(beta);
+      default: return evaluate_fixed<3>(beta);
+    }
+  }
+
+  // evaluate_small for D coefficients, a constant so that the loops over
+  // them unroll. Entries of one score follow each other with the same linear
+  // predictor: its sigmoids and softpluses are worked out once (the same
+  // expressions of the same e, a and l, so the same values). Entries of
+  // target exactly 0 or 1 take the one term of the residual and the loss
+  // that does not vanish: (1-0) p - 0 q is p - (+0), which is p, and
+  // (1-1) p - 1 q is +0 - q, written so (p and q lie in [0, 1]); the loss as
+  // in entry_loss. A non-finite e takes the full formulas.
+  template <std::size_t D>
+  Evaluation evaluate_fixed(const Eigen::VectorXd& beta) const {
+    double b[D], g[D], x[D];
+    double h[D][D] = {};
+    for (std::size_t j = 0; j < D; ++j) {
+      b[j] = beta[static_cast<Eigen::Index>(j)];
+      g[j] = 0.0;
+    }
     double total = 0.0;
     Terms terms;
     const bool cached = !cache_.empty();
+    bool have = false;
+    double last_e = 0.0, p = 0.0, q = 0.0, sp_pos = 0.0, sp_neg = 0.0;
+    bool finite = true;
     for (std::size_t i = 0; i < n_; ++i) {
       const double w = weight(i);
       if (!(w > 0.0)) continue;
-      for (std::size_t j = 0; j < d; ++j) x[j] = feature(j, i);
+      for (std::size_t j = 0; j < D; ++j) x[j] = feature(j, i);
       double e = x[0] * b[0];
-      for (std::size_t j = 1; j < d; ++j) e += x[j] * b[j];
-      if (cached)
-        terms.at(e, cache_[3 * i], cache_[3 * i + 1], cache_[3 * i + 2]);
-      else
-        terms.at(e);
-      const double p = terms.sigmoid_pos(), q = terms.sigmoid_neg();
-      const double residual = (1.0 - t_[i]) * p - t_[i] * q;
-      total += w * ((1.0 - t_[i]) * terms.softplus_pos() + t_[i] * terms.softplus_neg());
+      for (std::size_t j = 1; j < D; ++j) e += x[j] * b[j];
+      if (!have || !Terms::same(e, last_e)) {
+        if (cached)
+          terms.at(e, cache_[3 * i], cache_[3 * i + 1], cache_[3 * i + 2]);
+        else
+          terms.at(e);
+        have = true;
+        last_e = e;
+        p = terms.sigmoid_pos();
+        q = terms.sigmoid_neg();
+        sp_pos = terms.softplus_pos();
+        sp_neg = terms.softplus_neg();
+        finite = std::isfinite(e);
+      }
+      const double t = t_[i];
+      double residual, loss;
+      if (finite && t == 0.0) {
+        residual = p;
+        loss = sp_pos;
+      } else if (finite && t == 1.0) {
+        residual = 0.0 - q;
+        loss = sp_neg;
+      } else {
+        residual = (1.0 - t) * p - t * q;
+        loss = (1.0 - t) * sp_pos + t * sp_neg;
+      }
+      total += w * loss;
       const double gs = w * residual;
-      for (std::size_t j = 0; j < d; ++j) g[j] += gs * x[j];
+      for (std::size_t j = 0; j < D; ++j) g[j] += gs * x[j];
       const double a = w * p * q;
-      for (std::size_t c = 0; c < d; ++c) {
+      for (std::size_t c = 0; c < D; ++c) {
         const double ac = a * x[c];
-        for (std::size_t r = c; r < d; ++r) h[r][c] += ac * x[r];
+        for (std::size_t r = c; r < D; ++r) h[r][c] += ac * x[r];
       }
     }
     Evaluation ev;
-    const auto dd = static_cast<Eigen::Index>(d);
+    const auto dd = static_cast<Eigen::Index>(D);
     ev.loss = total;
     ev.gradient.resize(dd);
     ev.hessian.resize(dd, dd);
-    for (std::size_t r = 0; r < d; ++r) {
+    for (std::size_t r = 0; r < D; ++r) {
       ev.gradient[static_cast<Eigen::Index>(r)] = g[r];
-      for (std::size_t c = 0; c < d; ++c)
+      for (std::size_t c = 0; c < D; ++c)
         ev.hessian(static_cast<Eigen::Index>(r), static_cast<Eigen::Index>(c)) = r >= c ? h[r][c] : h[c][r];
     }
     return ev;

@@ -6,6 +6,7 @@
 #include "plumb/map_registry.hpp"
 
 #include <algorithm>
+#include <limits>
 #include <array>
 #include <charconv>
 #include <cmath>
@@ -360,8 +361,12 @@ std::unique_ptr<CalibrationMap> fit_on_sums(std::string_view kind, const Tally& 
   // Clipping is reported per input row of positive weight, not per entry.
   FitDiagnostics d = map->diagnostics();
   d.clipped = 0;
-  for (std::size_t i = 0; i < sums.score.size(); ++i)
-    if (map->map(sums.score[i]).clipped) d.clipped += sums.count[i];
+  if (options.row_diagnostics) {
+    for (std::size_t i = 0; i < sums.score.size(); ++i)
+      if (map->map(sums.score[i]).clipped) d.clipped += sums.count[i];
+  } else {
+    d.log_loss = std::numeric_limits<double>::quiet_NaN();
+  }
   map->restore_diagnostics(std::move(d));
   return map;
 }

@@ -258,6 +258,14 @@ Tally merge_tallies(const Tally& a, const Tally& b) {
 
 ScoreTally to_score_tally(const Tally& t) {
   ScoreTally out;
+  // At most two entries per score: room for them at once, so that no column
+  // is copied as it grows.
+  std::size_t entries = 0;
+  for (std::size_t i = 0; i < t.score.size(); ++i)
+    entries += (t.negative[i] > 0.0 ? 1 : 0) + (t.positive[i] > 0.0 ? 1 : 0);
+  out.score.reserve(entries);
+  out.label.reserve(entries);
+  out.weight.reserve(entries);
   for (std::size_t i = 0; i < t.score.size(); ++i) {
     if (t.negative[i] > 0.0) {
       out.score.push_back(t.score[i]);

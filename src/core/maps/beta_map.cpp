@@ -153,7 +153,7 @@ std::unique_ptr<CalibrationMap> BetaMap::fit(const FitData& data, const MapOptio
   if (!coef.converged)
     map->diagnostics_.notes.push_back(
         "the Newton iteration did not converge; the scores may separate the labels");
-  map->diagnostics_.log_loss = mean_log_loss(*map, data);
+  if (options.row_diagnostics) map->diagnostics_.log_loss = mean_log_loss(*map, data);
   return map;
 }
 

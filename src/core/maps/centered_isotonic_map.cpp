@@ -140,7 +140,7 @@ std::unique_ptr<CalibrationMap> CenteredIsotonicMap::fit(const FitData& data, co
                                                    options.centered_strict ? centered_isotonic_tilt : 0.0);
   map->diagnostics_.iterations = 1;
   map->diagnostics_.converged = true;
-  map->diagnostics_.log_loss = mean_log_loss(*map, data);
+  if (options.row_diagnostics) map->diagnostics_.log_loss = mean_log_loss(*map, data);
   map->diagnostics_.notes.push_back(std::to_string(map->x_.size()) + " points");
   return map;
 }

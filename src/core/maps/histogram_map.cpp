@@ -87,7 +87,7 @@ std::unique_ptr<CalibrationMap> HistogramMap::fit(const FitData& data, const Map
 
   auto map = std::make_unique<HistogramMap>(data.scale, std::move(bins));
   map->diagnostics_.iterations = 1;
-  map->diagnostics_.log_loss = mean_log_loss(*map, data);
+  if (options.row_diagnostics) map->diagnostics_.log_loss = mean_log_loss(*map, data);
   map->diagnostics_.notes.push_back(std::to_string(map->bins_.size()) + " bins");
   if (map->bins_.size() < asked)
     map->diagnostics_.notes.push_back("fewer bins than the " + std::to_string(asked) +

@@ -62,7 +62,7 @@ std::unique_ptr<CalibrationMap> IsotonicMap::fit(const FitData& data, const MapO
   if (map->blocks_.empty()) throw Error(ErrorKind::fit, "no rows of positive weight to fit");
   map->diagnostics_.iterations = 1;
   map->diagnostics_.converged = true;
-  map->diagnostics_.log_loss = mean_log_loss(*map, data);
+  if (options.row_diagnostics) map->diagnostics_.log_loss = mean_log_loss(*map, data);
   map->diagnostics_.notes.push_back(std::to_string(map->blocks_.size()) + " blocks");
   return map;
 }

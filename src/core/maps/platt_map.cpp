@@ -49,7 +49,7 @@ std::unique_ptr<CalibrationMap> PlattMap::fit(const FitData& data, const MapOpti
     map->diagnostics_.notes.push_back(
         "the Newton iteration did not converge; the scores may separate the labels, so the sigmoid "
         "is steeper than the data can pin down");
-  map->diagnostics_.log_loss = mean_log_loss(*map, data);
+  if (options.row_diagnostics) map->diagnostics_.log_loss = mean_log_loss(*map, data);
   return map;
 }
 

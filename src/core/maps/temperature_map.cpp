@@ -43,7 +43,7 @@ constexpr int max_steps = 200;
 TemperatureMap::TemperatureMap(Scale scale, double temperature) noexcept
     : scale_(scale), temperature_(temperature) {}
 
-std::unique_ptr<CalibrationMap> TemperatureMap::fit(const FitData& data, const MapOptions&) {
+std::unique_ptr<CalibrationMap> TemperatureMap::fit(const FitData& data, const MapOptions& options) {
   if (!accepts(data.scale))
     throw Error(ErrorKind::usage, "the temperature map does not accept margin scores", {}, {},
                 "probability or logit scores");
@@ -138,7 +138,7 @@ std::unique_ptr<CalibrationMap> TemperatureMap::fit(const FitData& data, const M
     map->diagnostics_.notes.push_back(
         "the log-odds separate the labels, so the best temperature is 0; stopped at a small "
         "temperature after a bounded number of steps");
-  map->diagnostics_.log_loss = mean_log_loss(*map, data);
+  if (options.row_diagnostics) map->diagnostics_.log_loss = mean_log_loss(*map, data);
   return map;
 }
 
