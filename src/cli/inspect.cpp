@@ -194,7 +194,31 @@ int inspect_classes(const InspectOptions& o, const ClassArtifact& a) {
               grouped(d.clipped).c_str());
   for (const std::string& n : d.notes) std::printf("  %-14s %s\n", "", n.c_str());
   if (!a.fit_options.empty()) std::printf("  %-14s %s\n", "options", a.fit_options.dump().c_str());
-  if (a.cross_fit.is_object()) print_cross_fit(a.cross_fit);
+  if (a.cross_fit.is_object()) {
+    // The multi-class evidence: out-of-fold log loss per candidate, read
+    // defensively (informational, hash-checked).
+    const nlohmann::json& e = a.cross_fit;
+    auto text = [&](const nlohmann::json& obj, const char* key) {
+      return obj.contains(key) ? scalar_text(obj[key]) : std::string("?");
+    };
+    const std::string scored = e.contains("scored_rows") && e["scored_rows"].is_number_unsigned()
+                                   ? grouped(e["scored_rows"].get<std::uint64_t>())
+                                   : text(e, "scored_rows");
+    std::printf("\ncross-fit\n  %-14s %s folds stratified by class, seed %s, %s rows scored out of fold, shipped: %s\n",
+                "evidence", text(e, "folds").c_str(), text(e, "seed").c_str(), scored.c_str(), text(e, "final").c_str());
+    std::printf("  %-14s %s: %s\n", "chosen", text(e, "chosen").c_str(), text(e, "reason").c_str());
+    if (e.contains("candidates") && e["candidates"].is_array()) {
+      std::printf("  %-22s %12s %12s %10s\n", "candidate", "oof log loss", "minus best", "se");
+      for (const auto& c : e["candidates"]) {
+        if (!c.is_object()) continue;
+        auto num = [&](const char* k) {
+          return c.contains(k) && c[k].is_number() ? fixed_text(c[k].get<double>(), 6) : std::string("?");
+        };
+        std::printf("  %-22s %12s %12s %10s\n", text(c, "name").c_str(), num("log_loss").c_str(),
+                    num("log_loss_minus_best").c_str(), num("log_loss_minus_best_se").c_str());
+      }
+    }
+  }
   std::size_t width = 5;
   for (const std::string& c : m.classes()) width = std::max(width, c.size());
   std::printf("\nclasses\n  %-*s  %-22s %10s\n", static_cast<int>(width), "class", "score column", "fit share");

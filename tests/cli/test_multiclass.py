@@ -106,6 +106,30 @@ class MultiClassTest(PlumbCase):
         rc, out, err = run("inspect", path)
         self.assertIn("l_returned", out)
 
+    def test_cross_fit_chooses_by_out_of_fold_log_loss(self):
+        out, ev = self.path("cf.json"), self.path("ev.json")
+        rc, _, err = run("cross-fit", "--scores", "p_*", "--label", "outcome", "--folds", "3", "--no-timestamp",
+                         "--json", ev, "-o", out, OUTCOMES)
+        self.assertEqual(rc, 0, err)
+        doc, evidence = self.load_json(out), self.load_json(ev)
+        self.assertEqual(doc["cross_fit"], evidence)
+        names = [c["name"] for c in evidence["candidates"]]
+        self.assertEqual(names, ["temperature", "vector", "dirichlet l2=1", "dirichlet l2=0.1", "dirichlet l2=0.01",
+                                 "dirichlet l2=0.001", "one_vs_rest isotonic"])
+        best = min(evidence["candidates"], key=lambda c: c["log_loss"])
+        chosen = [c for c in evidence["candidates"] if c["name"] == evidence["chosen"]][0]
+        self.assertLessEqual(chosen["log_loss_minus_best"], chosen["log_loss_minus_best_se"])
+        self.assertLessEqual(best["log_loss"], chosen["log_loss"])
+        self.assertEqual(doc["kind"], chosen["kind"])
+        # The over-confident scores lose to every scaling map out of fold.
+        self.assertLess(chosen["log_loss"], [c for c in evidence["candidates"]
+                                             if c["name"] == "temperature"][0]["log_loss"] + 1e-12)
+        with open(os.path.join(SOURCE_DIR, "docs", "class-artifact.schema.json")) as f:
+            jsonschema.validate(doc, json.load(f), cls=jsonschema.Draft202012Validator)
+        self.assert_refused(["cross-fit", "--scores", "p_*", "--label", "outcome", "--split", "group=shift",
+                             OUTCOMES, "-o", out + ".2"], 2, "--split does not apply with --scores",
+                            output=out + ".2")
+
     def test_refusals_are_located_and_leave_nothing(self):
         bad = self.path("bad.csv")
         out = self.path("m.json")

@@ -6,6 +6,7 @@
 // The reference checks against R are in tests/reference/test_multiclass_reference.cpp.
 #include <catch2/catch.hpp>
 
+#include <algorithm>
 #include <cmath>
 #include <string>
 #include <vector>
@@ -208,4 +209,64 @@ TEST_CASE("the multi-class artifact refuses edits it can see", "[multiclass][art
   d = doc;
   d["classes"] = {"a"};
   CHECK(refusal(d).find("fewer than two") != std::string::npos);
+}
+
+#include "plumb/class_cross_fit.hpp"
+
+TEST_CASE("folds stratified by class hold each class evenly", "[multiclass][cross_fit]") {
+  const plumb::ClassScores s = small_rows(13);
+  const plumb::Folds f = plumb::class_stratified_folds(s.label, 3, 4, 99);
+  REQUIRE(f.fold_of_row.size() == s.rows);
+  for (std::uint32_t c = 0; c < 3; ++c) {
+    std::vector<int> count(4, 0);
+    for (std::size_t i = 0; i < s.rows; ++i)
+      if (s.label[i] == c) ++count[f.fold_of_row[i]];
+    CHECK(*std::max_element(count.begin(), count.end()) - *std::min_element(count.begin(), count.end()) <= 1);
+  }
+  // The same seed gives the same folds; another seed others.
+  CHECK(plumb::class_stratified_folds(s.label, 3, 4, 99).fold_of_row == f.fold_of_row);
+  CHECK(plumb::class_stratified_folds(s.label, 3, 4, 100).fold_of_row != f.fold_of_row);
+}
+
+TEST_CASE("multi-class cross-fit scores each row by a map that never saw it, and applies the one-SE rule",
+          "[multiclass][cross_fit]") {
+  const plumb::ClassScores s = small_rows(17);
+  const plumb::Folds f = plumb::class_stratified_folds(s.label, 3, 3, 5);
+  const auto specs = plumb::auto_class_candidates(plumb::default_l2_grid(), "platt");
+  const plumb::ClassCrossFitResult r = plumb::class_cross_fit(s, f, specs);
+  REQUIRE(r.candidates.size() == specs.size());
+  // The temperature candidate's out-of-fold log loss, recomputed fold by fold
+  // from fits on the other folds' rows (weights as read).
+  double sum = 0.0, wt = 0.0;
+  for (std::uint32_t j = 0; j < 3; ++j) {
+    plumb::ClassScores train;
+    train.classes = s.classes;
+    train.scale = s.scale;
+    for (std::size_t i = 0; i < s.rows; ++i)
+      if (f.fold_of_row[i] != j) {
+        train.values.insert(train.values.end(), s.row(i), s.row(i) + 3);
+        train.label.push_back(s.label[i]);
+        train.weight.push_back(s.weight[i]);
+        ++train.rows;
+      }
+    const auto m = plumb::fit_class_map("temperature", train);
+    double q[3];
+    for (std::size_t i = 0; i < s.rows; ++i)
+      if (f.fold_of_row[i] == j) {
+        m->map(s.row(i), q);
+        sum += -s.weight[i] * std::log(q[s.label[i]]);
+        wt += s.weight[i];
+      }
+  }
+  CHECK(std::fabs(r.candidates[0].log_loss - sum / wt) < 1e-12);
+  // The best has the lowest log loss; the chosen one is within one standard
+  // error of it and no candidate within it is simpler.
+  for (const auto& c : r.candidates) CHECK(c.log_loss >= r.candidates[r.best].log_loss);
+  const auto& chosen = r.candidates[r.chosen];
+  CHECK(chosen.diff_vs_best <= chosen.diff_se);
+  for (const auto& c : r.candidates)
+    if (c.diff_vs_best <= c.diff_se) CHECK(c.rank >= chosen.rank);
+  // A larger L2 counts as simpler.
+  CHECK(r.candidates[2].name == "dirichlet l2=1");
+  CHECK(r.candidates[2].rank < r.candidates[3].rank);
 }
