@@ -55,6 +55,8 @@ struct ApplyOptions {
   std::string argmax;               // multi-class: name of the most-probable-class column
   std::vector<std::string> scores;  // multi-class: the score columns, in the map's class order
   std::vector<std::string> given;   // binary-only options given
+  double sum_tolerance = io::default_sum_tolerance;  // multi-class: --sum-tolerance, when given
+  bool sum_tolerance_given = false;
 };
 
 // The field as it must be written so a CSV reader reads `text` back.
@@ -123,8 +125,15 @@ int run_apply_classes(const ApplyOptions& o, const ClassArtifact& artifact) {
   stream.digits = o.digits;
   stream.argmax = !o.argmax.empty();
   stream.threads = o.threads == 0 ? std::max(1u, std::thread::hardware_concurrency()) : o.threads;
-  if (artifact.fit_options.contains("sum_tolerance") && artifact.fit_options["sum_tolerance"].is_number())
+  if (o.sum_tolerance_given)
+    stream.sum_tolerance = o.sum_tolerance;
+  else if (artifact.fit_options.contains("sum_tolerance") && artifact.fit_options["sum_tolerance"].is_number())
     stream.sum_tolerance = artifact.fit_options["sum_tolerance"].get<double>();
+  stream.sum_advice = "or --sum-tolerance to widen it";
+  stream.range_advice = map.scale() == ClassScale::probability
+                            ? "this map was fitted on probabilities; for logits, use a map fitted with plumb fit "
+                              "--scores COLS --scale logit"
+                            : "a logit";
   Progress progress("plumb apply", o.quiet);
   const io::ClassApplyCounts counts =
       io::class_apply_stream(reader, map, out, stream, [&](std::uint64_t rows, std::uint64_t bytes, auto total) {
@@ -148,8 +157,8 @@ int run_apply_classes(const ApplyOptions& o, const ClassArtifact& artifact) {
 int run_apply(const ApplyOptions& o) {
   const ArtifactFile file = read_artifact_file(o.artifact);
   if (file.multi_class) return run_apply_classes(o, class_artifact_from_text(file.text, file.name));
-  if (!o.scores.empty() || !o.argmax.empty())
-    throw Error(ErrorKind::usage, std::string(o.scores.empty() ? "--argmax" : "--scores") +
+  if (!o.scores.empty() || !o.argmax.empty() || o.sum_tolerance_given)
+    throw Error(ErrorKind::usage, std::string(!o.scores.empty() ? "--scores" : !o.argmax.empty() ? "--argmax" : "--sum-tolerance") +
                                       " applies to a multi-class map only",
                 {}, {}, "--score COL for a binary map");
   const Artifact artifact = artifact_from_text(file.text, file.name);
@@ -280,9 +289,14 @@ Command add_apply_command(CLI::App& app) {
       ->option_text("COLS");
   cmd->add_option("--argmax", o->argmax,
                   "Multi-class map: also write the most probable class (the first of equals) in a column of this name");
+  cmd->add_option("--sum-tolerance", o->sum_tolerance,
+                  "Multi-class map on probabilities: the widest gap between a row's sum and 1 accepted (default: "
+                  "the tolerance the map was fitted with)")
+      ->check(CLI::Range(0.0, 1.0));
   add_separator_option(*cmd, o->separator);
   add_quiet_option(*cmd, o->quiet);
   return [o, cmd] {
+    o->sum_tolerance_given = cmd->count("--sum-tolerance") > 0;
     for (const char* name : {"--score", "--as", "--replace"})
       if (cmd->count(name) > 0) o->given.push_back(name);
     return run_apply(*o);

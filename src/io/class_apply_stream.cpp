@@ -84,7 +84,7 @@ class Worker {
           if (o_.argmax) d.text += delim;
           ++d.counts.missing;
         } else {
-          if (const auto p = class_row_problem(values_.data(), k_, map_.scale(), o_.sum_tolerance)) {
+          if (const auto p = class_row_problem(values_.data(), k_, map_.scale(), o_.sum_tolerance, o_.sum_advice, o_.range_advice)) {
             const auto [at, len] = b.field[r.fields_at + p->column];
             throw Error(ErrorKind::input, p->message, where(r, p->column), std::string(b.bytes.data() + at, len),
                         p->expected);

@@ -68,7 +68,7 @@ ClassLayout resolve_class_columns(const CsvReader& reader, const ClassColumns& c
       throw Error(ErrorKind::input,
                   cols.empty() ? "no column matches the --scores pattern"
                                : "only one column matches the --scores pattern (K = 1)",
-                  loc, p, "two or more score columns, one per class (a binary score takes fit --score)");
+                  loc, p, "two or more score columns, one per class (a binary score takes --score)");
     }
   } else {
     std::unordered_map<std::size_t, std::size_t> seen;
@@ -87,7 +87,7 @@ ClassLayout resolve_class_columns(const CsvReader& reader, const ClassColumns& c
       if (cols.size() == 1) loc = header_cell(reader, cols[0]);
       throw Error(ErrorKind::input, "one score column is one class (K = 1)", loc,
                   columns.scores.empty() ? std::string() : columns.scores[0],
-                  "two or more score columns, one per class (a binary score takes fit --score)");
+                  "two or more score columns, one per class (a binary score takes --score)");
     }
   }
 
@@ -134,7 +134,8 @@ ClassLayout resolve_class_columns(const CsvReader& reader, const ClassColumns& c
 }
 
 std::optional<ClassRowProblem> class_row_problem(const double* values, std::size_t k, ClassScale scale,
-                                                 double sum_tolerance) {
+                                                 double sum_tolerance, std::string_view sum_advice,
+                                                 std::string_view range_advice) {
   if (scale == ClassScale::logit) {
     for (std::size_t j = 0; j < k; ++j)
       if (!std::isfinite(values[j])) return ClassRowProblem{"the logit is not finite", "a finite decimal number", j};
@@ -144,13 +145,12 @@ std::optional<ClassRowProblem> class_row_problem(const double* values, std::size
   for (std::size_t j = 0; j < k; ++j) {
     if (!(values[j] >= 0.0 && values[j] <= 1.0))
       return ClassRowProblem{"the score lies outside [0, 1]",
-                             "a probability in [0, 1] (or --scale logit for scores on the logit scale)", j};
+                             "a probability in [0, 1] (" + std::string(range_advice) + ")", j};
     sum += values[j];
   }
   if (!(std::fabs(sum - 1.0) <= sum_tolerance))
     return ClassRowProblem{"the row's " + std::to_string(k) + " probabilities sum to " + significant_text(sum, 6),
-                           "a sum within " + shortest_text(sum_tolerance) +
-                               " of 1 (or --sum-tolerance to widen it, or --scale logit for logits)",
+                           "a sum within " + shortest_text(sum_tolerance) + " of 1 (" + std::string(sum_advice) + ")",
                            0};
   return std::nullopt;
 }

@@ -160,6 +160,12 @@ class MultiClassTest(PlumbCase):
         write(bad, "p_on_time,p_late,p_lost,p_returned\n0.7,0.1,0.1,0.1\n0.7,NA,0.1,0.1\n")
         self.assert_refused(["apply", path, bad, "-o", out], 3, "bad.csv:3:2", "the score is missing",
                             "--missing skip", output=out)
+        write(bad, "p_on_time,p_late,p_lost,p_returned\n0.7,0.1,0.1,0.1\n0.7,0.2,0.1,0.1\n")
+        self.assert_refused(["apply", path, bad, "-o", out], 3, "bad.csv:3:1", "sum to 1.1",
+                            "or --sum-tolerance to widen it", output=out)
+        rc, text, err = run("apply", path, bad, "--sum-tolerance", "0.2")
+        self.assertEqual(rc, 0, err)
+        write(bad, "p_on_time,p_late,p_lost,p_returned\n0.7,0.1,0.1,0.1\n0.7,NA,0.1,0.1\n")
         rc, text, err = run("apply", path, bad, "--missing", "empty")
         self.assertEqual(rc, 0, err)
         self.assertEqual(text.splitlines()[2], "0.7,NA,0.1,0.1,,,,")

@@ -15,6 +15,7 @@
 
 #include "plumb/class_map.hpp"
 #include "plumb/io/apply_stream.hpp"
+#include "plumb/io/class_input.hpp"
 #include "plumb/io/csv.hpp"
 #include "plumb/io/labelled_input.hpp"
 #include "plumb/io/output.hpp"
@@ -30,6 +31,10 @@ struct ClassApplyOptions {
   int digits = 0;          // as ApplyStreamOptions::digits
   bool argmax = false;     // append the most probable class's name (the first on a tie)
   double sum_tolerance = 1e-3;  // probability scale: as ClassColumns::sum_tolerance
+  // The caller's advice for a bad sum and a probability outside [0, 1]
+  // (class_row_problem), naming its own options.
+  std::string sum_advice{default_sum_advice};
+  std::string range_advice{default_range_advice};
   unsigned threads = 1;
   std::size_t block_rows = 8192;
 };

@@ -72,8 +72,15 @@ struct ClassRowProblem {
   std::string expected;
   std::size_t column = 0;  // index into the row's values of the cell to locate
 };
+// `sum_advice` and `range_advice` close the expectation of a bad sum and of
+// a probability outside [0, 1] in the caller's words, naming its options;
+// the defaults are those of the commands that take --sum-tolerance and
+// --scale (fit, cross-fit, report).
+inline constexpr std::string_view default_sum_advice = "or --sum-tolerance to widen it, or --scale logit for logits";
+inline constexpr std::string_view default_range_advice = "or --scale logit for scores on the logit scale";
 std::optional<ClassRowProblem> class_row_problem(const double* values, std::size_t k, ClassScale scale,
-                                                 double sum_tolerance);
+                                                 double sum_tolerance, std::string_view sum_advice = default_sum_advice,
+                                                 std::string_view range_advice = default_range_advice);
 
 struct ClassRows {
   ClassScores data;
