@@ -108,7 +108,7 @@ std::unique_ptr<ClassCalibrationMap> fit_class_map(std::string_view kind, const 
   for (std::size_t j = 0; j < k; ++j)
     if (!(weight_of[j] > 0.0))
       throw Error(ErrorKind::fit, "the class '" + data.classes[j] + "' has no row of positive weight", {},
-                  data.classes[j], "rows of every class (or leave the class out of the score columns and --classes)");
+                  data.classes[j], "rows of every class of the score columns");
   return entry->fit(data, options);
 }
 

@@ -174,7 +174,7 @@ Artifact artifact_from_text(const std::string& text, const std::string& where) {
     Location loc;
     loc.file = where;
     throw Error(ErrorKind::artifact, "the map artifact holds a multi-class map", loc, {},
-                "a binary map here (a multi-class map is applied with plumb apply --scores)");
+                "a binary map here (plumb apply and plumb inspect read a multi-class map)");
   }
   // Version 4 is the multi-class feature's (docs/artifact-format.md, "Versioning").
   if (version == 4)

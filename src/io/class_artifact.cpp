@@ -86,7 +86,7 @@ ClassArtifact class_artifact_from_text(const std::string& text, const std::strin
   loc.file = where;
   if (!doc.contains("classes"))
     throw Error(ErrorKind::artifact, "the map artifact holds a binary map", loc, {},
-                "a multi-class map here (a binary map is applied with plumb apply --score)");
+                "a multi-class map here (a binary map is read as plumb fit --score writes it)");
   if (version < class_artifact_feature_version)
     jf::fail(where, "classes", "is present in a format version " + std::to_string(version) + " document",
              "format version " + std::to_string(class_artifact_feature_version) + " for a multi-class map");
