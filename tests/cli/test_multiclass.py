@@ -155,8 +155,13 @@ class MultiClassTest(PlumbCase):
                              "-o", out], 2, "--classes names a class twice", output=out)
         self.assert_refused(["fit", "--map", "isotonic", "--scores", "p_*", "--label", "y", bad, "-o", out], 2,
                             "does not take --scores", output=out)
+        self.assert_refused(["fit", "--map", "dirichlet", "--score", "p_a", "--label", "y", bad, "-o", out], 2,
+                            "the dirichlet map is a multi-class kind and needs --scores", output=out)
         # apply: a missing score is refused at its cell, and no output is left.
         path, _ = self.fit("temperature")
+        # A binary reader refuses the multi-class map rather than misread it.
+        self.assert_refused(["report", "--score", "p_late", "--label", "outcome", "--map", path, OUTCOMES], 4,
+                            "the map artifact holds a multi-class map")
         write(bad, "p_on_time,p_late,p_lost,p_returned\n0.7,0.1,0.1,0.1\n0.7,NA,0.1,0.1\n")
         self.assert_refused(["apply", path, bad, "-o", out], 3, "bad.csv:3:2", "the score is missing",
                             "--missing skip", output=out)
