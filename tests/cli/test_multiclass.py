@@ -82,6 +82,22 @@ class MultiClassTest(PlumbCase):
                         self.assertAlmostEqual(a, b, delta=1e-12)
                     self.assertEqual(r_out[-1], CLASSES[max(range(4), key=lambda k: (got_q[k], -k))])
 
+    def test_apply_passes_quoted_fields_and_crlf_through(self):
+        path, _ = self.fit("vector")
+        src = self.path("q.csv")
+        with open(src, "wb") as f:
+            f.write(b'id,note,p_on_time,p_late,p_lost,p_returned\r\n1,"a, ""quoted""\nnote",0.7,0.1,0.1,0.1\r\n'
+                    b'2,plain,0.25,0.25,0.25,0.25\r\n')
+        out = self.path("q.out.csv")
+        run("apply", path, src, "--argmax", "likely, class", "-o", out, check=True)
+        with open(out, "rb") as f:
+            lines = f.read().split(b"\r\n")
+        self.assertTrue(lines[0].endswith(b',p_returned_calibrated,"likely, class"'))
+        self.assertTrue(lines[1].startswith(b'1,"a, ""quoted""\nnote",0.7,0.1,0.1,0.1,'))
+        self.assertTrue(lines[2].startswith(b"2,plain,0.25,0.25,0.25,0.25,"))
+        self.assertEqual(lines[3], b"")
+        self.assertEqual(len(lines[2].split(b",")), 6 + 4 + 1)
+
     def test_apply_is_the_same_for_any_thread_count(self):
         path, _ = self.fit("dirichlet")
         outputs = []
