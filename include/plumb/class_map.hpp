@@ -98,10 +98,15 @@ bool log_probabilities(const double* in, std::size_t k, ClassScale scale, double
 // taken out first.
 void softmax(const double* eta, std::size_t k, double* out) noexcept;
 
+// The most classes a dirichlet map is fitted for (its Newton step solves
+// K(K+1) equations, and each row adds about (K(K+1))^2 / 2 terms).
+inline constexpr std::size_t max_dirichlet_classes = 20;
+
 // Fit a map of `kind`. Throws plumb::Error: usage for an unknown kind or an
 // option out of range (a negative l2, an unknown per-class kind); fit when
-// the rows cannot support the fit: no row of positive weight, or a class
-// with no row of positive weight (named). Precondition: data holds labels,
+// the rows cannot support the fit: no row of positive weight, a class with
+// no row of positive weight (named), or dirichlet for more than
+// max_dirichlet_classes classes. Precondition: data holds labels,
 // and values valid on its scale (as io::read_class_scores guarantees).
 std::unique_ptr<ClassCalibrationMap> fit_class_map(std::string_view kind, const ClassScores& data,
                                                    const ClassMapOptions& options = {});

@@ -103,6 +103,14 @@ std::unique_ptr<ClassCalibrationMap> fit_class_map(std::string_view kind, const 
   if (k < 2) throw Error(ErrorKind::fit, "a multi-class map needs two classes or more", {}, {}, "K >= 2");
   if (data.label.size() != data.rows)
     throw Error(ErrorKind::internal, "fit_class_map: the rows are not labelled");
+  // Newton's Hessian holds (K(K+1))^2 numbers, and each row adds about half
+  // of them: beyond this, the fit would take minutes per step.
+  if (kind == "dirichlet" && k > max_dirichlet_classes)
+    throw Error(ErrorKind::fit,
+                "dirichlet calibration of " + std::to_string(k) + " classes fits " + std::to_string(k * (k + 1)) +
+                    " parameters",
+                {}, std::to_string(k), "at most " + std::to_string(max_dirichlet_classes) +
+                                           " classes for dirichlet (vector or temperature take more)");
   std::vector<double> weight_of(k, 0.0);
   for (std::size_t r = 0; r < data.rows; ++r) weight_of[data.label[r]] += data.weight.empty() ? 1.0 : data.weight[r];
   for (std::size_t j = 0; j < k; ++j)

@@ -152,6 +152,20 @@ TEST_CASE("a class without rows is refused for fit", "[multiclass]") {
   }
 }
 
+TEST_CASE("dirichlet is refused beyond its class limit, vector is not", "[multiclass]") {
+  plumb::ClassScores s;
+  s.scale = plumb::ClassScale::logit;
+  const std::size_t k = plumb::max_dirichlet_classes + 1;
+  for (std::size_t c = 0; c < k; ++c) s.classes.push_back("c" + std::to_string(c));
+  for (std::size_t r = 0; r < 2 * k; ++r) {
+    for (std::size_t c = 0; c < k; ++c) s.values.push_back(c == r % k ? 1.0 : 0.0);
+    s.label.push_back(static_cast<std::uint32_t>((r + r / k) % k));
+    ++s.rows;
+  }
+  CHECK(plumb::test::error_kind([&] { plumb::fit_class_map("dirichlet", s); }) == plumb::ErrorKind::fit);
+  CHECK_FALSE(plumb::test::error_kind([&] { plumb::fit_class_map("vector", s); }).has_value());
+}
+
 TEST_CASE("the multi-class artifact reads back exactly, at format version 4", "[multiclass][artifact]") {
   const plumb::ClassScores s = small_rows(5);
   for (const auto& kind : plumb::class_map_kinds()) {
