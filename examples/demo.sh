@@ -51,4 +51,12 @@ say "$plumb" report --score risk --map "$out/half.isotonic.map.json" --map "$out
   --label missed --by depot "$out/check-half.csv" \
   --json "$out/report.json" --svg "$out/reliability.svg" --markdown "$out/report.md"
 
+# 6. Four outcomes (on time, late, lost, returned): one map for all classes,
+#    chosen out of fold, then tonight's parcels with their likely outcome.
+say "$plumb" cross-fit --scores 'p_*' --label outcome data/outcomes.csv -o "$out/outcome.map.json"
+say "$plumb" apply "$out/outcome.map.json" data/outcomes_tonight.csv --argmax likely_outcome \
+  -o "$out/outcomes_tonight.calibrated.csv"
+printf '\n$ head -3 %s\n' "$out/outcomes_tonight.calibrated.csv"
+head -3 "$out/outcomes_tonight.calibrated.csv"
+
 printf '\nDemo outputs are in %s\n' "$out"

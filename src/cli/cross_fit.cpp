@@ -15,6 +15,10 @@
 #include "plumb/io/apply_stream.hpp"
 #include "plumb/io/artifact.hpp"
 #include "plumb/cross_fit.hpp"
+#include "plumb/class_cross_fit.hpp"
+#include "plumb/io/class_artifact.hpp"
+#include "plumb/io/class_input.hpp"
+#include "plumb/version.hpp"
 #include "plumb/io/csv.hpp"
 #include "plumb/error.hpp"
 #include "plumb/map_registry.hpp"
@@ -51,7 +55,11 @@ std::string usage_footer() {
          "each negative row counts 1/RATE times in every figure, the paired comparison and so the choice (the raw\n"
          "score's row is weighed so too, its probabilities as given). The artifact records odds x RATE, as\n"
          "fit --negative-rate does, and the evidence its negative_rate.\n\n"
+         "Multi-class (--scores): the split is stratified by class; --map auto compares temperature, vector,\n"
+         "dirichlet at each L2 of --l2-grid and one_vs_rest (--per-class), by out-of-fold log loss with the\n"
+         "same one-standard-error rule (a larger L2 counts as simpler), and ships the choice refitted on all rows.\n\n"
          "Examples:\n"
+         "  plumb cross-fit --scores 'p_*' --label outcome --folds 5 -o outcome.map.json parcels.csv\n"
          "  plumb cross-fit --map isotonic,platt,beta --score risk --label missed --split group=parcel_route \\\n"
          "      --oof oof.csv -o late.map.json holdout.csv\n"
          "  plumb cross-fit --score risk --label missed --split time=night --final folds holdout.csv > late.map.json";
@@ -72,6 +80,10 @@ struct CrossFitOptions {
   bool no_timestamp = false;
   double negative_rate = 1.0;  // --negative-rate, when negative_rate_given
   bool negative_rate_given = false;
+  ClassOptions classes;                  // --scores, --classes, --sum-tolerance
+  std::vector<double> l2_grid = default_l2_grid();  // --l2-grid
+  std::string per_class = "isotonic";    // --per-class
+  std::vector<std::string> given;        // options that do not go with --scores, as given
 };
 
 struct Split {
@@ -221,7 +233,137 @@ void write_oof(const CrossFitOptions& o, const io::LabelledRows& rows, const Cro
   out.commit();
 }
 
+// The multi-class cross-fit: stratified by class, candidates from the
+// multi-class registry (dirichlet once per L2 of the grid), the choice
+// refitted on all rows and written with its evidence.
+int run_class_cross_fit(const CrossFitOptions& o) {
+  for (const std::string& g : o.given)
+    throw Error(ErrorKind::usage, g + " does not apply with --scores", {}, {},
+                "--scores COLS --label COL with --map, --folds, --seed, --l2-grid, --per-class, --json, -o");
+  const MapKind* per = find_map_kind(o.per_class);
+  if (!per || !per->fittable || !per->accepts(Scale::probability))
+    throw Error(ErrorKind::usage, "--per-class names no binary kind on probabilities", {}, o.per_class,
+                map_kind_list());
+  for (double l2 : o.l2_grid)
+    if (!(l2 >= 0.0 && std::isfinite(l2)))
+      throw Error(ErrorKind::usage, "--l2-grid holds a negative or infinite weight", {}, shortest(l2),
+                  "L2 weights >= 0, comma separated");
+  std::vector<ClassCandidateSpec> candidates;
+  if (o.maps == "auto") {
+    candidates = auto_class_candidates(o.l2_grid, o.per_class);
+  } else {
+    std::string rest = o.maps;
+    while (!rest.empty()) {
+      const std::size_t comma = rest.find(',');
+      const std::string kind = rest.substr(0, comma);
+      rest = comma == std::string::npos ? "" : rest.substr(comma + 1);
+      if (!find_class_map_kind(kind))
+        throw Error(ErrorKind::usage, "--map names no multi-class kind", {}, kind,
+                    "auto, or a comma list of " + class_map_kind_list());
+      if (kind == "dirichlet") {
+        for (double l2 : o.l2_grid) {
+          ClassCandidateSpec s{kind, {}};
+          s.options.l2 = l2;
+          candidates.push_back(s);
+        }
+      } else {
+        ClassCandidateSpec s{kind, {}};
+        s.options.per_class = o.per_class;
+        candidates.push_back(s);
+      }
+    }
+  }
+  const io::ClassColumns columns = class_columns(o.input, o.classes);
+  const io::ClassRows rows = io::read_class_scores(o.input.file, columns, parse_separator(o.input.separator));
+  const Folds folds = class_stratified_folds(rows.data.label, rows.data.k(), o.folds, o.seed);
+  ClassCrossFitResult result;
+  Location loc;
+  loc.file = rows.source;
+  try {
+    result = class_cross_fit(rows.data, folds, candidates);
+  } catch (const Error& e) {
+    if (e.kind() != ErrorKind::fit || !e.where().file.empty()) throw;
+    throw Error(e.kind(), e.message(), loc, e.value(), e.expected());
+  }
+  const ClassCandidate& chosen = result.candidates[result.chosen];
+  nlohmann::json list = nlohmann::json::array();
+  for (const ClassCandidate& c : result.candidates)
+    list.push_back({{"kind", c.spec.kind},
+                    {"name", c.name},
+                    {"l2", c.spec.kind == "dirichlet" ? nlohmann::json(c.spec.options.l2) : nlohmann::json(nullptr)},
+                    {"log_loss", c.log_loss},
+                    {"fold_log_loss", c.fold_log_loss},
+                    {"log_loss_minus_best", c.diff_vs_best},
+                    {"log_loss_minus_best_se", c.diff_se}});
+  const nlohmann::json evidence = {{"folds", folds.count},
+                                   {"split", {{"kind", "stratified"}, {"by", "class"}}},
+                                   {"seed", o.seed},
+                                   {"final", "refit"},
+                                   {"scored_rows", result.scored_rows},
+                                   {"candidates", list},
+                                   {"chosen", chosen.name},
+                                   {"reason", result.reason}};
+  ClassArtifact artifact;
+  try {
+    ClassMapOptions options = chosen.spec.options;
+    options.binary = o.choices.map_options();
+    artifact.map = fit_class_map(chosen.spec.kind, rows.data, options);
+    if (chosen.spec.kind == "dirichlet") artifact.fit_options["l2"] = options.l2;
+    if (chosen.spec.kind == "one_vs_rest") {
+      artifact.fit_options["per_class"] = options.per_class;
+      artifact.fit_options["per_class_options"] = o.choices.recorded(options.per_class);
+    }
+  } catch (const Error& e) {
+    if (e.kind() != ErrorKind::fit || !e.where().file.empty()) throw;
+    throw Error(e.kind(), e.message(), loc, e.value(), e.expected());
+  }
+  if (columns.scale == ClassScale::probability) artifact.fit_options["sum_tolerance"] = columns.sum_tolerance;
+  artifact.score_columns = rows.score_columns;
+  artifact.cross_fit = evidence;
+  ClassProvenance& p = artifact.provenance;
+  p.source = rows.source;
+  p.source_sha256 = rows.source_sha256;
+  p.rows = rows.data.rows;
+  p.class_weights.assign(rows.data.k(), 0.0);
+  for (std::size_t r = 0; r < rows.data.rows; ++r) {
+    const double w = rows.data.weight.empty() ? 1.0 : rows.data.weight[r];
+    p.class_weights[rows.data.label[r]] += w;
+    p.weight_total += w;
+  }
+  p.label_column = rows.label_column;
+  p.weight_column = rows.weight_column;
+  if (columns.missing == io::MissingPolicy::skip) p.rows_skipped = rows.skipped;
+  p.tool = std::string("plumb ") + version_string;
+  p.created_utc = o.no_timestamp ? std::string() : utc_now();
+
+  if (!o.json_path.empty()) {
+    io::OutputFile json_out(o.json_path);
+    json_out.write(evidence_to_text(evidence));
+    json_out.commit();
+  }
+  io::OutputFile out(o.output);
+  out.write(class_artifact_to_text(artifact));
+  out.commit();
+  if (!o.input.quiet) {
+    std::size_t width = 10;
+    for (const ClassCandidate& c : result.candidates) width = std::max(width, c.name.size());
+    std::fprintf(stderr, "plumb cross-fit: %zu folds stratified by class, seed %s, %s rows scored out of fold\n",
+                 folds.count, std::to_string(o.seed).c_str(), grouped(result.scored_rows).c_str());
+    std::fprintf(stderr, "  %-*s %12s %14s %10s\n", static_cast<int>(width), "candidate", "oof log loss",
+                 "minus best", "se");
+    for (const ClassCandidate& c : result.candidates)
+      std::fprintf(stderr, "  %-*s %12s %14s %10s\n", static_cast<int>(width), c.name.c_str(),
+                   fixed_text(c.log_loss, 6).c_str(), fixed_text(c.diff_vs_best, 6).c_str(),
+                   fixed_text(c.diff_se, 6).c_str());
+    std::fprintf(stderr, "plumb cross-fit: chose %s: %s\n", chosen.name.c_str(), result.reason.c_str());
+    std::fprintf(stderr, "plumb cross-fit: %s map (refitted on all rows) written to %s\n", chosen.name.c_str(),
+                 out.name().c_str());
+  }
+  return 0;
+}
+
 int run_cross_fit(const CrossFitOptions& o) {
+  if (!o.classes.scores.empty()) return run_class_cross_fit(o);
   if (o.oof_digits != 0 && o.oof.empty())
     throw Error(ErrorKind::usage, "--digits sets the digits of the --oof file, and no --oof was given", {},
                 std::to_string(o.oof_digits), "--oof FILE with --digits");
@@ -383,8 +525,26 @@ Command add_cross_fit_command(CLI::App& app) {
                   "records odds x RATE")
       ->option_text("RATE");
   cmd->add_flag("--no-timestamp", o->no_timestamp, "Leave the creation time out of the artifact");
+  add_class_options(*cmd, o->classes);
+  cmd->add_option("--l2-grid", o->l2_grid,
+                  "With --scores: the L2 weights at which dirichlet is a candidate, comma separated")
+      ->delimiter(',')
+      ->default_str("1,0.1,0.01,0.001")
+      ->option_text("L2S");
+  cmd->add_option("--per-class", o->per_class, "With --scores: one_vs_rest's binary kind for each class")
+      ->check(CLI::IsMember(std::vector<std::string>(map_kinds().begin(), map_kinds().end())))
+      ->default_str("isotonic")
+      ->option_text("KIND");
   return [o, tally, cmd] {
     o->negative_rate_given = cmd->count("--negative-rate") > 0;
+    if (!o->classes.scores.empty()) {
+      for (const char* name : {"--score", "--positive", "--negative", "--split", "--oof", "--digits", "--final",
+                               "--tally", "--negative-rate"})
+        if (cmd->count(name) > 0) o->given.push_back(name);
+      if (o->input.label.empty())
+        throw Error(ErrorKind::usage, "cross-fit --scores needs --label", {}, {}, "--scores COLS --label COL FILE");
+      return run_cross_fit(*o);
+    }
     if (!tally->empty())
       throw Error(ErrorKind::usage,
                   "cross-fit cannot read a tally: its folds split the rows, and a tally has merged rows of equal "

@@ -135,6 +135,10 @@ void add_odds_step(Artifact& a, OddsStep step) {
   a.map = std::make_unique<OddsAdjustedMap>(std::move(base), k);
 }
 
+// The highest version among the features the artifact carries (each
+// feature's number is in docs/artifact-format.md, "Versioning"); a feature
+// added later takes one more line here. Multi-class maps (4) are written by
+// their own writer (plumb/io/class_artifact.hpp).
 int artifact_version(const Artifact& a) {
   // The highest version among the features the artifact carries.
   int version = 1;

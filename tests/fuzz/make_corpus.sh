@@ -17,7 +17,7 @@ trap 'rm -rf "$work"' EXIT
 # so that the names are short and the same on every run.
 cd "$work"
 rm -rf "$corpus"
-mkdir -p "$corpus/fuzz_csv" "$corpus/fuzz_labelled" "$corpus/fuzz_artifact" "$corpus/fuzz_tally"
+mkdir -p "$corpus/fuzz_csv" "$corpus/fuzz_labelled" "$corpus/fuzz_artifact" "$corpus/fuzz_tally" "$corpus/fuzz_class_input"
 
 # --- CSV texts, shared by fuzz_csv (3 option bytes first) and fuzz_labelled
 # (1 option byte first); see the layout at the top of each target.
@@ -133,5 +133,12 @@ tally --score score --label label --scale margin texts/labelled-logit.csv -o "$c
 # Rows left out for a missing score (rows_skipped).
 { cat shard-a.csv; echo "P9999999,Brellinford,3.5,NA,1"; } > shard-skip.csv
 tally --score risk --label missed --missing skip shard-skip.csv -o "$corpus/fuzz_tally/skipped.json"
+
+# --- fuzz_class_input (1 option byte first): columns p_*, y and w.
+printf '\x00p_a,p_b,p_c,y\n0.2,0.3,0.5,a\n0.6,0.3,0.1,c\n0.1,0.8,0.1,b\n' > "$corpus/fuzz_class_input/probabilities.csv"
+printf '\x03p_a,p_b,y,w\n1.5,-2,a,1\n0,3,b,2.5\n-1,1,a,0\n' > "$corpus/fuzz_class_input/logits-weighted.csv"
+printf '\x04p_a,p_b,y\n0.5,0.5,a\nNA,0.5,b\n0.3,0.7,b\n' > "$corpus/fuzz_class_input/missing-skipped.csv"
+{ printf '\x00'; head -21 "$root/data/outcomes.csv" | cut -d, -f4-8 | sed '1s/outcome/y/'; } \
+  > "$corpus/fuzz_class_input/outcomes.csv"
 
 du -sh "$corpus"
