@@ -96,6 +96,10 @@ BootstrapResult bootstrap_metrics_of_cells(std::span<const double> p, std::span<
 // of the replicates' values (non-finite values left out).
 std::mt19937_64 bootstrap_generator(std::uint64_t seed, std::size_t replicate);
 std::uint64_t poisson1_draw(std::mt19937_64& generator);
+// The same count from the generator's 64-bit draw `bits` itself
+// (poisson1_draw(g) == poisson1_of_bits(g()) for a copy of g), for callers
+// that look most draws up in a table of their leading bits first.
+std::uint64_t poisson1_of_bits(std::uint64_t bits);
 BootstrapInterval bootstrap_percentile_interval(std::vector<double> values, double confidence);
 
 // Consistency band under calibration (Broecker and Smith 2007): keep the

@@ -255,6 +255,10 @@ std::uint64_t poisson1_draw(std::mt19937_64& generator) {
   return invert1(poisson_tables().cdf[1], uniform01(generator));
 }
 
+std::uint64_t poisson1_of_bits(std::uint64_t bits) {
+  return invert1(poisson_tables().cdf[1], static_cast<double>(bits >> 11) * 0x1p-53);
+}
+
 BootstrapInterval bootstrap_percentile_interval(std::vector<double> values, double confidence) {
   return percentile_interval(std::move(values), confidence);
 }

@@ -84,72 +84,140 @@ std::vector<double> histogram(std::span<const double> f, std::span<const double>
   return h;
 }
 
+// Poisson(1) counts looked up by the leading 16 bits of a draw: the count
+// when every uniform with those bits inverts to it (255 when they straddle
+// a step of the distribution function, about one prefix in 10^4), so a
+// draw costs one table read and the same count as poisson1_of_bits.
+struct Poisson1Prefix {
+  std::vector<std::uint8_t> count;
+  Poisson1Prefix() : count(std::size_t{1} << 16) {
+    for (std::uint64_t j = 0; j < count.size(); ++j) {
+      const std::uint64_t lo = poisson1_of_bits(j << 48), hi = poisson1_of_bits((j << 48) | ((std::uint64_t{1} << 48) - 1));
+      count[j] = lo == hi && lo < 255 ? static_cast<std::uint8_t>(lo) : 255;
+    }
+  }
+  std::uint64_t operator()(std::uint64_t bits) const {
+    const std::uint8_t k = count[bits >> 48];
+    return k != 255 ? k : poisson1_of_bits(bits);
+  }
+};
+
 // Each replicate of the Poisson bootstrap: every row's weight times one
-// Poisson(1) count, drawn in row order from replicate r's generator; every
-// figure recomputed on the reweighted rows, the ECEs over equal-width bins
-// (which do not move with the weights).
+// Poisson(1) count, drawn in row order from replicate r's generator
+// (bootstrap.hpp); every figure recomputed on the reweighted rows, the ECEs
+// over equal-width bins (which do not move with the weights). The rows are
+// packed once: per row its scores, its confidence and probabilities, and
+// the slots of the replicate's sums it adds to.
 ClassBootstrapResult bootstrap_class_report(const std::vector<double>& p, const ClassScores& s,
                                             const std::vector<double>& conf, const std::vector<double>& correct,
                                             const std::vector<double>& brier, const std::vector<double>& loss,
                                             const ClassReportOptions& o) {
   const std::size_t n = s.rows, K = s.k(), B = o.bins, R = o.bootstrap;
-  std::vector<std::uint16_t> conf_bin(n), class_bin(n * K);
+  // Per row, `stride` doubles: weight, Brier term, log-loss term, right,
+  // confidence, then the K probabilities; and K + 1 slots: the top label's
+  // bin, then per class the bin of its probability (sums of (B + 1) * K
+  // slots follow the top label's B). A class's slot sums weight, weight *
+  // probability and (for the label's class) weight.
+  const std::size_t stride = 5 + K;
+  std::vector<double> row(n * stride);
+  std::vector<std::uint32_t> slot(n * (K + 1));
   for (std::size_t i = 0; i < n; ++i) {
-    conf_bin[i] = static_cast<std::uint16_t>(equal_width_bin(conf[i], B));
-    for (std::size_t k = 0; k < K; ++k)
-      class_bin[i * K + k] = static_cast<std::uint16_t>(equal_width_bin(p[i * K + k], B));
+    double* r = row.data() + i * stride;
+    r[0] = detail::weight_at(s.weight, i);
+    r[1] = brier[i];
+    r[2] = loss[i];
+    r[3] = correct[i];
+    r[4] = conf[i];
+    std::uint32_t* q = slot.data() + i * (K + 1);
+    q[0] = equal_width_bin(conf[i], B);
+    for (std::size_t k = 0; k < K; ++k) {
+      r[5 + k] = p[i * K + k];
+      q[1 + k] = static_cast<std::uint32_t>(B + k * B + equal_width_bin(p[i * K + k], B));
+    }
   }
+  const Poisson1Prefix draw;
   std::vector<double> v_brier(R), v_loss(R), v_acc(R), v_gap(R), v_top(R), v_class(R);
-  const auto replicate = [&](std::size_t r, std::vector<BinSums>& top, std::vector<BinSums>& cls) {
-    std::mt19937_64 gen = bootstrap_generator(o.seed, r);
-    top.assign(B, BinSums{});
-    cls.assign(B * K, BinSums{});
-    double W = 0.0, sb = 0.0, sl = 0.0, sa = 0.0, sc = 0.0;
-    for (std::size_t i = 0; i < n; ++i) {
-      const double t = static_cast<double>(poisson1_draw(gen));
-      const double w = detail::weight_at(s.weight, i) * t;
+  // One replicate's running state: its generator, its five totals (weight,
+  // Brier, log loss, right, confidence) and three sums per slot (weight,
+  // weight * forecast, weight * label).
+  struct Replicate {
+    std::mt19937_64 gen;
+    double total[5] = {0.0, 0.0, 0.0, 0.0, 0.0};
+    std::vector<double> sums;
+  };
+  // Adds rows [from, to) to one replicate, drawing their counts in row order.
+  const auto add_rows = [&](Replicate& rep, std::size_t from, std::size_t to) {
+    double* sums = rep.sums.data();
+    for (std::size_t i = from; i < to; ++i) {
+      const std::uint64_t t = draw(rep.gen());
+      if (t == 0) continue;
+      const double* x = row.data() + i * stride;
+      const double w = x[0] * static_cast<double>(t);
       if (w == 0.0) continue;
-      W += w;
-      sb += w * brier[i];
-      sl += w * loss[i];
-      sa += w * correct[i];
-      sc += w * conf[i];
-      BinSums& b = top[conf_bin[i]];
-      b.weight += w;
-      b.forecast += w * conf[i];
-      b.label += w * correct[i];
+      rep.total[0] += w;
+      rep.total[1] += w * x[1];
+      rep.total[2] += w * x[2];
+      rep.total[3] += w * x[3];
+      rep.total[4] += w * x[4];
+      const std::uint32_t* q = slot.data() + i * (K + 1);
+      double* top = sums + 3 * q[0];
+      top[0] += w;
+      top[1] += w * x[4];
+      top[2] += w * x[3];
       const std::uint32_t y = s.label[i];
       for (std::size_t k = 0; k < K; ++k) {
-        BinSums& c = cls[k * B + class_bin[i * K + k]];
-        c.weight += w;
-        c.forecast += w * p[i * K + k];
-        if (k == y) c.label += w;
+        double* c = sums + 3 * q[1 + k];
+        c[0] += w;
+        c[1] += w * x[5 + k];
+        if (k == y) c[2] += w;
       }
     }
-    const double nan = std::nan("");
+  };
+  const auto finish = [&](std::size_t r, const Replicate& rep, std::vector<BinSums>& bins) {
+    const double W = rep.total[0];
     if (!(W > 0.0)) {
-      v_brier[r] = v_loss[r] = v_acc[r] = v_gap[r] = v_top[r] = v_class[r] = nan;
+      v_brier[r] = v_loss[r] = v_acc[r] = v_gap[r] = v_top[r] = v_class[r] = std::nan("");
       return;
     }
-    v_brier[r] = sb / W;
-    v_loss[r] = sl / W;
-    v_acc[r] = sa / W;
-    v_gap[r] = sc / W - sa / W;
+    v_brier[r] = rep.total[1] / W;
+    v_loss[r] = rep.total[2] / W;
+    v_acc[r] = rep.total[3] / W;
+    v_gap[r] = rep.total[4] / W - rep.total[3] / W;
     // Only the ECE is read from these sums: rows and squared weights are
     // left at zero.
-    v_top[r] = calibration_error(top, BinningKind::equal_width).ece;
+    const auto ece_of = [&](std::size_t first) {
+      bins.assign(B, BinSums{});
+      for (std::size_t b = 0; b < B; ++b) {
+        bins[b].weight = rep.sums[3 * (first + b)];
+        bins[b].forecast = rep.sums[3 * (first + b) + 1];
+        bins[b].label = rep.sums[3 * (first + b) + 2];
+      }
+      return calibration_error(bins, BinningKind::equal_width).ece;
+    };
+    v_top[r] = ece_of(0);
     double mean = 0.0;
-    for (std::size_t k = 0; k < K; ++k)
-      mean += calibration_error(std::span<const BinSums>(cls).subspan(k * B, B), BinningKind::equal_width).ece;
+    for (std::size_t k = 0; k < K; ++k) mean += ece_of(B + k * B);
     v_class[r] = mean / static_cast<double>(K);
   };
   std::size_t threads = o.threads == 0 ? std::max(1u, std::thread::hardware_concurrency()) : o.threads;
   threads = std::min(threads, R);
   std::vector<std::exception_ptr> errors(threads);
+  // Thread t runs replicates t, t + threads, ...; it walks the rows once, a
+  // block at a time, and runs each of its replicates over the block while
+  // the block is in cache. Each replicate still draws and adds its rows in
+  // row order, so the numbers are those of one replicate at a time.
+  constexpr std::size_t block = 1024;
   const auto worker = [&](std::size_t t) {
     try {
-      std::vector<BinSums> top, cls;
-      for (std::size_t r = t; r < R; r += threads) replicate(r, top, cls);
+      std::vector<Replicate> mine;
+      for (std::size_t r = t; r < R; r += threads) {
+        mine.push_back(Replicate{bootstrap_generator(o.seed, r), {}, {}});
+        mine.back().sums.assign((B + K * B) * 3, 0.0);
+      }
+      for (std::size_t from = 0; from < n; from += block)
+        for (Replicate& rep : mine) add_rows(rep, from, std::min(n, from + block));
+      std::vector<BinSums> bins;
+      for (std::size_t j = 0; j < mine.size(); ++j) finish(t + j * threads, mine[j], bins);
     } catch (...) {
       errors[t] = std::current_exception();
     }

@@ -228,3 +228,41 @@ TEST_CASE("class report: refusals", "[class_report]") {
   one_class.classes = {"only"};
   CHECK_THROWS_AS(plumb::build_class_report(one_class, two_bins()), plumb::Error);
 }
+
+TEST_CASE("class report: a replicate reweights the rows by Poisson(1) counts drawn in row order",
+          "[class_report]") {
+  // With one replicate the interval is that replicate's figure, which is
+  // recomputed here from the documented draws (bootstrap.hpp: replicate 0's
+  // generator, one Poisson(1) count per row by inversion).
+  const plumb::ClassScores s = random_case(4000, 3, 21);
+  plumb::ClassReportOptions o;
+  o.bootstrap = 1;
+  o.seed = 5;
+  o.threads = 1;
+  const plumb::ClassReport r = plumb::build_class_report(s, o);
+  REQUIRE(r.bootstrap);
+  std::mt19937_64 gen = plumb::bootstrap_generator(5, 0);
+  double W = 0.0, brier = 0.0, right = 0.0;
+  for (std::size_t i = 0; i < s.rows; ++i) {
+    const double t = static_cast<double>(plumb::poisson1_draw(gen));
+    const double* p = s.row(i);
+    double b = 0.0;
+    std::size_t top = 0;
+    for (std::size_t k = 0; k < 3; ++k) {
+      const double d = p[k] - (k == s.label[i] ? 1.0 : 0.0);
+      b += d * d;
+      if (p[k] > p[top]) top = k;
+    }
+    W += t;
+    brier += t * b;
+    right += top == s.label[i] ? t : 0.0;
+  }
+  CHECK_THAT(r.bootstrap->brier.lo, WithinAbs(brier / W, 1e-12));
+  CHECK(r.bootstrap->brier.lo == r.bootstrap->brier.hi);
+  CHECK_THAT(r.bootstrap->accuracy.lo, WithinAbs(right / W, 1e-12));
+}
+
+TEST_CASE("poisson1_of_bits gives poisson1_draw's count for the same draw", "[class_report][bootstrap]") {
+  std::mt19937_64 a = plumb::bootstrap_generator(3, 7), b = a;
+  for (int i = 0; i < 200000; ++i) REQUIRE(plumb::poisson1_draw(a) == plumb::poisson1_of_bits(b()));
+}
