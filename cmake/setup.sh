@@ -10,13 +10,13 @@ set -euo pipefail
 
 plumb_build_packages=(cmake ninja-build g++ libcli11-dev nlohmann-json3-dev libeigen3-dev libboost-dev
                       libssl-dev zlib1g-dev python3)
-# The reference checks ask R (stats, Iso, MASS) at test time; the CLI tests
+# The reference checks ask R (stats, Iso, MASS, nnet) at test time; the CLI tests
 # run on Debian's python3; the artifact schema is checked with jsonschema.
 # The fuzz targets build with clang and its libFuzzer runtime; the sharded
 # example runs on Dask; the Python module builds with pybind11 against
 # Debian's python3 headers and is tested with NumPy; plumb export --sql is
 # checked in SQLite (the sqlite3 shell) and in a throwaway PostgreSQL cluster.
-plumb_test_packages=(catch2 r-base-core r-cran-iso r-cran-mass python3-jsonschema clang libclang-rt-14-dev
+plumb_test_packages=(catch2 r-base-core r-cran-iso r-cran-mass r-cran-nnet python3-jsonschema clang libclang-rt-14-dev
                      python3-dask python3-distributed pybind11-dev python3-pybind11 python3-dev python3-numpy
                      sqlite3 postgresql)
 

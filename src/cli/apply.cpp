@@ -1,6 +1,7 @@
 // plumb apply: stream rows through a map artifact, appending the calibrated
 // probability to every row (or writing it in place of the score with
 // --replace) and passing every other input column through unchanged.
+#include <algorithm>
 #include <charconv>
 #include <cstdio>
 #include <string>
@@ -10,6 +11,8 @@
 #include "cli/common.hpp"
 #include "plumb/io/apply_stream.hpp"
 #include "plumb/io/artifact.hpp"
+#include "plumb/io/class_apply_stream.hpp"
+#include "plumb/io/class_artifact.hpp"
 #include "plumb/map_registry.hpp"
 #include "plumb/io/csv.hpp"
 #include "plumb/error.hpp"
@@ -29,9 +32,13 @@ constexpr const char* kUsageFooter =
     "gives one), in the shortest digits that read back to the same double unless --digits says how many.\n"
     "With -o the output appears only when the whole input has been read without error; a name ending in\n"
     ".gz is written as gzip.\n\n"
+    "A multi-class map (fitted with --scores) reads the K score columns it was fitted on (or those --scores\n"
+    "names, in the map's class order) and appends K columns NAME_calibrated, one per score column, whose\n"
+    "values sum to 1 on each row; --argmax NAME adds a column with the most probable class.\n\n"
     "Examples:\n"
     "  plumb apply late.map.json tonight.csv -o tonight.calibrated.csv\n"
-    "  plumb apply late.map.json big.csv.gz --as p_late | next-step";
+    "  plumb apply late.map.json big.csv.gz --as p_late | next-step\n"
+    "  plumb apply outcome.map.json parcels.csv --argmax likely_outcome -o parcels.calibrated.csv";
 
 struct ApplyOptions {
   std::string artifact;
@@ -45,6 +52,9 @@ struct ApplyOptions {
   int digits = 0;  // 0: shortest round trip
   bool replace = false;
   bool quiet = false;
+  std::string argmax;               // multi-class: name of the most-probable-class column
+  std::vector<std::string> scores;  // multi-class: the score columns, in the map's class order
+  std::vector<std::string> given;   // binary-only options given
 };
 
 // The field as it must be written so a CSV reader reads `text` back.
@@ -58,8 +68,91 @@ std::string quoted_if_needed(const std::string& text, char delimiter) {
   return out + "\"";
 }
 
+int run_apply_classes(const ApplyOptions& o, const ClassArtifact& artifact) {
+  const ClassCalibrationMap& map = *artifact.map;
+  for (const std::string& g : o.given)
+    throw Error(ErrorKind::usage, g + " does not apply to a multi-class map", {}, {},
+                "--scores COLS to name the score columns, --argmax NAME for the most probable class");
+  io::CsvOptions csv;
+  csv.delimiter = parse_separator(o.separator);
+  csv.keep_sha256 = false;
+  io::CsvReader reader(o.file, csv);
+  if (!o.scores.empty() && o.scores.size() != map.k())
+    throw Error(ErrorKind::usage, "--scores names " + std::to_string(o.scores.size()) + " columns for a map of " +
+                                      std::to_string(map.k()) + " classes",
+                {}, {}, "one column per class, in the map's class order");
+  io::ClassApplyOptions stream;
+  std::vector<std::string> new_names;
+  for (std::size_t j = 0; j < map.k(); ++j) {
+    const std::string spec = o.scores.empty() ? artifact.score_columns[j] : o.scores[j];
+    std::size_t c = 0;
+    try {
+      c = reader.column(spec, "score");
+    } catch (const Error& e) {
+      if (!o.scores.empty() || e.kind() != ErrorKind::input) throw;
+      throw Error(e.kind(), e.message() + " (the map was fitted on column '" + spec + "' for class '" +
+                                map.classes()[j] + "')",
+                  e.where(), e.value(), e.expected() + "; or name the columns with --scores");
+    }
+    stream.score_columns.push_back(c);
+    new_names.push_back(reader.header()[c] + "_calibrated");
+  }
+  if (!o.argmax.empty()) new_names.push_back(o.argmax);
+  for (std::size_t i = 0; i < new_names.size(); ++i) {
+    bool taken = std::find(new_names.begin(), new_names.begin() + static_cast<std::ptrdiff_t>(i), new_names[i]) !=
+                 new_names.begin() + static_cast<std::ptrdiff_t>(i);
+    for (const std::string& h : reader.header()) taken = taken || h == new_names[i];
+    if (taken) {
+      Location loc;
+      loc.file = reader.name();
+      loc.line = 1;
+      throw Error(ErrorKind::usage, "the input already has a column named '" + new_names[i] + "'", loc, {},
+                  o.argmax == new_names[i] ? "another name given with --argmax"
+                                           : "score columns whose NAME_calibrated is free (rename them and use --scores)");
+    }
+  }
+  const char delim = reader.delimiter();
+  io::OutputFile out(o.output);
+  out.write(reader.header_record().raw);
+  for (const std::string& n : new_names) {
+    out.put(delim);
+    out.write(quoted_if_needed(n, delim));
+  }
+  out.write(reader.header_record().line_end);
+  stream.missing = parse_missing(o.missing);
+  stream.digits = o.digits;
+  stream.argmax = !o.argmax.empty();
+  stream.threads = o.threads == 0 ? std::max(1u, std::thread::hardware_concurrency()) : o.threads;
+  if (artifact.fit_options.contains("sum_tolerance") && artifact.fit_options["sum_tolerance"].is_number())
+    stream.sum_tolerance = artifact.fit_options["sum_tolerance"].get<double>();
+  Progress progress("plumb apply", o.quiet);
+  const io::ClassApplyCounts counts =
+      io::class_apply_stream(reader, map, out, stream, [&](std::uint64_t rows, std::uint64_t bytes, auto total) {
+        progress.update(rows, bytes, total);
+      });
+  out.commit();
+  progress.finish();
+  if (!o.quiet) {
+    const std::string missing_part =
+        stream.missing == io::MissingPolicy::skip
+            ? grouped(counts.skipped) + (counts.skipped == 1 ? " row" : " rows") + " with a missing score left out"
+            : grouped(counts.missing) + " rows with a missing score left empty";
+    std::fprintf(stderr, "plumb apply: %s rows through a %s map on %zu classes, %s with a probability raised to %s, "
+                         "%s; written to %s\n",
+                 grouped(counts.rows).c_str(), std::string(map.kind()).c_str(), map.k(), grouped(counts.clipped).c_str(),
+                 shortest(class_probability_floor).c_str(), missing_part.c_str(), out.name().c_str());
+  }
+  return 0;
+}
+
 int run_apply(const ApplyOptions& o) {
-  const Artifact artifact = load_artifact(o.artifact);
+  const ArtifactFile file = read_artifact_file(o.artifact);
+  if (file.multi_class) return run_apply_classes(o, class_artifact_from_text(file.text, file.name));
+  if (!o.scores.empty() || !o.argmax.empty())
+    throw Error(ErrorKind::usage, std::string(o.scores.empty() ? "--argmax" : "--scores") +
+                                      " applies to a multi-class map only",
+                {}, {}, "--score COL for a binary map");
+  const Artifact artifact = artifact_from_text(file.text, file.name);
   const CalibrationMap& map = *artifact.map;
 
   io::CsvOptions csv;
@@ -180,9 +273,20 @@ Command add_apply_command(CLI::App& app) {
                   "Threads parsing and mapping rows (0: one per core); the output is the same for any count")
       ->check(CLI::Range(0, 1024))
       ->default_str("0");
+  cmd->add_option("--scores", o->scores,
+                  "Multi-class map: the K score columns, comma separated, in the map's class order (default: the "
+                  "columns it was fitted on)")
+      ->delimiter(',')
+      ->option_text("COLS");
+  cmd->add_option("--argmax", o->argmax,
+                  "Multi-class map: also write the most probable class (the first of equals) in a column of this name");
   add_separator_option(*cmd, o->separator);
   add_quiet_option(*cmd, o->quiet);
-  return [o] { return run_apply(*o); };
+  return [o, cmd] {
+    for (const char* name : {"--score", "--as", "--replace"})
+      if (cmd->count(name) > 0) o->given.push_back(name);
+    return run_apply(*o);
+  };
 }
 
 }  // namespace plumb::cli

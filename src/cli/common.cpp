@@ -48,6 +48,46 @@ void add_input_options(CLI::App& command, InputOptions& o, bool with_label) {
   add_quiet_option(command, o.quiet);
 }
 
+void add_class_options(CLI::App& command, ClassOptions& o) {
+  command
+      .add_option("--scores", o.scores,
+                  "K score columns of a multi-class model, one per class: a list (name or 1-based index, comma "
+                  "separated) naming each class by its header, or one pattern with * (p_*) naming each class by what "
+                  "* stands for; the label column then holds class names")
+      ->delimiter(',')
+      ->option_text("COLS");
+  command
+      .add_option("--classes", o.classes,
+                  "The class order, comma separated: every class of --scores once (default: the order of the score "
+                  "columns)")
+      ->delimiter(',')
+      ->option_text("NAMES");
+  command
+      .add_option("--sum-tolerance", o.sum_tolerance,
+                  "With --scores on the probability scale: the widest gap between a row's sum and 1 accepted")
+      ->check(CLI::Range(0.0, 1.0))
+      ->default_str("0.001");
+}
+
+ClassScale parse_class_scale_option(const std::string& text) {
+  if (text == "logit") return ClassScale::logit;
+  if (text == "probability") return ClassScale::probability;
+  throw Error(ErrorKind::usage, "--scale " + text + " does not apply to --scores", {}, text,
+              "probability (each row sums to 1) or logit (a row of K logits)");
+}
+
+io::ClassColumns class_columns(const InputOptions& input, const ClassOptions& o) {
+  io::ClassColumns c;
+  c.scores = o.scores;
+  c.scale = parse_class_scale_option(input.scale);
+  c.label = input.label;
+  c.classes = o.classes;
+  c.weight = input.weight;
+  c.missing = parse_missing(input.missing);
+  c.sum_tolerance = o.sum_tolerance;
+  return c;
+}
+
 void add_label_value_options(CLI::App& command, InputOptions& o) {
   command
       .add_option("--positive", o.positive,

@@ -10,6 +10,7 @@
 
 #include "plumb/io/artifact.hpp"
 #include "plumb/calibration_map.hpp"
+#include "plumb/io/class_input.hpp"
 #include "plumb/io/labelled_input.hpp"
 #include "plumb/map_registry.hpp"
 #include "plumb/number_text.hpp"  // the formatting layer, for every summary line
@@ -125,6 +126,21 @@ io::LabelledRows read_and_tally_with_progress(const std::string& what, const Inp
 
 // The provenance of an artifact fitted on `rows` (the first score column).
 Provenance provenance_of(const io::LabelledRows& rows, const InputOptions& options, bool no_timestamp);
+
+// The multi-class input options (fit, cross-fit and apply read K score
+// columns when --scores is given).
+struct ClassOptions {
+  std::vector<std::string> scores;   // --scores: columns, or one pattern with '*'
+  std::vector<std::string> classes;  // --classes: the class order
+  double sum_tolerance = io::default_sum_tolerance;
+};
+// --scores, --classes and --sum-tolerance.
+void add_class_options(CLI::App& command, ClassOptions& options);
+// The reader's columns for labelled K-class rows under `input`'s label,
+// weight, --missing and --scale (probability or logit; margin is refused,
+// Error(usage)).
+io::ClassColumns class_columns(const InputOptions& input, const ClassOptions& options);
+ClassScale parse_class_scale_option(const std::string& text);
 
 // A count with thousands separators ("20,000"): the formatting layer's
 // count_text (plumb/number_text.hpp), under the name the commands use.

@@ -7,6 +7,9 @@
 #include "cli/common.hpp"
 #include "plumb/io/artifact.hpp"
 #include "plumb/calibration_map.hpp"
+#include "plumb/class_map.hpp"
+#include "plumb/io/class_artifact.hpp"
+#include "plumb/io/class_input.hpp"
 #include "plumb/error.hpp"
 #include "plumb/map_registry.hpp"
 #include "plumb/io/output.hpp"
@@ -26,7 +29,10 @@ constexpr const char* kUsageFooter =
     "Examples:\n"
     "  plumb fit --map isotonic --score risk --label missed holdout.csv -o late.map.json\n"
     "  plumb fit --map platt --scale logit --score z --label outcome --positive late holdout.tsv > z.map.json\n"
-    "  plumb fit --map isotonic --tally all.tally.json -o late.map.json\n\n"
+    "  plumb fit --map isotonic --tally all.tally.json -o late.map.json\n"
+    "  plumb fit --map dirichlet --l2 0.001 --scores 'p_*' --label outcome parcels.csv -o outcome.map.json\n\n"
+    "Multi-class: with --scores (K columns, one per class; the label column holds class names) --map is\n"
+    "one of the multi-class kinds below, and the map gives each row K probabilities summing to 1.\n\n"
     "With --tally (from plumb tally and merge) the map is the one a fit on all the tallied rows gives:\n"
     "every kind fits on the per-score sums, which a tally keeps. Only the recorded source (the tally\n"
     "file and its SHA-256) differs in the artifact.\n\n"
@@ -46,6 +52,9 @@ struct FitOptions {
   double negative_rate = 1.0;      // --negative-rate, when negative_rate_given
   bool negative_rate_given = false;
   std::vector<std::string> given;  // row-reading options given on the command line
+  std::vector<std::string> given_all;  // options that do not go with --scores, as given
+  ClassOptions classes;            // --scores, --classes, --sum-tolerance
+  ClassMapOptions class_map;       // --l2, --per-class
 };
 
 // Refused before any reading, so a bad rate costs no pass over the rows.
@@ -95,7 +104,13 @@ void check_scale(const FitOptions& o, Scale scale) {
   if (!kind.accepts(scale)) throw scale_refusal(kind, scale);
 }
 
+int run_fit_classes(const FitOptions& o);
+
 int run_fit(const FitOptions& o) {
+  if (!o.classes.scores.empty()) return run_fit_classes(o);
+  if (!find_map_kind(o.kind) || !find_map_kind(o.kind)->fittable)
+    throw Error(ErrorKind::usage, "the " + o.kind + " map is a multi-class kind and needs --scores", {}, o.kind,
+                "--scores COLS (one column per class), or a binary kind with --score: " + map_kind_list());
   (void)o.choices.map_options();  // refuses a bad --between-blocks before any reading
   check_negative_rate(o);
   if (!o.tally.empty()) {
@@ -211,6 +226,80 @@ int write_and_summarise(const FitOptions& o, const Artifact& artifact, const std
   return 0;
 }
 
+// The multi-class fit: K score columns, class labels, a multi-class kind.
+int run_fit_classes(const FitOptions& o) {
+  for (const char* name : {"--tally", "--positive", "--negative", "--negative-rate", "--score"})
+    for (const std::string& g : o.given_all)
+      if (g == name)
+        throw Error(ErrorKind::usage, std::string(name) + " cannot be used with --scores", {}, {},
+                    "--scores COLS --label COL FILE (the label column holds class names)");
+  if (o.input.label.empty())
+    throw Error(ErrorKind::usage, "fit --scores needs --label", {}, {}, "--scores COLS --label COL FILE");
+  if (!find_class_map_kind(o.kind))
+    throw Error(ErrorKind::usage, "the " + o.kind + " map is binary and does not take --scores", {}, o.kind,
+                "a multi-class kind: " + class_map_kind_list());
+  ClassMapOptions options = o.class_map;
+  options.binary = o.choices.map_options();
+  if (o.kind == "one_vs_rest") {
+    const MapKind* per = find_map_kind(options.per_class);
+    if (!per || !per->fittable || !per->accepts(Scale::probability))
+      throw Error(ErrorKind::usage, "--per-class names no binary kind on probabilities", {}, options.per_class,
+                  map_kind_list());
+  }
+  const io::ClassColumns columns = class_columns(o.input, o.classes);
+  const io::ClassRows rows = io::read_class_scores(o.input.file, columns, parse_separator(o.input.separator));
+  ClassArtifact artifact;
+  try {
+    artifact.map = fit_class_map(o.kind, rows.data, options);
+  } catch (const Error& e) {
+    if (e.kind() != ErrorKind::fit || !e.where().file.empty()) throw;
+    Location loc;
+    loc.file = rows.source;
+    loc.column_name = rows.label_column;
+    throw Error(e.kind(), e.message(), loc, e.value(), e.expected());
+  }
+  artifact.score_columns = rows.score_columns;
+  if (o.kind == "dirichlet") artifact.fit_options["l2"] = options.l2;
+  if (o.kind == "one_vs_rest") {
+    artifact.fit_options["per_class"] = options.per_class;
+    artifact.fit_options["per_class_options"] = o.choices.recorded(options.per_class);
+  }
+  if (columns.scale == ClassScale::probability) artifact.fit_options["sum_tolerance"] = columns.sum_tolerance;
+  ClassProvenance& p = artifact.provenance;
+  p.source = rows.source;
+  p.source_sha256 = rows.source_sha256;
+  p.rows = rows.data.rows;
+  p.class_weights.assign(rows.data.k(), 0.0);
+  for (std::size_t r = 0; r < rows.data.rows; ++r) {
+    const double w = rows.data.weight.empty() ? 1.0 : rows.data.weight[r];
+    p.class_weights[rows.data.label[r]] += w;
+    p.weight_total += w;
+  }
+  p.label_column = rows.label_column;
+  p.weight_column = rows.weight_column;
+  if (columns.missing == io::MissingPolicy::skip) p.rows_skipped = rows.skipped;
+  p.tool = std::string("plumb ") + version_string;
+  p.created_utc = o.no_timestamp ? std::string() : utc_now();
+
+  io::OutputFile out(o.output);
+  out.write(class_artifact_to_text(artifact));
+  out.commit();
+  if (!o.input.quiet) {
+    const FitDiagnostics& d = artifact.map->diagnostics();
+    std::string notes;
+    for (const std::string& n : d.notes) notes += "; " + n;
+    notes += skipped_note(o.input, rows.skipped);
+    std::fprintf(stderr, "plumb fit: %s map on %zu classes from %s rows of %s, log loss %s%s; written to %s\n",
+                 o.kind.c_str(), rows.data.k(), grouped(rows.data.rows).c_str(), rows.source.c_str(),
+                 fixed_text(d.log_loss, 6).c_str(), notes.c_str(), out.name().c_str());
+    if (!d.converged)
+      std::fprintf(stderr, "plumb fit: warning: the fit did not converge after %d iterations; the map is usable "
+                           "but its parameters are not a minimum%s\n",
+                   d.iterations, o.kind == "dirichlet" ? " (a larger --l2 makes the optimum finite)" : "");
+  }
+  return 0;
+}
+
 // The footer's list of kinds, one line each from the map registry.
 std::string maps_help() {
   std::string out = "Maps:\n";
@@ -219,6 +308,12 @@ std::string maps_help() {
     if (kind.fittable) width = std::max(width, kind.name.size() + 2);
   for (const MapKind& kind : map_registry()) {
     if (!kind.fittable) continue;
+    std::string name(kind.name);
+    name.resize(width, ' ');
+    out += "  " + name + std::string(kind.help) + "\n";
+  }
+  out += "\nMulti-class maps (with --scores):\n";
+  for (const ClassMapKind& kind : class_map_kinds()) {
     std::string name(kind.name);
     name.resize(width, ' ');
     out += "  " + name + std::string(kind.help) + "\n";
@@ -233,7 +328,9 @@ Command add_fit_command(CLI::App& app) {
   CLI::App* cmd = app.add_subcommand("fit", kUsageSummary);
   cmd->footer(maps_help() + kUsageFooter);
   // The kinds come from the map registry; the help and the refusal list them from the check.
-  const std::vector<std::string> kinds(map_kinds().begin(), map_kinds().end());
+  std::vector<std::string> kinds(map_kinds().begin(), map_kinds().end());
+  for (const ClassMapKind& k : class_map_kinds())
+    if (std::find(kinds.begin(), kinds.end(), k.name) == kinds.end()) kinds.emplace_back(k.name);
   cmd->add_option("--map", o->kind, "Kind of map (each is described below)")->required()->check(CLI::IsMember(kinds))
       ->option_text("KIND");
   add_input_options(*cmd, o->input, true);
@@ -250,6 +347,16 @@ Command add_fit_command(CLI::App& app) {
                   "The fit rows kept each negative row at this rate, in (0, 1] (downsampling): the artifact "
                   "records odds x RATE, so the map's probabilities are those of the full population")
       ->option_text("RATE");
+  add_class_options(*cmd, o->classes);
+  cmd->add_option("--l2", o->class_map.l2,
+                  "dirichlet: the L2 weight on the matrix's off-diagonal and the bias (0: matrix scaling)")
+      ->check(CLI::Range(0.0, 1e6))
+      ->default_str("0");
+  cmd->add_option("--per-class", o->class_map.per_class,
+                  "one_vs_rest: the binary kind fitted for each class (its options as for that kind)")
+      ->check(CLI::IsMember(std::vector<std::string>(map_kinds().begin(), map_kinds().end())))
+      ->default_str("isotonic")
+      ->option_text("KIND");
   cmd->add_flag("--no-timestamp", o->no_timestamp,
                 "Leave the creation time out, so the same input gives a byte-identical artifact");
   return [o, cmd] {
@@ -257,6 +364,8 @@ Command add_fit_command(CLI::App& app) {
     for (const char* name :
          {"file", "--score", "--label", "--weight", "--positive", "--negative", "--missing", "--scale", "--sep"})
       if (cmd->count(name) > 0) o->given.push_back(name[0] == '-' ? name : "a FILE of rows");
+    for (const char* name : {"--tally", "--positive", "--negative", "--negative-rate", "--score"})
+      if (cmd->count(name) > 0) o->given_all.push_back(name);
     return run_fit(*o);
   };
 }

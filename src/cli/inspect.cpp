@@ -8,6 +8,7 @@
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
 #include "plumb/io/artifact.hpp"
+#include "plumb/io/class_artifact.hpp"
 #include "plumb/version.hpp"
 
 namespace plumb::cli {
@@ -162,8 +163,72 @@ void print_odds_steps(const Artifact& a) {
   }
 }
 
+// A multi-class map: its classes and score columns side by side, then the
+// kind's parameters (a dirichlet matrix row by row, a one-vs-rest map's
+// binary maps class by class).
+int inspect_classes(const InspectOptions& o, const ClassArtifact& a) {
+  if (o.json) {
+    nlohmann::json doc = class_artifact_to_json(a);
+    doc["integrity_sha256"] = integrity_hash(doc);
+    std::cout << doc.dump(2) << "\n";
+    return 0;
+  }
+  const ClassProvenance& p = a.provenance;
+  const ClassCalibrationMap& m = *a.map;
+  const FitDiagnostics& d = m.diagnostics();
+  const std::string name = o.artifact == "-" ? "<stdin>" : o.artifact;
+  std::printf("%s: %s map on %zu classes (format %s version %d, integrity hash checked)\n\n", name.c_str(),
+              std::string(m.kind()).c_str(), m.k(), artifact_format_marker, class_artifact_version(a));
+  std::printf("  %-14s %s scale\n", "scores", std::string(to_string(m.scale())).c_str());
+  std::printf("  %-14s %s (%s)\n", "fitted on", p.source.c_str(), p.tool.c_str());
+  std::printf("  %-14s %s rows, weight %s\n", "", grouped(p.rows).c_str(), weight_text(p.weight_total).c_str());
+  if (p.rows_skipped)
+    std::printf("  %-14s %s %s with a missing score or label left out (fitted with missing values skipped)\n", "",
+                grouped(*p.rows_skipped).c_str(), *p.rows_skipped == 1 ? "row" : "rows");
+  std::printf("  %-14s label column '%s'%s\n", "", p.label_column.c_str(),
+              p.weight_column.empty() ? "" : (", weights from '" + p.weight_column + "'").c_str());
+  std::printf("  %-14s sha256 %s\n", "", p.source_sha256.c_str());
+  std::printf("  %-14s %s\n", "created", p.created_utc.empty() ? "(no timestamp)" : p.created_utc.c_str());
+  std::printf("  %-14s %d iteration%s, %s, log loss %s on the fit rows, %s rows clipped\n", "fit", d.iterations,
+              d.iterations == 1 ? "" : "s", d.converged ? "converged" : "NOT converged", fixed_text(d.log_loss, 6).c_str(),
+              grouped(d.clipped).c_str());
+  for (const std::string& n : d.notes) std::printf("  %-14s %s\n", "", n.c_str());
+  if (!a.fit_options.empty()) std::printf("  %-14s %s\n", "options", a.fit_options.dump().c_str());
+  if (a.cross_fit.is_object()) print_cross_fit(a.cross_fit);
+  std::size_t width = 5;
+  for (const std::string& c : m.classes()) width = std::max(width, c.size());
+  std::printf("\nclasses\n  %-*s  %-22s %10s\n", static_cast<int>(width), "class", "score column", "fit share");
+  for (std::size_t j = 0; j < m.k(); ++j)
+    std::printf("  %-*s  %-22s %10s\n", static_cast<int>(width), m.classes()[j].c_str(), a.score_columns[j].c_str(),
+                share_text(p.weight_total > 0 ? p.class_weights[j] / p.weight_total : 0.0).c_str());
+  const nlohmann::json params = m.parameters();
+  std::printf("\nparameters\n");
+  if (params.contains("matrix")) {
+    std::printf("  %-22s %s\n", "l2", scalar_text(params["l2"]).c_str());
+    std::printf("\n  %-*s", static_cast<int>(width), "row");
+    for (const std::string& c : m.classes()) std::printf(" %22s", ("l_" + c).c_str());
+    std::printf(" %22s\n", "bias");
+    for (std::size_t j = 0; j < m.k(); ++j) {
+      std::printf("  %-*s", static_cast<int>(width), m.classes()[j].c_str());
+      for (std::size_t i = 0; i < m.k(); ++i) std::printf(" %22s", scalar_text(params["matrix"][j][i]).c_str());
+      std::printf(" %22s\n", scalar_text(params["bias"][j]).c_str());
+    }
+  } else if (params.contains("maps")) {
+    std::printf("  %-22s %s\n", "per_class", scalar_text(params["per_class"]).c_str());
+    for (std::size_t j = 0; j < m.k(); ++j) {
+      std::printf("\n  class '%s'\n", m.classes()[j].c_str());
+      print_parameters(params["maps"][j], o.all);
+    }
+  } else {
+    print_parameters(params, o.all);
+  }
+  return 0;
+}
+
 int run_inspect(const InspectOptions& o) {
-  const Artifact a = load_artifact(o.artifact);
+  const ArtifactFile file = read_artifact_file(o.artifact);
+  if (file.multi_class) return inspect_classes(o, class_artifact_from_text(file.text, file.name));
+  const Artifact a = artifact_from_text(file.text, file.name);
   if (o.json) {
     nlohmann::json doc = artifact_to_json(a);
     doc["integrity_sha256"] = integrity_hash(doc);

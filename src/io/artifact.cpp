@@ -8,6 +8,7 @@
 
 #include "core/json_fields.hpp"
 #include "io/byte_source.hpp"
+#include "io/artifact_document.hpp"
 #include "io/artifact_odds.hpp"
 #include "io/json_input.hpp"
 #include "plumb/error.hpp"
@@ -111,7 +112,9 @@ std::string artifact_to_text(const Artifact& a) {
   }
 }
 
-Artifact artifact_from_text(const std::string& text, const std::string& where) {
+namespace io {
+
+json artifact_document(const std::string& text, const std::string& where) {
   if (io::json_nested_deeper_than(text)) {
     Location loc;
     loc.file = where;
@@ -159,6 +162,23 @@ Artifact artifact_from_text(const std::string& text, const std::string& where) {
     throw Error(ErrorKind::artifact, "the map artifact's content does not match its integrity hash (edited or corrupted)",
                 loc, {}, "an artifact as written by plumb fit");
 
+  return doc;
+}
+
+}  // namespace io
+
+Artifact artifact_from_text(const std::string& text, const std::string& where) {
+  const json doc = io::artifact_document(text, where);
+  const std::int64_t version = doc["format_version"].get<std::int64_t>();
+  if (doc.contains("classes")) {
+    Location loc;
+    loc.file = where;
+    throw Error(ErrorKind::artifact, "the map artifact holds a multi-class map", loc, {},
+                "a binary map here (a multi-class map is applied with plumb apply --scores)");
+  }
+  // Version 4 is the multi-class feature's (docs/artifact-format.md, "Versioning").
+  if (version == 4)
+    jf::fail(where, "classes", "is missing", "the classes of a format version 4 (multi-class) document");
   Artifact a;
   const std::string kind = jf::require_string(doc, "kind", where, "kind");
   const json& input = jf::require(doc, "input", where, "input");
@@ -226,7 +246,9 @@ Artifact artifact_from_text(const std::string& text, const std::string& where) {
   return a;
 }
 
-Artifact load_artifact(const std::string& path) {
+namespace io {
+
+std::string artifact_text(const std::string& path, std::string* name) {
   io::ByteSourceOptions read_options;
   read_options.decompress = true;  // an artifact written with -o NAME.gz
   io::ByteSource source(path, read_options);
@@ -245,7 +267,16 @@ Artifact load_artifact(const std::string& path) {
     loc.file = source.name();
     throw Error(ErrorKind::artifact, "the map artifact is empty", loc, {}, "a JSON document written by plumb fit");
   }
-  return artifact_from_text(text, source.name());
+  if (name) *name = source.name();
+  return text;
+}
+
+}  // namespace io
+
+Artifact load_artifact(const std::string& path) {
+  std::string name;
+  const std::string text = io::artifact_text(path, &name);
+  return artifact_from_text(text, name);
 }
 
 std::string utc_now() {

@@ -1,5 +1,6 @@
 #include "io/artifact_odds.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
 #include <memory>
@@ -133,6 +134,13 @@ void add_odds_step(Artifact& a, OddsStep step) {
   a.map = std::make_unique<OddsAdjustedMap>(std::move(base), k);
 }
 
-int artifact_version(const Artifact& a) { return a.odds_steps.empty() ? 1 : 2; }
+// The highest version among the features the artifact carries (each
+// feature's number is in docs/artifact-format.md, "Versioning"); a feature
+// added later takes one more line here.
+int artifact_version(const Artifact& a) {
+  int version = 1;                                       // a binary map as fitted
+  if (!a.odds_steps.empty()) version = std::max(version, 2);  // odds_adjustment
+  return version;
+}
 
 }  // namespace plumb

@@ -131,8 +131,11 @@ class Artifacts(PlumbCase):
 
     def test_future_and_unknown_versions_are_refused(self):
         doc = json.loads(self.fit("platt"))
-        doc["format_version"] = 3
-        self.assert_refused(["inspect", self.write_doc(doc)], ARTIFACT, "format version 3", "newer plumb")
+        doc["format_version"] = 99
+        self.assert_refused(["inspect", self.write_doc(doc)], ARTIFACT, "format version 99", "newer plumb")
+        # Version 4 is the multi-class feature's: a binary map there lacks its classes.
+        doc["format_version"] = 4
+        self.assert_refused(["inspect", self.write_doc(doc)], ARTIFACT, "field 'classes' is missing")
         doc["format_version"] = 0
         self.assert_refused(["inspect", self.write_doc(doc)], ARTIFACT, "unknown format version 0")
 

@@ -9,6 +9,8 @@ import unittest
 from plumbtest import COMMANDS, PLUMB, SOURCE_DIR, help_options, run
 
 KINDS = ("isotonic", "centered_isotonic", "platt", "beta", "temperature", "histogram")
+# fit --map also takes the multi-class kinds (with --scores); temperature is both.
+FIT_KINDS = KINDS + ("vector", "dirichlet", "one_vs_rest")
 
 # What the argument library prints when left to itself: its section
 # headings, its type hints and its sentences. None may reach a user.
@@ -120,7 +122,7 @@ class Help(unittest.TestCase):
         self.assertIn("  --score COLUMN\n", out)
         _, out, _ = run("fit", "--help")
         # The list wraps at the help's width: compare with the spacing made plain.
-        self.assertIn("one of: " + ", ".join(KINDS) + "; required", " ".join(out.split()))
+        self.assertIn("one of: " + ", ".join(FIT_KINDS) + "; required", " ".join(out.split()))
         _, out, _ = run("apply", "--help")
         self.assertIn("\nusage\n  plumb apply [options] MAP [FILE]\n", out)
 
@@ -139,7 +141,7 @@ class Help(unittest.TestCase):
         _, _, err = run("fit", "x.csv")
         self.assertEqual(
             err.strip(),
-            "plumb fit: --map is required: give --map KIND, one of: " + ", ".join(KINDS) + " (see plumb fit --help)")
+            "plumb fit: --map is required: give --map KIND, one of: " + ", ".join(FIT_KINDS) + " (see plumb fit --help)")
         _, _, err = run("report", "--bins", "0", "--score", "s", "--label", "y", "x.csv")
         self.assertIn("plumb report: --bins got '0': expected a whole number from 1 to 10000", err)
         _, _, err = run("apply", "a.json", "b.csv", "c.csv")
