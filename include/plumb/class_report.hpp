@@ -62,6 +62,9 @@ struct ClassReport {
   std::string label_column;
   std::string weight_column;
   std::vector<std::string> score_columns;  // one per class, in class order
+  // Rows left out for a missing score or label under --missing skip;
+  // nullopt when missing values were refused.
+  std::optional<std::uint64_t> rows_skipped;
 
   ClassReportOptions options;
   ClassScale scale = ClassScale::probability;  // of the input; logits were turned to probabilities by softmax

@@ -15,6 +15,8 @@
 #include "plumb/io/artifact.hpp"
 #include "plumb/error.hpp"
 #include "plumb/io/output.hpp"
+#include "plumb/class_report.hpp"
+#include "plumb/io/class_report_render.hpp"
 #include "plumb/report.hpp"
 #include "plumb/io/report_render.hpp"
 #include "plumb/tally.hpp"
@@ -46,7 +48,14 @@ std::string usage_footer(const std::string& max_gates, const std::string& min_ga
          "  plumb report --map late.map.json --map-score risk_v2 --label missed holdout.csv\n"
          "  plumb report --score risk_calibrated --label missed --max ece=0.02 --max mcb=0.004 -q scored.csv || page-the-on-call\n"
          "  plumb report --map late.map.json --score risk --label missed --max ece=0.02 --min auc=0.7 -q holdout.csv\n"
-         "  plumb report --score risk --map late.map.json --tally all.tally.json\n\n"
+         "  plumb report --score risk --map late.map.json --tally all.tally.json\n"
+         "  plumb report --scores 'p_*' --label outcome outcomes.csv --svg outcomes.svg\n\n"
+         "Multi-class: with --scores (K columns, one per class; the label column holds class names) the report\n"
+         "gives the multi-class Brier score (summed over classes) and log loss, accuracy and the confidence gap,\n"
+         "the top-label (confidence) ECE with its reliability table and chart, the class-wise ECE and a\n"
+         "one-vs-rest table per class (docs/methods_metrics.md). --scale logit reads K logits per row.\n"
+         "--score, --map, --map-score, --tally, --by, --groups, --min-segment, --max, --min, --positive and\n"
+         "--negative do not go with --scores.\n\n"
          "With --tally the report is that of the tallied rows (the figures are sums over rows, which the\n"
          "tally keeps per score; it is read as one cell per score and label, so memory grows with the\n"
          "distinct scores, not the rows). A tally of weighted rows needs --bootstrap 0 (the bootstrap\n"
@@ -82,6 +91,9 @@ struct ReportCliOptions {
   bool ascii = false;
   std::string tally;               // report on this tally instead of rows
   std::vector<std::string> given;  // row-reading options given on the command line
+  ClassOptions classes;            // --scores, --classes, --sum-tolerance
+  bool scale_given = false;        // --scale (with --scores only)
+  std::vector<std::string> given_binary;  // options given that do not go with --scores
 };
 
 // The tally named by --tally, checked against the columns asked for.
@@ -271,7 +283,17 @@ void write_file(const std::string& path, const std::string& text) {
 
 int emit_report(const ReportCliOptions& o, const Report& report);
 
+int run_report_classes(const ReportCliOptions& o);
+
 int run_report(const ReportCliOptions& o) {
+  if (!o.classes.scores.empty()) return run_report_classes(o);
+  if (o.scale_given)
+    throw Error(ErrorKind::usage, "--scale applies to --scores only", {}, o.input.scale,
+                "--scores COLS --scale logit for K logits per row; a --score column is read as probabilities, and "
+                "log-odds or margins are reported through --map");
+  if (!o.classes.classes.empty() || o.classes.sum_tolerance != io::default_sum_tolerance)
+    throw Error(ErrorKind::usage, "--classes and --sum-tolerance apply to --scores only", {}, {},
+                "--scores COLS (one column per class) with --label COL");
   std::vector<Gate> gates;
   for (const std::string& m : o.max) gates.push_back(parse_gate(m, GateBound::max));
   for (const std::string& m : o.min) gates.push_back(parse_gate(m, GateBound::min));
@@ -444,6 +466,43 @@ int run_report(const ReportCliOptions& o) {
   return emit_report(o, report);
 }
 
+// The report of K-class rows (--scores): read by the multi-class reader,
+// built by build_class_report, written as the binary report is.
+int run_report_classes(const ReportCliOptions& o) {
+  for (const std::string& g : o.given_binary)
+    throw Error(ErrorKind::usage, g + " cannot be used with --scores", {}, {},
+                "--scores COLS --label COL FILE (the label column holds class names)");
+  if (o.input.label.empty())
+    throw Error(ErrorKind::usage, "report --scores needs --label", {}, {}, "--scores COLS --label COL FILE");
+  const io::ClassColumns columns = class_columns(o.input, o.classes);
+  const io::ClassRows rows = io::read_class_scores(o.input.file, columns, parse_separator(o.input.separator));
+  ClassReportOptions ro;
+  ro.bins = o.bins;
+  ro.binning = o.binning == "equal_mass" ? BinningKind::equal_mass : BinningKind::equal_width;
+  ro.bootstrap = o.bootstrap;
+  ro.threads = o.threads;
+  ro.seed = o.seed;
+  ro.confidence = o.confidence;
+  ClassReport report = build_class_report(rows.data, ro);
+  report.source = rows.source;
+  report.label_column = rows.label_column;
+  report.weight_column = rows.weight_column;
+  report.score_columns = rows.score_columns;
+  if (parse_missing(o.input.missing) == io::MissingPolicy::skip) report.rows_skipped = rows.skipped;
+  if (!o.json_path.empty()) write_file(o.json_path, class_report_to_json(report).dump(2) + "\n");
+  if (!o.svg_path.empty()) write_file(o.svg_path, render_class_svg(report));
+  if (!o.markdown_path.empty()) write_file(o.markdown_path, render_class_markdown(report));
+  if (!o.input.quiet) {
+    TextStyle style;
+    style.unicode = !o.ascii;
+    style.colour = ::isatty(STDOUT_FILENO) == 1 && std::getenv("NO_COLOR") == nullptr;
+    io::OutputFile out("-");
+    out.write(render_class_text(report, style));
+    out.commit();
+  }
+  return 0;
+}
+
 // Writes the report's files, then the terminal report; the gates' exit code.
 int emit_report(const ReportCliOptions& o, const Report& report) {
   // Files first, each whole or not at all; then the terminal report.
@@ -485,8 +544,15 @@ Command add_report_command(CLI::App& app) {
                   "Column the --map of the same position reads (name or 1-based index), as apply's --score; "
                   "one per --map, in order (default: the column each map was fitted on)")
       ->allow_extra_args(false);
+  add_class_options(*cmd, o->classes);
+  cmd->add_option("--scale", o->input.scale,
+                  "With --scores: probability (each row sums to 1) or logit (K logits per row, read through "
+                  "softmax); a --score column is always a probability")
+      ->check(CLI::IsMember({"probability", "logit"}))
+      ->default_str("probability");
   cmd->add_option("--label", o->input.label,
-                  "Column holding the observed outcome (name or 1-based index); required unless --tally");
+                  "Column holding the observed outcome (name or 1-based index; with --scores, the class name); "
+                  "required unless --tally");
   cmd->add_option("--tally", o->tally,
                   "Report on a tally (from plumb tally or merge) instead of rows; --score "
                   "names its column. No FILE, --label, --weight, --positive, --negative, --missing, --by or --sep");
@@ -536,6 +602,10 @@ Command add_report_command(CLI::App& app) {
   return [o, cmd] {
     for (const char* name : {"file", "--label", "--weight", "--positive", "--negative", "--missing", "--by", "--sep"})
       if (cmd->count(name) > 0) o->given.push_back(name[0] == '-' ? name : "a FILE of rows");
+    o->scale_given = cmd->count("--scale") > 0;
+    for (const char* name : {"--score", "--map", "--map-score", "--tally", "--by", "--groups", "--min-segment", "--max",
+                             "--min", "--positive", "--negative"})
+      if (cmd->count(name) > 0) o->given_binary.push_back(name);
     return run_report(*o);
   };
 }

@@ -96,6 +96,7 @@ json class_report_to_json(const ClassReport& r) {
           {"label_column", r.label_column},
           {"weight_column", r.weight_column.empty() ? json(nullptr) : json(r.weight_column)},
           {"score_columns", r.score_columns},
+          {"rows_skipped", r.rows_skipped ? json(*r.rows_skipped) : json(nullptr)},
           {"scale", r.scale == ClassScale::logit ? "logit" : "probability"},
           {"options",
            {{"bins", o.bins},

@@ -41,6 +41,7 @@ void render_heading(Document& doc, const Painter& p, const ClassReport& r) {
   doc.line(p.paint("plumb report", Tone::bold) + std::string(p.dot_sep()) + r.source);
   std::vector<std::string> facts;
   facts.push_back(count_text(r.rows) + " rows");
+  if (r.rows_skipped) facts.push_back(count_text(*r.rows_skipped) + " left out for a missing score or label");
   facts.push_back(count_text(r.classes.size()) + " classes");
   facts.push_back("label " + r.label_column);
   if (r.weight_column.empty()) {

@@ -327,6 +327,8 @@ std::string render_class_markdown(const ClassReport& report) {
   out.reserve(8192 + report.classes.size() * 4096);
   out += "# Multi-class reliability report: " + md(report.source) + "\n\n";
   out += "- Rows: " + count_text(report.rows) + "\n";
+  if (report.rows_skipped)
+    out += "- Rows left out for a missing score or label: " + count_text(*report.rows_skipped) + "\n";
   out += "- Classes: " + count_text(report.classes.size()) + "\n";
   out += "- Label column: " + md(report.label_column) + "\n";
   out += "- Weight column: " + (report.weight_column.empty() ? std::string("none") : md(report.weight_column)) + "\n";
