@@ -6,9 +6,12 @@ The figures are recomputed here from the rows with the published
 definitions (multi-class Brier score, Brier 1950; log loss; top-label ECE,
 Guo et al. 2017; class-wise ECE, Kull et al. 2019; equal-width bins
 min(9, floor(10 p))), not copied from plumb's output."""
+import json
 import math
 import os
 import unittest
+
+import jsonschema  # Debian python3-jsonschema, installed by tests/run.sh
 
 from plumbtest import PlumbCase, SOURCE_DIR, read_rows, run, write
 
@@ -79,6 +82,17 @@ class ReportClassesTest(PlumbCase):
             self.assertEqual(f.read().count('<g class="diagram">'), 5)
         with open(md) as f:
             self.assertIn("## Classes, one-vs-rest", f.read())
+
+    def test_json_matches_the_published_schema(self):
+        with open(os.path.join(SOURCE_DIR, "docs", "class-report.schema.json")) as f:
+            schema = json.load(f)
+        jsonschema.Draft202012Validator.check_schema(schema)
+        for extra in (["--bootstrap", "0"], ["--bootstrap", "10", "--binning", "equal_mass"]):
+            with self.subTest(extra=extra):
+                out = self.path("s.json")
+                run("report", "--scores", "p_*", "--label", "outcome", "-q", *extra, OUTCOMES, "--json", out,
+                    check=True)
+                jsonschema.validate(self.load_json(out), schema, cls=jsonschema.Draft202012Validator)
 
     def test_class_order_and_thread_count(self):
         a, b = self.path("a.json"), self.path("b.json")
