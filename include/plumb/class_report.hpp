@@ -18,6 +18,7 @@
 #include "plumb/class_scores.hpp"
 #include "plumb/pav.hpp"
 #include "plumb/reliability.hpp"
+#include "plumb/report.hpp"
 
 namespace plumb {
 
@@ -105,6 +106,8 @@ struct ClassReport {
   std::uint64_t true_class_at_zero = 0;  // rows whose label's probability is 0 (log loss clipped)
   std::optional<ClassBootstrapResult> bootstrap;  // absent when options.bootstrap == 0
   std::vector<std::string> cautions;              // plain sentences, in the order found
+  std::vector<GateResult> gates;                  // set by the caller (check_class_gate); column empty
+  bool any_gate_exceeded() const noexcept;
 };
 
 // Computes the report. `scores` must be labelled (label.size() == rows) with
@@ -118,5 +121,20 @@ struct ClassReport {
 // A class with no rows is cautioned, not refused. Every number is the same
 // for any options.threads.
 ClassReport build_class_report(const ClassScores& scores, const ClassReportOptions& options);
+
+// The figures a gate (--max/--min) can read on a multi-class report, named
+// by their JSON keys (the ECEs with their binning): brier, log_loss,
+// top_label_ece, top_label_ece_mass, classwise_ece, classwise_ece_mass
+// (--max only), confidence_gap (signed, both bounds) and accuracy (--min
+// only). A gate reads the model as a whole, so it names no column.
+std::span<const GateMetric> class_gate_metrics() noexcept;
+// The metric called `name`, or nullptr.
+const GateMetric* find_class_gate_metric(std::string_view name) noexcept;
+// The value a gate reads (NaN when it cannot be computed). Precondition:
+// find_class_gate_metric(metric) is not null.
+double class_gate_value(const ClassReport& report, std::string_view metric);
+// The gate checked: exceeded when the value lies beyond the limit on the
+// gate's side or is not a number, as check_gate (report.hpp).
+GateResult check_class_gate(const Gate& gate, const ClassReport& report);
 
 }  // namespace plumb

@@ -31,7 +31,8 @@ constexpr const char* kUsageSummary =
     "Reliability diagnostics of forecasts against outcomes: scores, decompositions, calibration "
     "error with intervals, a reliability chart, segments, pass/fail gates";
 // The gates each bound takes (gate_names, from the core's table).
-std::string usage_footer(const std::string& max_gates, const std::string& min_gates) {
+std::string usage_footer(const std::string& max_gates, const std::string& min_gates, const std::string& class_max,
+                         const std::string& class_min) {
   return "Columns: --score names columns reported as they are; each --map is applied on the fly to the\n"
          "column it was fitted on, or to the column its --map-score names (as apply's --score does).\n\n"
          "Gates (repeatable): --max METRIC=VALUE fails when the figure is above VALUE, --min when below.\n"
@@ -54,8 +55,9 @@ std::string usage_footer(const std::string& max_gates, const std::string& min_ga
          "gives the multi-class Brier score (summed over classes) and log loss, accuracy and the confidence gap,\n"
          "the top-label (confidence) ECE with its reliability table and chart, the class-wise ECE and a\n"
          "one-vs-rest table per class (docs/methods_metrics.md). --scale logit reads K logits per row.\n"
-         "--score, --map, --map-score, --tally, --by, --groups, --min-segment, --max, --min, --positive and\n"
-         "--negative do not go with --scores.\n\n"
+         "Its gates read the model as a whole (no COLUMN:): --max " + class_max + ";\n"
+         "--min " + class_min + ". --score, --map, --map-score, --tally, --by, --groups,\n"
+         "--min-segment, --positive and --negative do not go with --scores.\n\n"
          "With --tally the report is that of the tallied rows (the figures are sums over rows, which the\n"
          "tally keeps per score; it is read as one cell per score and label, so memory grows with the\n"
          "distinct scores, not the rows). A tally of weighted rows needs --bootstrap 0 (the bootstrap\n"
@@ -214,6 +216,45 @@ Gate parse_gate(const std::string& text, GateBound bound) {
   return g;
 }
 
+// The metrics `bound` may read on a multi-class report, for messages.
+std::string class_gate_names(GateBound bound) {
+  std::string names;
+  for (const GateMetric& m : class_gate_metrics())
+    if (bound == GateBound::max ? m.max : m.min) names += (names.empty() ? "" : ", ") + std::string(m.name);
+  return names;
+}
+
+// --max or --min METRIC=VALUE with --scores: the model as a whole, no column.
+Gate parse_class_gate(const std::string& text, GateBound bound) {
+  const std::string option(bound_option(bound));
+  const std::string expected = "METRIC=VALUE with --scores, METRIC one of " + class_gate_names(bound);
+  const auto eq = text.find('=');
+  if (eq == std::string::npos) throw Error(ErrorKind::usage, option + " needs a value", {}, text, expected);
+  const std::string name = text.substr(0, eq);
+  if (name.find(':') != std::string::npos)
+    throw Error(ErrorKind::usage, option + " with --scores reads the model as a whole and names no column", {}, text,
+                expected);
+  const GateMetric* metric = find_class_gate_metric(name);
+  if (metric == nullptr)
+    throw Error(ErrorKind::usage, option + " names a metric the multi-class report does not have", {}, name, expected);
+  if (!(bound == GateBound::max ? metric->max : metric->min)) {
+    const std::string other(bound_option(bound == GateBound::max ? GateBound::min : GateBound::max));
+    throw Error(ErrorKind::usage,
+                option + " cannot bound " + std::string(metric->name) + " (" + std::string(metric->reads) +
+                    "): only " + other + " can",
+                {}, text, other + " " + text + ", or " + option + " with one of " + class_gate_names(bound));
+  }
+  Gate g;
+  g.bound = bound;
+  g.metric = metric->name;
+  const std::string value = text.substr(eq + 1);
+  char* end = nullptr;
+  g.limit = std::strtod(value.c_str(), &end);
+  if (value.empty() || *end != '\0' || !std::isfinite(g.limit))
+    throw Error(ErrorKind::usage, option + " has a limit that is not a number", {}, value, expected);
+  return g;
+}
+
 // One reported column as gates see it: its name in the report, the --map
 // it came through (empty for a --score column).
 struct GateTarget {
@@ -263,7 +304,7 @@ std::string failed_gates_line(const std::vector<GateResult>& results) {
     ++failed;
     // Six significant digits, as the reports' gate tables (plumb/number_text.hpp).
     const std::string value = significant_text(g.value, 6), limit = significant_text(g.gate.limit, 6);
-    detail += (detail.empty() ? "" : "; ") + g.column + ": " + g.gate.metric;
+    detail += (detail.empty() ? "" : "; ") + (g.column.empty() ? "" : g.column + ": ") + g.gate.metric;
     if (std::isfinite(g.value))
       detail += " = " + value + " " + std::string(gate_comparison(g)) + " " + limit;
     else
@@ -474,6 +515,9 @@ int run_report_classes(const ReportCliOptions& o) {
                 "--scores COLS --label COL FILE (the label column holds class names)");
   if (o.input.label.empty())
     throw Error(ErrorKind::usage, "report --scores needs --label", {}, {}, "--scores COLS --label COL FILE");
+  std::vector<Gate> gates;
+  for (const std::string& m : o.max) gates.push_back(parse_class_gate(m, GateBound::max));
+  for (const std::string& m : o.min) gates.push_back(parse_class_gate(m, GateBound::min));
   const io::ClassColumns columns = class_columns(o.input, o.classes);
   const io::ClassRows rows = io::read_class_scores(o.input.file, columns, parse_separator(o.input.separator));
   ClassReportOptions ro;
@@ -489,6 +533,7 @@ int run_report_classes(const ReportCliOptions& o) {
   report.weight_column = rows.weight_column;
   report.score_columns = rows.score_columns;
   if (parse_missing(o.input.missing) == io::MissingPolicy::skip) report.rows_skipped = rows.skipped;
+  for (const Gate& g : gates) report.gates.push_back(check_class_gate(g, report));
   if (!o.json_path.empty()) write_file(o.json_path, class_report_to_json(report).dump(2) + "\n");
   if (!o.svg_path.empty()) write_file(o.svg_path, render_class_svg(report));
   if (!o.markdown_path.empty()) write_file(o.markdown_path, render_class_markdown(report));
@@ -499,6 +544,10 @@ int run_report_classes(const ReportCliOptions& o) {
     io::OutputFile out("-");
     out.write(render_class_text(report, style));
     out.commit();
+  }
+  if (report.any_gate_exceeded()) {
+    std::fprintf(stderr, "%s\n", failed_gates_line(report.gates).c_str());
+    return static_cast<int>(ErrorKind::threshold);
   }
   return 0;
 }
@@ -529,7 +578,8 @@ int emit_report(const ReportCliOptions& o, const Report& report) {
 Command add_report_command(CLI::App& app) {
   auto o = std::make_shared<ReportCliOptions>();
   CLI::App* cmd = app.add_subcommand("report", kUsageSummary);
-  cmd->footer(usage_footer(gate_names(GateBound::max), gate_names(GateBound::min)));
+  cmd->footer(usage_footer(gate_names(GateBound::max), gate_names(GateBound::min), class_gate_names(GateBound::max),
+                           class_gate_names(GateBound::min)));
   cmd->add_option("file", o->input.file, "CSV or TSV file with a header row, plain or gzip; - or nothing reads standard input")
       ->default_str("-");
   cmd->add_option("--score", o->scores,
@@ -603,8 +653,8 @@ Command add_report_command(CLI::App& app) {
     for (const char* name : {"file", "--label", "--weight", "--positive", "--negative", "--missing", "--by", "--sep"})
       if (cmd->count(name) > 0) o->given.push_back(name[0] == '-' ? name : "a FILE of rows");
     o->scale_given = cmd->count("--scale") > 0;
-    for (const char* name : {"--score", "--map", "--map-score", "--tally", "--by", "--groups", "--min-segment", "--max",
-                             "--min", "--positive", "--negative"})
+    for (const char* name :
+         {"--score", "--map", "--map-score", "--tally", "--by", "--groups", "--min-segment", "--positive", "--negative"})
       if (cmd->count(name) > 0) o->given_binary.push_back(name);
     return run_report(*o);
   };

@@ -1,6 +1,7 @@
 #include "plumb/class_report.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <exception>
 #include <thread>
@@ -378,6 +379,51 @@ ClassReport build_class_report(const ClassScores& s, const ClassReportOptions& o
   if (o.bootstrap > 0) r.bootstrap = bootstrap_class_report(p, s, conf, correct, brier, loss, o);
   add_cautions(r);
   return r;
+}
+
+namespace {
+
+constexpr std::array<GateMetric, 8> class_gate_table{{
+    {"brier", true, false, "Brier score summed over classes"},
+    {"log_loss", true, false, "log loss of the label's probability, nats"},
+    {"top_label_ece", true, false, "top-label ECE, equal-width bins"},
+    {"top_label_ece_mass", true, false, "top-label ECE, equal-mass bins"},
+    {"classwise_ece", true, false, "class-wise ECE, equal-width bins"},
+    {"classwise_ece_mass", true, false, "class-wise ECE, equal-mass bins"},
+    {"confidence_gap", true, true, "mean confidence - accuracy, signed"},
+    {"accuracy", false, true, "share of rows whose top label is right"},
+}};
+
+}  // namespace
+
+bool ClassReport::any_gate_exceeded() const noexcept {
+  return std::any_of(gates.begin(), gates.end(), [](const GateResult& g) { return g.exceeded; });
+}
+
+std::span<const GateMetric> class_gate_metrics() noexcept { return class_gate_table; }
+
+const GateMetric* find_class_gate_metric(std::string_view name) noexcept {
+  for (const GateMetric& m : class_gate_table)
+    if (m.name == name) return &m;
+  return nullptr;
+}
+
+double class_gate_value(const ClassReport& r, std::string_view metric) {
+  if (metric == "brier") return r.brier;
+  if (metric == "log_loss") return r.log_loss;
+  if (metric == "top_label_ece") return r.top_label_equal_width.ece;
+  if (metric == "top_label_ece_mass") return r.top_label_equal_mass.ece;
+  if (metric == "classwise_ece") return r.classwise_ece_equal_width;
+  if (metric == "classwise_ece_mass") return r.classwise_ece_equal_mass;
+  if (metric == "confidence_gap") return r.confidence_gap;
+  if (metric == "accuracy") return r.accuracy;
+  throw Error(ErrorKind::internal, "class_gate_value: unknown metric " + std::string(metric));
+}
+
+GateResult check_class_gate(const Gate& g, const ClassReport& r) {
+  GateResult result{g, {}, class_gate_value(r, g.metric), false};
+  result.exceeded = g.bound == GateBound::max ? !(result.value <= g.limit) : !(result.value >= g.limit);
+  return result;
 }
 
 }  // namespace plumb

@@ -89,6 +89,13 @@ json class_report_to_json(const ClassReport& r) {
                  {key(rn::top_label_ece), interval(b.top_label_ece)},
                  {key(rn::classwise_ece), interval(b.classwise_ece)}};
   }
+  json gates = json::array();
+  for (const GateResult& g : r.gates)
+    gates.push_back({{"metric", g.gate.metric},
+                     {"bound", g.gate.bound == GateBound::max ? "max" : "min"},
+                     {"limit", num(g.gate.limit)},
+                     {"value", num(g.value)},
+                     {"exceeded", g.exceeded}});
   return {{"format", "plumb-class-report"},
           {"format_version", class_report_format_version},
           {"tool", std::string("plumb ") + version_string},
@@ -125,6 +132,8 @@ json class_report_to_json(const ClassReport& r) {
             {key(rn::equal_mass), num(r.classwise_ece_equal_mass)}}},
           {"classes", classes},
           {"bootstrap", bootstrap},
+          {"gates", gates},
+          {"any_gate_exceeded", r.any_gate_exceeded()},
           {"cautions", r.cautions}};
 }
 

@@ -180,6 +180,26 @@ void render_classes(Document& doc, const Painter& p, const ClassReport& r) {
   }
 }
 
+void render_gates(Document& doc, const Painter& p, const ClassReport& r) {
+  if (r.gates.empty()) return;
+  std::size_t breached = 0;
+  for (const GateResult& g : r.gates) breached += g.exceeded ? 1 : 0;
+  doc.heading("gates");
+  doc.line("  " + count_text(breached) + " of " + count_text(r.gates.size()) +
+           (r.gates.size() == 1 ? " limit" : " limits") + " breached");
+  std::vector<Column> columns = {
+      {"", false, 0, 0}, {"metric", false, 0, 0}, {"value", true, 0, 0}, {"", false, 0, 0}, {"limit", true, 0, 0}};
+  std::vector<Row> rows;
+  for (const GateResult& g : r.gates) {
+    Row row;
+    row.cells = {g.exceeded ? "BREACHED" : "held", g.gate.metric, significant_text(g.value, 6),
+                 std::string(gate_comparison(g)), significant_text(g.gate.limit, 6)};
+    row.tone = g.exceeded ? Tone::red : Tone::green;
+    rows.push_back(std::move(row));
+  }
+  render_table(doc, p, std::move(columns), std::move(rows));
+}
+
 void render_cautions(Document& doc, const Painter& p, const ClassReport& r) {
   if (r.cautions.empty()) return;
   doc.heading("cautions");
@@ -196,6 +216,7 @@ std::string render_class_text(const ClassReport& report, const TextStyle& style)
   render_headlines(doc, report);
   render_top_label(doc, p, report);
   render_classes(doc, p, report);
+  render_gates(doc, p, report);
   render_cautions(doc, p, report);
   return doc.text();
 }

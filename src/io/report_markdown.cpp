@@ -388,6 +388,21 @@ std::string render_class_markdown(const ClassReport& report) {
     class_reliability(out, report, k.table, {}, label(rn::mean_forecast), "observed");
   }
 
+  if (!report.gates.empty()) {
+    out += "## Gates\n\n";
+    std::size_t failed = 0;
+    Table g({"metric", "limit", "value", "result"}, {false, true, true, false});
+    for (const GateResult& r : report.gates) {
+      failed += r.exceeded ? 1 : 0;
+      g.row({md(r.gate.metric),
+             (r.gate.bound == GateBound::max ? "at most " : "at least ") + significant_text(r.gate.limit, 6),
+             significant_text(r.value, 6), r.exceeded ? "**FAIL**" : "pass"});
+    }
+    out += failed == 0 ? "Every gate passed.\n\n"
+                       : count_text(failed) + " of " + count_text(report.gates.size()) + " gates failed.\n\n";
+    g.write(out);
+  }
+
   out += "## Cautions\n\n";
   for (const std::string& caution : report.cautions) out += "- " + md(caution) + "\n";
   if (!report.cautions.empty()) out += "\n";

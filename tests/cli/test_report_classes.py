@@ -94,6 +94,26 @@ class ReportClassesTest(PlumbCase):
                     check=True)
                 jsonschema.validate(self.load_json(out), schema, cls=jsonschema.Draft202012Validator)
 
+    def test_gates(self):
+        want = figures(OUTCOMES)
+        out = self.path("g.json")
+        # Limits on either side of the figures computed above.
+        rc, _, err = run("report", "--scores", "p_*", "--label", "outcome", "--bootstrap", "0", "-q", OUTCOMES,
+                         "--max", f"brier={want['brier'] + 0.01}", "--min", f"accuracy={want['accuracy'] - 0.01}",
+                         "--json", out)
+        self.assertEqual(rc, 0, err)
+        doc = self.load_json(out)
+        self.assertEqual([g["exceeded"] for g in doc["gates"]], [False, False])
+        self.assertFalse(doc["any_gate_exceeded"])
+        rc, stdout, err = run("report", "--scores", "p_*", "--label", "outcome", "--bootstrap", "0", OUTCOMES,
+                              "--max", f"classwise_ece={want['classwise'] - 0.01}", "--json", out)
+        self.assertEqual(rc, 7, err)
+        self.assertIn("1 of 1 gate failed: classwise_ece = ", err)
+        self.assertIn("BREACHED", stdout)
+        doc = self.load_json(out)
+        self.assertTrue(doc["any_gate_exceeded"])
+        self.assertAlmostEqual(doc["gates"][0]["value"], want["classwise"], delta=1e-9)
+
     def test_class_order_and_thread_count(self):
         a, b = self.path("a.json"), self.path("b.json")
         args = ["report", "--scores", "p_*", "--classes", "late,on_time,lost,returned", "--label", "outcome",
@@ -145,7 +165,11 @@ class ReportClassesTest(PlumbCase):
         self.assert_refused(["report", "--scores", "p_*", "--score", "p_late", "--label", "outcome", OUTCOMES,
                              "--json", out], 2, "--score cannot be used with --scores", output=out)
         self.assert_refused(["report", "--scores", "p_*", "--label", "outcome", "--max", "ece=0.1", OUTCOMES,
-                             "--json", out], 2, "--max cannot be used with --scores", output=out)
+                             "--json", out], 2, "does not have", "top_label_ece", output=out)
+        self.assert_refused(["report", "--scores", "p_*", "--label", "outcome", "--max", "p_late:brier=0.1",
+                             OUTCOMES, "--json", out], 2, "names no column", output=out)
+        self.assert_refused(["report", "--scores", "p_*", "--label", "outcome", "--max", "accuracy=0.9",
+                             OUTCOMES, "--json", out], 2, "only --min can", output=out)
         self.assert_refused(["report", "--scores", "p_*", OUTCOMES, "--json", out], 2, "needs --label", output=out)
         self.assert_refused(["report", "--score", "p_late", "--scale", "logit", "--label", "outcome", OUTCOMES], 2,
                             "--scale applies to --scores only")

@@ -266,3 +266,26 @@ TEST_CASE("poisson1_of_bits gives poisson1_draw's count for the same draw", "[cl
   std::mt19937_64 a = plumb::bootstrap_generator(3, 7), b = a;
   for (int i = 0; i < 200000; ++i) REQUIRE(plumb::poisson1_draw(a) == plumb::poisson1_of_bits(b()));
 }
+
+TEST_CASE("class report: gates read the figures they are named after", "[class_report]") {
+  const plumb::ClassReport r = plumb::build_class_report(hand_case(), two_bins());
+  // Hand-worked above: Brier 0.385, accuracy 0.5, confidence gap 0.1,
+  // top-label ECE 0.1, class-wise ECE 0.2.
+  const auto gate = [&](const char* metric, double limit, plumb::GateBound bound) {
+    plumb::Gate g;
+    g.metric = metric;
+    g.limit = limit;
+    g.bound = bound;
+    return plumb::check_class_gate(g, r);
+  };
+  CHECK(!gate("brier", 0.4, plumb::GateBound::max).exceeded);
+  CHECK(gate("brier", 0.38, plumb::GateBound::max).exceeded);
+  CHECK(gate("accuracy", 0.6, plumb::GateBound::min).exceeded);
+  CHECK(!gate("accuracy", 0.5, plumb::GateBound::min).exceeded);
+  CHECK_THAT(gate("top_label_ece", 1, plumb::GateBound::max).value, WithinAbs(0.1, 1e-12));
+  CHECK_THAT(gate("classwise_ece", 1, plumb::GateBound::max).value, WithinAbs(0.2, 1e-12));
+  CHECK_THAT(gate("confidence_gap", 0, plumb::GateBound::min).value, WithinAbs(0.1, 1e-12));
+  CHECK(plumb::find_class_gate_metric("auc") == nullptr);
+  for (const plumb::GateMetric& m : plumb::class_gate_metrics())
+    CHECK(std::isfinite(plumb::class_gate_value(r, m.name)));
+}

@@ -191,3 +191,26 @@ TEST_CASE("class report SVG is well-formed, one diagram for the top label and on
   CHECK(svg.find(">accuracy<") != std::string::npos);
   CHECK(svg.find("class lost|gone, one-vs-rest") != std::string::npos);
 }
+
+TEST_CASE("class report gates show in every renderer but the SVG", "[class_report][render]") {
+  plumb::ClassReport r = report(false, 0);
+  plumb::Gate tight;
+  tight.metric = "brier";
+  tight.limit = r.brier / 2;  // fails
+  plumb::Gate loose;
+  loose.metric = "accuracy";
+  loose.bound = plumb::GateBound::min;
+  loose.limit = 0.0;  // holds
+  r.gates = {plumb::check_class_gate(tight, r), plumb::check_class_gate(loose, r)};
+  REQUIRE(r.any_gate_exceeded());
+  const nlohmann::json j = plumb::class_report_to_json(r);
+  CHECK(j.at("any_gate_exceeded") == true);
+  CHECK(j.at("gates").at(0).at("exceeded") == true);
+  CHECK(j.at("gates").at(1).at("bound") == "min");
+  const std::string text = plumb::render_class_text(r, {false, false, 80});
+  CHECK(text.find("1 of 2 limits breached") != std::string::npos);
+  CHECK(text.find("BREACHED") != std::string::npos);
+  const std::string md = plumb::render_class_markdown(r);
+  CHECK(md.find("1 of 2 gates failed.") != std::string::npos);
+  CHECK(md.find("| brier | at most " + plumb::significant_text(r.brier / 2, 6)) != std::string::npos);
+}
