@@ -26,6 +26,7 @@
 #include "plumb/binning.hpp"
 #include "plumb/bootstrap.hpp"
 #include "plumb/calibration_map.hpp"
+#include "plumb/class_report.hpp"
 #include "plumb/pav.hpp"
 #include "plumb/scale.hpp"
 
@@ -203,5 +204,39 @@ void BM_map_lookup(benchmark::State& state, const char* kind) {
 }
 BENCHMARK_CAPTURE(BM_map_lookup, isotonic, "isotonic")->Arg(1'000'000)->Unit(benchmark::kMillisecond);
 BENCHMARK_CAPTURE(BM_map_lookup, platt, "platt")->Arg(1'000'000)->Unit(benchmark::kMillisecond);
+
+// The multi-class report (class_report.hpp) of n rows x 4 classes: logits
+// z_k uniform on [-2, 2], scores softmax(1.6 z) (over-confident), labels
+// drawn from softmax(z); probabilities rounded to four decimals. Arg 1 is
+// the bootstrap's replicates (0: the figures alone), on two threads.
+void BM_class_report(benchmark::State& state) {
+  const auto n = static_cast<std::size_t>(state.range(0));
+  constexpr std::size_t K = 4;
+  std::mt19937_64 bits(rows_seed);
+  auto uniform = [&bits] { return static_cast<double>(bits() >> 11) * 0x1.0p-53; };
+  plumb::ClassScores s;
+  s.classes = {"on_time", "late", "lost", "returned"};
+  s.rows = n;
+  s.values.reserve(n * K);
+  for (std::size_t i = 0; i < n; ++i) {
+    double z[K], e[K], t[K], sum = 0.0, tsum = 0.0;
+    for (std::size_t k = 0; k < K; ++k) {
+      z[k] = uniform() * 4.0 - 2.0;
+      sum += e[k] = std::exp(1.6 * z[k]);
+      tsum += t[k] = std::exp(z[k]);
+    }
+    for (std::size_t k = 0; k < K; ++k) s.values.push_back(std::round(e[k] / sum * 1e4) / 1e4);
+    double u = uniform() * tsum;
+    std::uint32_t y = 0;
+    while (y + 1 < K && u >= t[y]) u -= t[y++];
+    s.label.push_back(y);
+  }
+  plumb::ClassReportOptions o;
+  o.bootstrap = static_cast<std::size_t>(state.range(1));
+  o.threads = 2;
+  for (auto _ : state) benchmark::DoNotOptimize(plumb::build_class_report(s, o).brier);
+  count_rows(state, n);
+}
+BENCHMARK(BM_class_report)->Args({1'000'000, 0})->Args({1'000'000, 200})->Unit(benchmark::kMillisecond);
 
 }  // namespace

@@ -4,6 +4,7 @@
 // the hypothesis of calibration (Broecker and Smith 2007).
 #include <cstddef>
 #include <cstdint>
+#include <random>
 #include <span>
 #include <vector>
 
@@ -88,6 +89,20 @@ BootstrapCells bootstrap_cells(std::span<const double> forecast, std::span<const
 BootstrapResult bootstrap_metrics_of_cells(std::span<const double> p, std::span<const double> y,
                                            std::span<const double> base, std::span<const std::uint64_t> count,
                                            const BootstrapOptions& options);
+
+// The conventions above, for the report's other bootstraps (class_report.hpp)
+// so that every interval of a report is drawn alike: replicate r's
+// generator (std::mt19937_64 seeded with splitmix64(seed + (r + 1) *
+// 0x9E3779B97F4A7C15)), one Poisson(1) count from it by inversion of the
+// distribution function (one 64-bit draw each), and the percentile interval
+// of the replicates' values (non-finite values left out).
+std::mt19937_64 bootstrap_generator(std::uint64_t seed, std::size_t replicate);
+std::uint64_t poisson1_draw(std::mt19937_64& generator);
+// The same count from the generator's 64-bit draw `bits` itself
+// (poisson1_draw(g) == poisson1_of_bits(g()) for a copy of g), for callers
+// that look most draws up in a table of their leading bits first.
+std::uint64_t poisson1_of_bits(std::uint64_t bits);
+BootstrapInterval bootstrap_percentile_interval(std::vector<double> values, double confidence);
 
 // Consistency band under calibration (Broecker and Smith 2007): keep the
 // forecasts and weights (hence the bins), redraw every label as

@@ -23,6 +23,8 @@
 #include "plumb/io/history.hpp"
 #include "plumb/error.hpp"
 #include "plumb/io/output.hpp"
+#include "plumb/class_report.hpp"
+#include "plumb/io/class_report_render.hpp"
 #include "plumb/report.hpp"
 #include "plumb/io/report_render.hpp"
 #include "plumb/tally.hpp"
@@ -38,7 +40,8 @@ constexpr const char* kUsageSummary =
     "Reliability diagnostics of forecasts against outcomes: scores, decompositions, calibration "
     "error with intervals, a reliability chart, segments, pass/fail gates";
 // The gates each bound takes (gate_names, from the core's table).
-std::string usage_footer(const std::string& max_gates, const std::string& min_gates) {
+std::string usage_footer(const std::string& max_gates, const std::string& min_gates, const std::string& class_max,
+                         const std::string& class_min) {
   return "Columns: --score names columns reported as they are; each --map is applied on the fly to the\n"
          "column it was fitted on, or to the column its --map-score names (as apply's --score does).\n\n"
          "Gates (repeatable): --max METRIC=VALUE fails when the figure is above VALUE, --min when below.\n"
@@ -57,12 +60,20 @@ std::string usage_footer(const std::string& max_gates, const std::string& min_ga
          "  plumb report --map late.map.json --score risk --label missed --max ece=0.02 --min auc=0.7 -q holdout.csv\n"
          "  plumb report --score risk --map late.map.json --tally all.tally.json\n"
          "  plumb report --map late.map.json --label missed --max ece=0.02 --history nightly.jsonl --html review.html "
-         "tonight.csv\n\n"
+         "tonight.csv\n"
+         "  plumb report --scores 'p_*' --label outcome outcomes.csv --svg outcomes.svg\n\n"
          "History: --history FILE appends one JSON line per run (the date, the input's SHA-256, the rows, each\n"
          "column's map identity and every gate figure with its interval, the gates' outcomes), under a lock, in one\n"
          "write, then shows each calibrated column's figures over the nights (text, --svg, --html), with the gate\n"
          "limits and the nights the map was refitted. A torn last line (a run killed while writing) is refused with\n"
          "FILE:LINE unless --torn-history cut (docs/history-format.md).\n\n"
+         "Multi-class: with --scores (K columns, one per class; the label column holds class names) the report\n"
+         "gives the multi-class Brier score (summed over classes) and log loss, accuracy and the confidence gap,\n"
+         "the top-label (confidence) ECE with its reliability table and chart, the class-wise ECE and a\n"
+         "one-vs-rest table per class (docs/methods_metrics.md). --scale logit reads K logits per row.\n"
+         "Its gates read the model as a whole (no COLUMN:): --max " + class_max + ";\n"
+         "--min " + class_min + ". --score, --map, --map-score, --tally, --by, --groups,\n"
+         "--min-segment, --positive, --negative, --history and --html do not go with --scores.\n\n"
          "With --tally the report is that of the tallied rows (the figures are sums over rows, which the\n"
          "tally keeps per score; it is read as one cell per score and label, so memory grows with the\n"
          "distinct scores, not the rows). A tally of weighted rows needs --bootstrap 0 (the bootstrap\n"
@@ -101,6 +112,9 @@ struct ReportCliOptions {
   bool ascii = false;
   std::string tally;               // report on this tally instead of rows
   std::vector<std::string> given;  // row-reading options given on the command line
+  ClassOptions classes;            // --scores, --classes, --sum-tolerance
+  bool scale_given = false;        // --scale (with --scores only)
+  std::vector<std::string> given_binary;  // options given that do not go with --scores
 };
 
 // The tally named by --tally, checked against the columns asked for.
@@ -222,6 +236,45 @@ Gate parse_gate(const std::string& text, GateBound bound) {
   return g;
 }
 
+// The metrics `bound` may read on a multi-class report, for messages.
+std::string class_gate_names(GateBound bound) {
+  std::string names;
+  for (const GateMetric& m : class_gate_metrics())
+    if (bound == GateBound::max ? m.max : m.min) names += (names.empty() ? "" : ", ") + std::string(m.name);
+  return names;
+}
+
+// --max or --min METRIC=VALUE with --scores: the model as a whole, no column.
+Gate parse_class_gate(const std::string& text, GateBound bound) {
+  const std::string option(bound_option(bound));
+  const std::string expected = "METRIC=VALUE with --scores, METRIC one of " + class_gate_names(bound);
+  const auto eq = text.find('=');
+  if (eq == std::string::npos) throw Error(ErrorKind::usage, option + " needs a value", {}, text, expected);
+  const std::string name = text.substr(0, eq);
+  if (name.find(':') != std::string::npos)
+    throw Error(ErrorKind::usage, option + " with --scores reads the model as a whole and names no column", {}, text,
+                expected);
+  const GateMetric* metric = find_class_gate_metric(name);
+  if (metric == nullptr)
+    throw Error(ErrorKind::usage, option + " names a metric the multi-class report does not have", {}, name, expected);
+  if (!(bound == GateBound::max ? metric->max : metric->min)) {
+    const std::string other(bound_option(bound == GateBound::max ? GateBound::min : GateBound::max));
+    throw Error(ErrorKind::usage,
+                option + " cannot bound " + std::string(metric->name) + " (" + std::string(metric->reads) +
+                    "): only " + other + " can",
+                {}, text, other + " " + text + ", or " + option + " with one of " + class_gate_names(bound));
+  }
+  Gate g;
+  g.bound = bound;
+  g.metric = metric->name;
+  const std::string value = text.substr(eq + 1);
+  char* end = nullptr;
+  g.limit = std::strtod(value.c_str(), &end);
+  if (value.empty() || *end != '\0' || !std::isfinite(g.limit))
+    throw Error(ErrorKind::usage, option + " has a limit that is not a number", {}, value, expected);
+  return g;
+}
+
 // One reported column as gates see it: its name in the report, the --map
 // it came through (empty for a --score column).
 struct GateTarget {
@@ -271,7 +324,7 @@ std::string failed_gates_line(const std::vector<GateResult>& results) {
     ++failed;
     // Six significant digits, as the reports' gate tables (plumb/number_text.hpp).
     const std::string value = significant_text(g.value, 6), limit = significant_text(g.gate.limit, 6);
-    detail += (detail.empty() ? "" : "; ") + g.column + ": " + g.gate.metric;
+    detail += (detail.empty() ? "" : "; ") + (g.column.empty() ? "" : g.column + ": ") + g.gate.metric;
     if (std::isfinite(g.value))
       detail += " = " + value + " " + std::string(gate_comparison(g)) + " " + limit;
     else
@@ -325,7 +378,17 @@ void note_cut(const io::History& h) {
                count_text(h.cut_bytes).c_str());
 }
 
+int run_report_classes(const ReportCliOptions& o);
+
 int run_report(const ReportCliOptions& o) {
+  if (!o.classes.scores.empty()) return run_report_classes(o);
+  if (o.scale_given)
+    throw Error(ErrorKind::usage, "--scale applies to --scores only", {}, o.input.scale,
+                "--scores COLS --scale logit for K logits per row; a --score column is read as probabilities, and "
+                "log-odds or margins are reported through --map");
+  if (!o.classes.classes.empty() || o.classes.sum_tolerance != io::default_sum_tolerance)
+    throw Error(ErrorKind::usage, "--classes and --sum-tolerance apply to --scores only", {}, {},
+                "--scores COLS (one column per class) with --label COL");
   // The history is checked before any work, so a torn or foreign line is
   // refused at once; it is read again, under its lock, when the run appends.
   if (o.history.empty() && (!o.history_date.empty() || o.torn_history != "refuse"))
@@ -531,6 +594,59 @@ int run_report(const ReportCliOptions& o) {
   return emit_report(o, report, rows.source_sha256, history);
 }
 
+// The report of K-class rows (--scores): read by the multi-class reader,
+// built by build_class_report, written as the binary report is.
+int run_report_classes(const ReportCliOptions& o) {
+  for (const std::string& g : o.given_binary)
+    throw Error(ErrorKind::usage, g + " cannot be used with --scores", {}, {},
+                "--scores COLS --label COL FILE (the label column holds class names)");
+  if (o.input.label.empty())
+    throw Error(ErrorKind::usage, "report --scores needs --label", {}, {}, "--scores COLS --label COL FILE");
+  std::vector<Gate> gates;
+  for (const std::string& m : o.max) gates.push_back(parse_class_gate(m, GateBound::max));
+  for (const std::string& m : o.min) gates.push_back(parse_class_gate(m, GateBound::min));
+  const io::ClassColumns columns = class_columns(o.input, o.classes);
+  const io::ClassRows rows = io::read_class_scores(o.input.file, columns, parse_separator(o.input.separator));
+  ClassReportOptions ro;
+  ro.bins = o.bins;
+  ro.binning = o.binning == "equal_mass" ? BinningKind::equal_mass : BinningKind::equal_width;
+  ro.bootstrap = o.bootstrap;
+  ro.threads = o.threads;
+  ro.seed = o.seed;
+  ro.confidence = o.confidence;
+  ClassReport report = build_class_report(rows.data, ro);
+  report.source = rows.source;
+  report.label_column = rows.label_column;
+  report.weight_column = rows.weight_column;
+  report.score_columns = rows.score_columns;
+  if (parse_missing(o.input.missing) == io::MissingPolicy::skip) report.rows_skipped = rows.skipped;
+  for (const Gate& g : gates) report.gates.push_back(check_class_gate(g, report));
+  // Every file is written beside its place and committed only when all are.
+  std::vector<std::unique_ptr<io::OutputFile>> files;
+  auto write = [&](const std::string& path, const std::string& text) {
+    if (path.empty()) return;
+    files.push_back(std::make_unique<io::OutputFile>(path));
+    files.back()->write(text);
+  };
+  write(o.json_path, class_report_to_json(report).dump(2) + "\n");
+  write(o.svg_path, render_class_svg(report));
+  write(o.markdown_path, render_class_markdown(report));
+  for (auto& f : files) f->commit();
+  if (!o.input.quiet) {
+    TextStyle style;
+    style.unicode = !o.ascii;
+    style.colour = ::isatty(STDOUT_FILENO) == 1 && std::getenv("NO_COLOR") == nullptr;
+    io::OutputFile out("-");
+    out.write(render_class_text(report, style));
+    out.commit();
+  }
+  if (report.any_gate_exceeded()) {
+    std::fprintf(stderr, "%s\n", failed_gates_line(report.gates).c_str());
+    return static_cast<int>(ErrorKind::threshold);
+  }
+  return 0;
+}
+
 // Appends the run to the history (with --history) and draws the trend from
 // it, then writes the report's files and the terminal report; the gates'
 // exit code.
@@ -587,7 +703,8 @@ int emit_report(const ReportCliOptions& o, Report& report, const std::string& in
 Command add_report_command(CLI::App& app) {
   auto o = std::make_shared<ReportCliOptions>();
   CLI::App* cmd = app.add_subcommand("report", kUsageSummary);
-  cmd->footer(usage_footer(gate_names(GateBound::max), gate_names(GateBound::min)));
+  cmd->footer(usage_footer(gate_names(GateBound::max), gate_names(GateBound::min), class_gate_names(GateBound::max),
+                           class_gate_names(GateBound::min)));
   cmd->add_option("file", o->input.file, "CSV or TSV file with a header row, plain or gzip; - or nothing reads standard input")
       ->default_str("-");
   cmd->add_option("--score", o->scores,
@@ -602,8 +719,15 @@ Command add_report_command(CLI::App& app) {
                   "Column the --map of the same position reads (name or 1-based index), as apply's --score; "
                   "one per --map, in order (default: the column each map was fitted on)")
       ->allow_extra_args(false);
+  add_class_options(*cmd, o->classes);
+  cmd->add_option("--scale", o->input.scale,
+                  "With --scores: probability (each row sums to 1) or logit (K logits per row, read through "
+                  "softmax); a --score column is always a probability")
+      ->check(CLI::IsMember({"probability", "logit"}))
+      ->default_str("probability");
   cmd->add_option("--label", o->input.label,
-                  "Column holding the observed outcome (name or 1-based index); required unless --tally");
+                  "Column holding the observed outcome (name or 1-based index; with --scores, the class name); "
+                  "required unless --tally");
   cmd->add_option("--tally", o->tally,
                   "Report on a tally (from plumb tally or merge) instead of rows; --score "
                   "names its column. No FILE, --label, --weight, --positive, --negative, --missing, --by or --sep");
@@ -669,6 +793,11 @@ Command add_report_command(CLI::App& app) {
   return [o, cmd] {
     for (const char* name : {"file", "--label", "--weight", "--positive", "--negative", "--missing", "--by", "--sep"})
       if (cmd->count(name) > 0) o->given.push_back(name[0] == '-' ? name : "a FILE of rows");
+    o->scale_given = cmd->count("--scale") > 0;
+    for (const char* name :
+         {"--score", "--map", "--map-score", "--tally", "--by", "--groups", "--min-segment", "--positive", "--negative",
+          "--history", "--history-date", "--torn-history", "--html"})
+      if (cmd->count(name) > 0) o->given_binary.push_back(name);
     return run_report(*o);
   };
 }

@@ -139,6 +139,22 @@ double sorted_mcb_brier(std::span<const double> p, std::span<const double> y,
 
 }  // namespace
 
+std::mt19937_64 bootstrap_generator(std::uint64_t seed, std::size_t replicate) {
+  return replicate_generator(seed, replicate);
+}
+
+std::uint64_t poisson1_draw(std::mt19937_64& generator) {
+  return detail::invert_poisson1(detail::poisson_tables().cdf[1], uniform01(generator));
+}
+
+std::uint64_t poisson1_of_bits(std::uint64_t bits) {
+  return detail::invert_poisson1(detail::poisson_tables().cdf[1], static_cast<double>(bits >> 11) * 0x1p-53);
+}
+
+BootstrapInterval bootstrap_percentile_interval(std::vector<double> values, double confidence) {
+  return percentile_interval(std::move(values), confidence);
+}
+
 BootstrapResult bootstrap_metrics(std::span<const double> forecast,
                                   std::span<const double> label,
                                   std::span<const double> weight,

@@ -17,6 +17,7 @@
 #include <utility>
 #include <vector>
 
+#include "plumb/io/class_report_render.hpp"
 #include "plumb/io/report_render.hpp"
 #include "report_names.hpp"
 
@@ -237,6 +238,12 @@ void gates(std::string& out, const Report& report) {
   t.write(out);
 }
 
+constexpr std::string_view standing_caution =
+    "A recalibration map fitted on past data holds only while the population and the model stay the same; "
+    "check it again when either changes. Recalibration is not model validation: it makes the probabilities "
+    "honest on these rows, not the model sound. Regulated and clinical uses (credit, insurance, health) "
+    "follow local rules and licensed practice.\n";
+
 }  // namespace
 
 std::string render_markdown(const Report& report) {
@@ -275,11 +282,136 @@ std::string render_markdown(const Report& report) {
   out += "## Cautions\n\n";
   for (const std::string& c : report.cautions) out += "- " + md(c) + "\n";
   if (!report.cautions.empty()) out += "\n";
-  out +=
-      "A recalibration map fitted on past data holds only while the population and the model stay the same; "
-      "check it again when either changes. Recalibration is not model validation: it makes the probabilities "
-      "honest on these rows, not the model sound. Regulated and clinical uses (credit, insurance, health) "
-      "follow local rules and licensed practice.\n";
+  out += standing_caution;
+  return out;
+}
+
+namespace {
+
+// A reliability table of the multi-class report; `forecast` and `observed`
+// name its two columns (the top label's are confidence and accuracy).
+void class_reliability(std::string& out, const ClassReport& report, const ReliabilityTable& table,
+                       const std::vector<Interval>& band_of, const std::string& forecast, const std::string& observed) {
+  const bool weighted = !report.weight_column.empty();
+  const bool band = !band_of.empty();
+  std::vector<std::string> header{"bin", "range", label(rn::rows)};
+  if (weighted) header.insert(header.end(), {label(rn::weight), label(rn::effective_size)});
+  header.insert(header.end(), {forecast, observed, percent_text(table.confidence) + " Wilson interval", label(rn::gap)});
+  if (band) header.push_back(percent_text(report.options.confidence) + " " + label(rn::consistency_band));
+  std::vector<bool> right(header.size(), true);
+  right[1] = false;
+  Table t(header, right);
+  for (std::size_t b = 0; b < table.bins.size(); ++b) {
+    const ReliabilityBin& bin = table.bins[b];
+    const std::string range = finite(bin.edge_lo) && finite(bin.edge_hi)
+                                  ? range_text(probability_text(bin.edge_lo), probability_text(bin.edge_hi))
+                                  : na();
+    std::vector<std::string> cells{std::to_string(b + 1), range, count_text(bin.rows)};
+    if (weighted) cells.insert(cells.end(), {weight_text(bin.weight), weight_text(bin.effective_size)});
+    const bool has = bin.weight > 0;
+    cells.push_back(has ? probability_text(bin.mean_forecast) : na());
+    cells.push_back(has ? probability_text(bin.observed) : na());
+    cells.push_back(has && finite(bin.observed_lo) && finite(bin.observed_hi)
+                        ? interval_text(probability_text(bin.observed_lo), probability_text(bin.observed_hi))
+                        : na());
+    cells.push_back(has ? difference_text(bin.gap) : na());
+    if (band) {
+      const bool in_range = b < band_of.size() && finite(band_of[b].lo) && finite(band_of[b].hi);
+      cells.push_back(in_range ? interval_text(probability_text(band_of[b].lo), probability_text(band_of[b].hi)) : na());
+    }
+    t.row(std::move(cells));
+  }
+  t.write(out);
+}
+
+}  // namespace
+
+std::string render_class_markdown(const ClassReport& report) {
+  const ClassReportOptions& o = report.options;
+  std::string out;
+  out.reserve(8192 + report.classes.size() * 4096);
+  out += "# Multi-class reliability report: " + md(report.source) + "\n\n";
+  out += "- Rows: " + count_text(report.rows) + "\n";
+  if (report.rows_skipped)
+    out += "- Rows left out for a missing score or label: " + count_text(*report.rows_skipped) + "\n";
+  out += "- Classes: " + count_text(report.classes.size()) + "\n";
+  out += "- Label column: " + md(report.label_column) + "\n";
+  out += "- Weight column: " + (report.weight_column.empty() ? std::string("none") : md(report.weight_column)) + "\n";
+  if (report.scale == ClassScale::logit) out += "- Scores: logits, turned to probabilities by softmax\n";
+  out += "- Bins: " + count_text(o.bins) + ", " + binning_name(o.binning) + "\n";
+  if (o.bootstrap > 0)
+    out += "- Intervals: " + percent_text(o.confidence) + " percentile intervals from " + count_text(o.bootstrap) +
+           " Poisson bootstrap replicates (seed " + std::to_string(o.seed) + ")\n";
+  else
+    out += "- Intervals: none (no bootstrap replicates)\n";
+  out += "\n## Headline figures\n\n";
+  const ClassBootstrapResult* b = report.bootstrap ? &*report.bootstrap : nullptr;
+  const auto iv = [&](const BootstrapInterval ClassBootstrapResult::*which, std::string (*rule)(double)) {
+    if (!b) return na();
+    const BootstrapInterval& i = b->*which;
+    return finite(i.lo) && finite(i.hi) ? interval_text(rule(i.lo), rule(i.hi)) : na();
+  };
+  Table h({"figure", "value", percent_text(o.confidence) + " interval"}, {false, true, true});
+  const std::string bins = ", " + count_text(o.bins) + " bins";
+  h.row({label(rn::class_brier), metric_text(report.brier), iv(&ClassBootstrapResult::brier, metric_text)});
+  h.row({label(rn::class_log_loss), metric_text(report.log_loss), iv(&ClassBootstrapResult::log_loss, metric_text)});
+  h.row({label(rn::accuracy), probability_text(report.accuracy),
+         iv(&ClassBootstrapResult::accuracy, probability_text)});
+  h.row({label(rn::mean_confidence), probability_text(report.mean_confidence), na()});
+  h.row({label(rn::confidence_gap), difference_text(report.confidence_gap),
+         iv(&ClassBootstrapResult::confidence_gap, difference_text)});
+  h.row({label(rn::top_label_ece) + ", " + label(rn::equal_width) + bins, metric_text(report.top_label_equal_width.ece),
+         iv(&ClassBootstrapResult::top_label_ece, metric_text)});
+  h.row({label(rn::top_label_ece) + ", " + label(rn::equal_mass) + bins, metric_text(report.top_label_equal_mass.ece),
+         na()});
+  h.row({label(rn::classwise_ece) + ", " + label(rn::equal_width) + bins, metric_text(report.classwise_ece_equal_width),
+         iv(&ClassBootstrapResult::classwise_ece, metric_text)});
+  h.row({label(rn::classwise_ece) + ", " + label(rn::equal_mass) + bins, metric_text(report.classwise_ece_equal_mass),
+         na()});
+  if (report.true_class_at_zero > 0)
+    h.row({label(rn::label_probability_zero), count_text(report.true_class_at_zero), na()});
+  h.write(out);
+
+  out += "## Top label\n\n";
+  out += "Reliability of the confidence (the top label's probability; " + binning_name(report.top_label_table.binning) +
+         " bins; accuracy: share of the bin's rows whose top label is right; gap > 0: over-confident):\n\n";
+  class_reliability(out, report, report.top_label_table, report.top_label_band, "mean confidence", "accuracy");
+
+  out += "## Classes, one-vs-rest\n\n";
+  Table c({label(rn::class_name), label(rn::rows), label(rn::class_share), label(rn::mean_forecast), label(rn::gap),
+           label(rn::ece) + ", " + label(rn::equal_width), label(rn::ece) + ", " + label(rn::equal_mass)},
+          {false, true, true, true, true, true, true});
+  for (const ClassSummary& k : report.classes)
+    c.row({md(k.name), count_text(k.rows), probability_text(k.observed_rate), probability_text(k.mean_forecast),
+           difference_text(k.calibration_in_the_large), metric_text(k.ece_equal_width.ece),
+           metric_text(k.ece_equal_mass.ece)});
+  c.write(out);
+  for (const ClassSummary& k : report.classes) {
+    out += "### Class " + md(k.name) + "\n\n";
+    out += "Reliability of its probability against its indicator (" + binning_name(k.table.binning) +
+           " bins; gap > 0: forecasts too high):\n\n";
+    class_reliability(out, report, k.table, {}, label(rn::mean_forecast), "observed");
+  }
+
+  if (!report.gates.empty()) {
+    out += "## Gates\n\n";
+    std::size_t failed = 0;
+    Table g({"metric", "limit", "value", "result"}, {false, true, true, false});
+    for (const GateResult& r : report.gates) {
+      failed += r.exceeded ? 1 : 0;
+      g.row({md(r.gate.metric),
+             (r.gate.bound == GateBound::max ? "at most " : "at least ") + significant_text(r.gate.limit, 6),
+             significant_text(r.value, 6), r.exceeded ? "**FAIL**" : "pass"});
+    }
+    out += failed == 0 ? "Every gate passed.\n\n"
+                       : count_text(failed) + " of " + count_text(report.gates.size()) + " gates failed.\n\n";
+    g.write(out);
+  }
+
+  out += "## Cautions\n\n";
+  for (const std::string& caution : report.cautions) out += "- " + md(caution) + "\n";
+  if (!report.cautions.empty()) out += "\n";
+  out += standing_caution;
   return out;
 }
 

@@ -90,6 +90,29 @@ inline constexpr const Name* all[] = {
     &rows, &weight, &effective_size, &positives, &gap, &holm_p, &pav_curve, &diagonal, &consistency_band,
     &equal_width, &equal_mass};
 
+// The multi-class report (class_report.hpp). Its JSON keys are those of
+// docs/report-format.md's multi-class document; no gate reads them yet.
+inline constexpr Name class_brier{"Brier score, sum over classes", "Brier score (sum over classes, range 0 to 2)",
+                                  "brier", ""};
+inline constexpr Name class_log_loss{"log loss (nats)", "log loss of the label's probability (nats)", "log_loss", ""};
+inline constexpr Name accuracy{"accuracy", "accuracy (share of rows whose top label is right)", "accuracy", ""};
+inline constexpr Name mean_confidence{"mean confidence", "mean confidence (probability of the top label)",
+                                      "mean_confidence", ""};
+inline constexpr Name confidence_gap{"confidence gap", "confidence gap (mean confidence - accuracy)",
+                                     "confidence_gap", ""};
+inline constexpr Name top_label_ece{"top-label ECE", "top-label (confidence) ECE", "top_label", ""};
+inline constexpr Name classwise_ece{"class-wise ECE", "class-wise ECE (mean of the one-vs-rest ECEs)",
+                                    "classwise_ece", ""};
+inline constexpr Name class_name{"class", "class", "class", ""};
+inline constexpr Name class_share{"share", "share of rows (weight)", "observed_rate", ""};
+inline constexpr Name label_probability_zero{"label given 0", "rows giving their label probability 0",
+                                             "label_probability_zero", ""};
+
+// Every multi-class entry, for the tests that hold it to the multi-class JSON.
+inline constexpr const Name* class_all[] = {&class_brier,   &class_log_loss, &accuracy,   &mean_confidence,
+                                            &confidence_gap, &top_label_ece, &classwise_ece, &class_name,
+                                            &class_share,   &label_probability_zero};
+
 // Segment tables in text and Markdown show at most this many rows: every
 // flagged segment, then the largest (by weight) of the others; a line says
 // how many were left out. The JSON keeps every segment.

@@ -19,6 +19,7 @@
 #include <string_view>
 #include <vector>
 
+#include "plumb/io/class_report_render.hpp"
 #include "plumb/io/report_render.hpp"
 #include "report_names.hpp"
 #include "text_trend.hpp"
@@ -197,7 +198,8 @@ std::string with_interval(std::string_view name, double value, const BootstrapIn
   return s;
 }
 
-void draw_axes(Svg& svg, const Frame& f, double hist_top) {
+void draw_axes(Svg& svg, const Frame& f, double hist_top, std::string_view x_title = "forecast probability",
+               std::string_view y_title = "observed frequency") {
   // Grid and ticks at 0, 0.2, ..., 1; the vertical grid runs on through the
   // histogram strip so the two panels read against one scale.
   const double hist_bottom = hist_top + kHistHeight;
@@ -215,8 +217,8 @@ void draw_axes(Svg& svg, const Frame& f, double hist_top) {
     svg.line(f.x(0.0) - 4.0, f.y(v), f.x(0.0), f.y(v), kInk, 0.8);
     svg.text(f.x(0.0) - 7.0, f.y(v) + 3.5, label, 10.0, "end", "tick");
   }
-  svg.text(f.x(0.5), hist_bottom + 34.0, "forecast probability", 12.0, "middle", "axis-label");
-  svg.text(f.x(0.0) - 36.0, f.y(0.5), "observed frequency", 12.0, "middle", "axis-label", -90.0);
+  svg.text(f.x(0.5), hist_bottom + 34.0, x_title, 12.0, "middle", "axis-label");
+  svg.text(f.x(0.0) - 36.0, f.y(0.5), y_title, 12.0, "middle", "axis-label", -90.0);
 }
 
 void draw_band(Svg& svg, const Frame& f, const ScoreSummary& s) {
@@ -282,9 +284,10 @@ void draw_points(Svg& svg, const Frame& f, const ScoreSummary& s) {
   svg.out += "</g>\n";
 }
 
-void draw_histogram(Svg& svg, const Frame& f, double top, const ScoreSummary& s) {
+void draw_histogram(Svg& svg, const Frame& f, double top, const ScoreSummary& s,
+                    std::string_view what = "forecasts") {
   svg.rect(f.x(0.0), top, kPlotSide, kHistHeight, "#ffffff", kInk, 0.8, "histogram-area");
-  svg.text(f.x(0.0) - 7.0, top + kHistHeight / 2 + 3.5, "forecasts", 10.0, "end", "histogram-label");
+  svg.text(f.x(0.0) - 7.0, top + kHistHeight / 2 + 3.5, what, 10.0, "end", "histogram-label");
   double max_weight = 0.0;
   for (const double w : s.histogram) {
     if (finite(w)) max_weight = std::max(max_weight, w);
@@ -337,10 +340,16 @@ void draw_diagram(Svg& svg, const Report& report, const ScoreSummary& s, double 
 
 // One shared legend under the document title, wrapped to `width`. Returns
 // the y just below it.
+double draw_legend(Svg& svg, bool any_band, double confidence, double left, double y, double width);
+
 double draw_legend(Svg& svg, const Report& report, double left, double y, double width) {
   bool any_band = false;
   for (const ScoreReport& r : report.scores) any_band = any_band || !r.overall.band.empty();
-  const std::string level = percent_text(report.options.confidence);
+  return draw_legend(svg, any_band, report.options.confidence, left, y, width);
+}
+
+double draw_legend(Svg& svg, bool any_band, double confidence, double left, double y, double width) {
+  const std::string level = percent_text(confidence);
   // Each entry: its width and how to draw its sample and label at (x, y).
   struct Entry {
     double width;
@@ -566,6 +575,102 @@ std::string render_svg(const Report& report) {
          coord(height) + "\" viewBox=\"0 0 " + coord(width) + " " + coord(height) + "\" font-family=\"" +
          std::string(kFontStack) + "\">\n";
   doc += "<title>Reliability diagrams: " + xml_escape(report.source) + "</title>\n";
+  doc += "<rect x=\"0\" y=\"0\" width=\"" + coord(width) + "\" height=\"" + coord(height) + "\" fill=\"#ffffff\"/>\n";
+  doc += svg.out;
+  doc += "</svg>\n";
+  return doc;
+}
+
+namespace {
+
+// One panel of the multi-class document: a reliability diagram of `s`
+// (table, band, PAV curve, histogram) under a title and a subtitle.
+void draw_class_panel(Svg& svg, const ScoreSummary& s, std::string_view title, const std::string& subtitle,
+                      std::string_view x_title, std::string_view y_title, std::string_view histogram_what,
+                      double left, double top) {
+  svg.out += "<g class=\"diagram\">\n";
+  const double text_width = kPanelWidth - 2 * kTextLeft;
+  svg.fitted_text(left + kTextLeft, top + 20.0, shorten(title, kMaxTitleChars), 14.0, text_width, "title", "bold");
+  svg.fitted_text(left + kTextLeft, top + 38.0, subtitle, 11.0, text_width, "subtitle");
+  const Frame f{left + kPlotLeft, top + kPlotTop, kPlotSide};
+  const double hist_top = f.y(0.0) + kHistGap;
+  svg.rect(f.x0, f.y0, kPlotSide, kPlotSide, "#ffffff", "none", 0.0, "plot-area");
+  draw_axes(svg, f, hist_top, x_title, y_title);
+  svg.line(f.x(0.0), f.y(0.0), f.x(1.0), f.y(1.0), kDiagonal, 1.2, "6 4", "diagonal");
+  draw_band(svg, f, s);
+  draw_curve(svg, f, s);
+  draw_points(svg, f, s);
+  svg.rect(f.x0, f.y0, kPlotSide, kPlotSide, "none", kInk, 1.0);
+  draw_histogram(svg, f, hist_top, s, histogram_what);
+  svg.out += "</g>\n";
+}
+
+}  // namespace
+
+std::string render_class_svg(const ClassReport& report) {
+  namespace rn = report_names;
+  const std::size_t n = 1 + report.classes.size();  // the top-label diagram, then one per class
+  const std::size_t per_row = kPerRow;
+  const std::size_t rows = (n + per_row - 1) / per_row;
+  const double width = 2 * kDocMargin + static_cast<double>(per_row) * kPanelWidth;
+
+  Svg svg;
+  svg.out.reserve(8192 + n * 16384);
+  svg.text(kDocMargin, kDocMargin + 16, "Reliability of " + shorten(report.source, 80), 16.0, "start", "doc-title", 0.0,
+           "bold");
+  std::string about = count_text(report.classes.size()) + " classes; label " + report.label_column;
+  if (!report.weight_column.empty()) about += ", weight " + report.weight_column;
+  about += "; " + count_text(report.options.bins) + " " + std::string(rn::binning(report.options.binning).text) +
+           " bins";
+  if (report.options.bootstrap > 0)
+    about += "; " + percent_text(report.options.confidence) + " bootstrap intervals from " +
+             count_text(report.options.bootstrap) + " replicates";
+  svg.fitted_text(kDocMargin, kDocMargin + 36, about, 11.0, width - 2 * kDocMargin, "doc-subtitle");
+  const double header = draw_legend(svg, !report.top_label_band.empty(), report.options.confidence, kDocMargin + 4,
+                                    kDocMargin + kTitleHeight, width - 2 * kDocMargin) +
+                        12.0;
+
+  const bool mass = report.options.binning == BinningKind::equal_mass;
+  const ClassBootstrapResult* boot = report.bootstrap ? &*report.bootstrap : nullptr;
+  const std::string gap = "  \xC2\xB7  ";
+  {
+    ScoreSummary s;
+    s.table = report.top_label_table;
+    s.band = report.top_label_band;
+    s.pav_curve = report.top_label_pav;
+    s.histogram = report.confidence_histogram;
+    const CalibrationError& ece = mass ? report.top_label_equal_mass : report.top_label_equal_width;
+    // The bootstrap's interval is of the equal-width ECE only.
+    const std::string subtitle =
+        with_interval("ECE", ece.ece, boot && !mass ? &boot->top_label_ece : nullptr) + gap +
+        std::string(rn::accuracy.text) + " " + probability_text(report.accuracy) + gap +
+        std::string(rn::confidence_gap.text) + " " + difference_text(report.confidence_gap);
+    draw_class_panel(svg, s, "top label (confidence)", subtitle, "confidence (top-label probability)", "accuracy",
+                     "confidence", kDocMargin, header);
+  }
+  for (std::size_t k = 0; k < report.classes.size(); ++k) {
+    const ClassSummary& c = report.classes[k];
+    ScoreSummary s;
+    s.table = c.table;
+    s.histogram = c.histogram;
+    const CalibrationError& ece = mass ? c.ece_equal_mass : c.ece_equal_width;
+    const std::string subtitle = with_interval("ECE", ece.ece, nullptr) + gap + std::string(rn::class_share.text) +
+                                 " " + probability_text(c.observed_rate) + gap + "mean forecast " +
+                                 probability_text(c.mean_forecast);
+    const std::size_t i = k + 1;
+    draw_class_panel(svg, s, "class " + c.name + ", one-vs-rest", subtitle, "probability of the class",
+                     "observed frequency", "forecasts", kDocMargin + static_cast<double>(i % per_row) * kPanelWidth,
+                     header + static_cast<double>(i / per_row) * kPanelHeight);
+  }
+  const double height = header + static_cast<double>(rows) * kPanelHeight;
+
+  std::string doc;
+  doc.reserve(svg.out.size() + 1024);
+  doc += "<?xml version=\"1.0\" encoding=\"UTF-8\" standalone=\"no\"?>\n";
+  doc += "<svg xmlns=\"http://www.w3.org/2000/svg\" version=\"1.1\" width=\"" + coord(width) + "\" height=\"" +
+         coord(height) + "\" viewBox=\"0 0 " + coord(width) + " " + coord(height) + "\" font-family=\"" +
+         std::string(kFontStack) + "\">\n";
+  doc += "<title>Multi-class reliability diagrams: " + xml_escape(report.source) + "</title>\n";
   doc += "<rect x=\"0\" y=\"0\" width=\"" + coord(width) + "\" height=\"" + coord(height) + "\" fill=\"#ffffff\"/>\n";
   doc += svg.out;
   doc += "</svg>\n";

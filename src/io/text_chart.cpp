@@ -141,6 +141,10 @@ std::string histogram_strip(const Canvas& canvas, const std::vector<double>& his
 }  // namespace
 
 void render_chart(Document& doc, const Painter& p, const Report& report, const ScoreSummary& s) {
+  render_chart(doc, p, report.options.confidence, s, ChartWords{});
+}
+
+void render_chart(Document& doc, const Painter& p, double confidence, const ScoreSummary& s, const ChartWords& words) {
   // The plot takes what the width leaves after the axis margin, up to 61
   // columns; below 11 columns a chart says nothing and is left out.
   if (p.width < kAxisMargin + 12) return;
@@ -156,7 +160,7 @@ void render_chart(Document& doc, const Painter& p, const Report& report, const S
   const std::string_view htick = p.unicode ? "\u252c" : "+";
 
   doc.blank();
-  doc.line("  " + p.paint("observed frequency", Tone::bold));
+  doc.line("  " + p.paint(words.y_title, Tone::bold));
   const double ticks[] = {0.0, 0.25, 0.5, 0.75, 1.0};
   for (std::size_t row = H; row-- > 0;) {
     std::string label(kAxisMargin - 1, ' ');
@@ -205,25 +209,24 @@ void render_chart(Document& doc, const Painter& p, const Report& report, const S
   }
   while (!labels.empty() && labels.back() == ' ') labels.pop_back();
   doc.line(labels);
-  const std::string title = "forecast probability";
+  const std::string& title = words.x_title;
   const std::size_t title_at = kAxisMargin + (W > title.size() ? (W - title.size()) / 2 : 0);
   doc.line(std::string(title_at, ' ') + p.paint(title, Tone::bold));
 
   // Legend, only for what is drawn.
   const bool has_band = !s.band.empty();
   std::vector<std::string> legend;
-  legend.push_back(p.paint(p.unicode ? "\u25cf" : "O", Tone::bold) + " bin at mean forecast" +
+  legend.push_back(p.paint(p.unicode ? "\u25cf" : "O", Tone::bold) + " bin at " + words.bin_at +
                    (has_band ? ", inside band" : ""));
   if (has_band) {
     legend.push_back(p.paint(p.unicode ? "\u00d7" : "X", Tone::red) + " outside band");
-    legend.push_back(p.paint(p.unicode ? "\u2591" : ":", Tone::yellow) + " " + percent_text(report.options.confidence) +
+    legend.push_back(p.paint(p.unicode ? "\u2591" : ":", Tone::yellow) + " " + percent_text(confidence) +
                      " range of a calibrated forecaster");
   }
-  legend.push_back((p.unicode ? "dotted: " : ". ") + report_names::diagonal.text_label());
+  legend.push_back((p.unicode ? "dotted: " : ". ") + words.diagonal);
   if (!s.pav_curve.empty()) legend.push_back((p.unicode ? "solid: " : "- ") + report_names::pav_curve.text_label());
   if (!s.histogram.empty())
-    legend.push_back(p.unicode ? "bars under the axis: forecast histogram"
-                               : "strip under the axis: forecast histogram");
+    legend.push_back((p.unicode ? "bars under the axis: " : "strip under the axis: ") + words.histogram);
   doc.flow(legend, "   ", 2);
 }
 

@@ -65,17 +65,18 @@ REACH = {
     "src/core/maps/venn_abers_map.cpp": ("fit", "cross-fit"),
     # Multi-class (--scores): the reader and maps reach fit and cross-fit, the
     # stream apply; the kinds' help lines are fit's alone.
-    "src/cli/common.cpp::add_class_options": ("fit", "cross-fit"),
-    "src/cli/common.cpp::parse_class_scale_option": ("fit", "cross-fit"),
+    "src/cli/common.cpp::add_class_options": ("fit", "cross-fit", "report"),
+    "src/cli/common.cpp::parse_class_scale_option": ("fit", "cross-fit", "report"),
     "src/cli/common.cpp::class_columns": ("fit", "cross-fit"),
-    "src/io/class_input.cpp": ("fit", "cross-fit"),
-    "include/plumb/io/class_input.hpp": ("fit", "cross-fit"),
+    "src/io/class_input.cpp": ("fit", "cross-fit", "report"),
+    "include/plumb/io/class_input.hpp": ("fit", "cross-fit", "report"),
     "src/io/class_apply_stream.cpp": ("apply",),
     "include/plumb/io/class_apply_stream.hpp": ("apply",),
     "src/core/class_cross_fit.cpp": ("cross-fit",),
     "src/core/class_map.cpp::load_scaling": ("fit",),
     "src/core/class_map.cpp::fit_class_map": ("fit", "cross-fit"),
     "src/core/maps/one_vs_rest_map.cpp": ("fit", "cross-fit"),
+    "src/core/class_report.cpp": ("report",),
 }
 
 # Older spellings still taken but hidden from help: the literal that declares

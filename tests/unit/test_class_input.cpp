@@ -66,7 +66,7 @@ TEST_CASE("a prefix pattern names the classes by what the '*' stands for", "[cla
   CHECK(rows.data.scale == ClassScale::probability);
 }
 
-TEST_CASE("the class order given fixes the order, and a list names classes by their headers", "[class_input]") {
+TEST_CASE("class order: --classes fixes the order and a list names classes by their headers", "[class_input]") {
   ClassColumns c = parcel_columns();
   c.classes = {"lost", "on_time", "late"};
   const auto rows = read_class_scores(write_file("b.csv", parcels), c);
