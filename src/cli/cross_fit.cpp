@@ -274,6 +274,8 @@ int run_cross_fit(const CrossFitOptions& o) {
   artifact.fit_options = o.choices.recorded(chosen.kind);
   artifact.cross_fit = cross_fit_evidence(result, split.kind, split.column, o.seed, o.final_kind);
   artifact.provenance = provenance_of(rows, o.input, o.no_timestamp);
+  // The chosen map's reference for plumb drift: every row's sums, unweighted only.
+  if (rows.weight.empty()) artifact.reference = reference_from_tally(result.all_rows, default_reference_grid);
 
   if (!o.oof.empty()) write_oof(o, rows, result, separator);
   if (!o.json_path.empty()) {

@@ -1,5 +1,6 @@
 #include "io/artifact_odds.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
 #include <memory>
@@ -133,6 +134,12 @@ void add_odds_step(Artifact& a, OddsStep step) {
   a.map = std::make_unique<OddsAdjustedMap>(std::move(base), k);
 }
 
-int artifact_version(const Artifact& a) { return a.odds_steps.empty() ? 1 : 2; }
+int artifact_version(const Artifact& a) {
+  // The highest number among the features present (docs/artifact-format.md, "Versioning").
+  int version = 1;
+  if (!a.odds_steps.empty()) version = std::max(version, 2);
+  if (a.reference) version = std::max(version, 5);
+  return version;
+}
 
 }  // namespace plumb
