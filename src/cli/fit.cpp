@@ -1,6 +1,7 @@
 // plumb fit: fit one map on labelled scores and write its artifact.
 #include <algorithm>
 #include <cstdio>
+#include <optional>
 #include <string>
 
 #include "cli/commands.hpp"
@@ -70,6 +71,22 @@ void record_negative_rate(const FitOptions& o, Artifact& artifact) {
   add_odds_step(artifact, step);
 }
 
+// The fit rows' reference for plumb drift, or none when the scores span
+// more grid cells than a reference holds (scores such as log-odds of 1e300),
+// with a note naming the option that would keep one.
+std::optional<GridCells> drift_reference(const Tally& sums, double step, bool quiet) {
+  try {
+    return reference_from_tally(sums, step);
+  } catch (const Error& e) {
+    if (e.kind() != ErrorKind::input) throw;
+    if (!quiet)
+      std::fprintf(stderr, "plumb fit: note: the artifact carries no drift reference: %s; a coarser "
+                           "--reference-grid keeps one\n",
+                   e.message().c_str());
+    return std::nullopt;
+  }
+}
+
 // The artifact's provenance for a map fitted on a tally: the tally file is
 // the source; every count and range is the tally's, so they equal those of
 // a fit on the rows the tally was built from.
@@ -127,7 +144,8 @@ int run_fit(const FitOptions& o) {
     artifact.score_column = tally.score_column;
     artifact.fit_options = o.choices.recorded(o.kind);
     artifact.provenance = provenance_of_tally(tally, o.tally == "-" ? "<stdin>" : o.tally, sha256, o.no_timestamp);
-    if (!o.no_reference && tally.unit_weights) artifact.reference = reference_from_tally(tally, o.reference_grid);
+    if (!o.no_reference && tally.unit_weights)
+      artifact.reference = drift_reference(tally, o.reference_grid, o.input.quiet);
     record_negative_rate(o, artifact);
     return write_and_summarise(o, artifact, "tally " + artifact.provenance.source);
   }
@@ -159,7 +177,8 @@ int run_fit(const FitOptions& o) {
   artifact.score_column = rows.score_columns[0];
   artifact.fit_options = o.choices.recorded(o.kind);
   artifact.provenance = provenance_of(rows, o.input, o.no_timestamp);
-  if (!o.no_reference && o.input.weight.empty()) artifact.reference = reference_from_tally(sums, o.reference_grid);
+  if (!o.no_reference && o.input.weight.empty())
+    artifact.reference = drift_reference(sums, o.reference_grid, o.input.quiet);
   record_negative_rate(o, artifact);
   return write_and_summarise(o, artifact, grouped(rows.rows) + " rows of " + rows.source);
 }

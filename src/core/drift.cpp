@@ -261,7 +261,6 @@ double population_stability_index(std::span<const std::uint64_t> tonight, std::s
 double kolmogorov_upper_tail(double x) noexcept {
   if (!(x > 0.0)) return 1.0;
   constexpr double pi = 3.14159265358979323846;
-  double cdf = 0.0;
   if (x < 1.0) {
     // K(x) = sqrt(2 pi) / x * sum_k exp(-(2k - 1)^2 pi^2 / (8 x^2))
     const double w = std::log(x);
@@ -272,20 +271,20 @@ double kolmogorov_upper_tail(double x) noexcept {
       s += term;
       if (term < 1e-17 * s) break;
     }
-    cdf = s * std::sqrt(2.0 * pi);
-  } else {
-    // K(x) = 1 - 2 sum_k (-1)^(k-1) exp(-2 k^2 x^2)
-    const double z = -2.0 * x * x;
-    double s = -1.0, sum = 0.0, old = 0.0;
-    for (int k = 1; k < 1000; ++k) {
-      old = sum;
-      sum += 2.0 * s * std::exp(z * k * k);
-      s = -s;
-      if (std::fabs(old - sum) <= 1e-17) break;
-    }
-    cdf = 1.0 + sum;
+    const double cdf = s * std::sqrt(2.0 * pi);
+    return std::clamp(1.0 - cdf, 0.0, 1.0);
   }
-  return std::clamp(1.0 - cdf, 0.0, 1.0);
+  // The tail itself, 2 sum_k (-1)^(k-1) exp(-2 k^2 x^2), summed without
+  // taking it from 1 (R's 1 - K(x) loses every digit below 1e-16).
+  const double z = -2.0 * x * x;
+  double sign = 1.0, tail = 0.0;
+  for (int k = 1; k < 1000; ++k) {
+    const double term = 2.0 * std::exp(z * k * k);
+    tail += sign * term;
+    sign = -sign;
+    if (term <= 1e-17 * tail) break;
+  }
+  return std::clamp(tail, 0.0, 1.0);
 }
 
 KsResult ks_two_sample(const GridCells& tonight, const GridCells& reference) {

@@ -141,11 +141,12 @@ std::string render_drift_text(const DriftReport& r, bool unicode) {
   line("outside the fitted range", share_text(d.tonight_rows ? static_cast<double>(d.outside_rows) /
                                                                    static_cast<double>(d.tonight_rows)
                                                              : 0.0) +
-                                       " (" + count_text(d.outside_rows) + " rows outside " +
+                                       " (" + count_text(d.outside_rows) + (d.outside_rows == 1 ? " row" : " rows") +
+                                       " outside " +
                                        range_text(shortest_text(r.fitted_min), shortest_text(r.fitted_max), unicode) +
                                        ")");
   line(std::string(rn::mean_forecast.text) + " (expected rate)",
-       probability_text(d.mean_forecast_tonight) + "  at fit " + probability_text(d.mean_forecast_reference) +
+       probability_text(d.mean_forecast_tonight) + "  reference " + probability_text(d.mean_forecast_reference) +
            "  change " + difference_text(d.mean_forecast_tonight - d.mean_forecast_reference));
   if (d.labelled) {
     out += "With labels: reference -> tonight, change";

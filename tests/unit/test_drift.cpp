@@ -58,7 +58,10 @@ TEST_CASE("the Kolmogorov distribution's upper tail", "[drift]") {
   CHECK(plumb::kolmogorov_upper_tail(1.3581) == Approx(0.05).margin(1e-4));
   CHECK(plumb::kolmogorov_upper_tail(0.0) == 1.0);
   CHECK(plumb::kolmogorov_upper_tail(0.2) == Approx(1.0).margin(1e-12));
-  CHECK(plumb::kolmogorov_upper_tail(6.0) < 1e-30);
+  // Far in the tail the first term, 2 exp(-2 x^2), is the value (the
+  // second is exp(-6 x^2) smaller): no digits lost to 1 - K(x).
+  CHECK(plumb::kolmogorov_upper_tail(4.56) == Approx(2.0 * std::exp(-2.0 * 4.56 * 4.56)).epsilon(1e-12));
+  CHECK(plumb::kolmogorov_upper_tail(6.0) == Approx(2.0 * std::exp(-72.0)).epsilon(1e-12));
 }
 
 TEST_CASE("grid cells: the table rule is the nearest log-odds, and counts are kept", "[drift]") {
