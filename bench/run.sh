@@ -149,6 +149,9 @@ measure apply1 "plumb apply (isotonic)$one_thread" "$rows" \
   "$plumb" apply -q "${threads_option[@]}" "$map" "$big_file"
 measure apply_small "plumb apply (isotonic)$one_thread" "$small" \
   "$plumb" apply -q "${threads_option[@]}" "$map" "$small_file"
+if "$plumb" drift --help > /dev/null 2>&1; then
+  measure drift "plumb drift (isotonic, no labels)" "$rows" "$plumb" drift -q --map "$map" "$big_file"
+fi
 if [ $has_threads = 1 ]; then
   measure apply2 "plumb apply (isotonic) --threads 2" "$rows" "$plumb" apply -q --threads 2 "$map" "$big_file"
 fi
@@ -209,6 +212,10 @@ done < "$results"
 echo
 echo "| target | measured | goal | status |"
 echo "| --- | --- | --- | --- |"
+if [ -n "${wall[drift]:-}" ]; then
+  x=$(ratio "${wall[drift]}" "${wall[apply1]}")
+  echo "| drift on unlabelled rows vs apply (one thread) | ${x}x the time | <= 1.5x | $(status "$x" '<=' 1.5) |"
+fi
 x=$(ratio "${wall[awk]}" "${wall[apply1]}")
 echo "| apply (one thread) vs the awk line | ${x}x faster | >= 10x | $(status "$x" '>=' 10) |"
 if [ $has_threads = 1 ]; then

@@ -18,5 +18,6 @@ Command add_tally_command(CLI::App& app);
 Command add_merge_command(CLI::App& app);
 Command add_adjust_command(CLI::App& app);
 Command add_export_command(CLI::App& app);
+Command add_drift_command(CLI::App& app);
 
 }  // namespace plumb::cli

@@ -397,4 +397,72 @@ std::string odds_steps_text(const Artifact& artifact) {
   return "x " + significant(factor, 6) + " (" + steps + ")";
 }
 
+std::string_view bound_option(GateBound bound) { return bound == GateBound::max ? "--max" : "--min"; }
+
+std::string gate_names(GateBound bound, std::span<const GateMetric> metrics) {
+  std::string names;
+  for (const GateMetric& m : metrics)
+    if (bound == GateBound::max ? m.max : m.min) names += (names.empty() ? "" : ", ") + std::string(m.name);
+  return names;
+}
+
+Gate parse_gate(const std::string& text, GateBound bound, std::span<const GateMetric> metrics,
+                const GateMetric* (*find)(std::string_view), bool columns) {
+  const std::string option(bound_option(bound));
+  const auto eq = text.find('=');
+  const std::string expected = std::string(columns ? "METRIC=VALUE or COLUMN:METRIC=VALUE" : "METRIC=VALUE") +
+                               ", METRIC one of " + gate_names(bound, metrics);
+  if (eq == std::string::npos) throw Error(ErrorKind::usage, option + " needs a value", {}, text, expected);
+  Gate g;
+  g.bound = bound;
+  std::string lhs = text.substr(0, eq);
+  const auto colon = lhs.rfind(':');
+  if (colon != std::string::npos && !columns)
+    throw Error(ErrorKind::usage, option + " takes no column before ':' here", {}, text, expected);
+  if (colon != std::string::npos) {
+    g.column = lhs.substr(0, colon);
+    lhs = lhs.substr(colon + 1);
+    if (g.column.empty())
+      throw Error(ErrorKind::usage, option + " has an empty column before ':'", {}, text, expected);
+  }
+  const GateMetric* metric = find(lhs);
+  if (metric == nullptr) throw Error(ErrorKind::usage, option + " names an unknown metric", {}, lhs, expected);
+  if (!(bound == GateBound::max ? metric->max : metric->min)) {
+    const std::string other(bound_option(bound == GateBound::max ? GateBound::min : GateBound::max));
+    throw Error(ErrorKind::usage,
+                option + " cannot bound " + std::string(metric->name) + " (" + std::string(metric->reads) +
+                    "): only " + other + " can",
+                {}, text, other + " " + text + ", or " + option + " with one of " + gate_names(bound, metrics));
+  }
+  g.metric = metric->name;
+  const std::string value = text.substr(eq + 1);
+  char* end = nullptr;
+  g.limit = std::strtod(value.c_str(), &end);
+  if (value.empty() || *end != '\0' || !std::isfinite(g.limit))
+    throw Error(ErrorKind::usage, option + " has a limit that is not a number", {}, value, expected);
+  return g;
+}
+
+// The failed gates, for the one line on stderr.
+std::string failed_gates_line(const std::string& command, const std::vector<GateResult>& results,
+                              bool with_column) {
+  std::size_t failed = 0;
+  std::string detail;
+  for (const GateResult& g : results) {
+    if (!g.exceeded) continue;
+    ++failed;
+    // Six significant digits, as the reports' gate tables (plumb/number_text.hpp).
+    const std::string value = significant_text(g.value, 6), limit = significant_text(g.gate.limit, 6);
+    detail += (detail.empty() ? "" : "; ") + (with_column ? g.column + ": " : std::string()) + g.gate.metric;
+    if (std::isfinite(g.value))
+      detail += " = " + value + " " + std::string(gate_comparison(g)) + " " + limit;
+    else
+      detail += " could not be computed, which fails";
+    detail += " (" + std::string(bound_option(g.gate.bound)) +
+              (std::isfinite(g.value) ? ")" : " " + limit + ")");
+  }
+  return command + ": " + std::to_string(failed) + " of " + std::to_string(results.size()) +
+         (results.size() == 1 ? " gate" : " gates") + " failed: " + detail;
+}
+
 }  // namespace plumb::cli

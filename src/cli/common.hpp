@@ -13,6 +13,7 @@
 #include "plumb/io/class_input.hpp"
 #include "plumb/io/labelled_input.hpp"
 #include "plumb/map_registry.hpp"
+#include "plumb/report.hpp"
 #include "plumb/number_text.hpp"  // the formatting layer, for every summary line
 #include "plumb/tally.hpp"
 #include "plumb/scale.hpp"
@@ -158,5 +159,18 @@ std::string significant(double value, int digits);
 // "x 2.09095 (prior shift, base rate 0.1701 -> 0.3)". Precondition: at
 // least one step.
 std::string odds_steps_text(const Artifact& artifact);
+
+// Gates, as plumb report and plumb drift take them (--max / --min).
+std::string_view bound_option(GateBound bound);
+// The metrics of `metrics` that `bound` may read, comma-separated, for messages.
+std::string gate_names(GateBound bound, std::span<const GateMetric> metrics);
+// --max or --min TEXT: METRIC=VALUE, or COLUMN:METRIC=VALUE when `columns`;
+// `find` looks a name up (older spellings included). Throws Error(usage)
+// naming the option, the text and the accepted names.
+Gate parse_gate(const std::string& text, GateBound bound, std::span<const GateMetric> metrics,
+                const GateMetric* (*find)(std::string_view), bool columns);
+// The failed gates as one line for stderr: "COMMAND: 1 of 2 gates failed: ...",
+// each gate preceded by its column when `with_column`.
+std::string failed_gates_line(const std::string& command, const std::vector<GateResult>& results, bool with_column);
 
 }  // namespace plumb::cli

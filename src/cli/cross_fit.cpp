@@ -444,6 +444,15 @@ int run_cross_fit(const CrossFitOptions& o) {
     artifact.cross_fit["negative_rate"] = o.negative_rate;
   }
   artifact.provenance = provenance_of(rows, o.input, o.no_timestamp);
+  // The chosen map's reference for plumb drift: every row's sums, unweighted only.
+  // Scores spanning more grid cells than a reference holds get none.
+  if (rows.weight.empty()) {
+    try {
+      artifact.reference = reference_from_tally(result.all_rows, default_reference_grid);
+    } catch (const Error& e) {
+      if (e.kind() != ErrorKind::input) throw;
+    }
+  }
 
   if (!o.oof.empty()) write_oof(o, rows, result, separator);
   if (!o.json_path.empty()) {

@@ -1,6 +1,7 @@
 // plumb fit: fit one map on labelled scores and write its artifact.
 #include <algorithm>
 #include <cstdio>
+#include <optional>
 #include <string>
 
 #include "cli/commands.hpp"
@@ -40,7 +41,9 @@ constexpr const char* kUsageFooter =
     "trained on downsampled data is often checked), --negative-rate RATE fits the map on the rows as they\n"
     "are and records odds x RATE in the artifact, so apply, report --map and inspect give the probabilities\n"
     "of the full population. For a map already written, plumb adjust --negative-rate does the same.\n\n"
-    "The artifact records the input's SHA-256, row counts and the fit's diagnostics; see docs/artifact-format.md.";
+    "The artifact records the input's SHA-256, row counts and the fit's diagnostics; see docs/artifact-format.md.\n"
+    "It also keeps the fit rows counted on a grid of the score (--reference-grid), which plumb drift compares\n"
+    "later nights with; weighted rows get none, and --no-reference leaves it out.";
 
 struct FitOptions {
   InputOptions input;
@@ -51,6 +54,8 @@ struct FitOptions {
   std::string tally;               // fit on this tally instead of rows
   double negative_rate = 1.0;      // --negative-rate, when negative_rate_given
   bool negative_rate_given = false;
+  double reference_grid = default_reference_grid;  // --reference-grid
+  bool no_reference = false;
   std::vector<std::string> given;  // row-reading options given on the command line
   std::vector<std::string> given_all;  // options that do not go with --scores, as given
   ClassOptions classes;            // --scores, --classes, --sum-tolerance
@@ -73,6 +78,22 @@ void record_negative_rate(const FitOptions& o, Artifact& artifact) {
   step.reason = OddsStep::Reason::negative_sampling;
   step.negative_rate = o.negative_rate;
   add_odds_step(artifact, step);
+}
+
+// The fit rows' reference for plumb drift, or none when the scores span
+// more grid cells than a reference holds (scores such as log-odds of 1e300),
+// with a note naming the option that would keep one.
+std::optional<GridCells> drift_reference(const Tally& sums, double step, bool quiet) {
+  try {
+    return reference_from_tally(sums, step);
+  } catch (const Error& e) {
+    if (e.kind() != ErrorKind::input) throw;
+    if (!quiet)
+      std::fprintf(stderr, "plumb fit: note: the artifact carries no drift reference: %s; a coarser "
+                           "--reference-grid keeps one\n",
+                   e.message().c_str());
+    return std::nullopt;
+  }
 }
 
 // The artifact's provenance for a map fitted on a tally: the tally file is
@@ -138,6 +159,8 @@ int run_fit(const FitOptions& o) {
     artifact.score_column = tally.score_column;
     artifact.fit_options = o.choices.recorded(o.kind);
     artifact.provenance = provenance_of_tally(tally, o.tally == "-" ? "<stdin>" : o.tally, sha256, o.no_timestamp);
+    if (!o.no_reference && tally.unit_weights)
+      artifact.reference = drift_reference(tally, o.reference_grid, o.input.quiet);
     record_negative_rate(o, artifact);
     return write_and_summarise(o, artifact, "tally " + artifact.provenance.source);
   }
@@ -169,6 +192,8 @@ int run_fit(const FitOptions& o) {
   artifact.score_column = rows.score_columns[0];
   artifact.fit_options = o.choices.recorded(o.kind);
   artifact.provenance = provenance_of(rows, o.input, o.no_timestamp);
+  if (!o.no_reference && o.input.weight.empty())
+    artifact.reference = drift_reference(sums, o.reference_grid, o.input.quiet);
   record_negative_rate(o, artifact);
   return write_and_summarise(o, artifact, grouped(rows.rows) + " rows of " + rows.source);
 }
@@ -357,6 +382,13 @@ Command add_fit_command(CLI::App& app) {
       ->check(CLI::IsMember(std::vector<std::string>(map_kinds().begin(), map_kinds().end())))
       ->default_str("isotonic")
       ->option_text("KIND");
+  cmd->add_option("--reference-grid", o->reference_grid,
+                  "Step of the grid the fit rows are counted on for plumb drift (log-odds for probability "
+                  "scores; moves no probability by more than step/8)")
+      ->check(CLI::Range(1e-6, 10.0))
+      ->default_str("0.02");
+  cmd->add_flag("--no-reference", o->no_reference,
+                "Leave the fit rows' reference out of the artifact (plumb drift then needs --reference)");
   cmd->add_flag("--no-timestamp", o->no_timestamp,
                 "Leave the creation time out, so the same input gives a byte-identical artifact");
   return [o, cmd] {

@@ -155,7 +155,7 @@ std::string_view value_word(std::string_view long_name) {
       {"positive", "VALUE"}, {"negative", "VALUE"}, {"sep", "CHAR"},      {"as", "NAME"},
       {"map-score", "COLUMN"}, {"max", "METRIC=VALUE"}, {"min", "METRIC=VALUE"}, {"missing", "POLICY"},
       {"binning", "KIND"},
-      {"final", "WHICH"}, {"split", "RULE"},
+      {"final", "WHICH"}, {"split", "RULE"}, {"reference", "FILE"}, {"reference-tally", "FILE"},
   };
   for (const auto& [name, word] : words)
     if (name == long_name) return word;

@@ -24,12 +24,13 @@ int main(int argc, char** argv) {
       "  plumb adjust late.map.json --prior 0.30 -o late.peak.map.json\n"
       "  plumb tally --score risk --label missed part-0001.csv -o part-0001.tally.json\n"
       "  plumb merge part-*.tally.json -o all.tally.json\n"
-      "  plumb export --sql postgresql late.map.json -o late_map.sql\n\n"
+      "  plumb export --sql postgresql late.map.json -o late_map.sql\n"
+      "  plumb drift --map late.map.json --max psi=0.2 tonight.csv\n\n"
       "Run 'plumb COMMAND --help' for each command's options.",
       "plumb"};
   app.footer(
       "Exit codes: 0 ok, 1 internal error, 2 usage, 3 bad input data, 4 bad map artifact,\n"
-      "5 file I/O, 6 data cannot support the fit, 7 a gate of plumb report --max or --min failed.\n"
+      "5 file I/O, 6 data cannot support the fit, 7 a gate of plumb report or plumb drift failed.\n"
       "Errors are one line on stderr: FILE:LINE:COLUMN (column 'NAME'): what went wrong.");
   // Before the commands are added: each takes the formatter and help flag of the app.
   app.formatter(std::make_shared<plumb::cli::HelpFormatter>());
@@ -52,6 +53,7 @@ int main(int argc, char** argv) {
   add(plumb::cli::add_tally_command);
   add(plumb::cli::add_merge_command);
   add(plumb::cli::add_export_command);
+  add(plumb::cli::add_drift_command);
 
   try {
     app.parse(argc, argv);

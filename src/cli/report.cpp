@@ -192,48 +192,10 @@ LabelCells cells_of_tally(const Tally& t, const CalibrationMap* map, std::uint64
 // Below this many scores outside the fitted range a mapped column is quiet.
 constexpr double outside_share_caution = 0.01;
 
-std::string_view bound_option(GateBound bound) { return bound == GateBound::max ? "--max" : "--min"; }
-
-// The metrics `bound` may read, for messages.
-std::string gate_names(GateBound bound) {
-  std::string names;
-  for (const GateMetric& m : gate_metrics())
-    if (bound == GateBound::max ? m.max : m.min) names += (names.empty() ? "" : ", ") + std::string(m.name);
-  return names;
-}
-
-// --max or --min TEXT: METRIC=VALUE or COLUMN:METRIC=VALUE.
+// The gates of the report: its metric table (plumb/report.hpp).
+std::string gate_names(GateBound bound) { return ::plumb::cli::gate_names(bound, gate_metrics()); }
 Gate parse_gate(const std::string& text, GateBound bound) {
-  const std::string option(bound_option(bound));
-  const auto eq = text.find('=');
-  const std::string expected = "METRIC=VALUE or COLUMN:METRIC=VALUE, METRIC one of " + gate_names(bound);
-  if (eq == std::string::npos) throw Error(ErrorKind::usage, option + " needs a value", {}, text, expected);
-  Gate g;
-  g.bound = bound;
-  std::string lhs = text.substr(0, eq);
-  const auto colon = lhs.rfind(':');
-  if (colon != std::string::npos) {
-    g.column = lhs.substr(0, colon);
-    lhs = lhs.substr(colon + 1);
-    if (g.column.empty())
-      throw Error(ErrorKind::usage, option + " has an empty column before ':'", {}, text, expected);
-  }
-  const GateMetric* metric = find_gate_metric(lhs);
-  if (metric == nullptr) throw Error(ErrorKind::usage, option + " names an unknown metric", {}, lhs, expected);
-  if (!(bound == GateBound::max ? metric->max : metric->min)) {
-    const std::string other(bound_option(bound == GateBound::max ? GateBound::min : GateBound::max));
-    throw Error(ErrorKind::usage,
-                option + " cannot bound " + std::string(metric->name) + " (" + std::string(metric->reads) +
-                    "): only " + other + " can",
-                {}, text, other + " " + text + ", or " + option + " with one of " + gate_names(bound));
-  }
-  g.metric = metric->name;
-  const std::string value = text.substr(eq + 1);
-  char* end = nullptr;
-  g.limit = std::strtod(value.c_str(), &end);
-  if (value.empty() || *end != '\0' || !std::isfinite(g.limit))
-    throw Error(ErrorKind::usage, option + " has a limit that is not a number", {}, value, expected);
-  return g;
+  return ::plumb::cli::parse_gate(text, bound, gate_metrics(), find_gate_metric, true);
 }
 
 // The metrics `bound` may read on a multi-class report, for messages.
@@ -313,27 +275,6 @@ std::vector<std::vector<std::size_t>> gate_columns(const std::vector<Gate>& gate
     out.push_back(std::move(picked));
   }
   return out;
-}
-
-// The failed gates, for the one line on stderr.
-std::string failed_gates_line(const std::vector<GateResult>& results) {
-  std::size_t failed = 0;
-  std::string detail;
-  for (const GateResult& g : results) {
-    if (!g.exceeded) continue;
-    ++failed;
-    // Six significant digits, as the reports' gate tables (plumb/number_text.hpp).
-    const std::string value = significant_text(g.value, 6), limit = significant_text(g.gate.limit, 6);
-    detail += (detail.empty() ? "" : "; ") + (g.column.empty() ? "" : g.column + ": ") + g.gate.metric;
-    if (std::isfinite(g.value))
-      detail += " = " + value + " " + std::string(gate_comparison(g)) + " " + limit;
-    else
-      detail += " could not be computed, which fails";
-    detail += " (" + std::string(bound_option(g.gate.bound)) +
-              (std::isfinite(g.value) ? ")" : " " + limit + ")");
-  }
-  return "plumb report: " + std::to_string(failed) + " of " + std::to_string(results.size()) +
-         (results.size() == 1 ? " gate" : " gates") + " failed: " + detail;
 }
 
 int emit_report(const ReportCliOptions& o, Report& report, const std::string& input_sha256,
@@ -641,7 +582,7 @@ int run_report_classes(const ReportCliOptions& o) {
     out.commit();
   }
   if (report.any_gate_exceeded()) {
-    std::fprintf(stderr, "%s\n", failed_gates_line(report.gates).c_str());
+    std::fprintf(stderr, "%s\n", failed_gates_line("plumb report", report.gates, false).c_str());
     return static_cast<int>(ErrorKind::threshold);
   }
   return 0;
@@ -692,7 +633,7 @@ int emit_report(const ReportCliOptions& o, Report& report, const std::string& in
     out.commit();
   }
   if (report.any_gate_exceeded()) {
-    std::fprintf(stderr, "%s\n", failed_gates_line(report.gates).c_str());
+    std::fprintf(stderr, "%s\n", failed_gates_line("plumb report", report.gates, true).c_str());
     return static_cast<int>(ErrorKind::threshold);
   }
   return 0;

@@ -10,6 +10,7 @@
 #include "io/byte_source.hpp"
 #include "io/artifact_document.hpp"
 #include "io/artifact_odds.hpp"
+#include "io/artifact_reference.hpp"
 #include "io/json_input.hpp"
 #include "plumb/error.hpp"
 #include "plumb/version.hpp"
@@ -95,6 +96,7 @@ json artifact_to_json(const Artifact& a) {
   if (p.rows_skipped) doc["provenance"]["rows_skipped"] = *p.rows_skipped;
   if (!a.cross_fit.is_null()) doc["cross_fit"] = a.cross_fit;
   if (!a.odds_steps.empty()) doc[io::odds_adjustment_key] = io::odds_adjustment_json(a.odds_steps);
+  if (a.reference) doc[io::drift_reference_key] = io::drift_reference_json(*a.reference);
   return doc;
 }
 
@@ -146,12 +148,14 @@ json artifact_document(const std::string& text, const std::string& where) {
     throw Error(ErrorKind::artifact, "not a plumb map artifact", loc, {},
                 std::string("a JSON object with \"format\": \"") + artifact_format_marker + "\"");
   const std::int64_t version = jf::require_integer(doc, "format_version", where, "format_version");
-  if (version < artifact_format_version_oldest || version > artifact_format_version)
+  // Version 4 is a multi-class map's, refused below by the binary reader
+  // when its classes are missing (docs/artifact-format.md, "Versioning").
+  const bool newer = version > artifact_format_version;
+  if (version < artifact_format_version_oldest || newer)
     throw Error(ErrorKind::artifact,
-                version > artifact_format_version
-                    ? "the map artifact has format version " + std::to_string(version) +
-                          ", written by a newer plumb"
-                    : "the map artifact has unknown format version " + std::to_string(version),
+                newer ? "the map artifact has format version " + std::to_string(version) +
+                            ", written by a newer plumb"
+                      : "the map artifact has unknown format version " + std::to_string(version),
                 loc, {},
                 "format version " + std::to_string(artifact_format_version_oldest) + " to " +
                     std::to_string(artifact_format_version) + " (plumb " + version_string + ")");
@@ -242,6 +246,12 @@ Artifact artifact_from_text(const std::string& text, const std::string& where) {
       jf::fail(where, io::odds_adjustment_key, "is present in a format version 1 document",
                "format version 2 for a map with an odds adjustment");
     io::read_odds_adjustment(doc, a, where);
+  }
+  if (doc.contains(io::drift_reference_key)) {
+    if (version < 5)
+      jf::fail(where, io::drift_reference_key, "is present in a format version " + std::to_string(version) + " document",
+               "format version 5 for a map with a drift reference");
+    a.reference = io::read_drift_reference(doc, a.map->scale(), where);
   }
   return a;
 }

@@ -151,6 +151,7 @@ int artifact_version(const Artifact& a) {
       has_venn_abers = has_venn_abers || (part.contains("kind") && part["kind"].is_string() &&
                                           venn_abers(part["kind"].get<std::string>()));
   if (has_venn_abers) version = std::max(version, 3);
+  if (a.reference) version = std::max(version, 5);
   return version;
 }
 

@@ -430,6 +430,18 @@ Map fit(py::handle scores_in, py::handle labels_in, const std::string& kind, py:
   p.score_max = *hi;
   p.tool = std::string("plumb ") + plumb::version_string;
   p.created_utc = timestamp ? plumb::utc_now() : std::string();
+  // plumb fit's drift reference (unweighted rows, the default grid), so the
+  // artifact is the CLI's byte for byte; none when the scores span more
+  // cells than a reference holds, as fit.
+  if (weight.empty()) {
+    try {
+      plumb::GridCounter counter(scale, plumb::default_reference_grid, true);
+      for (std::size_t i = 0; i < score.size(); ++i) counter.add(score[i], label[i] > 0.5);
+      artifact->reference = counter.finish();
+    } catch (const plumb::Error& e) {
+      if (e.kind() != plumb::ErrorKind::input) throw;
+    }
+  }
   warn_like_fit(*artifact->map, kind, p.weight_total);
   return Map{artifact};
 }

@@ -91,7 +91,7 @@ class PlumbCase(unittest.TestCase):
             return json.load(f)
 
 
-COMMANDS = ("fit", "apply", "cross-fit", "report", "inspect", "adjust", "tally", "merge", "export")
+COMMANDS = ("fit", "apply", "cross-fit", "report", "inspect", "adjust", "tally", "merge", "export", "drift")
 
 
 def help_options(command):

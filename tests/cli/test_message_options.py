@@ -12,8 +12,8 @@ import unittest
 
 from plumbtest import COMMANDS, SOURCE_DIR, PlumbCase, help_options, run, write
 
-READERS = ("fit", "apply", "cross-fit", "report", "tally", "adjust")  # commands that read CSV rows
-LABELLED = ("fit", "cross-fit", "report", "tally")           # commands that read labelled rows
+READERS = ("fit", "apply", "cross-fit", "report", "tally", "adjust", "drift")  # commands that read CSV rows
+LABELLED = ("fit", "cross-fit", "report", "tally", "drift")           # commands that read labelled rows
 
 # Which commands can print the messages of each source file. A file whose
 # functions reach different commands is split by function ("FILE::function",
@@ -30,6 +30,13 @@ REACH = {
     "src/cli/merge.cpp": ("merge",),
     "src/cli/adjust.cpp": ("adjust",),
     "src/cli/export.cpp": ("export",),
+    "src/cli/drift.cpp": ("drift",),
+    "src/io/score_cells.cpp": ("drift",),
+    "src/io/drift_render.cpp": ("drift",),
+    "src/core/drift.cpp": ("drift",),
+    "src/cli/common.cpp::parse_gate": ("report", "drift"),
+    "src/cli/common.cpp::bound_option": ("report", "drift"),
+    "src/cli/common.cpp::failed_gates_line": ("report", "drift"),
     "src/io/sql_export.cpp": ("export",),
     "include/plumb/io/sql_export.hpp": ("export",),
     "src/cli/common.cpp::add_separator_option": READERS,

@@ -47,7 +47,9 @@ class VennAbers(PlumbCase):
         with open(os.path.join(SOURCE_DIR, "docs", "artifact.schema.json")) as f:
             validator = jsonschema.Draft202012Validator(json.load(f))
         for kind, extra in (("venn_abers", ()), ("cross_venn_abers", ()), ("cross_venn_abers", ("--venn-folds", "3"))):
-            doc = self.load_json(self.fit(kind, *extra))
+            # Without the drift reference (version 5, which outranks 3).
+            self.assertEqual(self.load_json(self.fit(kind, *extra))["format_version"], 5, kind)
+            doc = self.load_json(self.fit(kind, "--no-reference", *extra))
             self.assertEqual(doc["format_version"], 3, kind)
             self.assertEqual(doc["kind"], kind)
             self.assertEqual([e.message for e in validator.iter_errors(doc)], [], kind)
@@ -57,8 +59,8 @@ class VennAbers(PlumbCase):
             # The schema holds version 3 to the kind: 2 is refused for it.
             doc["format_version"] = 2
             self.assertTrue(list(validator.iter_errors(doc)), "the schema accepts version 2 for " + kind)
-        # A plain map stays version 1.
-        self.assertEqual(self.load_json(self.fit("isotonic"))["format_version"], 1)
+        # A plain map without the drift reference stays version 1.
+        self.assertEqual(self.load_json(self.fit("isotonic", "--no-reference"))["format_version"], 1)
 
     def test_apply_writes_the_documented_probability_and_interval(self):
         # docs/artifact-format.md: p0/p1 at the score's place; the probability
@@ -128,7 +130,7 @@ class VennAbers(PlumbCase):
 
     def test_inspect_names_the_kind(self):
         for kind in ("venn_abers", "cross_venn_abers"):
-            rc, out, err = run("inspect", self.fit(kind))
+            rc, out, err = run("inspect", self.fit(kind, "--no-reference"))
             self.assertEqual(rc, 0, err)
             self.assertIn(kind + " map (format plumb-map version 3", out)
 

@@ -10,6 +10,7 @@
 
 #include "plumb/calibration_map.hpp"
 #include "plumb/cross_fit.hpp"
+#include "plumb/drift.hpp"
 #include "plumb/folds.hpp"
 
 namespace plumb {
@@ -69,6 +70,11 @@ struct Artifact {
   // Odds adjustments in the order they were made; empty for a map as
   // fitted. Added with add_odds_step only, which keeps `map` in step.
   std::vector<OddsStep> odds_steps;
+  // The fit rows counted on drift's grid of the score (plumb drift's
+  // reference; docs/artifact-format.md, "drift_reference"); absent for a
+  // map fitted on weighted rows, with fit --no-reference, and in artifacts
+  // older than format version 5.
+  std::optional<GridCells> reference;
 };
 
 // The base rate of the fit rows (weight of positives over total weight),
@@ -85,11 +91,13 @@ double target_base_rate(const Artifact& artifact);
 // rate outside (0, 1), or a product of factors outside the normal doubles.
 void add_odds_step(Artifact& artifact, OddsStep step);
 
-// The format version the artifact is written with: 1 for a map as fitted
-// (which every plumb reads), 2 when it carries odds steps (which a plumb
-// that reads only version 1 refuses as "written by a newer plumb", rather
-// than applying the map without them), 3 for a Venn-Abers kind
-// (venn_abers, cross_venn_abers); the highest of the features present.
+// The format version the artifact is written with: the highest version
+// among the features it carries, 1 for a map as fitted without any (which
+// every plumb reads); 2 with odds steps (which a plumb that reads only
+// version 1 refuses as "written by a newer plumb", rather than applying the
+// map without them); 3 for a Venn-Abers kind (venn_abers,
+// cross_venn_abers); 5 with a drift reference. (4, a multi-class map, is
+// written by plumb/io/class_artifact.hpp.)
 int artifact_version(const Artifact& artifact);
 
 // The whole document, including its integrity hash. Deterministic: the same
@@ -102,7 +110,9 @@ std::string artifact_to_text(const Artifact& artifact);
 // mistyped fields, non-finite numbers, invalid map parameters, an odds
 // adjustment in a version 1 document or one whose recorded base rates and
 // factors disagree with their recomputation, and a document whose integrity
-// hash does not match its content. Reads versions 1 and 2.
+// hash does not match its content, and a drift reference in a document
+// below version 5. Reads versions 1, 2 and 5 (3 and 4 belong to features
+// this build does not have and are refused as written by a newer plumb).
 Artifact artifact_from_text(const std::string& text, const std::string& where);
 
 // Read a file ("-" for standard input) and parse it as above; plumb::Error(io)
