@@ -465,4 +465,46 @@ std::string failed_gates_line(const std::string& command, const std::vector<Gate
          (results.size() == 1 ? " gate" : " gates") + " failed: " + detail;
 }
 
+void add_history_options(CLI::App& cmd, HistoryOptions& h) {
+  cmd.add_option("--history", h.path,
+                 "Append this run's figures as one line to a history file (JSON Lines; docs/history-format.md)")
+      ->option_text("FILE");
+  cmd.add_option("--history-date", h.date,
+                 "The night this run stands for in the history, YYYY-MM-DD (default: today, UTC)")
+      ->option_text("DATE");
+  cmd.add_option("--torn-history", h.torn,
+                 "A torn last line of the history (a run killed while writing): refuse, or cut it off and go on")
+      ->check(CLI::IsMember({"refuse", "cut"}))
+      ->default_str("refuse")
+      ->option_text("POLICY");
+}
+
+io::TornHistory torn_policy(const HistoryOptions& h) {
+  return h.torn == "cut" ? io::TornHistory::cut : io::TornHistory::refuse;
+}
+
+std::optional<io::History> read_history_option(const HistoryOptions& h) {
+  if (h.path.empty() && (!h.date.empty() || h.torn != "refuse"))
+    throw Error(ErrorKind::usage, std::string(h.date.empty() ? "--torn-history" : "--history-date") + " needs --history",
+                {}, {}, "--history FILE.jsonl");
+  if (!h.date.empty() && !io::is_history_date(h.date))
+    throw Error(ErrorKind::usage, "--history-date is not a date", {}, h.date,
+                "a date YYYY-MM-DD of the calendar, e.g. 2026-11-18");
+  if (h.path.empty()) return std::nullopt;
+  return io::read_history(h.path, torn_policy(h));
+}
+
+io::History append_history_option(const HistoryOptions& h, nlohmann::json entry, const char* command) {
+  const std::string now = utc_now();
+  if (!entry.contains("date")) entry["date"] = h.date.empty() ? now.substr(0, 10) : h.date;
+  if (!entry.contains("time")) entry["time"] = now;
+  if (!entry.contains("tool")) entry["tool"] = std::string("plumb ") + version_string;
+  io::History after = io::append_history(h.path, std::move(entry), torn_policy(h));
+  if (after.cut_line)
+    std::fprintf(stderr, "plumb %s: cut off the torn last line %llu of %s (%s bytes; --torn-history cut)\n", command,
+                 static_cast<unsigned long long>(*after.cut_line), after.path.c_str(),
+                 count_text(after.cut_bytes).c_str());
+  return after;
+}
+
 }  // namespace plumb::cli

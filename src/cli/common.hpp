@@ -11,6 +11,7 @@
 #include "plumb/io/artifact.hpp"
 #include "plumb/calibration_map.hpp"
 #include "plumb/io/class_input.hpp"
+#include "plumb/io/history.hpp"
 #include "plumb/io/labelled_input.hpp"
 #include "plumb/map_registry.hpp"
 #include "plumb/report.hpp"
@@ -172,5 +173,22 @@ Gate parse_gate(const std::string& text, GateBound bound, std::span<const GateMe
 // The failed gates as one line for stderr: "COMMAND: 1 of 2 gates failed: ...",
 // each gate preceded by its column when `with_column`.
 std::string failed_gates_line(const std::string& command, const std::vector<GateResult>& results, bool with_column);
+
+// --history FILE, --history-date DATE and --torn-history POLICY of report
+// and drift: adds the three options, checks them before any work (a date
+// or policy without --history is refused) and reads the history once so a
+// torn or foreign line is refused at once; nullopt without --history.
+struct HistoryOptions {
+  std::string path;
+  std::string date;              // YYYY-MM-DD, default: today, UTC
+  std::string torn = "refuse";  // refuse or cut
+};
+void add_history_options(CLI::App& cmd, HistoryOptions& h);
+std::optional<io::History> read_history_option(const HistoryOptions& h);
+io::TornHistory torn_policy(const HistoryOptions& h);
+// Appends `entry` (a JSON object with "command") with the date, time and
+// tool set, says on stderr when a torn last line was cut off, and returns
+// the history as read under the lock, the new line last.
+io::History append_history_option(const HistoryOptions& h, nlohmann::json entry, const char* command);
 
 }  // namespace plumb::cli

@@ -5,6 +5,7 @@
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <optional>
 #include <string>
 
 #include "cli/commands.hpp"
@@ -50,7 +51,10 @@ std::string usage_footer(const std::string& max_gates, const std::string& min_ga
          "  plumb drift --map late.map.json tonight.csv\n"
          "  plumb drift --map late.map.json --label missed --max psi=0.2 --json drift.json night-18.csv\n"
          "  plumb drift --map old.map.json --reference holdout.csv tonight.csv\n"
-         "  plumb drift --map late.map.json --reference-tally all.tally.json -q --max psi=0.25 tonight.csv\n\n"
+         "  plumb drift --map late.map.json --reference-tally all.tally.json -q --max psi=0.25 tonight.csv\n"
+         "  plumb drift --map late.map.json --history nightly.jsonl --history-date 2026-11-18 tonight.csv\n\n"
+         "History: --history FILE appends one JSON line per run, {\"command\": \"drift\", \"drift\": the --json\n"
+         "document}, under the same lock and torn-line rules as plumb report --history (docs/history-format.md).\n\n"
          "Cautions: drift says the inputs have moved, not why; where calibrated numbers decide about people\n"
          "(credit, insurance, health), a refit is checked like the first fit, under local rules.";
 }
@@ -66,6 +70,7 @@ struct DriftCliOptions {
   double confidence = 0.95;
   std::vector<std::string> max, min;
   std::string json_path;
+  HistoryOptions history;  // --history, --history-date, --torn-history
   bool ascii = false;
 };
 
@@ -74,6 +79,8 @@ const char* const other_scales =
     "or --scale margin";
 
 int run_drift(const DriftCliOptions& o) {
+  // A torn or foreign history line is refused before any work.
+  const std::optional<io::History> history = read_history_option(o.history);
   std::vector<Gate> gates;
   for (const std::string& m : o.max)
     gates.push_back(parse_gate(m, GateBound::max, drift_gate_metrics(), find_drift_gate_metric, false));
@@ -167,11 +174,15 @@ int run_drift(const DriftCliOptions& o) {
   for (const Gate& g : gates) report.gates.push_back(check_drift_gate(g, report.result));
 
   const bool json_to_stdout = o.json_path == "-";
+  // The JSON file is opened (a temporary beside it) before the history line
+  // goes out, so an unwritable path is refused before the history grows.
+  std::optional<io::OutputFile> json_out;
   if (!o.json_path.empty()) {
-    io::OutputFile out(o.json_path);
-    out.write(drift_to_json(report).dump(2) + "\n");
-    out.commit();
+    json_out.emplace(o.json_path);
+    json_out->write(drift_to_json(report).dump(2) + "\n");
   }
+  if (history) append_history_option(o.history, {{"command", "drift"}, {"drift", drift_to_json(report)}}, "drift");
+  if (json_out) json_out->commit();
   if (!o.input.quiet && !json_to_stdout) {
     io::OutputFile out("-");
     out.write(render_drift_text(report, !o.ascii));
@@ -222,6 +233,7 @@ Command add_drift_command(CLI::App& app) {
   cmd->add_option("--json", o->json_path,
                   "Also write every figure as one JSON object (docs/drift-format.md); - writes it to standard output "
                   "instead of the text");
+  add_history_options(*cmd, o->history);
   cmd->add_flag("--ascii", o->ascii, "ASCII characters only in the text");
   add_separator_option(*cmd, o->input.separator);
   cmd->add_flag("-q,--quiet", o->input.quiet, "No text output (files and gates still work)");

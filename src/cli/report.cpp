@@ -106,9 +106,7 @@ struct ReportCliOptions {
   double min_segment = 100;
   std::vector<std::string> max, min;
   std::string json_path, svg_path, markdown_path, html_path;
-  std::string history;                 // --history FILE.jsonl
-  std::string history_date;            // --history-date (default: today, UTC)
-  std::string torn_history = "refuse";  // --torn-history
+  HistoryOptions history;              // --history, --history-date, --torn-history
   bool ascii = false;
   std::string tally;               // report on this tally instead of rows
   std::vector<std::string> given;  // row-reading options given on the command line
@@ -307,18 +305,6 @@ std::string tally_sha256(const std::string& path) {
   return io::sha256_hex(bytes.str());
 }
 
-io::TornHistory torn_policy(const ReportCliOptions& o) {
-  return o.torn_history == "cut" ? io::TornHistory::cut : io::TornHistory::refuse;
-}
-
-// The one line on stderr when a torn last line was cut off.
-void note_cut(const io::History& h) {
-  if (!h.cut_line) return;
-  std::fprintf(stderr, "plumb report: cut off the torn last line %llu of %s (%s bytes; --torn-history cut)\n",
-               static_cast<unsigned long long>(*h.cut_line), h.path.c_str(),
-               count_text(h.cut_bytes).c_str());
-}
-
 int run_report_classes(const ReportCliOptions& o);
 
 int run_report(const ReportCliOptions& o) {
@@ -332,14 +318,7 @@ int run_report(const ReportCliOptions& o) {
                 "--scores COLS (one column per class) with --label COL");
   // The history is checked before any work, so a torn or foreign line is
   // refused at once; it is read again, under its lock, when the run appends.
-  if (o.history.empty() && (!o.history_date.empty() || o.torn_history != "refuse"))
-    throw Error(ErrorKind::usage, std::string(o.history_date.empty() ? "--torn-history" : "--history-date") +
-                                      " needs --history", {}, {}, "--history FILE.jsonl");
-  if (!o.history_date.empty() && !io::is_history_date(o.history_date))
-    throw Error(ErrorKind::usage, "--history-date is not a date", {}, o.history_date,
-                "a date YYYY-MM-DD of the calendar, e.g. 2026-11-18");
-  std::optional<io::History> history;
-  if (!o.history.empty()) history = io::read_history(o.history, torn_policy(o));
+  const std::optional<io::History> history = read_history_option(o.history);
   std::vector<Gate> gates;
   for (const std::string& m : o.max) gates.push_back(parse_gate(m, GateBound::max));
   for (const std::string& m : o.min) gates.push_back(parse_gate(m, GateBound::min));
@@ -606,12 +585,10 @@ int emit_report(const ReportCliOptions& o, Report& report, const std::string& in
     io::HistoryRun run;
     const std::string now = utc_now();
     run.time_utc = now;
-    run.date = o.history_date.empty() ? now.substr(0, 10) : o.history_date;
+    run.date = o.history.date.empty() ? now.substr(0, 10) : o.history.date;
     run.input_sha256 = input_sha256;
     run.tool = std::string("plumb ") + version_string;
-    const io::History after =
-        io::append_history(o.history, io::report_history_entry(report, run), torn_policy(o));
-    note_cut(after);
+    const io::History after = append_history_option(o.history, io::report_history_entry(report, run), "report");
     report.trend = io::trend_of_history(after, report);
   }
   // Files first, each whole or not at all; then the terminal report.
@@ -716,18 +693,7 @@ Command add_report_command(CLI::App& app) {
                   "Also write a self-contained review page (HTML with inline charts; no script, works offline; "
                   "docs/review-page.md)")
       ->option_text("FILE");
-  cmd->add_option("--history", o->history,
-                  "Append this run's figures as one line to a history file (JSON Lines) and show each figure's "
-                  "trend over its nights (docs/history-format.md)")
-      ->option_text("FILE");
-  cmd->add_option("--history-date", o->history_date,
-                  "The night this run stands for in the history, YYYY-MM-DD (default: today, UTC)")
-      ->option_text("DATE");
-  cmd->add_option("--torn-history", o->torn_history,
-                  "A torn last line of the history (a run killed while writing): refuse, or cut it off and go on")
-      ->check(CLI::IsMember({"refuse", "cut"}))
-      ->default_str("refuse")
-      ->option_text("POLICY");
+  add_history_options(*cmd, o->history);
   cmd->add_flag("--ascii", o->ascii, "Draw the terminal chart with ASCII characters only");
   add_separator_option(*cmd, o->input.separator);
   cmd->add_flag("-q,--quiet", o->input.quiet, "No terminal report and no progress (files and gates still work)");

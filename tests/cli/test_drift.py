@@ -16,6 +16,7 @@ from plumbtest import SOURCE_DIR, PlumbCase, run, simulated_holdout, write
 
 USAGE, INPUT, GATE = 2, 3, 7
 HOLDOUT = os.path.join(SOURCE_DIR, "data", "holdout.csv")
+TONIGHT = os.path.join(SOURCE_DIR, "data", "tonight.csv")
 
 
 def write_scores(path, rows, with_label=True):
@@ -31,6 +32,39 @@ class DriftCommand(PlumbCase):
         run("fit", "--map", "isotonic", "--score", "risk", "--label", "missed", "-q", "--no-timestamp",
             "-o", path, *extra, source, check=True)
         return path
+
+    def test_history_gets_drifts_json_and_report_trends_skip_it(self):
+        path = self.fit()
+        history = self.path("nightly.jsonl")
+        rc, _, err = run("drift", "--map", path, "-q", "--json", self.path("d.json"), "--history", history,
+                         "--history-date", "2026-11-18", TONIGHT)
+        self.assertEqual(rc, 0, err)
+        with open(history) as f:
+            lines = f.read().splitlines()
+        self.assertEqual(len(lines), 1)
+        line = json.loads(lines[0])
+        self.assertEqual((line["format"], line["command"], line["date"]), ("plumb-history", "drift", "2026-11-18"))
+        self.assertEqual(line["drift"], self.load_json(self.path("d.json")))
+        # A report run after it reads the history (drift lines are not part of its trend).
+        rc, out, err = run("report", "--map", path, "--label", "missed", "--bootstrap", "0", "--history", history,
+                           "--history-date", "2026-11-19", "--json", self.path("r.json"), "-q", HOLDOUT)
+        self.assertEqual(rc, 0, err)
+        with open(history) as f:
+            self.assertEqual([json.loads(l)["command"] for l in f.read().splitlines()], ["drift", "report"])
+        # A torn last line is refused, located, and the history is left as it was.
+        with open(history, "a") as f:
+            f.write('{"format": "plumb-history"')
+        with open(history, "rb") as f:
+            before = f.read()
+        rc, _, err = run("drift", "--map", path, "-q", "--history", history, TONIGHT)
+        self.assertEqual(rc, 3, err)
+        self.assertIn("nightly.jsonl:3:", err)
+        self.assertIn("--torn-history cut", err)
+        with open(history, "rb") as f:
+            self.assertEqual(f.read(), before)
+        rc, _, err = run("drift", "--map", path, "-q", "--history-date", "2026-11-20", TONIGHT)
+        self.assertEqual(rc, 2)
+        self.assertIn("--history-date needs --history", err)
 
     def test_fit_writes_a_version_5_reference_that_the_schema_accepts(self):
         doc = self.load_json(self.fit())

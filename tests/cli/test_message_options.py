@@ -61,9 +61,12 @@ REACH = {
     "src/io/report_svg.cpp": ("report",),
     "src/io/report_html.cpp": ("report",),
     # The history's refusals name --torn-history: every command that appends
-    # to a history (report; drift once it takes --history) must offer it.
-    "src/io/history.cpp": ("report",),
-    "include/plumb/io/history.hpp": ("report",),
+    # to a history (report, drift) must offer it.
+    "src/io/history.cpp": ("report", "drift"),
+    "include/plumb/io/history.hpp": ("report", "drift"),
+    "src/cli/common.cpp::read_history_option": ("report", "drift"),
+    "src/cli/common.cpp::add_history_options": ("report", "drift"),
+    "src/cli/common.cpp::append_history_option": ("report", "drift"),
     "src/core/report.cpp": ("report",),
     "src/core/cross_fit.cpp": ("cross-fit",),
     "src/core/folds.cpp": ("cross-fit",),
