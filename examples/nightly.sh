@@ -4,7 +4,11 @@
 # drift (plumb drift) for the whole night against the map's fit rows and for
 # each depot against that depot's own hold-out rows. One depot, Dunmarrow,
 # drifts from night 18 on (examples/make_nights.py); the summary lines show
-# which nights and depots the PSI gate flags.
+# which nights and depots the PSI gate flags. The report and the whole
+# night's drift append to WORK_DIR/nightly.jsonl (the nights are dated
+# 2026-11-01 to 2026-11-30), and the last night's report writes the review
+# page WORK_DIR/review.html with the month's trend (and its text report,
+# WORK_DIR/review.txt).
 #
 # Usage: examples/nightly.sh [WORK_DIR]   (default: nightly-work; PLUMB=path/to/plumb)
 # The map is data/late.map.json when it exists, else an isotonic map fitted
@@ -17,6 +21,8 @@ work=${1:-nightly-work}
 # 0.25; some use 0.2).
 gate=psi=0.25
 mkdir -p "$work/out" "$work/ref" "$work/depot"
+history=$work/nightly.jsonl
+rm -f "$history"
 
 /usr/bin/python3 "$root/examples/make_nights.py" --out "$work/nights"
 
@@ -39,9 +45,17 @@ for n in $(seq -w 1 30); do
   night=$work/nights/night-$n.csv
   out=$work/out/night-$n
   "$plumb" apply -q "$map" "$night" -o "$out.calibrated.csv"
-  "$plumb" report -q --map "$map" --label missed --bootstrap 0 --json "$out.report.json" "$night"
+  if [[ $n == 30 ]]; then
+    # The last night: the review page, and the text report with the trend.
+    "$plumb" report --map "$map" --label missed --bootstrap 0 --json "$out.report.json" \
+      --history "$history" --history-date "2026-11-$n" --html "$work/review.html" "$night" > "$work/review.txt"
+  else
+    "$plumb" report -q --map "$map" --label missed --bootstrap 0 --json "$out.report.json" \
+      --history "$history" --history-date "2026-11-$n" "$night"
+  fi
   status=0
-  "$plumb" drift -q --map "$map" --label missed --json "$out.drift.json" --max "$gate" "$night" || status=$?
+  "$plumb" drift -q --map "$map" --label missed --json "$out.drift.json" --max "$gate" \
+    --history "$history" --history-date "2026-11-$n" "$night" || status=$?
   [[ $status -eq 0 || $status -eq 7 ]] || exit "$status"
   flagged=()
   [[ $status -eq 7 ]] && flagged+=("all rows")

@@ -3,7 +3,7 @@ documentation cannot drift from the binary.
 
 Every indented code block of README.md that starts with a `$ ` line is part of
 the tour. The tour's commands run in order, as one bash script, in a scratch
-directory holding a link to data/ and with the built plumb first on PATH.
+directory holding links to data/ and examples/ and with the built plumb first on PATH.
 After each command, the lines shown below it in the README must appear in
 its output (standard output and standard error together), in order:
 
@@ -118,7 +118,8 @@ class Readme(unittest.TestCase):
             steps = tour(f.read())
         self.assertGreaterEqual(len(steps), 8, "the README's tour was not found")
         with tempfile.TemporaryDirectory() as scratch:
-            os.symlink(os.path.join(os.path.abspath(SOURCE_DIR), "data"), os.path.join(scratch, "data"))
+            for shared in ("data", "examples"):
+                os.symlink(os.path.join(os.path.abspath(SOURCE_DIR), shared), os.path.join(scratch, shared))
             bindir = os.path.join(scratch, ".bin")
             os.mkdir(bindir)
             os.symlink(os.path.abspath(PLUMB), os.path.join(bindir, "plumb"))
