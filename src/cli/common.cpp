@@ -507,4 +507,23 @@ io::History append_history_option(const HistoryOptions& h, nlohmann::json entry,
   return after;
 }
 
+ClassProvenance class_provenance(const io::ClassRows& rows, io::MissingPolicy missing, bool no_timestamp) {
+  ClassProvenance p;
+  p.source = rows.source;
+  p.source_sha256 = rows.source_sha256;
+  p.rows = rows.data.rows;
+  p.class_weights.assign(rows.data.k(), 0.0);
+  for (std::size_t r = 0; r < rows.data.rows; ++r) {
+    const double w = rows.data.weight.empty() ? 1.0 : rows.data.weight[r];
+    p.class_weights[rows.data.label[r]] += w;
+    p.weight_total += w;
+  }
+  p.label_column = rows.label_column;
+  p.weight_column = rows.weight_column;
+  if (missing == io::MissingPolicy::skip) p.rows_skipped = rows.skipped;
+  p.tool = std::string("plumb ") + version_string;
+  p.created_utc = no_timestamp ? std::string() : utc_now();
+  return p;
+}
+
 }  // namespace plumb::cli

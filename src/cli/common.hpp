@@ -10,6 +10,7 @@
 
 #include "plumb/io/artifact.hpp"
 #include "plumb/calibration_map.hpp"
+#include "plumb/io/class_artifact.hpp"
 #include "plumb/io/class_input.hpp"
 #include "plumb/io/history.hpp"
 #include "plumb/io/labelled_input.hpp"
@@ -190,5 +191,10 @@ io::TornHistory torn_policy(const HistoryOptions& h);
 // tool set, says on stderr when a torn last line was cut off, and returns
 // the history as read under the lock, the new line last.
 io::History append_history_option(const HistoryOptions& h, nlohmann::json entry, const char* command);
+
+// The provenance of a multi-class map fitted on `rows`: source, hash, rows,
+// each class's weight, columns, skipped rows (with --missing skip), tool and
+// creation time (empty with --no-timestamp).
+ClassProvenance class_provenance(const io::ClassRows& rows, io::MissingPolicy missing, bool no_timestamp);
 
 }  // namespace plumb::cli

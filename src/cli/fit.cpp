@@ -290,21 +290,7 @@ int run_fit_classes(const FitOptions& o) {
     artifact.fit_options["per_class_options"] = o.choices.recorded(options.per_class);
   }
   if (columns.scale == ClassScale::probability) artifact.fit_options["sum_tolerance"] = columns.sum_tolerance;
-  ClassProvenance& p = artifact.provenance;
-  p.source = rows.source;
-  p.source_sha256 = rows.source_sha256;
-  p.rows = rows.data.rows;
-  p.class_weights.assign(rows.data.k(), 0.0);
-  for (std::size_t r = 0; r < rows.data.rows; ++r) {
-    const double w = rows.data.weight.empty() ? 1.0 : rows.data.weight[r];
-    p.class_weights[rows.data.label[r]] += w;
-    p.weight_total += w;
-  }
-  p.label_column = rows.label_column;
-  p.weight_column = rows.weight_column;
-  if (columns.missing == io::MissingPolicy::skip) p.rows_skipped = rows.skipped;
-  p.tool = std::string("plumb ") + version_string;
-  p.created_utc = o.no_timestamp ? std::string() : utc_now();
+  artifact.provenance = class_provenance(rows, columns.missing, o.no_timestamp);
 
   io::OutputFile out(o.output);
   out.write(class_artifact_to_text(artifact));

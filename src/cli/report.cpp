@@ -196,43 +196,9 @@ Gate parse_gate(const std::string& text, GateBound bound) {
   return ::plumb::cli::parse_gate(text, bound, gate_metrics(), find_gate_metric, true);
 }
 
-// The metrics `bound` may read on a multi-class report, for messages.
-std::string class_gate_names(GateBound bound) {
-  std::string names;
-  for (const GateMetric& m : class_gate_metrics())
-    if (bound == GateBound::max ? m.max : m.min) names += (names.empty() ? "" : ", ") + std::string(m.name);
-  return names;
-}
-
 // --max or --min METRIC=VALUE with --scores: the model as a whole, no column.
 Gate parse_class_gate(const std::string& text, GateBound bound) {
-  const std::string option(bound_option(bound));
-  const std::string expected = "METRIC=VALUE with --scores, METRIC one of " + class_gate_names(bound);
-  const auto eq = text.find('=');
-  if (eq == std::string::npos) throw Error(ErrorKind::usage, option + " needs a value", {}, text, expected);
-  const std::string name = text.substr(0, eq);
-  if (name.find(':') != std::string::npos)
-    throw Error(ErrorKind::usage, option + " with --scores reads the model as a whole and names no column", {}, text,
-                expected);
-  const GateMetric* metric = find_class_gate_metric(name);
-  if (metric == nullptr)
-    throw Error(ErrorKind::usage, option + " names a metric the multi-class report does not have", {}, name, expected);
-  if (!(bound == GateBound::max ? metric->max : metric->min)) {
-    const std::string other(bound_option(bound == GateBound::max ? GateBound::min : GateBound::max));
-    throw Error(ErrorKind::usage,
-                option + " cannot bound " + std::string(metric->name) + " (" + std::string(metric->reads) +
-                    "): only " + other + " can",
-                {}, text, other + " " + text + ", or " + option + " with one of " + class_gate_names(bound));
-  }
-  Gate g;
-  g.bound = bound;
-  g.metric = metric->name;
-  const std::string value = text.substr(eq + 1);
-  char* end = nullptr;
-  g.limit = std::strtod(value.c_str(), &end);
-  if (value.empty() || *end != '\0' || !std::isfinite(g.limit))
-    throw Error(ErrorKind::usage, option + " has a limit that is not a number", {}, value, expected);
-  return g;
+  return ::plumb::cli::parse_gate(text, bound, class_gate_metrics(), find_class_gate_metric, false);
 }
 
 // One reported column as gates see it: its name in the report, the --map
@@ -621,8 +587,8 @@ int emit_report(const ReportCliOptions& o, Report& report, const std::string& in
 Command add_report_command(CLI::App& app) {
   auto o = std::make_shared<ReportCliOptions>();
   CLI::App* cmd = app.add_subcommand("report", kUsageSummary);
-  cmd->footer(usage_footer(gate_names(GateBound::max), gate_names(GateBound::min), class_gate_names(GateBound::max),
-                           class_gate_names(GateBound::min)));
+  cmd->footer(usage_footer(gate_names(GateBound::max), gate_names(GateBound::min), ::plumb::cli::gate_names(GateBound::max, class_gate_metrics()),
+                           ::plumb::cli::gate_names(GateBound::min, class_gate_metrics())));
   cmd->add_option("file", o->input.file, "CSV or TSV file with a header row, plain or gzip; - or nothing reads standard input")
       ->default_str("-");
   cmd->add_option("--score", o->scores,

@@ -165,9 +165,9 @@ class ReportClassesTest(PlumbCase):
         self.assert_refused(["report", "--scores", "p_*", "--score", "p_late", "--label", "outcome", OUTCOMES,
                              "--json", out], 2, "--score cannot be used with --scores", output=out)
         self.assert_refused(["report", "--scores", "p_*", "--label", "outcome", "--max", "ece=0.1", OUTCOMES,
-                             "--json", out], 2, "does not have", "top_label_ece", output=out)
+                             "--json", out], 2, "unknown metric", "top_label_ece", output=out)
         self.assert_refused(["report", "--scores", "p_*", "--label", "outcome", "--max", "p_late:brier=0.1",
-                             OUTCOMES, "--json", out], 2, "names no column", output=out)
+                             OUTCOMES, "--json", out], 2, "takes no column", output=out)
         self.assert_refused(["report", "--scores", "p_*", "--label", "outcome", "--max", "accuracy=0.9",
                              OUTCOMES, "--json", out], 2, "only --min can", output=out)
         self.assert_refused(["report", "--scores", "p_*", OUTCOMES, "--json", out], 2, "needs --label", output=out)
