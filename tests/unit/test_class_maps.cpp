@@ -132,10 +132,13 @@ TEST_CASE("each map's rows sum to 1 and a larger l2 pulls dirichlet towards the 
 }
 
 TEST_CASE("a class without rows is refused for fit", "[multiclass]") {
-  plumb::ClassScores s = small_rows(3);
-  s.classes.push_back("d");
+  // Three classes' rows with a fourth class no row is labelled with (its
+  // value appended after the three; s.row() reads three per row while s has
+  // three classes).
+  const plumb::ClassScores s = small_rows(3);
   plumb::ClassScores four;
   four.classes = s.classes;
+  four.classes.push_back("d");
   four.scale = s.scale;
   four.rows = s.rows;
   for (std::size_t r = 0; r < s.rows; ++r) {
