@@ -480,6 +480,26 @@ int run_report(const ReportCliOptions& o) {
   return emit_report(o, report, rows.source_sha256, history);
 }
 
+// The terminal report (unless -q), then the gates: one line on stderr and
+// exit 7 when one failed. `with_column` names each gate's column.
+template <class Render>
+int print_and_gate(const ReportCliOptions& o, Render render, const std::vector<GateResult>& gates, bool with_column) {
+  if (!o.input.quiet) {
+    TextStyle style;
+    style.unicode = !o.ascii;
+    style.colour = ::isatty(STDOUT_FILENO) == 1 && std::getenv("NO_COLOR") == nullptr;
+    io::OutputFile out("-");
+    out.write(render(style));
+    out.commit();
+  }
+  for (const GateResult& g : gates)
+    if (g.exceeded) {
+      std::fprintf(stderr, "%s\n", failed_gates_line("plumb report", gates, with_column).c_str());
+      return static_cast<int>(ErrorKind::threshold);
+    }
+  return 0;
+}
+
 // The report of K-class rows (--scores): read by the multi-class reader,
 // built by build_class_report, written as the binary report is.
 int run_report_classes(const ReportCliOptions& o) {
@@ -518,19 +538,8 @@ int run_report_classes(const ReportCliOptions& o) {
   write(o.svg_path, render_class_svg(report));
   write(o.markdown_path, render_class_markdown(report));
   for (auto& f : files) f->commit();
-  if (!o.input.quiet) {
-    TextStyle style;
-    style.unicode = !o.ascii;
-    style.colour = ::isatty(STDOUT_FILENO) == 1 && std::getenv("NO_COLOR") == nullptr;
-    io::OutputFile out("-");
-    out.write(render_class_text(report, style));
-    out.commit();
-  }
-  if (report.any_gate_exceeded()) {
-    std::fprintf(stderr, "%s\n", failed_gates_line("plumb report", report.gates, false).c_str());
-    return static_cast<int>(ErrorKind::threshold);
-  }
-  return 0;
+  return print_and_gate(o, [&](const TextStyle& style) { return render_class_text(report, style); }, report.gates,
+                        false);
 }
 
 // Appends the run to the history (with --history) and draws the trend from
@@ -567,19 +576,7 @@ int emit_report(const ReportCliOptions& o, Report& report, const std::string& in
     }
   }
   for (auto& f : files) f.first->commit();
-  if (!o.input.quiet) {
-    TextStyle style;
-    style.unicode = !o.ascii;
-    style.colour = ::isatty(STDOUT_FILENO) == 1 && std::getenv("NO_COLOR") == nullptr;
-    io::OutputFile out("-");
-    out.write(render_text(report, style));
-    out.commit();
-  }
-  if (report.any_gate_exceeded()) {
-    std::fprintf(stderr, "%s\n", failed_gates_line("plumb report", report.gates, true).c_str());
-    return static_cast<int>(ErrorKind::threshold);
-  }
-  return 0;
+  return print_and_gate(o, [&](const TextStyle& style) { return render_text(report, style); }, report.gates, true);
 }
 
 }  // namespace
