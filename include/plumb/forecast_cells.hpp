@@ -42,6 +42,13 @@ struct LabelCells {
   std::size_t size() const noexcept { return forecast.size(); }
 };
 
+// Row indices in ascending forecast, ties in input order: the order a
+// stable sort by value gives, by an LSD radix sort of the bit patterns
+// (-0 read as +0). Every forecast must be >= 0 (any finite or infinite
+// non-negative value; not NaN); throws plumb::Error(usage) beyond 2^32 - 1
+// rows.
+std::vector<std::uint32_t> sorted_forecast_order(std::span<const double> forecast);
+
 // Sorts the rows (an LSD radix sort of the forecasts' bit patterns, stable)
 // and gathers the cells. Throws plumb::Error(usage) beyond 2^32 - 1 rows. `label` 0/1 (or in [0, 1]), `weight` empty (all 1)
 // or one per row; forecasts must be in [0, 1] (check_metric_input's rule).

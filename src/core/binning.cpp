@@ -6,6 +6,7 @@
 #include <numeric>
 
 #include "core/metric_input.hpp"
+#include "plumb/forecast_cells.hpp"
 
 namespace plumb {
 
@@ -39,6 +40,14 @@ Binning make_binning(std::span<const double> forecast, std::span<const double> w
                      BinningKind kind, std::size_t bins) {
   if (kind == BinningKind::equal_width)
     return make_binning_in_order<std::size_t>(forecast, weight, kind, bins, nullptr);
+  // Non-negative forecasts (every probability) are sorted by the radix sort
+  // of forecast_cells.hpp, which gives the stable sort's order; any other
+  // column (negative scores, NaN) by the stable sort itself.
+  if (forecast.size() <= 0xFFFFFFFFull &&
+      std::all_of(forecast.begin(), forecast.end(), [](double f) { return f >= 0.0; })) {
+    const std::vector<std::uint32_t> order = sorted_forecast_order(forecast);
+    return make_binning_in_order(forecast, weight, kind, bins, order.data());
+  }
   std::vector<std::size_t> order(forecast.size());
   std::iota(order.begin(), order.end(), std::size_t{0});
   std::stable_sort(order.begin(), order.end(),

@@ -23,7 +23,9 @@ std::uint64_t key_of(double f) noexcept {
   return key;
 }
 
-std::vector<std::uint32_t> sorted_order(std::span<const double> forecast) {
+}  // namespace
+
+std::vector<std::uint32_t> sorted_forecast_order(std::span<const double> forecast) {
   const std::size_t n = forecast.size();
   if (n > 0xFFFFFFFFull)
     throw Error(ErrorKind::usage, "too many rows for one report column", {}, std::to_string(n),
@@ -55,13 +57,11 @@ std::vector<std::uint32_t> sorted_order(std::span<const double> forecast) {
   return a;
 }
 
-}  // namespace
-
 ForecastCells make_forecast_cells(std::span<const double> forecast, std::span<const double> label,
                                   std::span<const double> weight) {
   detail::check_metric_input("make_forecast_cells", forecast, label, weight);
   ForecastCells c;
-  c.order = sorted_order(forecast);
+  c.order = sorted_forecast_order(forecast);
   const std::size_t n = forecast.size();
   for (std::size_t k = 0; k < n;) {
     const double f = forecast[c.order[k]];
