@@ -102,6 +102,11 @@ std::uint64_t poisson1_draw(std::mt19937_64& generator);
 // (poisson1_draw(g) == poisson1_of_bits(g()) for a copy of g), for callers
 // that look most draws up in a table of their leading bits first.
 std::uint64_t poisson1_of_bits(std::uint64_t bits);
+// A Poisson(1) count from 32 uniform bits u: the inverse of the
+// distribution function at u / 2^32, so each count's probability lies
+// within 2^-32 of e^-1 / k!. The multi-class report draws two rows' counts
+// from one 64-bit draw this way (class_report.hpp).
+std::uint64_t poisson1_of_u32(std::uint32_t u);
 BootstrapInterval bootstrap_percentile_interval(std::vector<double> values, double confidence);
 
 // Consistency band under calibration (Broecker and Smith 2007): keep the

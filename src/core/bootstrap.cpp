@@ -151,6 +151,10 @@ std::uint64_t poisson1_of_bits(std::uint64_t bits) {
   return detail::invert_poisson1(detail::poisson_tables().cdf[1], static_cast<double>(bits >> 11) * 0x1p-53);
 }
 
+std::uint64_t poisson1_of_u32(std::uint32_t u) {
+  return detail::invert_poisson1(detail::poisson_tables().cdf[1], static_cast<double>(u) * 0x1p-32);
+}
+
 BootstrapInterval bootstrap_percentile_interval(std::vector<double> values, double confidence) {
   return percentile_interval(std::move(values), confidence);
 }

@@ -85,115 +85,129 @@ std::vector<double> histogram(std::span<const double> f, std::span<const double>
   return h;
 }
 
-// Poisson(1) counts looked up by the leading 16 bits of a draw: the count
-// when every uniform with those bits inverts to it (255 when they straddle
-// a step of the distribution function, about one prefix in 10^4), so a
-// draw costs one table read and the same count as poisson1_of_bits.
+// Poisson(1) counts of 32-bit uniforms (poisson1_of_u32, bootstrap.hpp)
+// looked up by their leading 16 bits: the count when every uniform with
+// those bits inverts to it (255 when they straddle a step of the
+// distribution function, a few prefixes in 10^5), so a draw costs one table
+// read and gives the same count as poisson1_of_u32.
 struct Poisson1Prefix {
   std::vector<std::uint8_t> count;
   Poisson1Prefix() : count(std::size_t{1} << 16) {
-    for (std::uint64_t j = 0; j < count.size(); ++j) {
-      const std::uint64_t lo = poisson1_of_bits(j << 48), hi = poisson1_of_bits((j << 48) | ((std::uint64_t{1} << 48) - 1));
+    for (std::uint32_t j = 0; j < count.size(); ++j) {
+      const std::uint64_t lo = poisson1_of_u32(j << 16), hi = poisson1_of_u32((j << 16) | 0xFFFFu);
       count[j] = lo == hi && lo < 255 ? static_cast<std::uint8_t>(lo) : 255;
     }
   }
-  std::uint64_t operator()(std::uint64_t bits) const {
-    const std::uint8_t k = count[bits >> 48];
-    return k != 255 ? k : poisson1_of_bits(bits);
+  double operator()(std::uint32_t u) const {
+    const std::uint8_t k = count[u >> 16];
+    return static_cast<double>(k != 255 ? k : poisson1_of_u32(u));
   }
 };
 
 // Each replicate of the Poisson bootstrap: every row's weight times one
-// Poisson(1) count, drawn in row order from replicate r's generator
-// (bootstrap.hpp); every figure recomputed on the reweighted rows, the ECEs
-// over equal-width bins (which do not move with the weights). The rows are
-// packed once: per row its scores, its confidence and probabilities, and
-// the slots of the replicate's sums it adds to.
+// Poisson(1) count (bootstrap.hpp: replicate r's generator, one 64-bit draw
+// per pair of rows in row order, its high half for the even row and its low
+// half for the odd one, poisson1_of_u32); every figure recomputed on the
+// reweighted rows, the ECEs over equal-width bins (which do not move with
+// the weights).
+//
+// An ECE over fixed bins is sum_b |F_b - Y_b| / W (F_b and Y_b the bin's
+// weighted sums of forecast and label, W the total weight), so a replicate
+// needs one signed sum per bin: each row adds w (p - y) to its top label's
+// bin and, per class k, w (p_k - 1{label = k}) to class k's bin. The rows
+// are laid out once, column by column: the five totals' terms (weight,
+// Brier, log loss, right, confidence, each times the weight), the K + 1
+// signed terms and their slots among the replicate's sums (the top label's
+// B bins, then B per class).
 ClassBootstrapResult bootstrap_class_report(const std::vector<double>& p, const ClassScores& s,
                                             const std::vector<double>& conf, const std::vector<double>& correct,
                                             const std::vector<double>& brier, const std::vector<double>& loss,
                                             const ClassReportOptions& o) {
   const std::size_t n = s.rows, K = s.k(), B = o.bins, R = o.bootstrap;
-  // Per row, `stride` doubles: weight, Brier term, log-loss term, right,
-  // confidence, then the K probabilities; and K + 1 slots: the top label's
-  // bin, then per class the bin of its probability (sums of (B + 1) * K
-  // slots follow the top label's B). A class's slot sums weight, weight *
-  // probability and (for the label's class) weight.
-  const std::size_t stride = 5 + K;
-  std::vector<double> row(n * stride);
-  std::vector<std::uint32_t> slot(n * (K + 1));
+  constexpr std::size_t totals = 5;
+  std::vector<std::vector<double>> term(totals, std::vector<double>(n));
+  std::vector<std::vector<double>> gap(K + 1, std::vector<double>(n));
+  std::vector<std::vector<std::uint32_t>> slot(K + 1, std::vector<std::uint32_t>(n));
   for (std::size_t i = 0; i < n; ++i) {
-    double* r = row.data() + i * stride;
-    r[0] = detail::weight_at(s.weight, i);
-    r[1] = brier[i];
-    r[2] = loss[i];
-    r[3] = correct[i];
-    r[4] = conf[i];
-    std::uint32_t* q = slot.data() + i * (K + 1);
-    q[0] = equal_width_bin(conf[i], B);
+    const double w = detail::weight_at(s.weight, i);
+    term[0][i] = w;
+    term[1][i] = w * brier[i];
+    term[2][i] = w * loss[i];
+    term[3][i] = w * correct[i];
+    term[4][i] = w * conf[i];
+    gap[0][i] = w * (conf[i] - correct[i]);
+    slot[0][i] = equal_width_bin(conf[i], B);
     for (std::size_t k = 0; k < K; ++k) {
-      r[5 + k] = p[i * K + k];
-      q[1 + k] = static_cast<std::uint32_t>(B + k * B + equal_width_bin(p[i * K + k], B));
+      const double pk = p[i * K + k];
+      gap[1 + k][i] = w * (pk - (s.label[i] == k ? 1.0 : 0.0));
+      slot[1 + k][i] = static_cast<std::uint32_t>(B + k * B + equal_width_bin(pk, B));
     }
   }
   const Poisson1Prefix draw;
   std::vector<double> v_brier(R), v_loss(R), v_acc(R), v_gap(R), v_top(R), v_class(R);
-  // One replicate's running state: its generator, its five totals (weight,
-  // Brier, log loss, right, confidence) and three sums per slot (weight,
-  // weight * forecast, weight * label).
+  // One replicate's running state: its generator, its totals and its
+  // signed sums per slot, each in four copies (lanes) so that the adds of a
+  // block are independent chains; the copies are summed at the end.
+  constexpr std::size_t lanes = 4;
   struct Replicate {
     std::mt19937_64 gen;
-    double total[5] = {0.0, 0.0, 0.0, 0.0, 0.0};
+    double total[totals][lanes] = {};
     std::vector<double> sums;
   };
+  constexpr std::size_t block = 1024;  // a multiple of 2 * lanes
   // Adds rows [from, to) to one replicate, drawing their counts in row order.
-  const auto add_rows = [&](Replicate& rep, std::size_t from, std::size_t to) {
+  const auto add_rows = [&](Replicate& rep, std::size_t from, std::size_t to, double* t) {
+    const std::size_t m = to - from;
+    for (std::size_t i = 0; i < m; i += 2) {
+      const std::uint64_t u = rep.gen();
+      t[i] = draw(static_cast<std::uint32_t>(u >> 32));
+      t[i + 1] = draw(static_cast<std::uint32_t>(u));  // past the last row when m is odd: never read
+    }
+    std::size_t full = m - m % lanes;
+    for (std::size_t j = 0; j < totals; ++j) {
+      const double* x = term[j].data() + from;
+      double acc[lanes];
+      for (std::size_t l = 0; l < lanes; ++l) acc[l] = rep.total[j][l];
+      for (std::size_t i = 0; i < full; i += lanes)
+        for (std::size_t l = 0; l < lanes; ++l) acc[l] += t[i + l] * x[i + l];
+      for (std::size_t i = full; i < m; ++i) acc[i % lanes] += t[i] * x[i];
+      for (std::size_t l = 0; l < lanes; ++l) rep.total[j][l] = acc[l];
+    }
+    // Row i adds to copy i % lanes of the sums: consecutive rows mostly
+    // fall in one bin, and one copy would make every add wait for the last.
+    // The K + 1 columns are taken row by row, so their adds overlap too.
     double* sums = rep.sums.data();
-    for (std::size_t i = from; i < to; ++i) {
-      const std::uint64_t t = draw(rep.gen());
-      if (t == 0) continue;
-      const double* x = row.data() + i * stride;
-      const double w = x[0] * static_cast<double>(t);
-      if (w == 0.0) continue;
-      rep.total[0] += w;
-      rep.total[1] += w * x[1];
-      rep.total[2] += w * x[2];
-      rep.total[3] += w * x[3];
-      rep.total[4] += w * x[4];
-      const std::uint32_t* q = slot.data() + i * (K + 1);
-      double* top = sums + 3 * q[0];
-      top[0] += w;
-      top[1] += w * x[4];
-      top[2] += w * x[3];
-      const std::uint32_t y = s.label[i];
-      for (std::size_t k = 0; k < K; ++k) {
-        double* c = sums + 3 * q[1 + k];
-        c[0] += w;
-        c[1] += w * x[5 + k];
-        if (k == y) c[2] += w;
+    const std::size_t S = B + K * B;
+    for (std::size_t i = 0; i < m; i += lanes) {
+      const std::size_t end = std::min(m, i + lanes);
+      for (std::size_t c = 0; c <= K; ++c) {
+        const double* d = gap[c].data() + from;
+        const std::uint32_t* q = slot[c].data() + from;
+        for (std::size_t j = i; j < end; ++j) sums[(j - i) * S + q[j]] += t[j] * d[j];
       }
     }
   };
-  const auto finish = [&](std::size_t r, const Replicate& rep, std::vector<BinSums>& bins) {
-    const double W = rep.total[0];
+  const auto finish = [&](std::size_t r, const Replicate& rep) {
+    double total[totals];
+    for (std::size_t j = 0; j < totals; ++j)
+      total[j] = (rep.total[j][0] + rep.total[j][1]) + (rep.total[j][2] + rep.total[j][3]);
+    const double W = total[0];
     if (!(W > 0.0)) {
       v_brier[r] = v_loss[r] = v_acc[r] = v_gap[r] = v_top[r] = v_class[r] = std::nan("");
       return;
     }
-    v_brier[r] = rep.total[1] / W;
-    v_loss[r] = rep.total[2] / W;
-    v_acc[r] = rep.total[3] / W;
-    v_gap[r] = rep.total[4] / W - rep.total[3] / W;
-    // Only the ECE is read from these sums: rows and squared weights are
-    // left at zero.
+    v_brier[r] = total[1] / W;
+    v_loss[r] = total[2] / W;
+    v_acc[r] = total[3] / W;
+    v_gap[r] = total[4] / W - total[3] / W;
+    const std::size_t S = B + K * B;
     const auto ece_of = [&](std::size_t first) {
-      bins.assign(B, BinSums{});
+      double e = 0.0;
       for (std::size_t b = 0; b < B; ++b) {
-        bins[b].weight = rep.sums[3 * (first + b)];
-        bins[b].forecast = rep.sums[3 * (first + b) + 1];
-        bins[b].label = rep.sums[3 * (first + b) + 2];
+        const double* x = rep.sums.data() + first + b;
+        e += std::abs((x[0] + x[S]) + (x[2 * S] + x[3 * S]));
       }
-      return calibration_error(bins, BinningKind::equal_width).ece;
+      return e / W;
     };
     v_top[r] = ece_of(0);
     double mean = 0.0;
@@ -207,18 +221,17 @@ ClassBootstrapResult bootstrap_class_report(const std::vector<double>& p, const 
   // block at a time, and runs each of its replicates over the block while
   // the block is in cache. Each replicate still draws and adds its rows in
   // row order, so the numbers are those of one replicate at a time.
-  constexpr std::size_t block = 1024;
   const auto worker = [&](std::size_t t) {
     try {
       std::vector<Replicate> mine;
       for (std::size_t r = t; r < R; r += threads) {
         mine.push_back(Replicate{bootstrap_generator(o.seed, r), {}, {}});
-        mine.back().sums.assign((B + K * B) * 3, 0.0);
+        mine.back().sums.assign(lanes * (B + K * B), 0.0);
       }
+      std::vector<double> counts(block);
       for (std::size_t from = 0; from < n; from += block)
-        for (Replicate& rep : mine) add_rows(rep, from, std::min(n, from + block));
-      std::vector<BinSums> bins;
-      for (std::size_t j = 0; j < mine.size(); ++j) finish(t + j * threads, mine[j], bins);
+        for (Replicate& rep : mine) add_rows(rep, from, std::min(n, from + block), counts.data());
+      for (std::size_t j = 0; j < mine.size(); ++j) finish(t + j * threads, mine[j]);
     } catch (...) {
       errors[t] = std::current_exception();
     }

@@ -233,7 +233,8 @@ TEST_CASE("class report: a replicate reweights the rows by Poisson(1) counts dra
           "[class_report]") {
   // With one replicate the interval is that replicate's figure, which is
   // recomputed here from the documented draws (bootstrap.hpp: replicate 0's
-  // generator, one Poisson(1) count per row by inversion).
+  // generator, one 64-bit draw per pair of rows, the high half for the even
+  // row, the low half for the odd one, each inverted by poisson1_of_u32).
   const plumb::ClassScores s = random_case(4000, 3, 21);
   plumb::ClassReportOptions o;
   o.bootstrap = 1;
@@ -243,8 +244,11 @@ TEST_CASE("class report: a replicate reweights the rows by Poisson(1) counts dra
   REQUIRE(r.bootstrap);
   std::mt19937_64 gen = plumb::bootstrap_generator(5, 0);
   double W = 0.0, brier = 0.0, right = 0.0;
+  std::uint64_t pair = 0;
   for (std::size_t i = 0; i < s.rows; ++i) {
-    const double t = static_cast<double>(plumb::poisson1_draw(gen));
+    if (i % 2 == 0) pair = gen();
+    const auto half = static_cast<std::uint32_t>(i % 2 == 0 ? pair >> 32 : pair);
+    const double t = static_cast<double>(plumb::poisson1_of_u32(half));
     const double* p = s.row(i);
     double b = 0.0;
     std::size_t top = 0;
@@ -265,6 +269,31 @@ TEST_CASE("class report: a replicate reweights the rows by Poisson(1) counts dra
 TEST_CASE("poisson1_of_bits gives poisson1_draw's count for the same draw", "[class_report][bootstrap]") {
   std::mt19937_64 a = plumb::bootstrap_generator(3, 7), b = a;
   for (int i = 0; i < 200000; ++i) REQUIRE(plumb::poisson1_draw(a) == plumb::poisson1_of_bits(b()));
+}
+
+TEST_CASE("poisson1_of_u32: each count's share of the 2^32 uniforms is within 2^-32 of e^-1 / k!",
+          "[class_report][bootstrap]") {
+  // Published formula: the Poisson(1) probabilities e^-1 / k!. The counts
+  // are non-decreasing in u, so each count's uniforms are one run, found by
+  // bisection for its first u.
+  const auto first_u_with_count_at_least = [](std::uint64_t k) {
+    std::uint64_t lo = 0, hi = std::uint64_t{1} << 32;  // answer in [lo, hi]
+    while (lo < hi) {
+      const std::uint64_t mid = lo + (hi - lo) / 2;
+      if (plumb::poisson1_of_u32(static_cast<std::uint32_t>(mid)) >= k) hi = mid;
+      else lo = mid + 1;
+    }
+    return lo;
+  };
+  double factorial = 1.0;
+  for (std::uint64_t k = 0; k < 12; ++k) {
+    if (k > 0) factorial *= static_cast<double>(k);
+    const double share =
+        static_cast<double>(first_u_with_count_at_least(k + 1) - first_u_with_count_at_least(k)) * 0x1p-32;
+    CHECK_THAT(share, WithinAbs(std::exp(-1.0) / factorial, 0x1p-32 + 1e-16));
+  }
+  CHECK(plumb::poisson1_of_u32(0) == 0);
+  CHECK(plumb::poisson1_of_u32(0xFFFFFFFFu) >= 10);
 }
 
 TEST_CASE("class report: gates read the figures they are named after", "[class_report]") {
