@@ -65,6 +65,8 @@ std::string usage_footer() {
          "one column NAME_calibrated per score column, as apply names them.\n\n"
          "Examples:\n"
          "  plumb cross-fit --scores 'p_*' --label outcome --folds 5 -o outcome.map.json parcels.csv\n"
+         "  plumb cross-fit --scores 'p_*' --label outcome --split group=route --oof outcome.oof.csv.gz \\\n"
+         "      -o outcome.map.json parcels.csv\n"
          "  plumb cross-fit --map isotonic,platt,beta --score risk --label missed --split group=parcel_route \\\n"
          "      --oof oof.csv -o late.map.json holdout.csv\n"
          "  plumb cross-fit --score risk --label missed --split time=night --final folds holdout.csv > late.map.json";
