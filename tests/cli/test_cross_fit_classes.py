@@ -185,6 +185,11 @@ class ClassCrossFitTest(PlumbCase):
         timed_rows = read_rows(timed)[1:]
         self.assertEqual(self.check_oof_against_refits(header + ["night"], timed_rows, oof, ["--map", "temperature"],
                                                        forward=True), len(rows) - len(unscored))
+        # --final folds averages the three maps fitted (the first block has none).
+        _, ev, doc, err = self.cross_fit("--folds", "4", "--map", "temperature", "--split", "time=night",
+                                         "--final", "folds", data=timed)
+        self.assertEqual(len(doc["parameters"]["maps"]), 3)
+        self.assertIn("the mean of 3 fold maps of kind temperature", doc["fit"]["notes"])
 
     def test_column_split_keeps_the_column_folds(self):
         header, rows = outcome_rows()
