@@ -111,7 +111,9 @@ inline constexpr std::size_t max_dirichlet_classes = 20;
 std::unique_ptr<ClassCalibrationMap> fit_class_map(std::string_view kind, const ClassScores& data,
                                                    const ClassMapOptions& options = {});
 
-// Rebuild a map from the artifact's fields, validating each. Throws
+// Rebuild a map from the artifact's fields, validating each: a kind of the
+// registry, or "fold_average" (cross-fit --final folds: the mean of its fold
+// maps, plumb/maps/class_fold_average_map.hpp). Throws
 // plumb::Error(artifact) naming `where` and the field.
 std::unique_ptr<ClassCalibrationMap> load_class_map(std::string_view kind, std::vector<std::string> classes,
                                                     ClassScale scale, const nlohmann::json& parameters,

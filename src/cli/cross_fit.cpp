@@ -5,6 +5,7 @@
 #include <cmath>
 #include <cstdio>
 #include <limits>
+#include <memory>
 #include <string>
 #if defined(__GLIBC__)
 #include <malloc.h>
@@ -22,6 +23,7 @@
 #include "plumb/io/csv.hpp"
 #include "plumb/error.hpp"
 #include "plumb/map_registry.hpp"
+#include "plumb/maps/class_fold_average_map.hpp"
 #include "plumb/maps/fold_average_map.hpp"
 #include "plumb/io/output.hpp"
 #include "plumb/tally.hpp"
@@ -55,11 +57,16 @@ std::string usage_footer() {
          "each negative row counts 1/RATE times in every figure, the paired comparison and so the choice (the raw\n"
          "score's row is weighed so too, its probabilities as given). The artifact records odds x RATE, as\n"
          "fit --negative-rate does, and the evidence its negative_rate.\n\n"
-         "Multi-class (--scores): the split is stratified by class; --map auto compares temperature, vector,\n"
-         "dirichlet at each L2 of --l2-grid and one_vs_rest (--per-class), by out-of-fold log loss with the\n"
-         "same one-standard-error rule (a larger L2 counts as simpler), and ships the choice refitted on all rows.\n\n"
+         "Multi-class (--scores): the stratified split is stratified by class (group=, time= and column= as above);\n"
+         "--map auto compares temperature, vector, dirichlet at each L2 of --l2-grid and one_vs_rest (--per-class)\n"
+         "by out-of-fold log loss with the same one-standard-error rule (a larger L2 counts as simpler), shows\n"
+         "each one's out-of-fold multi-class Brier score (0 to 2) beside it, and ships the choice refitted on all\n"
+         "rows (--final folds: the mean of its fold maps' probabilities). --oof writes oof_fold and the chosen map's out-of-fold probabilities,\n"
+         "one column NAME_calibrated per score column, as apply names them.\n\n"
          "Examples:\n"
          "  plumb cross-fit --scores 'p_*' --label outcome --folds 5 -o outcome.map.json parcels.csv\n"
+         "  plumb cross-fit --scores 'p_*' --label outcome --split group=route --oof outcome.oof.csv.gz \\\n"
+         "      -o outcome.map.json parcels.csv\n"
          "  plumb cross-fit --map isotonic,platt,beta --score risk --label missed --split group=parcel_route \\\n"
          "      --oof oof.csv -o late.map.json holdout.csv\n"
          "  plumb cross-fit --score risk --label missed --split time=night --final folds holdout.csv > late.map.json";
@@ -233,13 +240,77 @@ void write_oof(const CrossFitOptions& o, const io::LabelledRows& rows, const Cro
   out.commit();
 }
 
-// The multi-class cross-fit: stratified by class, candidates from the
-// multi-class registry (dirichlet once per L2 of the grid), the choice
-// refitted on all rows and written with its evidence.
+// --oof with --scores: every input row as read, its fold (oof_fold: made
+// folds numbered from 1, a fold column's own values) and the chosen map's K
+// out-of-fold probabilities, named as apply names its columns
+// (NAME_calibrated, in class order); empty for a row no fold scores.
+// The caller commits `out`, with the command's other outputs.
+void write_class_oof(io::OutputFile& out, const CrossFitOptions& o, const io::ClassRows& rows, const Folds& folds,
+                     const ClassCrossFitResult& r, char separator) {
+  io::CsvOptions csv;
+  csv.delimiter = separator;
+  io::CsvReader reader(o.input.file, csv);
+  const char d = reader.delimiter();
+  const std::string line_end(reader.header_record().line_end);
+  std::vector<std::string> names{"oof_fold"};
+  for (const std::string& c : rows.score_columns) names.push_back(c + "_calibrated");
+  for (std::size_t c = 0; c < reader.header().size(); ++c)
+    for (const std::string& n : names)
+      if (reader.header()[c] == n) {
+        Location loc;
+        loc.file = reader.name();
+        loc.line = 1;
+        loc.column = c + 1;
+        loc.column_name = n;
+        throw Error(ErrorKind::usage, "the input already has a column named '" + n + "', which --oof writes", loc, n,
+                    "input without the columns oof_fold and NAME_calibrated of its --scores columns when writing "
+                    "--oof");
+      }
+  out.write(reader.header_record().raw);
+  for (const std::string& n : names) {
+    out.put(d);
+    out.write(n);
+  }
+  out.write(line_end);
+  const std::size_t k = rows.data.k();
+  io::Record record;
+  std::size_t i = 0, skipped = 0;
+  char number[32];
+  while (reader.next(record)) {
+    // Rows left out under --missing skip are left out here too.
+    if (skipped < rows.skipped_lines.size() && rows.skipped_lines[skipped] == record.line) {
+      ++skipped;
+      continue;
+    }
+    if (i >= rows.data.rows || rows.lines[i] != record.line)
+      throw Error(ErrorKind::io, "the input changed while cross-fit was reading it");
+    out.write(record.raw);
+    out.put(d);
+    if (folds.kind == SplitKind::column) out.write(rows.segment_names[rows.segment[i]]);
+    else out.write(std::to_string(folds.fold_of_row[i] + 1));
+    for (std::size_t c = 0; c < k; ++c) {
+      out.put(d);
+      const double p = r.oof[i * k + c];
+      if (std::isfinite(p)) {
+        const char* end = io::probability_text(number, number + sizeof number, p, o.oof_digits);
+        out.write(std::string_view(number, static_cast<std::size_t>(end - number)));
+      }
+    }
+    out.write(line_end);
+    ++i;
+  }
+  if (i != rows.data.rows) throw Error(ErrorKind::io, "the input changed while cross-fit was reading it");
+}
+
+// The multi-class cross-fit: stratified by class unless --split says
+// otherwise (the binary split code: grouped, by time, from a column),
+// candidates from the multi-class registry (dirichlet once per L2 of the
+// grid), the choice refitted on all rows and written with its evidence.
 int run_class_cross_fit(const CrossFitOptions& o) {
   for (const std::string& g : o.given)
     throw Error(ErrorKind::usage, g + " does not apply with --scores", {}, {},
-                "--scores COLS --label COL with --map, --folds, --seed, --l2-grid, --per-class, --json, -o");
+                "--scores COLS --label COL with --map, --folds, --split, --seed, --l2-grid, --per-class, --oof, "
+                "--digits, --json, -o");
   const MapKind* per = find_map_kind(o.per_class);
   if (!per || !per->fittable || !per->accepts(Scale::probability))
     throw Error(ErrorKind::usage, "--per-class names no binary kind on probabilities", {}, o.per_class,
@@ -273,9 +344,32 @@ int run_class_cross_fit(const CrossFitOptions& o) {
       }
     }
   }
-  const io::ClassColumns columns = class_columns(o.input, o.classes);
-  const io::ClassRows rows = io::read_class_scores(o.input.file, columns, parse_separator(o.input.separator));
-  const Folds folds = class_stratified_folds(rows.data.label, rows.data.k(), o.folds, o.seed);
+  const Split split = parse_split(o.split);
+  if (!o.oof.empty() && (o.input.file.empty() || o.input.file == "-"))
+    throw Error(ErrorKind::usage, "--oof needs the input as a file", {}, {},
+                "a file name (the rows are read a second time to write them out)");
+  const char separator = parse_separator(o.input.separator);
+  io::ClassColumns columns = class_columns(o.input, o.classes);
+  columns.segment = split.column;
+  const io::ClassRows rows = io::read_class_scores(o.input.file, columns, separator);
+  Folds folds;
+  switch (split.kind) {
+    case SplitKind::stratified: folds = class_stratified_folds(rows.data.label, rows.data.k(), o.folds, o.seed); break;
+    case SplitKind::group: folds = group_folds(rows.segment, rows.segment_names.size(), o.folds, o.seed); break;
+    case SplitKind::time: {
+      const TimeLocator where = [&rows](std::size_t v) {
+        Location loc;
+        loc.file = rows.source;
+        loc.line = rows.segment_lines[v];
+        loc.column = rows.segment_column_number;
+        loc.column_name = rows.segment_column;
+        return loc;
+      };
+      folds = time_folds(time_ranks(rows.segment_names, rows.segment, where), o.folds);
+      break;
+    }
+    case SplitKind::column: folds = column_folds(rows.segment, rows.segment_names.size()); break;
+  }
   ClassCrossFitResult result;
   Location loc;
   loc.file = rows.source;
@@ -293,12 +387,17 @@ int run_class_cross_fit(const CrossFitOptions& o) {
                     {"l2", c.spec.kind == "dirichlet" ? nlohmann::json(c.spec.options.l2) : nlohmann::json(nullptr)},
                     {"log_loss", c.log_loss},
                     {"fold_log_loss", c.fold_log_loss},
+                    {"brier", c.brier},
+                    {"brier_se", c.brier_se},
                     {"log_loss_minus_best", c.diff_vs_best},
                     {"log_loss_minus_best_se", c.diff_se}});
+  nlohmann::json split_json = {{"kind", std::string(to_string(split.kind))}};
+  if (split.kind == SplitKind::stratified) split_json["by"] = "class";
+  else split_json["column"] = rows.segment_column;
   const nlohmann::json evidence = {{"folds", folds.count},
-                                   {"split", {{"kind", "stratified"}, {"by", "class"}}},
+                                   {"split", split_json},
                                    {"seed", o.seed},
-                                   {"final", "refit"},
+                                   {"final", o.final_kind},
                                    {"scored_rows", result.scored_rows},
                                    {"candidates", list},
                                    {"chosen", chosen.name},
@@ -307,7 +406,21 @@ int run_class_cross_fit(const CrossFitOptions& o) {
   try {
     ClassMapOptions options = chosen.spec.options;
     options.binary = o.choices.map_options();
-    artifact.map = fit_class_map(chosen.spec.kind, rows.data, options);
+    if (o.final_kind == "folds") {
+      // The fold maps as they were scored, averaged: each row's K
+      // probabilities are the mean of K-vectors that each sum to 1.
+      std::vector<std::shared_ptr<const ClassCalibrationMap>> maps;
+      for (const auto& m : chosen.fold_maps)
+        if (m) maps.push_back(m);
+      const std::size_t fold_maps = maps.size();
+      artifact.map = std::make_unique<ClassFoldAverageMap>(rows.data.classes, rows.data.scale, std::move(maps));
+      FitDiagnostics d;
+      d.log_loss = class_log_loss(*artifact.map, rows.data);
+      d.notes.push_back("the mean of " + std::to_string(fold_maps) + " fold maps of kind " + chosen.name);
+      artifact.map->restore_diagnostics(std::move(d));
+    } else {
+      artifact.map = fit_class_map(chosen.spec.kind, rows.data, options);
+    }
     if (chosen.spec.kind == "dirichlet") artifact.fit_options["l2"] = options.l2;
     if (chosen.spec.kind == "one_vs_rest") {
       artifact.fit_options["per_class"] = options.per_class;
@@ -322,37 +435,61 @@ int run_class_cross_fit(const CrossFitOptions& o) {
   artifact.cross_fit = evidence;
   artifact.provenance = class_provenance(rows, columns.missing, o.no_timestamp);
 
+  // Every output is written before any is committed, so that a failure
+  // (an input column --oof would write, an unwritable directory) leaves
+  // none of them behind.
+  std::unique_ptr<io::OutputFile> oof_out, json_out;
+  if (!o.oof.empty()) {
+    oof_out = std::make_unique<io::OutputFile>(o.oof);
+    write_class_oof(*oof_out, o, rows, folds, result, separator);
+  }
   if (!o.json_path.empty()) {
-    io::OutputFile json_out(o.json_path);
-    json_out.write(evidence_to_text(evidence));
-    json_out.commit();
+    json_out = std::make_unique<io::OutputFile>(o.json_path);
+    json_out->write(evidence_to_text(evidence));
   }
   io::OutputFile out(o.output);
   out.write(class_artifact_to_text(artifact));
+  if (oof_out) oof_out->commit();
+  if (json_out) json_out->commit();
   out.commit();
   if (!o.input.quiet) {
     std::size_t width = 10;
     for (const ClassCandidate& c : result.candidates) width = std::max(width, c.name.size());
-    std::fprintf(stderr, "plumb cross-fit: %zu folds stratified by class, seed %s, %s rows scored out of fold\n",
-                 folds.count, std::to_string(o.seed).c_str(), grouped(result.scored_rows).c_str());
-    std::fprintf(stderr, "  %-*s %12s %14s %10s\n", static_cast<int>(width), "candidate", "oof log loss",
-                 "minus best", "se");
-    for (const ClassCandidate& c : result.candidates)
-      std::fprintf(stderr, "  %-*s %12s %14s %10s\n", static_cast<int>(width), c.name.c_str(),
-                   fixed_text(c.log_loss, 6).c_str(), fixed_text(c.diff_vs_best, 6).c_str(),
-                   fixed_text(c.diff_se, 6).c_str());
+    std::string how;
+    switch (split.kind) {
+      case SplitKind::stratified: how = "stratified by class, seed " + std::to_string(o.seed); break;
+      case SplitKind::group: how = "grouped by " + rows.segment_column + ", seed " + std::to_string(o.seed); break;
+      case SplitKind::time: how = "forward in time by " + rows.segment_column; break;
+      case SplitKind::column: how = "from the column " + rows.segment_column; break;
+    }
+    std::fprintf(stderr, "plumb cross-fit: %zu folds %s, %s rows scored out of fold\n", folds.count, how.c_str(),
+                 grouped(result.scored_rows).c_str());
+    std::fprintf(stderr, "  %-*s %12s %24s %22s\n", static_cast<int>(width), "candidate", "oof log loss",
+                 "minus best (se)", "oof Brier (se)");
+    for (std::size_t i = 0; i < result.candidates.size(); ++i) {
+      const ClassCandidate& c = result.candidates[i];
+      const std::string versus = i == result.best
+                                     ? std::string("best")
+                                     : fixed_text(c.diff_vs_best, 6) + " (" + fixed_text(c.diff_se, 6) + ")";
+      std::fprintf(stderr, "  %-*s %12s %24s %22s\n", static_cast<int>(width), c.name.c_str(),
+                   fixed_text(c.log_loss, 6).c_str(), versus.c_str(),
+                   (fixed_text(c.brier, 6) + " (" + fixed_text(c.brier_se, 6) + ")").c_str());
+    }
     std::fprintf(stderr, "plumb cross-fit: chose %s: %s\n", chosen.name.c_str(), result.reason.c_str());
-    std::fprintf(stderr, "plumb cross-fit: %s map (refitted on all rows) written to %s\n", chosen.name.c_str(),
-                 out.name().c_str());
+    if (split.kind == SplitKind::time)
+      std::fprintf(stderr, "plumb cross-fit: note: the earliest time block (fold 1) is never scored: no earlier "
+                           "rows exist to fit its map on\n");
+    std::fprintf(stderr, "plumb cross-fit: %s map (%s) written to %s\n", chosen.name.c_str(),
+                 o.final_kind == "folds" ? "the fold maps, averaged" : "refitted on all rows", out.name().c_str());
   }
   return 0;
 }
 
 int run_cross_fit(const CrossFitOptions& o) {
-  if (!o.classes.scores.empty()) return run_class_cross_fit(o);
   if (o.oof_digits != 0 && o.oof.empty())
     throw Error(ErrorKind::usage, "--digits sets the digits of the --oof file, and no --oof was given", {},
                 std::to_string(o.oof_digits), "--oof FILE with --digits");
+  if (!o.classes.scores.empty()) return run_class_cross_fit(o);
 #if defined(__GLIBC__)
   // Blocks of 4 MB and more straight from the system and back to it when
   // freed. glibc otherwise raises its threshold to the size of the first
@@ -501,7 +638,8 @@ Command add_cross_fit_command(CLI::App& app) {
       ->default_str("stratified");
   cmd->add_option("--seed", o->seed, "Seed of the stratified and grouped splits")->default_str("1");
   cmd->add_option("--oof", o->oof,
-                  "Write every input row with its fold (oof_fold) and each candidate's out-of-fold probability (oof_KIND)");
+                  "Write every input row with its fold (oof_fold) and each candidate's out-of-fold probability (oof_KIND); "
+                  "with --scores, the chosen map's K out-of-fold probabilities (NAME_calibrated)");
   cmd->add_option("--digits", o->oof_digits,
                   "Significant digits of the --oof probabilities, 1 to 17 (default: the shortest text that reads "
                   "back to the same double), as apply's --digits")
@@ -533,8 +671,7 @@ Command add_cross_fit_command(CLI::App& app) {
   return [o, tally, cmd] {
     o->negative_rate_given = cmd->count("--negative-rate") > 0;
     if (!o->classes.scores.empty()) {
-      for (const char* name : {"--score", "--positive", "--negative", "--split", "--oof", "--digits", "--final",
-                               "--tally", "--negative-rate"})
+      for (const char* name : {"--score", "--positive", "--negative", "--tally", "--negative-rate"})
         if (cmd->count(name) > 0) o->given.push_back(name);
       if (o->input.label.empty())
         throw Error(ErrorKind::usage, "cross-fit --scores needs --label", {}, {}, "--scores COLS --label COL FILE");

@@ -204,18 +204,30 @@ int inspect_classes(const InspectOptions& o, const ClassArtifact& a) {
     const std::string scored = e.contains("scored_rows") && e["scored_rows"].is_number_unsigned()
                                    ? grouped(e["scored_rows"].get<std::uint64_t>())
                                    : text(e, "scored_rows");
-    std::printf("\ncross-fit\n  %-14s %s folds stratified by class, seed %s, %s rows scored out of fold, shipped: %s\n",
-                "evidence", text(e, "folds").c_str(), text(e, "seed").c_str(), scored.c_str(), text(e, "final").c_str());
+    // The split: stratified by class (the first releases' only split),
+    // grouped, by time or from a column of the input.
+    std::string how = "stratified by class, seed " + text(e, "seed");
+    if (e.contains("split") && e["split"].is_object()) {
+      const nlohmann::json& sp = e["split"];
+      const std::string kind = text(sp, "kind"), column = text(sp, "column");
+      if (kind == "group") how = "grouped by " + column + ", seed " + text(e, "seed");
+      else if (kind == "time") how = "forward in time by " + column;
+      else if (kind == "column" || kind == "given") how = "from the column " + column;
+    }
+    std::printf("\ncross-fit\n  %-14s %s folds %s, %s rows scored out of fold, shipped: %s\n", "evidence",
+                text(e, "folds").c_str(), how.c_str(), scored.c_str(), text(e, "final").c_str());
     std::printf("  %-14s %s: %s\n", "chosen", text(e, "chosen").c_str(), text(e, "reason").c_str());
     if (e.contains("candidates") && e["candidates"].is_array()) {
-      std::printf("  %-22s %12s %12s %10s\n", "candidate", "oof log loss", "minus best", "se");
+      std::printf("  %-22s %12s %12s %10s %10s %10s\n", "candidate", "oof log loss", "minus best", "se", "oof Brier",
+                  "se");
       for (const auto& c : e["candidates"]) {
         if (!c.is_object()) continue;
         auto num = [&](const char* k) {
           return c.contains(k) && c[k].is_number() ? fixed_text(c[k].get<double>(), 6) : std::string("?");
         };
-        std::printf("  %-22s %12s %12s %10s\n", text(c, "name").c_str(), num("log_loss").c_str(),
-                    num("log_loss_minus_best").c_str(), num("log_loss_minus_best_se").c_str());
+        std::printf("  %-22s %12s %12s %10s %10s %10s\n", text(c, "name").c_str(), num("log_loss").c_str(),
+                    num("log_loss_minus_best").c_str(), num("log_loss_minus_best_se").c_str(), num("brier").c_str(),
+                    num("brier_se").c_str());
       }
     }
   }
@@ -236,6 +248,12 @@ int inspect_classes(const InspectOptions& o, const ClassArtifact& a) {
       std::printf("  %-*s", static_cast<int>(width), m.classes()[j].c_str());
       for (std::size_t i = 0; i < m.k(); ++i) std::printf(" %22s", scalar_text(params["matrix"][j][i]).c_str());
       std::printf(" %22s\n", scalar_text(params["bias"][j]).c_str());
+    }
+  } else if (m.kind() == "fold_average") {
+    const auto& folds = params["maps"];
+    for (std::size_t f = 0; f < folds.size(); ++f) {
+      std::printf("\n  fold map %zu: %s\n", f + 1, scalar_text(folds[f]["kind"]).c_str());
+      print_parameters(folds[f]["parameters"], o.all);
     }
   } else if (params.contains("maps")) {
     std::printf("  %-22s %s\n", "per_class", scalar_text(params["per_class"]).c_str());

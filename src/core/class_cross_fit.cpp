@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <limits>
 
 #include "plumb/error.hpp"
 #include "plumb/number_text.hpp"
@@ -98,57 +99,77 @@ ClassCrossFitResult class_cross_fit(const ClassScores& data, const Folds& folds,
   const std::size_t n = data.rows, k = data.k();
   auto weight = [&](std::size_t i) { return data.weight.empty() ? 1.0 : data.weight[i]; };
   // Each fold's training rows and scored rows, and a check that the
-  // training rows hold every class (a class absent there would be refused
-  // by the fit with a message that does not name the fold).
+  // training rows of a fold that scores rows hold every class (a class
+  // absent there would be refused by the fit with a message that does not
+  // name the fold).
   std::vector<std::vector<std::size_t>> train(folds.count), test(folds.count);
   for (std::size_t i = 0; i < n; ++i)
     for (std::size_t j = 0; j < folds.count; ++j) {
       if (folds.trains(i, j)) train[j].push_back(i);
       if (folds.fold_of_row[i] == j && folds.scored(i)) test[j].push_back(i);
     }
-  std::vector<ClassScores> train_rows;
+  std::vector<ClassScores> train_rows(folds.count);
   for (std::size_t j = 0; j < folds.count; ++j) {
+    if (test[j].empty()) continue;
     std::vector<double> w(k, 0.0);
     for (std::size_t i : train[j]) w[data.label[i]] += weight(i);
     for (std::size_t c = 0; c < k; ++c)
       if (!(w[c] > 0.0))
         throw Error(ErrorKind::fit,
                     "fold " + std::to_string(j + 1) + "'s training rows hold no row of class '" + data.classes[c] + "'",
-                    {}, data.classes[c], "rows of every class in every fold's training rows (fewer --folds)");
-    train_rows.push_back(subset(data, train[j]));
+                    {}, data.classes[c],
+                    "rows of every class in every fold's training rows (fewer --folds, or another --split)");
+    train_rows[j] = subset(data, train[j]);
   }
 
   ClassCrossFitResult r;
+  for (std::size_t i = 0; i < n; ++i) r.scored_rows += folds.scored(i) ? 1 : 0;
+  if (r.scored_rows == 0)
+    throw Error(ErrorKind::fit, "no row is scored out of fold", {}, {}, "folds that score rows");
   std::vector<std::vector<double>> term(candidates.size(), std::vector<double>(n, 0.0));
-  std::vector<double> q(k);
+  std::vector<double> q(k), brier(n, 0.0);
   for (std::size_t c = 0; c < candidates.size(); ++c) {
     ClassCandidate cand;
     cand.spec = candidates[c];
     cand.name = candidate_name(candidates[c]);
     cand.rank = candidate_rank(candidates[c], candidates);
-    double sum = 0.0, w_total = 0.0;
+    cand.fold_maps.resize(folds.count);
+    double sum = 0.0, w_total = 0.0, b_sum = 0.0;
     for (std::size_t j = 0; j < folds.count; ++j) {
       if (test[j].empty()) {
         cand.fold_log_loss.push_back(0.0);
         continue;
       }
-      const auto map = fit_class_map(cand.spec.kind, train_rows[j], cand.spec.options);
+      std::shared_ptr<const ClassCalibrationMap> map = fit_class_map(cand.spec.kind, train_rows[j], cand.spec.options);
       double fs = 0.0, fw = 0.0;
       for (std::size_t i : test[j]) {
         map->map(data.row(i), q.data());
-        const double t = -std::log(std::max(q[data.label[i]], class_probability_floor));
+        const std::uint32_t y = data.label[i];
+        const double t = -std::log(std::max(q[y], class_probability_floor));
+        double b = 0.0;
+        for (std::size_t m = 0; m < k; ++m) {
+          const double d = q[m] - (m == y ? 1.0 : 0.0);
+          b += d * d;
+        }
         term[c][i] = t;
+        brier[i] = b;
         fs += weight(i) * t;
+        b_sum += weight(i) * b;
         fw += weight(i);
       }
       sum += fs;
       w_total += fw;
       cand.fold_log_loss.push_back(fw > 0.0 ? fs / fw : 0.0);
+      cand.fold_maps[j] = std::move(map);
     }
     cand.log_loss = w_total > 0.0 ? sum / w_total : 0.0;
+    cand.brier = w_total > 0.0 ? b_sum / w_total : 0.0;
+    double ss = 0.0;
+    for (std::size_t i = 0; i < n; ++i)
+      if (folds.scored(i)) ss += weight(i) * (brier[i] - cand.brier) * (brier[i] - cand.brier);
+    cand.brier_se = w_total > 1.0 ? std::sqrt(ss / (w_total - 1.0) / w_total) : 0.0;
     r.candidates.push_back(std::move(cand));
   }
-  for (std::size_t i = 0; i < n; ++i) r.scored_rows += folds.scored(i) ? 1 : 0;
   for (std::size_t c = 1; c < r.candidates.size(); ++c)
     if (r.candidates[c].log_loss < r.candidates[r.best].log_loss) r.best = c;
   // Paired differences from the best, and their standard error, as the
@@ -190,6 +211,9 @@ ClassCrossFitResult class_cross_fit(const ClassScores& data, const Folds& folds,
     r.reason = best.name + " has the lowest out-of-fold log loss; " + chosen.name +
                " is simpler and within one standard error of it (+" + fixed_text(chosen.diff_vs_best, 6) + ", se " +
                fixed_text(chosen.diff_se, 6) + ")";
+  r.oof.assign(n * k, std::numeric_limits<double>::quiet_NaN());
+  for (std::size_t i = 0; i < n; ++i)
+    if (folds.scored(i)) chosen.fold_maps[folds.fold_of_row[i]]->map(data.row(i), r.oof.data() + i * k);
   return r;
 }
 

@@ -5,6 +5,7 @@
 #include <cmath>
 
 #include "plumb/error.hpp"
+#include "plumb/maps/class_fold_average_map.hpp"
 #include "plumb/maps/class_scaling_map.hpp"
 #include "plumb/maps/one_vs_rest_map.hpp"
 
@@ -124,17 +125,20 @@ std::unique_ptr<ClassCalibrationMap> load_class_map(std::string_view kind, std::
                                                     ClassScale scale, const nlohmann::json& parameters,
                                                     const std::string& where) {
   const ClassMapKind* entry = find_class_map_kind(kind);
-  if (!entry) {
+  // The fold average is made by cross-fit, never fitted: it is read here,
+  // outside the registry of kinds that fit and cross-fit offer.
+  if (!entry && kind != "fold_average") {
     Location loc;
     loc.file = where;
     throw Error(ErrorKind::artifact, "the map artifact holds an unknown multi-class kind", loc, std::string(kind),
-                class_map_kind_list());
+                class_map_kind_list() + ", fold_average");
   }
   if (!parameters.is_object()) {
     Location loc;
     loc.file = where;
     throw Error(ErrorKind::artifact, "the map artifact's parameters are not an object", loc, {}, "a JSON object");
   }
+  if (!entry) return ClassFoldAverageMap::load(std::move(classes), scale, parameters, where);
   return entry->load(std::move(classes), scale, parameters, where);
 }
 

@@ -142,8 +142,8 @@ class MultiClassTest(PlumbCase):
                                              if c["name"] == "temperature"][0]["log_loss"] + 1e-12)
         with open(os.path.join(SOURCE_DIR, "docs", "class-artifact.schema.json")) as f:
             jsonschema.validate(doc, json.load(f), cls=jsonschema.Draft202012Validator)
-        self.assert_refused(["cross-fit", "--scores", "p_*", "--label", "outcome", "--split", "group=shift",
-                             OUTCOMES, "-o", out + ".2"], 2, "--split does not apply with --scores",
+        self.assert_refused(["cross-fit", "--scores", "p_*", "--label", "outcome", "--negative-rate", "0.5",
+                             OUTCOMES, "-o", out + ".2"], 2, "--negative-rate does not apply with --scores",
                             output=out + ".2")
 
     def test_refusals_are_located_and_leave_nothing(self):

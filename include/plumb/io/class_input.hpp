@@ -39,6 +39,9 @@ struct ClassColumns {
   // must name exactly the classes of the score columns, each once.
   std::vector<std::string> classes;
   std::string weight;  // empty: every row weighs 1
+  // A column whose values are read as texts (cross-fit's group, time or fold
+  // column); empty: none. It may not be a score column.
+  std::string segment;
   // A row with a missing score or label: refuse (default) or skip.
   MissingPolicy missing = MissingPolicy::refuse;
   // Probability scale: the widest |sum of the row's K values - 1| accepted.
@@ -51,15 +54,15 @@ struct ClassLayout {
   std::vector<std::string> classes;
   std::vector<std::size_t> score_column;  // one per class, in class order
   std::vector<std::string> score_header;  // the header name of each, in class order
-  std::optional<std::size_t> label_column, weight_column;
+  std::optional<std::size_t> label_column, weight_column, segment_column;
 };
 
 // Resolves `columns` against the header of `reader`. Throws plumb::Error:
 // usage for a pattern without exactly one '*', for --classes naming a class
 // twice, a class no score column holds, or leaving one out; input (located
 // at line 1 on the column) for a score column named twice, a pattern
-// matching fewer than two columns, one score column (K = 1), and a label or
-// weight column that is also a score column.
+// matching fewer than two columns, one score column (K = 1), and a label,
+// weight or segment column that is also a score column.
 ClassLayout resolve_class_columns(const CsvReader& reader, const ClassColumns& columns);
 
 // The problem with one row's K values (already parsed) on `scale`: nullopt
@@ -92,6 +95,15 @@ struct ClassRows {
   std::vector<std::uint64_t> skipped_lines;
   // The physical line of each row kept (for messages that point at a row).
   std::vector<std::uint64_t> lines;
+  // With ClassColumns::segment: per row an index into segment_names (the
+  // column's distinct texts, as read, in order of first appearance), the
+  // physical line of each value's first row, the resolved header name and
+  // its 1-based column number. Empty (0) without a segment column.
+  std::vector<std::uint32_t> segment;
+  std::vector<std::string> segment_names;
+  std::vector<std::uint64_t> segment_lines;
+  std::string segment_column;
+  std::size_t segment_column_number = 0;
 };
 
 // Reads every data row of `path` ("-" for standard input). Refuses, with
