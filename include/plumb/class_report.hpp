@@ -13,6 +13,7 @@
 #include <vector>
 
 #include "plumb/binning.hpp"
+#include "plumb/class_map.hpp"
 #include "plumb/bootstrap.hpp"
 #include "plumb/calibration_error.hpp"
 #include "plumb/class_scores.hpp"
@@ -56,9 +57,25 @@ struct ClassBootstrapResult {
   BootstrapInterval classwise_ece;  // equal-width bins
 };
 
+// Where a model's probabilities came from when a multi-class map made them
+// from the scores as read (report --scores COLS --map FILE): the artifact's
+// identity (its integrity hash changes with every refit) and provenance.
+struct ClassMapOrigin {
+  std::string file;       // as given on the command line
+  std::string kind;       // temperature, vector, dirichlet, one_vs_rest
+  std::string integrity;  // the artifact's integrity hash
+  std::string created_utc;
+  std::string tool;
+  std::string fitted_source;
+  std::string fitted_sha256;
+  std::uint64_t fitted_rows = 0;
+};
+
 struct ClassReport {
   // Set by the caller (the CLI) for the renderers; build_class_report leaves
   // them empty.
+  std::string name;                     // the model's name when several are reported side by side
+  std::optional<ClassMapOrigin> map;    // set when a map made the probabilities
   std::string source;
   std::string label_column;
   std::string weight_column;
@@ -121,6 +138,34 @@ struct ClassReport {
 // A class with no rows is cautioned, not refused. Every number is the same
 // for any options.threads.
 ClassReport build_class_report(const ClassScores& scores, const ClassReportOptions& options);
+
+// Several models of the same labelled rows reported side by side (report
+// --scores COLS --map FILE ...): the scores as read, then the model of each
+// map, each a whole ClassReport with its own name. `gates` holds every
+// gate's result on every model it reads, in the order of the gates, then of
+// the models; each result's column is the model's name. The renderers'
+// overloads for one ClassReport render a set of that one model with its
+// own gates.
+struct ClassReportSet {
+  std::vector<ClassReport> models;
+  std::vector<GateResult> gates;
+  bool any_gate_exceeded() const noexcept;
+  // Every model's cautions for a reader: a caution every model gives (the
+  // rows' own, such as a class with few rows) once, as it is; then each
+  // model's others as "NAME: caution", in model order. With one model, its
+  // cautions as they are.
+  std::vector<std::string> cautions() const;
+};
+
+// The rows of `scores` as `map` calibrates them: the same labels and
+// weights, the scale probability, and each row's K values replaced by
+// map.map of them (the very doubles plumb apply writes for the map, which
+// reads them back exactly). `floored` receives the rows on which the map
+// raised a probability to class_probability_floor. Precondition: the map's
+// classes and scale are those of `scores` (the caller checks and refuses,
+// located, before); Error(internal) otherwise.
+ClassScores calibrate_class_scores(const ClassCalibrationMap& map, const ClassScores& scores,
+                                   std::uint64_t* floored = nullptr);
 
 // The figures a gate (--max/--min) can read on a multi-class report, named
 // by their JSON keys (the ECEs with their binning): brier, log_loss,

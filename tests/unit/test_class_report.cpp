@@ -289,3 +289,37 @@ TEST_CASE("class report: gates read the figures they are named after", "[class_r
   for (const plumb::GateMetric& m : plumb::class_gate_metrics())
     CHECK(std::isfinite(plumb::class_gate_value(r, m.name)));
 }
+
+TEST_CASE("class report: a map's model of the rows, as calibrate_class_scores gives it", "[class_report]") {
+  plumb::ClassScores s = random_case(400, 3, 11);
+  s.weight.assign(s.rows, 1.0);
+  s.weight[7] = 2.5;
+  const auto map = plumb::fit_class_map("vector", s);
+  std::uint64_t floored = 99;
+  const plumb::ClassScores q = plumb::calibrate_class_scores(*map, s, &floored);
+  CHECK(floored == 0);
+  CHECK(q.scale == plumb::ClassScale::probability);
+  CHECK(q.classes == s.classes);
+  CHECK(q.label == s.label);
+  CHECK(q.weight == s.weight);
+  REQUIRE(q.values.size() == s.values.size());
+  // Each row is the map's own output for the row, and sums to 1.
+  std::vector<double> out(3);
+  for (std::size_t r = 0; r < s.rows; ++r) {
+    map->map(s.row(r), out.data());
+    for (std::size_t k = 0; k < 3; ++k) CHECK(q.row(r)[k] == out[k]);
+    CHECK_THAT(q.row(r)[0] + q.row(r)[1] + q.row(r)[2], WithinAbs(1.0, 1e-12));
+  }
+  // A row holding an exact 0 is counted: the map raised it to the floor.
+  s.values[0] = 0.0;
+  s.values[1] = 1.0 - s.values[2];
+  plumb::calibrate_class_scores(*map, s, &floored);
+  CHECK(floored == 1);
+  // Rows on another scale or with other classes break the precondition.
+  plumb::ClassScores other = s;
+  other.scale = plumb::ClassScale::logit;
+  CHECK_THROWS_AS(plumb::calibrate_class_scores(*map, other), plumb::Error);
+  other = s;
+  other.classes = {"c0", "c2", "c1"};
+  CHECK_THROWS_AS(plumb::calibrate_class_scores(*map, other), plumb::Error);
+}
