@@ -9,6 +9,7 @@
 #include <cstddef>
 #include <cstdint>
 #include <optional>
+#include <span>
 #include <string>
 #include <vector>
 
@@ -17,6 +18,7 @@
 #include "plumb/bootstrap.hpp"
 #include "plumb/calibration_error.hpp"
 #include "plumb/class_scores.hpp"
+#include "plumb/goodness_of_fit.hpp"
 #include "plumb/pav.hpp"
 #include "plumb/reliability.hpp"
 #include "plumb/report.hpp"
@@ -71,6 +73,36 @@ struct ClassMapOrigin {
   std::uint64_t fitted_rows = 0;
 };
 
+// The headline figures of one model within one segment of the rows
+// (report --scores --by COL): its rows as a K-class report would give them,
+// the ECEs over options.bins equal-width bins.
+struct ClassSegmentSummary {
+  std::string value;  // the segment column's value
+  std::uint64_t rows = 0;
+  double weight = 0.0;
+  bool too_few = false;  // weight < the minimum segment weight: only rows and weight are set
+  double brier = 0.0;
+  double log_loss = 0.0;
+  double accuracy = 0.0;
+  double confidence_gap = 0.0;
+  double top_label_ece = 0.0;
+  double classwise_ece = 0.0;
+  // Spiegelhalter's (1986) Z of the confidence against the indicator that
+  // the top label is right: the top label's calibration as a test.
+  SpiegelhalterZ spiegelhalter;
+  double p_adjusted = 1.0;  // Holm (1979) over the segments that have a number
+  bool flagged = false;     // p_adjusted < alpha
+};
+
+// Every segment of `segment` (one index per row into `names`) for the rows
+// of `scores` (as build_class_report takes them), sorted by |confidence
+// gap|, largest first; segments of weight below `min_weight` (too few) last,
+// by value. Flags at family-wise level `alpha`. Throws Error(internal) when
+// `segment` is not one valid index per row; the rest as build_class_report.
+std::vector<ClassSegmentSummary> class_segments(const ClassScores& scores, std::span<const std::uint32_t> segment,
+                                                std::span<const std::string> names, const ClassReportOptions& options,
+                                                double min_weight, double alpha = 0.05);
+
 struct ClassReport {
   // Set by the caller (the CLI) for the renderers; build_class_report leaves
   // them empty.
@@ -80,6 +112,10 @@ struct ClassReport {
   std::string label_column;
   std::string weight_column;
   std::vector<std::string> score_columns;  // one per class, in class order
+  std::string segment_column;              // empty without --by
+  std::vector<ClassSegmentSummary> segments;  // class_segments' order; empty without --by
+  double min_segment_weight = 100.0;       // of the segments' too-few rule
+  double segment_alpha = 0.05;             // of their flags
   // Rows left out for a missing score or label under --missing skip;
   // nullopt when missing values were refused.
   std::optional<std::uint64_t> rows_skipped;

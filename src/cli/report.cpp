@@ -77,8 +77,9 @@ std::string usage_footer(const std::string& max_gates, const std::string& min_ga
          "plumb apply writes for that map). Multi-class gates read a model as a whole: --max " + class_max + ";\n"
          "--min " + class_min + ". With maps they read the maps' models unless named:\n"
          "'p_*:brier=0.2' (the scores as read), outcome.map.json:log_loss=0.5 (a map's model), '*:accuracy=0.8'.\n"
-         "--score, --map-score, --tally, --by, --groups, --min-segment, --positive, --negative, --history and\n"
-         "--html do not go with --scores.\n\n"
+         "--by COL repeats each model's headline figures per segment (flagged by Spiegelhalter's Z of the\n"
+         "confidence, Holm-adjusted; --min-segment). --score, --map-score, --tally, --groups, --positive,\n"
+         "--negative, --history and --html do not go with --scores.\n\n"
          "With --tally the report is that of the tallied rows (the figures are sums over rows, which the\n"
          "tally keeps per score; it is read as one cell per score and label, so memory grows with the\n"
          "distinct scores, not the rows). A tally of weighted rows needs --bootstrap 0 (the bootstrap\n"
@@ -602,7 +603,8 @@ int run_report_classes(const ReportCliOptions& o) {
     gates.push_back(parse_class_gate(m, GateBound::max, !maps.empty()));
   for (const std::string& m : o.min)
     gates.push_back(parse_class_gate(m, GateBound::min, !maps.empty()));
-  const io::ClassColumns columns = class_columns(o.input, o.classes);
+  io::ClassColumns columns = class_columns(o.input, o.classes);
+  columns.segment = o.by;
   // The scale is known before the rows are read: refuse a mismatch at once.
   for (std::size_t m = 0; m < maps.size(); ++m) check_class_map_scale(maps[m], o.maps[m], columns.scale);
   const io::ClassRows rows = [&] {
@@ -625,8 +627,14 @@ int run_report_classes(const ReportCliOptions& o) {
   ro.threads = o.threads;
   ro.seed = o.seed;
   ro.confidence = o.confidence;
-  const auto described = [&](ClassReport report, std::string name) {
+  const auto described = [&](ClassReport report, std::string name, const ClassScores& scores) {
     report.name = std::move(name);
+    if (!o.by.empty()) {
+      report.segment_column = rows.segment_column;
+      report.min_segment_weight = o.min_segment;
+      report.segments = class_segments(scores, rows.segment, rows.segment_names, ro, o.min_segment,
+                                       report.segment_alpha);
+    }
     report.source = rows.source;
     report.label_column = rows.label_column;
     report.weight_column = rows.weight_column;
@@ -636,13 +644,13 @@ int run_report_classes(const ReportCliOptions& o) {
   };
   ClassReportSet set;
   const std::string scores_name = comma_list(o.classes.scores);
-  set.models.push_back(described(build_class_report(rows.data, ro), scores_name));
+  set.models.push_back(described(build_class_report(rows.data, ro), scores_name, rows.data));
   std::vector<GateTarget> targets{{scores_name, {}}};
   for (std::size_t m = 0; m < maps.size(); ++m) {
     std::uint64_t floored = 0;
     const ClassScores calibrated = calibrate_class_scores(*maps[m].map, rows.data, &floored);
     const std::string name = scores_name + " via " + std::filesystem::path(o.maps[m]).filename().string();
-    ClassReport report = described(build_class_report(calibrated, ro), name);
+    ClassReport report = described(build_class_report(calibrated, ro), name, calibrated);
     report.map = class_map_origin(o.maps[m], maps[m]);
     if (static_cast<double>(floored) > outside_share_caution * static_cast<double>(rows.data.rows))
       report.cautions.push_back(grouped(floored) + " rows hold a probability below " +
@@ -796,7 +804,7 @@ Command add_report_command(CLI::App& app) {
       if (cmd->count(name) > 0) o->given.push_back(name[0] == '-' ? name : "a FILE of rows");
     o->scale_given = cmd->count("--scale") > 0;
     for (const char* name :
-         {"--score", "--map-score", "--tally", "--by", "--groups", "--min-segment", "--positive", "--negative",
+         {"--score", "--map-score", "--tally", "--groups", "--positive", "--negative",
           "--history", "--history-date", "--torn-history", "--html"})
       if (cmd->count(name) > 0) o->given_binary.push_back(name);
     return run_report(*o);

@@ -130,6 +130,10 @@ ClassLayout resolve_class_columns(const CsvReader& reader, const ClassColumns& c
     out.weight_column = reader.column(columns.weight, "weight");
     not_a_score(*out.weight_column, "weight");
   }
+  if (!columns.segment.empty()) {
+    out.segment_column = reader.column(columns.segment, "segment");
+    not_a_score(*out.segment_column, "segment");
+  }
   return out;
 }
 
@@ -169,6 +173,8 @@ ClassRows read_class_scores(const std::string& path, const ClassColumns& columns
   out.data.scale = columns.scale;
   if (layout.label_column) out.label_column = reader.header()[*layout.label_column];
   if (layout.weight_column) out.weight_column = reader.header()[*layout.weight_column];
+  if (layout.segment_column) out.segment_column = reader.header()[*layout.segment_column];
+  std::unordered_map<std::string, std::uint32_t> segment_index;
   std::unordered_map<std::string_view, std::uint32_t> class_index;
   for (std::size_t i = 0; i < k; ++i) class_index.emplace(out.data.classes[i], static_cast<std::uint32_t>(i));
 
@@ -234,6 +240,21 @@ ClassRows read_class_scores(const std::string& path, const ClassColumns& columns
         throw Error(ErrorKind::input, "the weight is negative", cell(reader, record, c), std::string(t),
                     "a finite number >= 0");
       out.data.weight.push_back(*w);
+    }
+    if (layout.segment_column) {
+      const std::size_t c = *layout.segment_column;
+      const std::string_view v = record.fields[c];
+      const auto [it, added] =
+          segment_index.try_emplace(std::string(v), static_cast<std::uint32_t>(out.segment_names.size()));
+      if (added) {
+        if (out.segment_names.size() == columns.max_segment_values)
+          throw Error(ErrorKind::input,
+                      "the segment column has more than " + std::to_string(columns.max_segment_values) +
+                          " distinct values",
+                      cell(reader, record, c), std::string(v), "a column of groups, not of ids");
+        out.segment_names.emplace_back(v);
+      }
+      out.segment.push_back(it->second);
     }
     out.data.values.insert(out.data.values.end(), row.begin(), row.end());
     out.lines.push_back(record.line);

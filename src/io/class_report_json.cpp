@@ -2,6 +2,7 @@
 // document"): every number, non-finite ones as null. Keys of the concepts
 // the other renderers show come from report_names.hpp.
 #include <cmath>
+#include <vector>
 
 #include "plumb/error.hpp"
 #include "plumb/io/class_report_render.hpp"
@@ -64,6 +65,27 @@ json table_json(const ReliabilityTable& t, const std::vector<Interval>& band) {
 
 namespace {
 
+json segments_json(const std::vector<ClassSegmentSummary>& segments) {
+  json out = json::array();
+  for (const ClassSegmentSummary& g : segments) {
+    json j = {{"value", g.value}, {key(rn::rows), g.rows}, {key(rn::weight), num(g.weight)}, {"too_few", g.too_few}};
+    if (!g.too_few) {
+      j[key(rn::class_brier)] = num(g.brier);
+      j[key(rn::class_log_loss)] = num(g.log_loss);
+      j[key(rn::accuracy)] = num(g.accuracy);
+      j[key(rn::confidence_gap)] = num(g.confidence_gap);
+      j["top_label_ece"] = num(g.top_label_ece);  // a number here, named as its gate
+      j[key(rn::classwise_ece)] = num(g.classwise_ece);
+      j["spiegelhalter_z"] = num(g.spiegelhalter.z);
+      j["spiegelhalter_p"] = num(g.spiegelhalter.p_value);
+      j["p_adjusted"] = num(g.p_adjusted);
+      j["flagged"] = g.flagged;
+    }
+    out.push_back(std::move(j));
+  }
+  return out;
+}
+
 // The members of one model: its figures, tables and intervals.
 json model_members(const ClassReport& r) {
   json pav = json::array();
@@ -118,6 +140,15 @@ json model_members(const ClassReport& r) {
             {key(rn::equal_mass), num(r.classwise_ece_equal_mass)}}},
           {"classes", classes},
           {"bootstrap", bootstrap}};
+}
+
+// With --by: the segment column and its rule at the top, each model's segments in its members.
+void add_segments(json& doc, json& model, const ClassReport& r) {
+  if (r.segment_column.empty()) return;
+  doc["segment_column"] = r.segment_column;
+  doc["options"]["min_segment"] = num(r.min_segment_weight);
+  doc["options"]["segment_alpha"] = num(r.segment_alpha);
+  model["segments"] = segments_json(r.segments);
 }
 
 // The members every model shares: the input and the options.
@@ -176,7 +207,9 @@ json class_report_to_json(const ClassReportSet& set) {
   if (set.models.size() == 1 && !first.map) {
     // One model as read: version 1, its members at the top level.
     json doc = shared_members(first, class_report_format_version);
-    doc.update(model_members(first));
+    json model = model_members(first);
+    add_segments(doc, model, first);
+    doc.update(model);
     json gates = json::array();
     for (const GateResult& g : set.gates) gates.push_back(gate_json(g, false));
     doc["gates"] = gates;
@@ -188,6 +221,7 @@ json class_report_to_json(const ClassReportSet& set) {
   json models = json::array();
   for (const ClassReport& r : set.models) {
     json m = model_members(r);
+    add_segments(doc, m, r);
     m["name"] = r.name;
     m["map"] = map_json(r.map);
     m["cautions"] = r.cautions;

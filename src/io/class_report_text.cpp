@@ -180,6 +180,65 @@ void render_classes(Document& doc, const Painter& p, const ClassReport& r, const
   }
 }
 
+// The segments of one model (--by): its headline figures per segment,
+// flagged ones and then the heaviest, capped as the binary report's table.
+void render_segments(Document& doc, const Painter& p, const ClassReport& r, const std::string& of) {
+  if (r.segment_column.empty()) return;
+  std::size_t flagged = 0;
+  for (const ClassSegmentSummary& seg : r.segments) flagged += seg.flagged ? 1 : 0;
+  doc.heading("segments by " + r.segment_column + of);
+  doc.wrap("gap = mean confidence - accuracy; ECEs over " + count_text(r.options.bins) + " " +
+               std::string(rn::equal_width.text) + " bins; ! flag: Holm-adjusted p of Spiegelhalter's Z of the "
+               "confidence against a right top label < " + significant_text(r.segment_alpha, 4) + " (" +
+               count_text(flagged) + " of " + count_text(r.segments.size()) + " segments)",
+           "  ", "  ");
+  std::vector<Column> columns = {
+      {r.segment_column, false, 0, 6},
+      {std::string(rn::rows.text), true, 0, 0},
+      {"Brier", true, 0, 0},
+      {"log loss", true, 0, 0},
+      {std::string(rn::accuracy.text), true, 0, 0},
+      {std::string(rn::gap.text), true, 0, 0},
+      {std::string(rn::top_label_ece.text), true, 1, 0},
+      {std::string(rn::classwise_ece.text), true, 2, 0},
+      {std::string(rn::holm_p.text), true, 0, 0},
+  };
+  const std::vector<bool> shown = rn::segments_shown(r.segments);
+  std::size_t left_out = 0;
+  std::vector<Row> rows;
+  for (std::size_t i = 0; i < r.segments.size(); ++i) {
+    const ClassSegmentSummary& seg = r.segments[i];
+    if (!shown[i]) {
+      ++left_out;
+      continue;
+    }
+    Row row;
+    row.cells = {seg.value, count_text(seg.rows)};
+    if (seg.too_few) {
+      row.tail = "too few rows (weight " + weight_text(seg.weight) + " < " + weight_text(r.min_segment_weight) + ")";
+      row.tone = Tone::dim;
+    } else {
+      row.cells.push_back(metric_text(seg.brier));
+      row.cells.push_back(metric_text(seg.log_loss));
+      row.cells.push_back(probability_text(seg.accuracy));
+      row.cells.push_back(difference_text(seg.confidence_gap));
+      row.cells.push_back(metric_text(seg.top_label_ece));
+      row.cells.push_back(metric_text(seg.classwise_ece));
+      row.cells.push_back(p_value_text(seg.p_adjusted));
+      if (seg.flagged) {
+        row.marker = "!";
+        row.tone = Tone::red;
+      }
+    }
+    rows.push_back(std::move(row));
+  }
+  render_table(doc, p, std::move(columns), std::move(rows));
+  if (left_out > 0)
+    doc.wrap(count_text(left_out) + " smaller segment" + (left_out == 1 ? "" : "s") +
+                 " not shown (none flagged; every segment is in --json)",
+             "  ", "  ");
+}
+
 void render_gates(Document& doc, const Painter& p, const std::vector<GateResult>& gates, bool with_model) {
   if (gates.empty()) return;
   std::size_t breached = 0;
@@ -276,6 +335,7 @@ std::string render_class_text(const ClassReportSet& set, const TextStyle& style)
     render_headlines(doc, r, of);
     render_top_label(doc, p, r, of);
     render_classes(doc, p, r, of);
+    render_segments(doc, p, r, of);
   }
   render_gates(doc, p, set.gates, several);
   render_cautions(doc, p, set);

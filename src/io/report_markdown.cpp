@@ -380,6 +380,37 @@ void class_model_sections(std::string& out, const ClassReport& report, const std
            " bins; gap > 0: forecasts too high):\n\n";
     class_reliability(out, report, k.table, {}, label(rn::mean_forecast), "observed");
   }
+  if (report.segment_column.empty()) return;
+  out += h + " Segments by " + md(report.segment_column) + "\n\n";
+  std::size_t flagged = 0;
+  for (const ClassSegmentSummary& g : report.segments) flagged += g.flagged ? 1 : 0;
+  out += "Flag: Holm-adjusted p of Spiegelhalter's Z of the confidence against a right top label below " +
+         significant_text(report.segment_alpha, 4) + " (" + count_text(flagged) + " of " +
+         count_text(report.segments.size()) + " segments); ECEs over " + count_text(o.bins) + " " +
+         label(rn::equal_width) + " bins.\n\n";
+  Table g({md(report.segment_column), label(rn::rows), "Brier", "log loss", label(rn::accuracy), label(rn::confidence_gap),
+           label(rn::top_label_ece), label(rn::classwise_ece), label(rn::holm_p), "flag"},
+          {false, true, true, true, true, true, true, true, true, false});
+  const std::vector<bool> shown = rn::segments_shown(report.segments);
+  std::size_t left_out = 0;
+  for (std::size_t i = 0; i < report.segments.size(); ++i) {
+    const ClassSegmentSummary& seg = report.segments[i];
+    if (!shown[i]) {
+      ++left_out;
+      continue;
+    }
+    if (seg.too_few) {
+      g.row({md(seg.value), count_text(seg.rows), na(), na(), na(), na(), na(), na(), na(), "too few rows"});
+      continue;
+    }
+    g.row({md(seg.value), count_text(seg.rows), metric_text(seg.brier), metric_text(seg.log_loss),
+           probability_text(seg.accuracy), difference_text(seg.confidence_gap), metric_text(seg.top_label_ece),
+           metric_text(seg.classwise_ece), p_value_text(seg.p_adjusted), seg.flagged ? "**!**" : ""});
+  }
+  g.write(out);
+  if (left_out > 0)
+    out += count_text(left_out) + " smaller segment" + (left_out == 1 ? "" : "s") +
+           " not shown (none flagged; every segment is in the JSON report).\n\n";
 }
 
 }  // namespace

@@ -346,8 +346,6 @@ class ReportClassMapTest(PlumbCase):
                             "--scores", output=out)
         self.assert_refused(base + ["--scores", "p_*", "--map-score", "p_late"], 2,
                             "--map-score cannot be used with --scores", output=out)
-        self.assert_refused(base + ["--scores", "p_*", "--by", "shift"], 2, "--by cannot be used with --scores",
-                            output=out)
         # A multi-class map without --scores: how to report it.
         self.assert_refused(base, 4, "temp.map.json", "multi-class map", "--scores", output=out)
         # A binary map with --scores.
@@ -356,6 +354,85 @@ class ReportClassMapTest(PlumbCase):
             "-q", self.fit, check=True)
         self.assert_refused(["report", "--scores", "p_*", "--label", "outcome", "--map", binary, self.holdout,
                              "--json", out], 2, "late.map.json", "the map is binary", "--score", output=out)
+
+
+class ReportClassSegmentsTest(PlumbCase):
+    """report --scores COLS --by COL: each model's headline figures per segment."""
+
+    def test_segment_figures_match_a_direct_computation(self):
+        out = self.path("s.json")
+        run("report", "--scores", "p_*", "--label", "outcome", "--by", "shift", "--bootstrap", "0", "-q", OUTCOMES,
+            "--json", out, check=True)
+        doc = self.load_json(out)
+        self.assertEqual(doc["format_version"], 1)
+        self.assertEqual(doc["segment_column"], "shift")
+        with open(os.path.join(SOURCE_DIR, "docs", "class-report.schema.json")) as f:
+            jsonschema.validate(doc, json.load(f), cls=jsonschema.Draft202012Validator)
+        # Reference: the published definitions (figures() above) on each shift's rows.
+        rows = read_rows(OUTCOMES)
+        shift = rows[0].index("shift")
+        values = sorted({r[shift] for r in rows[1:]})
+        self.assertEqual(sorted(g["value"] for g in doc["segments"]), values)
+        for g in doc["segments"]:
+            part = self.path(g["value"] + ".csv")
+            write(part, ",".join(rows[0]) + "\n" + "".join(",".join(r) + "\n" for r in rows[1:]
+                                                            if r[shift] == g["value"]))
+            want = figures(part)
+            self.assertEqual(g["rows"], sum(1 for r in rows[1:] if r[shift] == g["value"]))
+            self.assertAlmostEqual(g["brier"], want["brier"], delta=1e-9)
+            self.assertAlmostEqual(g["log_loss"], want["log_loss"], delta=1e-9)
+            self.assertAlmostEqual(g["accuracy"], want["accuracy"], delta=1e-12)
+            self.assertAlmostEqual(g["top_label_ece"], want["top_label"], delta=1e-9)
+            self.assertAlmostEqual(g["classwise_ece"], want["classwise"], delta=1e-9)
+        # Sorted by |confidence gap|, largest first.
+        gaps = [abs(g["confidence_gap"]) for g in doc["segments"]]
+        self.assertEqual(gaps, sorted(gaps, reverse=True))
+
+    def test_min_segment_cap_and_maps(self):
+        # 30 segments of 40 rows each, of which --min-segment 50 makes all too few
+        # and --min-segment 10 gives figures; the text shows 20 and says so.
+        rows = read_rows(OUTCOMES)[:1201]
+        head = rows[0] + ["depot"]
+        path = self.path("depots.csv")
+        write(path, ",".join(head) + "\n" + "".join(",".join(r + [f"d{i % 30:02d}"]) + "\n"
+                                                    for i, r in enumerate(rows[1:])))
+        out = self.path("d.json")
+        rc, text, err = run("report", "--scores", "p_*", "--label", "outcome", "--by", "depot", "--min-segment", "50",
+                            "--bootstrap", "0", "--bins", "5", path, "--json", out)
+        self.assertEqual(rc, 0, err)
+        doc = self.load_json(out)
+        self.assertEqual(len(doc["segments"]), 30)
+        self.assertTrue(all(g["too_few"] for g in doc["segments"]))
+        self.assertEqual(doc["options"]["min_segment"], 50)
+        self.assertIn("too few rows (weight 40 < 50)", text)
+        rc, text, err = run("report", "--scores", "p_*", "--label", "outcome", "--by", "depot", "--min-segment", "10",
+                            "--bootstrap", "0", "--bins", "5", path, "--json", out)
+        self.assertEqual(rc, 0, err)
+        doc = self.load_json(out)
+        self.assertFalse(any(g["too_few"] for g in doc["segments"]))
+        flagged = sum(g["flagged"] for g in doc["segments"])
+        if flagged <= 20:
+            self.assertIn(f"{30 - max(20, flagged)} smaller segments not shown", " ".join(text.split()))
+        # With a map: each model has its segments.
+        fit = self.path("fit.map.json")
+        run("fit", "--scores", "p_*", "--label", "outcome", "--map", "temperature", "-o", fit, "-q", OUTCOMES,
+            check=True)
+        rc, text, err = run("report", "--scores", "p_*", "--label", "outcome", "--by", "depot", "--min-segment", "10",
+                            "--bootstrap", "0", "--bins", "5", "--map", fit, path, "--json", out)
+        self.assertEqual(rc, 0, err)
+        doc = self.load_json(out)
+        self.assertEqual([len(m["segments"]) for m in doc["models"]], [30, 30])
+        with open(os.path.join(SOURCE_DIR, "docs", "class-report.schema.json")) as f:
+            jsonschema.validate(doc, json.load(f), cls=jsonschema.Draft202012Validator)
+        self.assertIn("segments by depot: p_* via fit.map.json", text)
+
+    def test_segment_refusals(self):
+        out = self.path("r.json")
+        self.assert_refused(["report", "--scores", "p_*", "--label", "outcome", "--by", "p_late", OUTCOMES,
+                             "--json", out], 3, "outcomes.csv:1", "the segment column is also a score column",
+                            output=out)
+        self.assert_refused(["report", "--scores", "p_*", "--label", "outcome", "--by", "nowhere", OUTCOMES,
+                             "--json", out], 3, "nowhere", output=out)
 
 
 if __name__ == "__main__":

@@ -323,3 +323,53 @@ TEST_CASE("class report: a map's model of the rows, as calibrate_class_scores gi
   other.classes = {"c0", "c2", "c1"};
   CHECK_THROWS_AS(plumb::calibrate_class_scores(*map, other), plumb::Error);
 }
+
+TEST_CASE("class report: segments, flagged by the top label's Spiegelhalter test", "[class_report]") {
+  // Three segments: 'a' holds rows as drawn (labels from the scores
+  // themselves: calibrated), 'b' the same scores with every label moved to
+  // another class (confidence far above accuracy), 'c' five rows only.
+  plumb::ClassScores s = random_case(900, 3, 17);
+  std::mt19937_64 gen(3);
+  std::uniform_real_distribution<double> u(0.0, 1.0);
+  std::vector<std::uint32_t> segment(s.rows);
+  for (std::size_t r = 0; r < s.rows; ++r) {
+    const double* p = s.row(r);
+    const double d = u(gen);
+    const std::uint32_t drawn = d < p[0] ? 0 : d < p[0] + p[1] ? 1 : 2;
+    segment[r] = r < 5 ? 2 : r % 2 == 0 ? 0 : 1;
+    s.label[r] = segment[r] == 1 ? (drawn + 1) % 3 : drawn;
+  }
+  const std::vector<std::string> names{"a", "b", "c"};
+  plumb::ClassReportOptions o;
+  o.bootstrap = 0;
+  const auto segs = plumb::class_segments(s, segment, names, o, 100.0);
+  REQUIRE(segs.size() == 3);
+  // Sorted by |gap|: the mislabelled segment first, the thin one last.
+  CHECK(segs[0].value == "b");
+  CHECK(segs[1].value == "a");
+  CHECK(segs[2].value == "c");
+  CHECK(segs[2].too_few);
+  CHECK(segs[2].rows == 5);
+  CHECK(segs[0].flagged);
+  CHECK_FALSE(segs[1].flagged);
+  CHECK(segs[0].confidence_gap > 0.3);
+  // Each segment's figures are those of a report on its rows alone.
+  plumb::ClassScores b;
+  b.classes = s.classes;
+  for (std::size_t r = 0; r < s.rows; ++r)
+    if (segment[r] == 1) {
+      b.values.insert(b.values.end(), s.row(r), s.row(r) + 3);
+      b.label.push_back(s.label[r]);
+      ++b.rows;
+    }
+  const plumb::ClassReport whole = plumb::build_class_report(b, o);
+  CHECK(segs[0].rows == b.rows);
+  CHECK_THAT(segs[0].brier, WithinAbs(whole.brier, 1e-12));
+  CHECK_THAT(segs[0].log_loss, WithinAbs(whole.log_loss, 1e-12));
+  CHECK_THAT(segs[0].accuracy, WithinAbs(whole.accuracy, 1e-12));
+  CHECK_THAT(segs[0].top_label_ece, WithinAbs(whole.top_label_equal_width.ece, 1e-12));
+  CHECK_THAT(segs[0].classwise_ece, WithinAbs(whole.classwise_ece_equal_width, 1e-12));
+  // Holm with two tested segments: the smaller p doubled (capped at 1).
+  CHECK_THAT(segs[0].p_adjusted, WithinAbs(std::min(1.0, 2 * segs[0].spiegelhalter.p_value), 1e-15));
+  CHECK_THROWS_AS(plumb::class_segments(s, std::vector<std::uint32_t>(3, 0), names, o, 100.0), plumb::Error);
+}

@@ -39,6 +39,10 @@ struct ClassColumns {
   // must name exactly the classes of the score columns, each once.
   std::vector<std::string> classes;
   std::string weight;  // empty: every row weighs 1
+  // A segment column (report --by): each row's value, verbatim, names its
+  // segment; empty reads none. At most max_segment_values distinct values.
+  std::string segment;
+  std::size_t max_segment_values = 100000;
   // A row with a missing score or label: refuse (default) or skip.
   MissingPolicy missing = MissingPolicy::refuse;
   // Probability scale: the widest |sum of the row's K values - 1| accepted.
@@ -51,7 +55,7 @@ struct ClassLayout {
   std::vector<std::string> classes;
   std::vector<std::size_t> score_column;  // one per class, in class order
   std::vector<std::string> score_header;  // the header name of each, in class order
-  std::optional<std::size_t> label_column, weight_column;
+  std::optional<std::size_t> label_column, weight_column, segment_column;
 };
 
 // Resolves `columns` against the header of `reader`. Throws plumb::Error:
@@ -88,6 +92,11 @@ struct ClassRows {
   std::string source;                      // file name in messages, "<stdin>" for standard input
   std::string source_sha256;               // SHA-256 of the input bytes
   std::string label_column, weight_column; // resolved header names (empty when not read)
+  // With columns.segment: its header name, each row's segment (an index
+  // into segment_names, in order of first appearance) and the values.
+  std::string segment_column;
+  std::vector<std::uint32_t> segment;
+  std::vector<std::string> segment_names;
   std::uint64_t skipped = 0;               // rows left out under MissingPolicy::skip
   std::vector<std::uint64_t> skipped_lines;
   // The physical line of each row kept (for messages that point at a row).
@@ -102,7 +111,8 @@ struct ClassRows {
 // probability outside [0, 1] or a row of probabilities whose sum misses 1 by
 // more than columns.sum_tolerance; a label with spaces or tabs around it; a
 // label that is not one of the classes; a weight that is not a finite
-// number >= 0; and a file with no data rows left. The labels come back as
+// number >= 0; a segment column that is a score column or holds more than
+// columns.max_segment_values distinct values; and a file with no data rows left. The labels come back as
 // class indexes; the values as read (a row of probabilities within the
 // tolerance is not rescaled here).
 ClassRows read_class_scores(const std::string& path, const ClassColumns& columns, char delimiter = 0);
