@@ -108,6 +108,23 @@ std::string comma_list(const std::vector<std::string>& names) {
   return s;
 }
 
+// What --scores should say to read a multi-class map's columns under its
+// class names: the pattern PREFIX*SUFFIX when every column is its class
+// between the same two affixes ("'p_*'"), else the list of its columns
+// (then --classes cannot rename them, and the hint says so).
+std::string map_scores_hint(const ClassArtifact& a) {
+  const std::vector<std::string>& cols = a.score_columns;
+  const std::vector<std::string>& classes = a.map->classes();
+  const std::size_t at = cols.empty() ? std::string::npos : cols[0].find(classes[0]);
+  if (at != std::string::npos) {
+    const std::string prefix = cols[0].substr(0, at), suffix = cols[0].substr(at + classes[0].size());
+    bool all = true;
+    for (std::size_t k = 0; k < cols.size() && all; ++k) all = cols[k] == prefix + classes[k] + suffix;
+    if (all) return "--scores '" + prefix + "*" + suffix + "'";
+  }
+  return "--scores naming its columns (" + comma_list(cols) + ") by a pattern whose '*' gives its class names";
+}
+
 struct ReportCliOptions {
   InputOptions input;
   std::vector<std::string> scores;
@@ -327,7 +344,7 @@ int run_report(const ReportCliOptions& o) {
       loc.file = path;
       const ClassArtifact a = class_artifact_from_text(file.text, file.name);
       throw Error(ErrorKind::artifact, "the map artifact holds a multi-class map, which reads K score columns", loc,
-                  {}, "--scores COLS naming its columns (" + comma_list(a.score_columns) + ") with --label COL");
+                  {}, map_scores_hint(a) + " with --label COL");
     }
     artifacts.push_back(load_artifact(path));
   }
@@ -558,9 +575,7 @@ void check_class_map_classes(const ClassArtifact& a, const std::string& path, co
   throw Error(ErrorKind::usage,
               "the map was fitted on classes " + quoted_list(map.classes()) + ", and --scores gives classes " +
                   quoted_list(rows.data.classes),
-              loc, comma_list(rows.data.classes),
-              "--scores naming the map's columns (" + comma_list(a.score_columns) +
-                  ") as a pattern such as p_* whose '*' gives the class names");
+              loc, comma_list(rows.data.classes), map_scores_hint(a) + " for the columns it was fitted on");
 }
 
 ClassMapOrigin class_map_origin(const std::string& file, const ClassArtifact& a) {
@@ -614,9 +629,7 @@ int run_report_classes(const ReportCliOptions& o) {
       // A label outside the classes of --scores may be one of the map's: say which classes the map holds.
       if (maps.empty() || e.kind() != ErrorKind::input || e.message() != "the label is not one of the classes") throw;
       throw Error(e.kind(), e.message() + " (the map's classes are " + quoted_list(maps[0].map->classes()) + ")",
-                  e.where(), e.value(),
-                  e.expected() + "; or --scores naming the map's columns by a pattern such as p_* whose '*' gives "
-                                 "the class names");
+                  e.where(), e.value(), e.expected() + "; or " + map_scores_hint(maps[0]));
     }
   }();
   for (std::size_t m = 0; m < maps.size(); ++m) check_class_map_classes(maps[m], o.maps[m], rows);

@@ -337,17 +337,17 @@ class ReportClassMapTest(PlumbCase):
         # labels are not among them, and the refusal names the map's classes.
         self.assert_refused(base + ["--scores", "p_on_time,p_late,p_lost,p_returned"], 3, "holdout.csv:2:8",
                             "the label is not one of the classes", "the map's classes are 'on_time', 'late'",
-                            "--scores", output=out)
+                            "--scores 'p_*'", output=out)
         # Rows of other classes whose labels are their own: the map cannot read them.
         other = self.path("other.csv")
         write(other, "p_a,p_b,p_c,p_d,y\n0.4,0.3,0.2,0.1,a\n0.1,0.2,0.3,0.4,d\n")
         self.assert_refused(["report", "--scores", "p_*", "--label", "y", "--map", self.temp, other, "--json", out],
                             2, "temp.map.json", "fitted on classes 'on_time', 'late', 'lost', 'returned'",
-                            "--scores", output=out)
+                            "--scores 'p_*'", output=out)
         self.assert_refused(base + ["--scores", "p_*", "--map-score", "p_late"], 2,
                             "--map-score cannot be used with --scores", output=out)
         # A multi-class map without --scores: how to report it.
-        self.assert_refused(base, 4, "temp.map.json", "multi-class map", "--scores", output=out)
+        self.assert_refused(base, 4, "temp.map.json", "multi-class map", "--scores 'p_*' with --label", output=out)
         # A binary map with --scores.
         binary = self.path("late.map.json")
         run("fit", "--score", "p_late", "--label", "outcome", "--positive", "late", "--map", "platt", "-o", binary,
