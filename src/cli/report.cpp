@@ -102,6 +102,7 @@ std::string quoted_list(const std::vector<std::string>& names) {
   for (const std::string& n : names) s += (s.empty() ? "'" : ", '") + n + "'";
   return s;
 }
+// "a,b,c" of `names`, as an option's value takes them.
 std::string comma_list(const std::vector<std::string>& names) {
   std::string s;
   for (const std::string& n : names) s += (s.empty() ? "" : ",") + n;
@@ -555,8 +556,8 @@ void check_class_map_scale(const ClassArtifact& a, const std::string& path, Clas
   Location loc;
   loc.file = path;
   throw Error(ErrorKind::usage,
-              "the map was fitted on " + std::string(to_string(a.map->scale())) + " scores, and --scores are read as " +
-                  std::string(to_string(scale)) + "s",
+              "the map was fitted on the " + std::string(to_string(a.map->scale())) +
+                  " scale, and --scores are read on the " + std::string(to_string(scale)) + " scale",
               loc, std::string(to_string(scale)), "--scale " + std::string(to_string(a.map->scale())));
 }
 void check_class_map_classes(const ClassArtifact& a, const std::string& path, const io::ClassRows& rows) {

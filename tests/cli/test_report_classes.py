@@ -330,7 +330,7 @@ class ReportClassMapTest(PlumbCase):
         out = self.path("r.json")
         base = ["report", "--label", "outcome", "--map", self.temp, self.holdout, "--json", out]
         self.assert_refused(base + ["--scores", "p_*", "--scale", "logit"], 2, "temp.map.json",
-                            "fitted on probability scores", "--scale probability", output=out)
+                            "fitted on the probability scale, and --scores are read on the logit scale", "--scale probability", output=out)
         self.assert_refused(base + ["--scores", "p_*", "--classes", "late,on_time,lost,returned"], 2,
                             "temp.map.json", "orders its classes", "--classes on_time,late,lost,returned", output=out)
         # Columns named as a list are classes named by their headers: the
