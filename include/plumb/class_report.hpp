@@ -9,13 +9,16 @@
 #include <cstddef>
 #include <cstdint>
 #include <optional>
+#include <span>
 #include <string>
 #include <vector>
 
 #include "plumb/binning.hpp"
+#include "plumb/class_map.hpp"
 #include "plumb/bootstrap.hpp"
 #include "plumb/calibration_error.hpp"
 #include "plumb/class_scores.hpp"
+#include "plumb/goodness_of_fit.hpp"
 #include "plumb/pav.hpp"
 #include "plumb/reliability.hpp"
 #include "plumb/report.hpp"
@@ -56,13 +59,63 @@ struct ClassBootstrapResult {
   BootstrapInterval classwise_ece;  // equal-width bins
 };
 
+// Where a model's probabilities came from when a multi-class map made them
+// from the scores as read (report --scores COLS --map FILE): the artifact's
+// identity (its integrity hash changes with every refit) and provenance.
+struct ClassMapOrigin {
+  std::string file;       // as given on the command line
+  std::string kind;       // temperature, vector, dirichlet, one_vs_rest
+  std::string integrity;  // the artifact's integrity hash
+  std::string created_utc;
+  std::string tool;
+  std::string fitted_source;
+  std::string fitted_sha256;
+  std::uint64_t fitted_rows = 0;
+};
+
+// The headline figures of one model within one segment of the rows
+// (report --scores --by COL): its rows as a K-class report would give them,
+// the ECEs over options.bins equal-width bins.
+struct ClassSegmentSummary {
+  std::string value;  // the segment column's value
+  std::uint64_t rows = 0;
+  double weight = 0.0;
+  bool too_few = false;  // weight < the minimum segment weight: only rows and weight are set
+  double brier = 0.0;
+  double log_loss = 0.0;
+  double accuracy = 0.0;
+  double confidence_gap = 0.0;
+  double top_label_ece = 0.0;
+  double classwise_ece = 0.0;
+  // Spiegelhalter's (1986) Z of the confidence against the indicator that
+  // the top label is right: the top label's calibration as a test.
+  SpiegelhalterZ spiegelhalter;
+  double p_adjusted = 1.0;  // Holm (1979) over the segments that have a number
+  bool flagged = false;     // p_adjusted < alpha
+};
+
+// Every segment of `segment` (one index per row into `names`) for the rows
+// of `scores` (as build_class_report takes them), sorted by |confidence
+// gap|, largest first; segments of weight below `min_weight` (too few) last,
+// by value. Flags at family-wise level `alpha`. Throws Error(internal) when
+// `segment` is not one valid index per row; the rest as build_class_report.
+std::vector<ClassSegmentSummary> class_segments(const ClassScores& scores, std::span<const std::uint32_t> segment,
+                                                std::span<const std::string> names, const ClassReportOptions& options,
+                                                double min_weight, double alpha = 0.05);
+
 struct ClassReport {
   // Set by the caller (the CLI) for the renderers; build_class_report leaves
   // them empty.
+  std::string name;                     // the model's name when several are reported side by side
+  std::optional<ClassMapOrigin> map;    // set when a map made the probabilities
   std::string source;
   std::string label_column;
   std::string weight_column;
   std::vector<std::string> score_columns;  // one per class, in class order
+  std::string segment_column;              // empty without --by
+  std::vector<ClassSegmentSummary> segments;  // class_segments' order; empty without --by
+  double min_segment_weight = 100.0;       // of the segments' too-few rule
+  double segment_alpha = 0.05;             // of their flags
   // Rows left out for a missing score or label under --missing skip;
   // nullopt when missing values were refused.
   std::optional<std::uint64_t> rows_skipped;
@@ -121,6 +174,34 @@ struct ClassReport {
 // A class with no rows is cautioned, not refused. Every number is the same
 // for any options.threads.
 ClassReport build_class_report(const ClassScores& scores, const ClassReportOptions& options);
+
+// Several models of the same labelled rows reported side by side (report
+// --scores COLS --map FILE ...): the scores as read, then the model of each
+// map, each a whole ClassReport with its own name. `gates` holds every
+// gate's result on every model it reads, in the order of the gates, then of
+// the models; each result's column is the model's name. The renderers'
+// overloads for one ClassReport render a set of that one model with its
+// own gates.
+struct ClassReportSet {
+  std::vector<ClassReport> models;
+  std::vector<GateResult> gates;
+  bool any_gate_exceeded() const noexcept;
+  // Every model's cautions for a reader: a caution every model gives (the
+  // rows' own, such as a class with few rows) once, as it is; then each
+  // model's others as "NAME: caution", in model order. With one model, its
+  // cautions as they are.
+  std::vector<std::string> cautions() const;
+};
+
+// The rows of `scores` as `map` calibrates them: the same labels and
+// weights, the scale probability, and each row's K values replaced by
+// map.map of them (the very doubles plumb apply writes for the map, which
+// reads them back exactly). `floored` receives the rows on which the map
+// raised a probability to class_probability_floor. Precondition: the map's
+// classes and scale are those of `scores` (the caller checks and refuses,
+// located, before); Error(internal) otherwise.
+ClassScores calibrate_class_scores(const ClassCalibrationMap& map, const ClassScores& scores,
+                                   std::uint64_t* floored = nullptr);
 
 // The figures a gate (--max/--min) can read on a multi-class report, named
 // by their JSON keys (the ECEs with their binning): brier, log_loss,

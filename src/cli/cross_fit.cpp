@@ -351,6 +351,8 @@ int run_class_cross_fit(const CrossFitOptions& o) {
   const char separator = parse_separator(o.input.separator);
   io::ClassColumns columns = class_columns(o.input, o.classes);
   columns.segment = split.column;
+  columns.segment_role = "split";
+  columns.max_segment_values = std::numeric_limits<std::uint32_t>::max();  // one group or time per row is fine
   const io::ClassRows rows = io::read_class_scores(o.input.file, columns, separator);
   Folds folds;
   switch (split.kind) {

@@ -61,7 +61,8 @@ std::string usage_footer(const std::string& max_gates, const std::string& min_ga
          "  plumb report --score risk --map late.map.json --tally all.tally.json\n"
          "  plumb report --map late.map.json --label missed --max ece=0.02 --history nightly.jsonl --html review.html "
          "tonight.csv\n"
-         "  plumb report --scores 'p_*' --label outcome outcomes.csv --svg outcomes.svg\n\n"
+         "  plumb report --scores 'p_*' --label outcome outcomes.csv --svg outcomes.svg\n"
+         "  plumb report --scores 'p_*' --map outcome.map.json --label outcome holdout.csv --max log_loss=0.5\n\n"
          "History: --history FILE appends one JSON line per run (the date, the input's SHA-256, the rows, each\n"
          "column's map identity and every gate figure with its interval, the gates' outcomes), under a lock, in one\n"
          "write, then shows each calibrated column's figures over the nights (text, --svg, --html), with the gate\n"
@@ -71,9 +72,14 @@ std::string usage_footer(const std::string& max_gates, const std::string& min_ga
          "gives the multi-class Brier score (summed over classes) and log loss, accuracy and the confidence gap,\n"
          "the top-label (confidence) ECE with its reliability table and chart, the class-wise ECE and a\n"
          "one-vs-rest table per class (docs/methods_metrics.md). --scale logit reads K logits per row.\n"
-         "Its gates read the model as a whole (no COLUMN:): --max " + class_max + ";\n"
-         "--min " + class_min + ". --score, --map, --map-score, --tally, --by, --groups,\n"
-         "--min-segment, --positive, --negative, --history and --html do not go with --scores.\n\n"
+         "Each --map of a multi-class map (from plumb fit --scores) reads the --scores columns, which must hold\n"
+         "its classes in its order on its scale, and is reported beside the scores as read (the probabilities\n"
+         "plumb apply writes for that map). Multi-class gates read a model as a whole: --max " + class_max + ";\n"
+         "--min " + class_min + ". With maps they read the maps' models unless named:\n"
+         "'p_*:brier=0.2' (the scores as read), outcome.map.json:log_loss=0.5 (a map's model), '*:accuracy=0.8'.\n"
+         "--by COL repeats each model's headline figures per segment (flagged by Spiegelhalter's Z of the\n"
+         "confidence, Holm-adjusted; --min-segment). --score, --map-score, --tally, --groups, --positive,\n"
+         "--negative, --history and --html do not go with --scores.\n\n"
          "With --tally the report is that of the tallied rows (the figures are sums over rows, which the\n"
          "tally keeps per score; it is read as one cell per score and label, so memory grows with the\n"
          "distinct scores, not the rows). A tally of weighted rows needs --bootstrap 0 (the bootstrap\n"
@@ -88,6 +94,36 @@ std::string usage_footer(const std::string& max_gates, const std::string& min_ga
 std::string odds_caution(const std::string& name, const Artifact& artifact) {
   return name + ": the map's odds are adjusted as its artifact records, " + odds_steps_text(artifact) +
          "; the figures are those of the adjusted probabilities";
+}
+
+// "a, b, c" of `names`, each in quotes.
+std::string quoted_list(const std::vector<std::string>& names) {
+  std::string s;
+  for (const std::string& n : names) s += (s.empty() ? "'" : ", '") + n + "'";
+  return s;
+}
+// "a,b,c" of `names`, as an option's value takes them.
+std::string comma_list(const std::vector<std::string>& names) {
+  std::string s;
+  for (const std::string& n : names) s += (s.empty() ? "" : ",") + n;
+  return s;
+}
+
+// What --scores should say to read a multi-class map's columns under its
+// class names: the pattern PREFIX*SUFFIX when every column is its class
+// between the same two affixes ("'p_*'"), else the list of its columns
+// (then --classes cannot rename them, and the hint says so).
+std::string map_scores_hint(const ClassArtifact& a) {
+  const std::vector<std::string>& cols = a.score_columns;
+  const std::vector<std::string>& classes = a.map->classes();
+  const std::size_t at = cols.empty() ? std::string::npos : cols[0].find(classes[0]);
+  if (at != std::string::npos) {
+    const std::string prefix = cols[0].substr(0, at), suffix = cols[0].substr(at + classes[0].size());
+    bool all = true;
+    for (std::size_t k = 0; k < cols.size() && all; ++k) all = cols[k] == prefix + classes[k] + suffix;
+    if (all) return "--scores '" + prefix + "*" + suffix + "'";
+  }
+  return "--scores naming its columns (" + comma_list(cols) + ") by a pattern whose '*' gives its class names";
 }
 
 struct ReportCliOptions {
@@ -196,9 +232,10 @@ Gate parse_gate(const std::string& text, GateBound bound) {
   return ::plumb::cli::parse_gate(text, bound, gate_metrics(), find_gate_metric, true);
 }
 
-// --max or --min METRIC=VALUE with --scores: the model as a whole, no column.
-Gate parse_class_gate(const std::string& text, GateBound bound) {
-  return ::plumb::cli::parse_gate(text, bound, class_gate_metrics(), find_class_gate_metric, false);
+// --max or --min METRIC=VALUE with --scores: a model as a whole; with maps
+// COLUMN:METRIC=VALUE names the model (its name or its --map FILE, or *).
+Gate parse_class_gate(const std::string& text, GateBound bound, bool with_maps) {
+  return ::plumb::cli::parse_gate(text, bound, class_gate_metrics(), find_class_gate_metric, with_maps);
 }
 
 // One reported column as gates see it: its name in the report, the --map
@@ -301,7 +338,17 @@ int run_report(const ReportCliOptions& o) {
   // Score columns as read: every --score on the probability scale, then the
   // source column of every --map on that map's scale.
   std::vector<Artifact> artifacts;
-  for (const std::string& path : o.maps) artifacts.push_back(load_artifact(path));
+  for (const std::string& path : o.maps) {
+    // A multi-class map reads K columns: say how to report it.
+    if (const ArtifactFile file = read_artifact_file(path); file.multi_class) {
+      Location loc;
+      loc.file = path;
+      const ClassArtifact a = class_artifact_from_text(file.text, file.name);
+      throw Error(ErrorKind::artifact, "the map artifact holds a multi-class map, which reads K score columns", loc,
+                  {}, map_scores_hint(a) + " with --label COL");
+    }
+    artifacts.push_back(load_artifact(path));
+  }
   io::LabelledColumns columns;
   for (const std::string& s : o.scores) columns.scores.push_back({s, Scale::probability});
   if (!o.map_scores.empty() && o.map_scores.size() != o.maps.size())
@@ -500,19 +547,93 @@ int print_and_gate(const ReportCliOptions& o, Render render, const std::vector<G
   return 0;
 }
 
+// A multi-class --map checked against the rows: the map reads the --scores
+// columns, which must hold its classes in its order on its scale. Refused
+// (usage, located at the map file) with the option that puts it right. The
+// scale is known before the rows are read, so it is checked first, alone.
+void check_class_map_scale(const ClassArtifact& a, const std::string& path, ClassScale scale) {
+  if (a.map->scale() == scale) return;
+  Location loc;
+  loc.file = path;
+  throw Error(ErrorKind::usage,
+              "the map was fitted on the " + std::string(to_string(a.map->scale())) +
+                  " scale, and --scores are read on the " + std::string(to_string(scale)) + " scale",
+              loc, std::string(to_string(scale)), "--scale " + std::string(to_string(a.map->scale())));
+}
+void check_class_map_classes(const ClassArtifact& a, const std::string& path, const io::ClassRows& rows) {
+  const ClassCalibrationMap& map = *a.map;
+  if (map.classes() == rows.data.classes) return;
+  Location loc;
+  loc.file = path;
+  std::vector<std::string> mine = map.classes(), theirs = rows.data.classes;
+  std::sort(mine.begin(), mine.end());
+  std::sort(theirs.begin(), theirs.end());
+  if (mine == theirs)
+    throw Error(ErrorKind::usage,
+                "the map orders its classes " + quoted_list(map.classes()) + ", the report " +
+                    quoted_list(rows.data.classes),
+                loc, comma_list(rows.data.classes), "--classes " + comma_list(map.classes()));
+  throw Error(ErrorKind::usage,
+              "the map was fitted on classes " + quoted_list(map.classes()) + ", and --scores gives classes " +
+                  quoted_list(rows.data.classes),
+              loc, comma_list(rows.data.classes), map_scores_hint(a) + " for the columns it was fitted on");
+}
+
+ClassMapOrigin class_map_origin(const std::string& file, const ClassArtifact& a) {
+  ClassMapOrigin m;
+  m.file = file;
+  m.kind = std::string(a.map->kind());
+  m.integrity = integrity_hash(class_artifact_to_json(a));
+  m.created_utc = a.provenance.created_utc;
+  m.tool = a.provenance.tool;
+  m.fitted_source = a.provenance.source;
+  m.fitted_sha256 = a.provenance.source_sha256;
+  m.fitted_rows = a.provenance.rows;
+  return m;
+}
+
 // The report of K-class rows (--scores): read by the multi-class reader,
-// built by build_class_report, written as the binary report is.
+// built by build_class_report for the scores as read and for each --map's
+// model of them, written as the binary report is.
 int run_report_classes(const ReportCliOptions& o) {
   for (const std::string& g : o.given_binary)
     throw Error(ErrorKind::usage, g + " cannot be used with --scores", {}, {},
-                "--scores COLS --label COL FILE (the label column holds class names)");
+                g == "--map-score" ? "--scores COLS, which a multi-class --map reads (one column per class)"
+                                   : "--scores COLS --label COL FILE (the label column holds class names)");
   if (o.input.label.empty())
     throw Error(ErrorKind::usage, "report --scores needs --label", {}, {}, "--scores COLS --label COL FILE");
+  std::vector<ClassArtifact> maps;
+  for (const std::string& path : o.maps) {
+    const ArtifactFile file = read_artifact_file(path);
+    if (!file.multi_class) {
+      Location loc;
+      loc.file = path;
+      throw Error(ErrorKind::usage, "the map is binary, and --scores reports K classes", loc, {},
+                  "--score COL --map FILE for a binary map (without --scores), or a map fitted by plumb fit --scores");
+    }
+    maps.push_back(class_artifact_from_text(file.text, file.name));
+  }
+  // With maps a gate may name a model: its --map FILE, its name, or *.
   std::vector<Gate> gates;
-  for (const std::string& m : o.max) gates.push_back(parse_class_gate(m, GateBound::max));
-  for (const std::string& m : o.min) gates.push_back(parse_class_gate(m, GateBound::min));
-  const io::ClassColumns columns = class_columns(o.input, o.classes);
-  const io::ClassRows rows = io::read_class_scores(o.input.file, columns, parse_separator(o.input.separator));
+  for (const std::string& m : o.max)
+    gates.push_back(parse_class_gate(m, GateBound::max, !maps.empty()));
+  for (const std::string& m : o.min)
+    gates.push_back(parse_class_gate(m, GateBound::min, !maps.empty()));
+  io::ClassColumns columns = class_columns(o.input, o.classes);
+  columns.segment = o.by;
+  // The scale is known before the rows are read: refuse a mismatch at once.
+  for (std::size_t m = 0; m < maps.size(); ++m) check_class_map_scale(maps[m], o.maps[m], columns.scale);
+  const io::ClassRows rows = [&] {
+    try {
+      return io::read_class_scores(o.input.file, columns, parse_separator(o.input.separator));
+    } catch (const Error& e) {
+      // A label outside the classes of --scores may be one of the map's: say which classes the map holds.
+      if (maps.empty() || e.kind() != ErrorKind::input || e.message() != "the label is not one of the classes") throw;
+      throw Error(e.kind(), e.message() + " (the map's classes are " + quoted_list(maps[0].map->classes()) + ")",
+                  e.where(), e.value(), e.expected() + "; or " + map_scores_hint(maps[0]));
+    }
+  }();
+  for (std::size_t m = 0; m < maps.size(); ++m) check_class_map_classes(maps[m], o.maps[m], rows);
   ClassReportOptions ro;
   ro.bins = o.bins;
   ro.binning = o.binning == "equal_mass" ? BinningKind::equal_mass : BinningKind::equal_width;
@@ -520,13 +641,44 @@ int run_report_classes(const ReportCliOptions& o) {
   ro.threads = o.threads;
   ro.seed = o.seed;
   ro.confidence = o.confidence;
-  ClassReport report = build_class_report(rows.data, ro);
-  report.source = rows.source;
-  report.label_column = rows.label_column;
-  report.weight_column = rows.weight_column;
-  report.score_columns = rows.score_columns;
-  if (parse_missing(o.input.missing) == io::MissingPolicy::skip) report.rows_skipped = rows.skipped;
-  for (const Gate& g : gates) report.gates.push_back(check_class_gate(g, report));
+  const auto described = [&](ClassReport report, std::string name, const ClassScores& scores) {
+    report.name = std::move(name);
+    if (!o.by.empty()) {
+      report.segment_column = rows.segment_column;
+      report.min_segment_weight = o.min_segment;
+      report.segments = class_segments(scores, rows.segment, rows.segment_names, ro, o.min_segment,
+                                       report.segment_alpha);
+    }
+    report.source = rows.source;
+    report.label_column = rows.label_column;
+    report.weight_column = rows.weight_column;
+    report.score_columns = rows.score_columns;
+    if (parse_missing(o.input.missing) == io::MissingPolicy::skip) report.rows_skipped = rows.skipped;
+    return report;
+  };
+  ClassReportSet set;
+  const std::string scores_name = comma_list(o.classes.scores);
+  set.models.push_back(described(build_class_report(rows.data, ro), scores_name, rows.data));
+  std::vector<GateTarget> targets{{scores_name, {}}};
+  for (std::size_t m = 0; m < maps.size(); ++m) {
+    std::uint64_t floored = 0;
+    const ClassScores calibrated = calibrate_class_scores(*maps[m].map, rows.data, &floored);
+    const std::string name = scores_name + " via " + std::filesystem::path(o.maps[m]).filename().string();
+    ClassReport report = described(build_class_report(calibrated, ro), name, calibrated);
+    report.map = class_map_origin(o.maps[m], maps[m]);
+    if (static_cast<double>(floored) > outside_share_caution * static_cast<double>(rows.data.rows))
+      report.cautions.push_back(grouped(floored) + " rows hold a probability below " +
+                                shortest(class_probability_floor) + ", which the map raised to it before its logarithm");
+    set.models.push_back(std::move(report));
+    targets.push_back({name, o.maps[m]});
+  }
+  const std::vector<std::vector<std::size_t>> reads = gate_columns(gates, targets);
+  for (std::size_t g = 0; g < gates.size(); ++g)
+    for (std::size_t k : reads[g]) {
+      GateResult r = check_class_gate(gates[g], set.models[k]);
+      if (!maps.empty()) r.column = set.models[k].name;
+      set.gates.push_back(std::move(r));
+    }
   // Every file is written beside its place and committed only when all are.
   std::vector<std::unique_ptr<io::OutputFile>> files;
   auto write = [&](const std::string& path, const std::string& text) {
@@ -534,12 +686,12 @@ int run_report_classes(const ReportCliOptions& o) {
     files.push_back(std::make_unique<io::OutputFile>(path));
     files.back()->write(text);
   };
-  write(o.json_path, class_report_to_json(report).dump(2) + "\n");
-  write(o.svg_path, render_class_svg(report));
-  write(o.markdown_path, render_class_markdown(report));
+  write(o.json_path, class_report_to_json(set).dump(2) + "\n");
+  write(o.svg_path, render_class_svg(set));
+  write(o.markdown_path, render_class_markdown(set));
   for (auto& f : files) f->commit();
-  return print_and_gate(o, [&](const TextStyle& style) { return render_class_text(report, style); }, report.gates,
-                        false);
+  return print_and_gate(o, [&](const TextStyle& style) { return render_class_text(set, style); }, set.gates,
+                        !maps.empty());
 }
 
 // Appends the run to the history (with --history) and draws the trend from
@@ -594,7 +746,8 @@ Command add_report_command(CLI::App& app) {
       ->allow_extra_args(false);
   cmd->add_option("--map", o->maps,
                   "Map artifact to apply on the fly, reported after the --score columns (repeatable); it reads "
-                  "the column it was fitted on unless --map-score names another")
+                  "the column it was fitted on unless --map-score names another. With --scores, a multi-class map "
+                  "reading the --scores columns")
       ->allow_extra_args(false);
   cmd->add_option("--map-score", o->map_scores,
                   "Column the --map of the same position reads (name or 1-based index), as apply's --score; "
@@ -665,7 +818,7 @@ Command add_report_command(CLI::App& app) {
       if (cmd->count(name) > 0) o->given.push_back(name[0] == '-' ? name : "a FILE of rows");
     o->scale_given = cmd->count("--scale") > 0;
     for (const char* name :
-         {"--score", "--map", "--map-score", "--tally", "--by", "--groups", "--min-segment", "--positive", "--negative",
+         {"--score", "--map-score", "--tally", "--groups", "--positive", "--negative",
           "--history", "--history-date", "--torn-history", "--html"})
       if (cmd->count(name) > 0) o->given_binary.push_back(name);
     return run_report(*o);

@@ -131,8 +131,8 @@ ClassLayout resolve_class_columns(const CsvReader& reader, const ClassColumns& c
     not_a_score(*out.weight_column, "weight");
   }
   if (!columns.segment.empty()) {
-    out.segment_column = reader.column(columns.segment, "split");
-    not_a_score(*out.segment_column, "split");
+    out.segment_column = reader.column(columns.segment, columns.segment_role);
+    not_a_score(*out.segment_column, columns.segment_role);
   }
   return out;
 }
@@ -245,10 +245,16 @@ ClassRows read_class_scores(const std::string& path, const ClassColumns& columns
       out.data.weight.push_back(*w);
     }
     if (layout.segment_column) {
-      const std::string_view v = record.fields[*layout.segment_column];
+      const std::size_t c = *layout.segment_column;
+      const std::string_view v = record.fields[c];
       const auto [it, added] =
           segment_index.try_emplace(std::string(v), static_cast<std::uint32_t>(out.segment_names.size()));
       if (added) {
+        if (out.segment_names.size() == columns.max_segment_values)
+          throw Error(ErrorKind::input,
+                      "the " + columns.segment_role + " column has more than " +
+                          std::to_string(columns.max_segment_values) + " distinct values",
+                      cell(reader, record, c), std::string(v), "a column of groups, not of ids");
         out.segment_names.emplace_back(v);
         out.segment_lines.push_back(record.line);
       }

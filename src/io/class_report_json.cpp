@@ -2,7 +2,9 @@
 // document"): every number, non-finite ones as null. Keys of the concepts
 // the other renderers show come from report_names.hpp.
 #include <cmath>
+#include <vector>
 
+#include "plumb/error.hpp"
 #include "plumb/io/class_report_render.hpp"
 #include "plumb/version.hpp"
 #include "report_names.hpp"
@@ -13,7 +15,11 @@ namespace {
 using nlohmann::json;
 namespace rn = report_names;
 
+// Version 1: one model, its members at the top level. Version 2: several
+// models side by side (the scores and each map's model of them), under
+// `models`; the writer uses version 1 whenever it holds the content.
 constexpr int class_report_format_version = 1;
+constexpr int class_report_models_version = 2;
 
 json num(double v) { return std::isfinite(v) ? json(v) : json(nullptr); }
 std::string key(const rn::Name& n) { return std::string(n.json); }
@@ -57,8 +63,31 @@ json table_json(const ReliabilityTable& t, const std::vector<Interval>& band) {
 
 }  // namespace
 
-json class_report_to_json(const ClassReport& r) {
-  const ClassReportOptions& o = r.options;
+namespace {
+
+json segments_json(const std::vector<ClassSegmentSummary>& segments) {
+  json out = json::array();
+  for (const ClassSegmentSummary& g : segments) {
+    json j = {{"value", g.value}, {key(rn::rows), g.rows}, {key(rn::weight), num(g.weight)}, {"too_few", g.too_few}};
+    if (!g.too_few) {
+      j[key(rn::class_brier)] = num(g.brier);
+      j[key(rn::class_log_loss)] = num(g.log_loss);
+      j[key(rn::accuracy)] = num(g.accuracy);
+      j[key(rn::confidence_gap)] = num(g.confidence_gap);
+      j["top_label_ece"] = num(g.top_label_ece);  // a number here, named as its gate
+      j[key(rn::classwise_ece)] = num(g.classwise_ece);
+      j["spiegelhalter_z"] = num(g.spiegelhalter.z);
+      j["spiegelhalter_p"] = num(g.spiegelhalter.p_value);
+      j["p_adjusted"] = num(g.p_adjusted);
+      j["flagged"] = g.flagged;
+    }
+    out.push_back(std::move(j));
+  }
+  return out;
+}
+
+// The members of one model: its figures, tables and intervals.
+json model_members(const ClassReport& r) {
   json pav = json::array();
   for (const PavBlock& b : r.top_label_pav)
     pav.push_back({{"score_lo", num(b.score_lo)},
@@ -89,29 +118,8 @@ json class_report_to_json(const ClassReport& r) {
                  {key(rn::top_label_ece), interval(b.top_label_ece)},
                  {key(rn::classwise_ece), interval(b.classwise_ece)}};
   }
-  json gates = json::array();
-  for (const GateResult& g : r.gates)
-    gates.push_back({{"metric", g.gate.metric},
-                     {"bound", g.gate.bound == GateBound::max ? "max" : "min"},
-                     {"limit", num(g.gate.limit)},
-                     {"value", num(g.value)},
-                     {"exceeded", g.exceeded}});
-  return {{"format", "plumb-class-report"},
-          {"format_version", class_report_format_version},
-          {"tool", std::string("plumb ") + version_string},
-          {"source", r.source},
-          {"label_column", r.label_column},
-          {"weight_column", r.weight_column.empty() ? json(nullptr) : json(r.weight_column)},
-          {"score_columns", r.score_columns},
-          {"rows_skipped", r.rows_skipped ? json(*r.rows_skipped) : json(nullptr)},
+  return {{"score_columns", r.score_columns},
           {"scale", r.scale == ClassScale::logit ? "logit" : "probability"},
-          {"options",
-           {{"bins", o.bins},
-            {"binning", std::string(to_string(o.binning))},
-            {"bootstrap", o.bootstrap},
-            {"seed", o.seed},
-            {"confidence", o.confidence},
-            {"histogram_bins", o.histogram_bins}}},
           {key(rn::rows), r.rows},
           {key(rn::weight), num(r.weight)},
           {key(rn::class_brier), num(r.brier)},
@@ -131,10 +139,100 @@ json class_report_to_json(const ClassReport& r) {
            {{key(rn::equal_width), num(r.classwise_ece_equal_width)},
             {key(rn::equal_mass), num(r.classwise_ece_equal_mass)}}},
           {"classes", classes},
-          {"bootstrap", bootstrap},
-          {"gates", gates},
-          {"any_gate_exceeded", r.any_gate_exceeded()},
-          {"cautions", r.cautions}};
+          {"bootstrap", bootstrap}};
+}
+
+// With --by: the segment column and its rule at the top, each model's segments in its members.
+void add_segments(json& doc, json& model, const ClassReport& r) {
+  if (r.segment_column.empty()) return;
+  doc["segment_column"] = r.segment_column;
+  doc["options"]["min_segment"] = num(r.min_segment_weight);
+  doc["options"]["segment_alpha"] = num(r.segment_alpha);
+  model["segments"] = segments_json(r.segments);
+}
+
+// The members every model shares: the input and the options.
+json shared_members(const ClassReport& r, int version) {
+  const ClassReportOptions& o = r.options;
+  return {{"format", "plumb-class-report"},
+          {"format_version", version},
+          {"tool", std::string("plumb ") + version_string},
+          {"source", r.source},
+          {"label_column", r.label_column},
+          {"weight_column", r.weight_column.empty() ? json(nullptr) : json(r.weight_column)},
+          {"rows_skipped", r.rows_skipped ? json(*r.rows_skipped) : json(nullptr)},
+          {"options",
+           {{"bins", o.bins},
+            {"binning", std::string(to_string(o.binning))},
+            {"bootstrap", o.bootstrap},
+            {"seed", o.seed},
+            {"confidence", o.confidence},
+            {"histogram_bins", o.histogram_bins}}}};
+}
+
+json gate_json(const GateResult& g, bool with_model) {
+  json j = {{"metric", g.gate.metric},
+            {"bound", g.gate.bound == GateBound::max ? "max" : "min"},
+            {"limit", num(g.gate.limit)},
+            {"value", num(g.value)},
+            {"exceeded", g.exceeded}};
+  if (with_model) j["model"] = g.column;
+  return j;
+}
+
+json map_json(const std::optional<ClassMapOrigin>& m) {
+  if (!m) return nullptr;
+  return {{"file", m->file},
+          {"kind", m->kind},
+          {"integrity_sha256", m->integrity},
+          {"created_utc", m->created_utc.empty() ? json(nullptr) : json(m->created_utc)},
+          {"tool", m->tool},
+          {"fitted_source", m->fitted_source},
+          {"fitted_sha256", m->fitted_sha256},
+          {"fitted_rows", m->fitted_rows}};
+}
+
+}  // namespace
+
+json class_report_to_json(const ClassReport& r) {
+  ClassReportSet set;
+  set.models.push_back(r);
+  set.gates = r.gates;
+  return class_report_to_json(set);
+}
+
+json class_report_to_json(const ClassReportSet& set) {
+  if (set.models.empty()) throw Error(ErrorKind::internal, "class_report_to_json: no model");
+  const ClassReport& first = set.models.front();
+  if (set.models.size() == 1 && !first.map) {
+    // One model as read: version 1, its members at the top level.
+    json doc = shared_members(first, class_report_format_version);
+    json model = model_members(first);
+    add_segments(doc, model, first);
+    doc.update(model);
+    json gates = json::array();
+    for (const GateResult& g : set.gates) gates.push_back(gate_json(g, false));
+    doc["gates"] = gates;
+    doc["any_gate_exceeded"] = set.any_gate_exceeded();
+    doc["cautions"] = first.cautions;
+    return doc;
+  }
+  json doc = shared_members(first, class_report_models_version);
+  json models = json::array();
+  for (const ClassReport& r : set.models) {
+    json m = model_members(r);
+    add_segments(doc, m, r);
+    m["name"] = r.name;
+    m["map"] = map_json(r.map);
+    m["cautions"] = r.cautions;
+    models.push_back(std::move(m));
+  }
+  doc["models"] = models;
+  json gates = json::array();
+  for (const GateResult& g : set.gates) gates.push_back(gate_json(g, true));
+  doc["gates"] = gates;
+  doc["any_gate_exceeded"] = set.any_gate_exceeded();
+  return doc;
 }
 
 }  // namespace plumb

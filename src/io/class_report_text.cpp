@@ -54,8 +54,8 @@ void render_heading(Document& doc, const Painter& p, const ClassReport& r) {
   doc.flow(facts, p.dot_sep(), 2);
 }
 
-void render_headlines(Document& doc, const ClassReport& r) {
-  doc.heading("headline figures");
+void render_headlines(Document& doc, const ClassReport& r, const std::string& of = {}) {
+  doc.heading("headline figures" + of);
   if (r.bootstrap)
     doc.wrap("[lo, hi]: " + percent_text(r.options.confidence) + " bootstrap percentile interval, " +
                  count_text(r.options.bootstrap) + " replicates",
@@ -121,9 +121,9 @@ void render_table_of(Document& doc, const Painter& p, const ClassReport& r, cons
   render_table(doc, p, std::move(columns), std::move(rows));
 }
 
-void render_top_label(Document& doc, const Painter& p, const ClassReport& r) {
+void render_top_label(Document& doc, const Painter& p, const ClassReport& r, const std::string& of = {}) {
   const ReliabilityTable& t = r.top_label_table;
-  doc.heading("top-label reliability");
+  doc.heading("top-label reliability" + of);
   doc.wrap(count_text(t.bins.size()) + " " + std::string(rn::binning(t.binning).text) +
                " bins of the confidence (the top label's probability); accuracy = share of the bin's rows whose "
                "top label is right; gap = confidence - accuracy (> 0: over-confident)",
@@ -143,8 +143,8 @@ void render_top_label(Document& doc, const Painter& p, const ClassReport& r) {
   text::render_chart(doc, p, r.options.confidence, chart, words);
 }
 
-void render_classes(Document& doc, const Painter& p, const ClassReport& r) {
-  doc.heading("classes, one-vs-rest");
+void render_classes(Document& doc, const Painter& p, const ClassReport& r, const std::string& of = {}) {
+  doc.heading("classes, one-vs-rest" + of);
   doc.wrap("share = the class's share of the rows' labels; forecast = its mean probability; gap = forecast - share; "
            "ECE of its probability against its indicator, " + count_text(r.options.bins) + " bins",
            "  ", "  ");
@@ -175,49 +175,170 @@ void render_classes(Document& doc, const Painter& p, const ClassReport& r) {
   }
   render_table(doc, p, std::move(columns), std::move(rows));
   for (const ClassSummary& c : r.classes) {
-    doc.heading("reliability: class " + c.name + ", one-vs-rest");
+    doc.heading("reliability: class " + c.name + ", one-vs-rest" + of);
     render_table_of(doc, p, r, c.table, "forecast", "forecast", "observed");
   }
 }
 
-void render_gates(Document& doc, const Painter& p, const ClassReport& r) {
-  if (r.gates.empty()) return;
+// The segments of one model (--by): its headline figures per segment,
+// flagged ones and then the heaviest, capped as the binary report's table.
+void render_segments(Document& doc, const Painter& p, const ClassReport& r, const std::string& of) {
+  if (r.segment_column.empty()) return;
+  std::size_t flagged = 0;
+  for (const ClassSegmentSummary& seg : r.segments) flagged += seg.flagged ? 1 : 0;
+  doc.heading("segments by " + r.segment_column + of);
+  doc.wrap("gap = mean confidence - accuracy; ECEs over " + count_text(r.options.bins) + " " +
+               std::string(rn::equal_width.text) + " bins; ! flag: Holm-adjusted p of Spiegelhalter's Z of the "
+               "confidence against a right top label < " + significant_text(r.segment_alpha, 4) + " (" +
+               count_text(flagged) + " of " + count_text(r.segments.size()) + " segments)",
+           "  ", "  ");
+  std::vector<Column> columns = {
+      {r.segment_column, false, 0, 6},
+      {std::string(rn::rows.text), true, 0, 0},
+      {"Brier", true, 0, 0},
+      {"log loss", true, 0, 0},
+      {std::string(rn::accuracy.text), true, 0, 0},
+      {std::string(rn::gap.text), true, 0, 0},
+      {std::string(rn::top_label_ece.text), true, 1, 0},
+      {std::string(rn::classwise_ece.text), true, 2, 0},
+      {std::string(rn::holm_p.text), true, 0, 0},
+  };
+  const std::vector<bool> shown = rn::segments_shown(r.segments);
+  std::size_t left_out = 0;
+  std::vector<Row> rows;
+  for (std::size_t i = 0; i < r.segments.size(); ++i) {
+    const ClassSegmentSummary& seg = r.segments[i];
+    if (!shown[i]) {
+      ++left_out;
+      continue;
+    }
+    Row row;
+    row.cells = {seg.value, count_text(seg.rows)};
+    if (seg.too_few) {
+      row.tail = "too few rows (weight " + weight_text(seg.weight) + " < " + weight_text(r.min_segment_weight) + ")";
+      row.tone = Tone::dim;
+    } else {
+      row.cells.push_back(metric_text(seg.brier));
+      row.cells.push_back(metric_text(seg.log_loss));
+      row.cells.push_back(probability_text(seg.accuracy));
+      row.cells.push_back(difference_text(seg.confidence_gap));
+      row.cells.push_back(metric_text(seg.top_label_ece));
+      row.cells.push_back(metric_text(seg.classwise_ece));
+      row.cells.push_back(p_value_text(seg.p_adjusted));
+      if (seg.flagged) {
+        row.marker = "!";
+        row.tone = Tone::red;
+      }
+    }
+    rows.push_back(std::move(row));
+  }
+  render_table(doc, p, std::move(columns), std::move(rows));
+  if (left_out > 0)
+    doc.wrap(count_text(left_out) + " smaller segment" + (left_out == 1 ? "" : "s") +
+                 " not shown (none flagged; every segment is in --json)",
+             "  ", "  ");
+}
+
+void render_gates(Document& doc, const Painter& p, const std::vector<GateResult>& gates, bool with_model) {
+  if (gates.empty()) return;
   std::size_t breached = 0;
-  for (const GateResult& g : r.gates) breached += g.exceeded ? 1 : 0;
+  for (const GateResult& g : gates) breached += g.exceeded ? 1 : 0;
   doc.heading("gates");
-  doc.line("  " + count_text(breached) + " of " + count_text(r.gates.size()) +
-           (r.gates.size() == 1 ? " limit" : " limits") + " breached");
+  doc.line("  " + count_text(breached) + " of " + count_text(gates.size()) +
+           (gates.size() == 1 ? " limit" : " limits") + " breached");
   std::vector<Column> columns = {
       {"", false, 0, 0}, {"metric", false, 0, 0}, {"value", true, 0, 0}, {"", false, 0, 0}, {"limit", true, 0, 0}};
+  if (with_model) columns.insert(columns.begin() + 1, Column{"model", false, 0, 8});
   std::vector<Row> rows;
-  for (const GateResult& g : r.gates) {
+  for (const GateResult& g : gates) {
     Row row;
     row.cells = {g.exceeded ? "BREACHED" : "held", g.gate.metric, significant_text(g.value, 6),
                  std::string(gate_comparison(g)), significant_text(g.gate.limit, 6)};
+    if (with_model) row.cells.insert(row.cells.begin() + 1, g.column);
     row.tone = g.exceeded ? Tone::red : Tone::green;
     rows.push_back(std::move(row));
   }
   render_table(doc, p, std::move(columns), std::move(rows));
 }
 
-void render_cautions(Document& doc, const Painter& p, const ClassReport& r) {
-  if (r.cautions.empty()) return;
+// Every model's cautions (ClassReportSet::cautions: shared ones once, the
+// others under their model's name).
+void render_cautions(Document& doc, const Painter& p, const ClassReportSet& set) {
+  const std::vector<std::string> cautions = set.cautions();
+  if (cautions.empty()) return;
   doc.heading("cautions");
   const std::string marker = p.paint(p.unicode ? "\u25b8" : ">", Tone::yellow) + " ";
-  for (const std::string& caution : r.cautions) doc.wrap(caution, marker, "  ");
+  for (const std::string& caution : cautions) doc.wrap(caution, marker, "  ");
+}
+
+// The headline figures of every model, one row each: the scores as read
+// under their name, a map's model under its file's name.
+void render_models(Document& doc, const Painter& p, const ClassReportSet& set) {
+  doc.heading("models side by side");
+  doc.wrap("the scores as read, then each map's model of them (by its file); Brier summed over classes, log loss "
+           "in nats; gap = mean confidence - accuracy; ECEs over " +
+               count_text(set.models.front().options.bins) + " " + std::string(rn::equal_width.text) + " bins",
+           "  ", "  ");
+  std::vector<Column> columns = {
+      {"model", false, 0, 0},
+      {"Brier", true, 0, 0},
+      {"log loss", true, 0, 0},
+      {std::string(rn::accuracy.text), true, 0, 0},
+      {std::string(rn::gap.text), true, 2, 0},
+      {std::string(rn::top_label_ece.text), true, 0, 0},
+      {std::string(rn::classwise_ece.text), true, 1, 0},
+  };
+  std::vector<Row> rows;
+  for (const ClassReport& r : set.models) {
+    std::string name = r.name;
+    if (r.map) name = r.map->file.substr(r.map->file.find_last_of('/') + 1);
+    Row row;
+    row.cells = {name,
+                 metric_text(r.brier),
+                 metric_text(r.log_loss),
+                 probability_text(r.accuracy),
+                 difference_text(r.confidence_gap),
+                 metric_text(r.top_label_equal_width.ece),
+                 metric_text(r.classwise_ece_equal_width)};
+    rows.push_back(std::move(row));
+  }
+  render_table(doc, p, std::move(columns), std::move(rows));
 }
 
 }  // namespace
 
 std::string render_class_text(const ClassReport& report, const TextStyle& style) {
+  ClassReportSet set;
+  set.models.push_back(report);
+  set.gates = report.gates;
+  return render_class_text(set, style);
+}
+
+std::string render_class_text(const ClassReportSet& set, const TextStyle& style) {
   const Painter p = Painter::of(style);
   Document doc(p);
-  render_heading(doc, p, report);
-  render_headlines(doc, report);
-  render_top_label(doc, p, report);
-  render_classes(doc, p, report);
-  render_gates(doc, p, report);
-  render_cautions(doc, p, report);
+  if (set.models.empty()) return doc.text();
+  const bool several = set.models.size() > 1 || set.models.front().map;
+  render_heading(doc, p, set.models.front());
+  if (several) render_models(doc, p, set);
+  for (const ClassReport& r : set.models) {
+    std::string of;
+    if (several) {
+      of = ": " + r.name;
+      if (r.map) {
+        doc.heading("model " + r.name);
+        doc.wrap("a " + r.map->kind + " map (" + r.map->file + ") applied to the scores as read; fitted on " +
+                     r.map->fitted_source + ", " + count_text(r.map->fitted_rows) + " rows",
+                 "  ", "  ");
+      }
+    }
+    render_headlines(doc, r, of);
+    render_top_label(doc, p, r, of);
+    render_classes(doc, p, r, of);
+    render_segments(doc, p, r, of);
+  }
+  render_gates(doc, p, set.gates, several);
+  render_cautions(doc, p, set);
   return doc.text();
 }
 

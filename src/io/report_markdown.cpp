@@ -326,10 +326,109 @@ void class_reliability(std::string& out, const ClassReport& report, const Reliab
 
 }  // namespace
 
-std::string render_class_markdown(const ClassReport& report) {
+namespace {
+
+// One model's sections: headline figures, top label, classes; `h` is the
+// heading mark of its sections ("##" alone, "###" under a model's heading).
+void class_model_sections(std::string& out, const ClassReport& report, const std::string& h) {
   const ClassReportOptions& o = report.options;
+  out += h + " Headline figures\n\n";
+  const ClassBootstrapResult* b = report.bootstrap ? &*report.bootstrap : nullptr;
+  const auto iv = [&](const BootstrapInterval ClassBootstrapResult::*which, std::string (*rule)(double)) {
+    if (!b) return na();
+    const BootstrapInterval& i = b->*which;
+    return finite(i.lo) && finite(i.hi) ? interval_text(rule(i.lo), rule(i.hi)) : na();
+  };
+  Table t({"figure", "value", percent_text(o.confidence) + " interval"}, {false, true, true});
+  const std::string bins = ", " + count_text(o.bins) + " bins";
+  t.row({label(rn::class_brier), metric_text(report.brier), iv(&ClassBootstrapResult::brier, metric_text)});
+  t.row({label(rn::class_log_loss), metric_text(report.log_loss), iv(&ClassBootstrapResult::log_loss, metric_text)});
+  t.row({label(rn::accuracy), probability_text(report.accuracy),
+         iv(&ClassBootstrapResult::accuracy, probability_text)});
+  t.row({label(rn::mean_confidence), probability_text(report.mean_confidence), na()});
+  t.row({label(rn::confidence_gap), difference_text(report.confidence_gap),
+         iv(&ClassBootstrapResult::confidence_gap, difference_text)});
+  t.row({label(rn::top_label_ece) + ", " + label(rn::equal_width) + bins, metric_text(report.top_label_equal_width.ece),
+         iv(&ClassBootstrapResult::top_label_ece, metric_text)});
+  t.row({label(rn::top_label_ece) + ", " + label(rn::equal_mass) + bins, metric_text(report.top_label_equal_mass.ece),
+         na()});
+  t.row({label(rn::classwise_ece) + ", " + label(rn::equal_width) + bins, metric_text(report.classwise_ece_equal_width),
+         iv(&ClassBootstrapResult::classwise_ece, metric_text)});
+  t.row({label(rn::classwise_ece) + ", " + label(rn::equal_mass) + bins, metric_text(report.classwise_ece_equal_mass),
+         na()});
+  if (report.true_class_at_zero > 0)
+    t.row({label(rn::label_probability_zero), count_text(report.true_class_at_zero), na()});
+  t.write(out);
+
+  out += h + " Top label\n\n";
+  out += "Reliability of the confidence (the top label's probability; " + binning_name(report.top_label_table.binning) +
+         " bins; accuracy: share of the bin's rows whose top label is right; gap > 0: over-confident):\n\n";
+  class_reliability(out, report, report.top_label_table, report.top_label_band, "mean confidence", "accuracy");
+
+  out += h + " Classes, one-vs-rest\n\n";
+  Table c({label(rn::class_name), label(rn::rows), label(rn::class_share), label(rn::mean_forecast), label(rn::gap),
+           label(rn::ece) + ", " + label(rn::equal_width), label(rn::ece) + ", " + label(rn::equal_mass)},
+          {false, true, true, true, true, true, true});
+  for (const ClassSummary& k : report.classes)
+    c.row({md(k.name), count_text(k.rows), probability_text(k.observed_rate), probability_text(k.mean_forecast),
+           difference_text(k.calibration_in_the_large), metric_text(k.ece_equal_width.ece),
+           metric_text(k.ece_equal_mass.ece)});
+  c.write(out);
+  for (const ClassSummary& k : report.classes) {
+    out += h + "# Class " + md(k.name) + "\n\n";
+    out += "Reliability of its probability against its indicator (" + binning_name(k.table.binning) +
+           " bins; gap > 0: forecasts too high):\n\n";
+    class_reliability(out, report, k.table, {}, label(rn::mean_forecast), "observed");
+  }
+  if (report.segment_column.empty()) return;
+  out += h + " Segments by " + md(report.segment_column) + "\n\n";
+  std::size_t flagged = 0;
+  for (const ClassSegmentSummary& g : report.segments) flagged += g.flagged ? 1 : 0;
+  out += "Flag: Holm-adjusted p of Spiegelhalter's Z of the confidence against a right top label below " +
+         significant_text(report.segment_alpha, 4) + " (" + count_text(flagged) + " of " +
+         count_text(report.segments.size()) + " segments); ECEs over " + count_text(o.bins) + " " +
+         label(rn::equal_width) + " bins.\n\n";
+  Table g({md(report.segment_column), label(rn::rows), "Brier", "log loss", label(rn::accuracy), label(rn::confidence_gap),
+           label(rn::top_label_ece), label(rn::classwise_ece), label(rn::holm_p), "flag"},
+          {false, true, true, true, true, true, true, true, true, false});
+  const std::vector<bool> shown = rn::segments_shown(report.segments);
+  std::size_t left_out = 0;
+  for (std::size_t i = 0; i < report.segments.size(); ++i) {
+    const ClassSegmentSummary& seg = report.segments[i];
+    if (!shown[i]) {
+      ++left_out;
+      continue;
+    }
+    if (seg.too_few) {
+      g.row({md(seg.value), count_text(seg.rows), na(), na(), na(), na(), na(), na(), na(), "too few rows"});
+      continue;
+    }
+    g.row({md(seg.value), count_text(seg.rows), metric_text(seg.brier), metric_text(seg.log_loss),
+           probability_text(seg.accuracy), difference_text(seg.confidence_gap), metric_text(seg.top_label_ece),
+           metric_text(seg.classwise_ece), p_value_text(seg.p_adjusted), seg.flagged ? "**!**" : ""});
+  }
+  g.write(out);
+  if (left_out > 0)
+    out += count_text(left_out) + " smaller segment" + (left_out == 1 ? "" : "s") +
+           " not shown (none flagged; every segment is in the JSON report).\n\n";
+}
+
+}  // namespace
+
+std::string render_class_markdown(const ClassReport& report) {
+  ClassReportSet set;
+  set.models.push_back(report);
+  set.gates = report.gates;
+  return render_class_markdown(set);
+}
+
+std::string render_class_markdown(const ClassReportSet& set) {
   std::string out;
-  out.reserve(8192 + report.classes.size() * 4096);
+  if (set.models.empty()) return out;
+  const ClassReport& report = set.models.front();
+  const bool several = set.models.size() > 1 || report.map;
+  const ClassReportOptions& o = report.options;
+  out.reserve(8192 + set.models.size() * report.classes.size() * 4096);
   out += "# Multi-class reliability report: " + md(report.source) + "\n\n";
   out += "- Rows: " + count_text(report.rows) + "\n";
   if (report.rows_skipped)
@@ -344,73 +443,59 @@ std::string render_class_markdown(const ClassReport& report) {
            " Poisson bootstrap replicates (seed " + std::to_string(o.seed) + ")\n";
   else
     out += "- Intervals: none (no bootstrap replicates)\n";
-  out += "\n## Headline figures\n\n";
-  const ClassBootstrapResult* b = report.bootstrap ? &*report.bootstrap : nullptr;
-  const auto iv = [&](const BootstrapInterval ClassBootstrapResult::*which, std::string (*rule)(double)) {
-    if (!b) return na();
-    const BootstrapInterval& i = b->*which;
-    return finite(i.lo) && finite(i.hi) ? interval_text(rule(i.lo), rule(i.hi)) : na();
-  };
-  Table h({"figure", "value", percent_text(o.confidence) + " interval"}, {false, true, true});
-  const std::string bins = ", " + count_text(o.bins) + " bins";
-  h.row({label(rn::class_brier), metric_text(report.brier), iv(&ClassBootstrapResult::brier, metric_text)});
-  h.row({label(rn::class_log_loss), metric_text(report.log_loss), iv(&ClassBootstrapResult::log_loss, metric_text)});
-  h.row({label(rn::accuracy), probability_text(report.accuracy),
-         iv(&ClassBootstrapResult::accuracy, probability_text)});
-  h.row({label(rn::mean_confidence), probability_text(report.mean_confidence), na()});
-  h.row({label(rn::confidence_gap), difference_text(report.confidence_gap),
-         iv(&ClassBootstrapResult::confidence_gap, difference_text)});
-  h.row({label(rn::top_label_ece) + ", " + label(rn::equal_width) + bins, metric_text(report.top_label_equal_width.ece),
-         iv(&ClassBootstrapResult::top_label_ece, metric_text)});
-  h.row({label(rn::top_label_ece) + ", " + label(rn::equal_mass) + bins, metric_text(report.top_label_equal_mass.ece),
-         na()});
-  h.row({label(rn::classwise_ece) + ", " + label(rn::equal_width) + bins, metric_text(report.classwise_ece_equal_width),
-         iv(&ClassBootstrapResult::classwise_ece, metric_text)});
-  h.row({label(rn::classwise_ece) + ", " + label(rn::equal_mass) + bins, metric_text(report.classwise_ece_equal_mass),
-         na()});
-  if (report.true_class_at_zero > 0)
-    h.row({label(rn::label_probability_zero), count_text(report.true_class_at_zero), na()});
-  h.write(out);
-
-  out += "## Top label\n\n";
-  out += "Reliability of the confidence (the top label's probability; " + binning_name(report.top_label_table.binning) +
-         " bins; accuracy: share of the bin's rows whose top label is right; gap > 0: over-confident):\n\n";
-  class_reliability(out, report, report.top_label_table, report.top_label_band, "mean confidence", "accuracy");
-
-  out += "## Classes, one-vs-rest\n\n";
-  Table c({label(rn::class_name), label(rn::rows), label(rn::class_share), label(rn::mean_forecast), label(rn::gap),
-           label(rn::ece) + ", " + label(rn::equal_width), label(rn::ece) + ", " + label(rn::equal_mass)},
-          {false, true, true, true, true, true, true});
-  for (const ClassSummary& k : report.classes)
-    c.row({md(k.name), count_text(k.rows), probability_text(k.observed_rate), probability_text(k.mean_forecast),
-           difference_text(k.calibration_in_the_large), metric_text(k.ece_equal_width.ece),
-           metric_text(k.ece_equal_mass.ece)});
-  c.write(out);
-  for (const ClassSummary& k : report.classes) {
-    out += "### Class " + md(k.name) + "\n\n";
-    out += "Reliability of its probability against its indicator (" + binning_name(k.table.binning) +
-           " bins; gap > 0: forecasts too high):\n\n";
-    class_reliability(out, report, k.table, {}, label(rn::mean_forecast), "observed");
+  out += "\n";
+  if (!several) {
+    class_model_sections(out, report, "##");
+  } else {
+    out += "## Models side by side\n\n";
+    out += "The scores as read, then each map's model of them; ECEs over " + count_text(o.bins) + " " +
+           label(rn::equal_width) + " bins.\n\n";
+    Table m({"model", "map", label(rn::class_brier), label(rn::class_log_loss), label(rn::accuracy),
+             label(rn::confidence_gap), label(rn::top_label_ece), label(rn::classwise_ece)},
+            {false, false, true, true, true, true, true, true});
+    for (const ClassReport& r : set.models)
+      m.row({md(r.name), r.map ? md(r.map->kind + " (" + r.map->file + ")") : std::string("none"),
+             metric_text(r.brier), metric_text(r.log_loss), probability_text(r.accuracy),
+             difference_text(r.confidence_gap), metric_text(r.top_label_equal_width.ece),
+             metric_text(r.classwise_ece_equal_width)});
+    m.write(out);
+    for (const ClassReport& r : set.models) {
+      out += "## Model " + md(r.name) + "\n\n";
+      if (r.map)
+        out += "A " + md(r.map->kind) + " map (" + md(r.map->file) + ", fitted on " + md(r.map->fitted_source) +
+               ", " + count_text(r.map->fitted_rows) + " rows) applied to the scores as read.\n\n";
+      class_model_sections(out, r, "###");
+    }
   }
 
-  if (!report.gates.empty()) {
+  if (!set.gates.empty()) {
     out += "## Gates\n\n";
     std::size_t failed = 0;
-    Table g({"metric", "limit", "value", "result"}, {false, true, true, false});
-    for (const GateResult& r : report.gates) {
+    std::vector<std::string> head{"metric", "limit", "value", "result"};
+    std::vector<bool> right{false, true, true, false};
+    if (several) {
+      head.insert(head.begin(), "model");
+      right.insert(right.begin(), false);
+    }
+    Table g(head, right);
+    for (const GateResult& r : set.gates) {
       failed += r.exceeded ? 1 : 0;
-      g.row({md(r.gate.metric),
-             (r.gate.bound == GateBound::max ? "at most " : "at least ") + significant_text(r.gate.limit, 6),
-             significant_text(r.value, 6), r.exceeded ? "**FAIL**" : "pass"});
+      std::vector<std::string> cells{md(r.gate.metric),
+                                     (r.gate.bound == GateBound::max ? "at most " : "at least ") +
+                                         significant_text(r.gate.limit, 6),
+                                     significant_text(r.value, 6), r.exceeded ? "**FAIL**" : "pass"};
+      if (several) cells.insert(cells.begin(), md(r.column));
+      g.row(std::move(cells));
     }
     out += failed == 0 ? "Every gate passed.\n\n"
-                       : count_text(failed) + " of " + count_text(report.gates.size()) + " gates failed.\n\n";
+                       : count_text(failed) + " of " + count_text(set.gates.size()) + " gates failed.\n\n";
     g.write(out);
   }
 
   out += "## Cautions\n\n";
-  for (const std::string& caution : report.cautions) out += "- " + md(caution) + "\n";
-  if (!report.cautions.empty()) out += "\n";
+  const std::vector<std::string> cautions = set.cautions();
+  for (const std::string& caution : cautions) out += "- " + md(caution) + "\n";
+  if (!cautions.empty()) out += "\n";
   out += standing_caution;
   return out;
 }

@@ -121,8 +121,10 @@ inline constexpr std::size_t segment_rows_shown = 20;
 // Which of `segments` a capped table shows: every flagged one, then the
 // others by weight, largest first (ties: the report's order), until `cap`
 // rows are chosen. Flagged segments are shown even beyond the cap.
-inline std::vector<bool> segments_shown(const std::vector<SegmentSummary>& segments,
-                                        std::size_t cap = segment_rows_shown) {
+// Any segment type with `flagged` and `weight` (the binary and the
+// multi-class report's).
+template <class Segment>
+std::vector<bool> segments_shown(const std::vector<Segment>& segments, std::size_t cap = segment_rows_shown) {
   std::vector<bool> shown(segments.size(), false);
   std::size_t chosen = 0;
   for (std::size_t i = 0; i < segments.size(); ++i)

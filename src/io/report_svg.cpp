@@ -19,6 +19,7 @@
 #include <string_view>
 #include <vector>
 
+#include "plumb/error.hpp"
 #include "plumb/io/class_report_render.hpp"
 #include "plumb/io/report_render.hpp"
 #include "report_names.hpp"
@@ -607,29 +608,15 @@ void draw_class_panel(Svg& svg, const ScoreSummary& s, std::string_view title, c
 
 }  // namespace
 
-std::string render_class_svg(const ClassReport& report) {
+namespace {
+
+// One model's panels from `top` down: the top-label diagram, then one per
+// class, kPerRow to a row. Returns the height drawn.
+double draw_class_model(Svg& svg, const ClassReport& report, double top) {
   namespace rn = report_names;
-  const std::size_t n = 1 + report.classes.size();  // the top-label diagram, then one per class
+  const std::size_t n = 1 + report.classes.size();
   const std::size_t per_row = kPerRow;
   const std::size_t rows = (n + per_row - 1) / per_row;
-  const double width = 2 * kDocMargin + static_cast<double>(per_row) * kPanelWidth;
-
-  Svg svg;
-  svg.out.reserve(8192 + n * 16384);
-  svg.text(kDocMargin, kDocMargin + 16, "Reliability of " + shorten(report.source, 80), 16.0, "start", "doc-title", 0.0,
-           "bold");
-  std::string about = count_text(report.classes.size()) + " classes; label " + report.label_column;
-  if (!report.weight_column.empty()) about += ", weight " + report.weight_column;
-  about += "; " + count_text(report.options.bins) + " " + std::string(rn::binning(report.options.binning).text) +
-           " bins";
-  if (report.options.bootstrap > 0)
-    about += "; " + percent_text(report.options.confidence) + " bootstrap intervals from " +
-             count_text(report.options.bootstrap) + " replicates";
-  svg.fitted_text(kDocMargin, kDocMargin + 36, about, 11.0, width - 2 * kDocMargin, "doc-subtitle");
-  const double header = draw_legend(svg, !report.top_label_band.empty(), report.options.confidence, kDocMargin + 4,
-                                    kDocMargin + kTitleHeight, width - 2 * kDocMargin) +
-                        12.0;
-
   const bool mass = report.options.binning == BinningKind::equal_mass;
   const ClassBootstrapResult* boot = report.bootstrap ? &*report.bootstrap : nullptr;
   const std::string gap = "  \xC2\xB7  ";
@@ -646,7 +633,7 @@ std::string render_class_svg(const ClassReport& report) {
         std::string(rn::accuracy.text) + " " + probability_text(report.accuracy) + gap +
         std::string(rn::confidence_gap.text) + " " + difference_text(report.confidence_gap);
     draw_class_panel(svg, s, "top label (confidence)", subtitle, "confidence (top-label probability)", "accuracy",
-                     "confidence", kDocMargin, header);
+                     "confidence", kDocMargin, top);
   }
   for (std::size_t k = 0; k < report.classes.size(); ++k) {
     const ClassSummary& c = report.classes[k];
@@ -660,9 +647,54 @@ std::string render_class_svg(const ClassReport& report) {
     const std::size_t i = k + 1;
     draw_class_panel(svg, s, "class " + c.name + ", one-vs-rest", subtitle, "probability of the class",
                      "observed frequency", "forecasts", kDocMargin + static_cast<double>(i % per_row) * kPanelWidth,
-                     header + static_cast<double>(i / per_row) * kPanelHeight);
+                     top + static_cast<double>(i / per_row) * kPanelHeight);
   }
-  const double height = header + static_cast<double>(rows) * kPanelHeight;
+  return static_cast<double>(rows) * kPanelHeight;
+}
+
+// The height of a model's name above its panels.
+constexpr double kModelTitleHeight = 28.0;
+
+}  // namespace
+
+std::string render_class_svg(const ClassReport& report) {
+  ClassReportSet set;
+  set.models.push_back(report);
+  set.gates = report.gates;
+  return render_class_svg(set);
+}
+
+std::string render_class_svg(const ClassReportSet& set) {
+  namespace rn = report_names;
+  if (set.models.empty()) throw Error(ErrorKind::internal, "render_class_svg: no model");
+  const ClassReport& report = set.models.front();
+  const bool several = set.models.size() > 1 || report.map;
+  const double width = 2 * kDocMargin + static_cast<double>(kPerRow) * kPanelWidth;
+
+  Svg svg;
+  svg.out.reserve(8192 + set.models.size() * (1 + report.classes.size()) * 16384);
+  svg.text(kDocMargin, kDocMargin + 16, "Reliability of " + shorten(report.source, 80), 16.0, "start", "doc-title", 0.0,
+           "bold");
+  std::string about = count_text(report.classes.size()) + " classes; label " + report.label_column;
+  if (!report.weight_column.empty()) about += ", weight " + report.weight_column;
+  about += "; " + count_text(report.options.bins) + " " + std::string(rn::binning(report.options.binning).text) +
+           " bins";
+  if (report.options.bootstrap > 0)
+    about += "; " + percent_text(report.options.confidence) + " bootstrap intervals from " +
+             count_text(report.options.bootstrap) + " replicates";
+  svg.fitted_text(kDocMargin, kDocMargin + 36, about, 11.0, width - 2 * kDocMargin, "doc-subtitle");
+  double height = draw_legend(svg, !report.top_label_band.empty(), report.options.confidence, kDocMargin + 4,
+                              kDocMargin + kTitleHeight, width - 2 * kDocMargin) +
+                  12.0;
+  for (const ClassReport& r : set.models) {
+    if (several) {
+      std::string title = "model " + r.name;
+      if (r.map) title += " (" + r.map->kind + " map)";
+      svg.fitted_text(kDocMargin, height + 20.0, title, 14.0, width - 2 * kDocMargin, "model-title", "bold");
+      height += kModelTitleHeight;
+    }
+    height += draw_class_model(svg, r, height);
+  }
 
   std::string doc;
   doc.reserve(svg.out.size() + 1024);

@@ -16,6 +16,7 @@ import gzip
 import json
 import math
 import os
+import unittest
 
 import jsonschema  # Debian python3-jsonschema, installed by tests/run.sh
 
@@ -265,3 +266,7 @@ class ClassCrossFitTest(PlumbCase):
         self.assert_refused(base + ["--oof", oof, "--split", "time=night", "--folds", "3", timed], 6, "timed.csv",
                             "fold 2's training rows hold no row of class 'returned'", "--split", output=out)
         self.assertFalse(os.path.exists(oof))
+
+
+if __name__ == "__main__":
+    unittest.main()

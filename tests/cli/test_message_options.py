@@ -57,6 +57,7 @@ REACH = {
     "src/io/apply_stream.cpp": ("apply",),
     "include/plumb/io/apply_stream.hpp": ("apply",),
     "src/io/report_text.cpp": ("report",),
+    "src/io/class_report_text.cpp": ("report",),
     "src/io/text_trend.cpp": ("report",),
     "src/io/report_svg.cpp": ("report",),
     "src/io/report_html.cpp": ("report",),

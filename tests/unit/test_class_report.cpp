@@ -318,3 +318,87 @@ TEST_CASE("class report: gates read the figures they are named after", "[class_r
   for (const plumb::GateMetric& m : plumb::class_gate_metrics())
     CHECK(std::isfinite(plumb::class_gate_value(r, m.name)));
 }
+
+TEST_CASE("class report: a map's model of the rows, as calibrate_class_scores gives it", "[class_report]") {
+  plumb::ClassScores s = random_case(400, 3, 11);
+  s.weight.assign(s.rows, 1.0);
+  s.weight[7] = 2.5;
+  const auto map = plumb::fit_class_map("vector", s);
+  std::uint64_t floored = 99;
+  const plumb::ClassScores q = plumb::calibrate_class_scores(*map, s, &floored);
+  CHECK(floored == 0);
+  CHECK(q.scale == plumb::ClassScale::probability);
+  CHECK(q.classes == s.classes);
+  CHECK(q.label == s.label);
+  CHECK(q.weight == s.weight);
+  REQUIRE(q.values.size() == s.values.size());
+  // Each row is the map's own output for the row, and sums to 1.
+  std::vector<double> out(3);
+  for (std::size_t r = 0; r < s.rows; ++r) {
+    map->map(s.row(r), out.data());
+    for (std::size_t k = 0; k < 3; ++k) CHECK(q.row(r)[k] == out[k]);
+    CHECK_THAT(q.row(r)[0] + q.row(r)[1] + q.row(r)[2], WithinAbs(1.0, 1e-12));
+  }
+  // A row holding an exact 0 is counted: the map raised it to the floor.
+  s.values[0] = 0.0;
+  s.values[1] = 1.0 - s.values[2];
+  plumb::calibrate_class_scores(*map, s, &floored);
+  CHECK(floored == 1);
+  // Rows on another scale or with other classes break the precondition.
+  plumb::ClassScores other = s;
+  other.scale = plumb::ClassScale::logit;
+  CHECK_THROWS_AS(plumb::calibrate_class_scores(*map, other), plumb::Error);
+  other = s;
+  other.classes = {"c0", "c2", "c1"};
+  CHECK_THROWS_AS(plumb::calibrate_class_scores(*map, other), plumb::Error);
+}
+
+TEST_CASE("class report: segments, flagged by the top label's Spiegelhalter test", "[class_report]") {
+  // Three segments: 'a' holds rows as drawn (labels from the scores
+  // themselves: calibrated), 'b' the same scores with every label moved to
+  // another class (confidence far above accuracy), 'c' five rows only.
+  plumb::ClassScores s = random_case(900, 3, 17);
+  std::mt19937_64 gen(3);
+  std::uniform_real_distribution<double> u(0.0, 1.0);
+  std::vector<std::uint32_t> segment(s.rows);
+  for (std::size_t r = 0; r < s.rows; ++r) {
+    const double* p = s.row(r);
+    const double d = u(gen);
+    const std::uint32_t drawn = d < p[0] ? 0 : d < p[0] + p[1] ? 1 : 2;
+    segment[r] = r < 5 ? 2 : r % 2 == 0 ? 0 : 1;
+    s.label[r] = segment[r] == 1 ? (drawn + 1) % 3 : drawn;
+  }
+  const std::vector<std::string> names{"a", "b", "c"};
+  plumb::ClassReportOptions o;
+  o.bootstrap = 0;
+  const auto segs = plumb::class_segments(s, segment, names, o, 100.0);
+  REQUIRE(segs.size() == 3);
+  // Sorted by |gap|: the mislabelled segment first, the thin one last.
+  CHECK(segs[0].value == "b");
+  CHECK(segs[1].value == "a");
+  CHECK(segs[2].value == "c");
+  CHECK(segs[2].too_few);
+  CHECK(segs[2].rows == 5);
+  CHECK(segs[0].flagged);
+  CHECK_FALSE(segs[1].flagged);
+  CHECK(segs[0].confidence_gap > 0.3);
+  // Each segment's figures are those of a report on its rows alone.
+  plumb::ClassScores b;
+  b.classes = s.classes;
+  for (std::size_t r = 0; r < s.rows; ++r)
+    if (segment[r] == 1) {
+      b.values.insert(b.values.end(), s.row(r), s.row(r) + 3);
+      b.label.push_back(s.label[r]);
+      ++b.rows;
+    }
+  const plumb::ClassReport whole = plumb::build_class_report(b, o);
+  CHECK(segs[0].rows == b.rows);
+  CHECK_THAT(segs[0].brier, WithinAbs(whole.brier, 1e-12));
+  CHECK_THAT(segs[0].log_loss, WithinAbs(whole.log_loss, 1e-12));
+  CHECK_THAT(segs[0].accuracy, WithinAbs(whole.accuracy, 1e-12));
+  CHECK_THAT(segs[0].top_label_ece, WithinAbs(whole.top_label_equal_width.ece, 1e-12));
+  CHECK_THAT(segs[0].classwise_ece, WithinAbs(whole.classwise_ece_equal_width, 1e-12));
+  // Holm with two tested segments: the smaller p doubled (capped at 1).
+  CHECK_THAT(segs[0].p_adjusted, WithinAbs(std::min(1.0, 2 * segs[0].spiegelhalter.p_value), 1e-15));
+  CHECK_THROWS_AS(plumb::class_segments(s, std::vector<std::uint32_t>(3, 0), names, o, 100.0), plumb::Error);
+}

@@ -6,6 +6,7 @@
 // them.
 #include <catch2/catch.hpp>
 
+#include <algorithm>
 #include <cmath>
 #include <random>
 #include <regex>
@@ -213,4 +214,110 @@ TEST_CASE("class report gates show in every renderer but the SVG", "[class_repor
   const std::string md = plumb::render_class_markdown(r);
   CHECK(md.find("1 of 2 gates failed.") != std::string::npos);
   CHECK(md.find("| brier | at most " + plumb::significant_text(r.brier / 2, 6)) != std::string::npos);
+}
+
+namespace {
+
+// The scores as read and a temperature map's model of them, side by side,
+// with a gate on each.
+plumb::ClassReportSet two_models() {
+  plumb::ClassReportOptions o;
+  o.bootstrap = 20;
+  o.threads = 1;
+  const plumb::ClassScores s = rows(1500, false);
+  // Fitted on a copy in which some rows are labelled with the last class
+  // (a fit refuses a class without rows; the report cautions it).
+  plumb::ClassScores fit_rows = s;
+  for (std::size_t r = 0; r < fit_rows.rows; r += 50) fit_rows.label[r] = 3;
+  const auto map = plumb::fit_class_map("temperature", fit_rows);
+  plumb::ClassReportSet set;
+  set.models.push_back(plumb::build_class_report(s, o));
+  set.models.push_back(plumb::build_class_report(plumb::calibrate_class_scores(*map, s), o));
+  const char* names[2] = {"p_*", "p_* via t.map.json"};
+  for (int m = 0; m < 2; ++m) {
+    plumb::ClassReport& r = set.models[m];
+    r.name = names[m];
+    r.source = "outcomes.csv";
+    r.label_column = "outcome";
+    r.score_columns = {"p_on_time", "p_late", "p_lost", "p_returned"};
+  }
+  plumb::ClassMapOrigin origin;
+  origin.file = "maps/t.map.json";
+  origin.kind = "temperature";
+  origin.integrity = std::string(64, 'a');
+  origin.fitted_source = "fit.csv";
+  origin.fitted_rows = 1500;
+  set.models[1].map = origin;
+  plumb::Gate g;
+  g.metric = "log_loss";
+  g.limit = set.models[1].log_loss;  // the map's model holds it exactly
+  for (int m = 0; m < 2; ++m) {
+    plumb::GateResult result = plumb::check_class_gate(g, set.models[m]);
+    result.column = names[m];
+    set.gates.push_back(result);
+  }
+  return set;
+}
+
+}  // namespace
+
+TEST_CASE("class report set: JSON version 2 holds each model under its name", "[class_report][render]") {
+  const plumb::ClassReportSet set = two_models();
+  // Temperature scaling fitted on these rows lowers their log loss (it
+  // minimises it over T, and T = 1 is the scores as read).
+  REQUIRE(set.models[1].log_loss < set.models[0].log_loss);
+  const nlohmann::json j = plumb::class_report_to_json(set);
+  CHECK(j.at("format_version") == 2);
+  CHECK_FALSE(j.contains("brier"));
+  REQUIRE(j.at("models").size() == 2);
+  CHECK(j.at("models").at(0).at("name") == "p_*");
+  CHECK(j.at("models").at(0).at("map").is_null());
+  CHECK(j.at("models").at(1).at("map").at("kind") == "temperature");
+  CHECK(j.at("models").at(1).at("map").at("file") == "maps/t.map.json");
+  CHECK(j.at("models").at(1).at(std::string(rn::class_log_loss.json)).get<double>() == set.models[1].log_loss);
+  // The first model's members are those of its own version 1 document.
+  const nlohmann::json one = plumb::class_report_to_json(set.models[0]);
+  CHECK(one.at("format_version") == 1);
+  for (const char* key : {"brier", "log_loss", "top_label", "classes", "bootstrap", "classwise_ece"})
+    CHECK(j.at("models").at(0).at(key) == one.at(key));
+  CHECK(j.at("gates").at(0).at("model") == "p_*");
+  CHECK(j.at("gates").at(0).at("exceeded") == true);
+  CHECK(j.at("gates").at(1).at("exceeded") == false);
+  CHECK(j.at("any_gate_exceeded") == true);
+}
+
+TEST_CASE("class report set: text, Markdown and SVG show every model", "[class_report][render]") {
+  const plumb::ClassReportSet set = two_models();
+  for (const int width : {80, 64}) {
+    const std::string text = plumb::render_class_text(set, {false, false, width});
+    std::istringstream lines(text);
+    std::string line;
+    while (std::getline(lines, line)) {
+      INFO(line);
+      CHECK(plumb::text::visible_width(line) <= static_cast<std::size_t>(width));
+    }
+    CHECK(count(text, "[models side by side]") == 1);
+    CHECK(count(text, "[headline figures: p_*]") == 1);
+    CHECK(count(text, "[headline figures: p_* via t.map.json]") == 1);
+    CHECK(text.find("a temperature map (maps/t.map.json)") != std::string::npos);
+    CHECK(text.find(plumb::metric_text(set.models[1].log_loss)) != std::string::npos);
+    CHECK(text.find("1 of 2 limits breached") != std::string::npos);
+    // The rows' own caution (a class no row is labelled with) once, not once per model.
+    CHECK(count(text, "no row is labelled with class 'returned'") == 1);
+  }
+  plumb::ClassReportSet own = set;
+  own.models[1].cautions.push_back("only the map's");
+  const std::vector<std::string> cautions = own.cautions();
+  CHECK(std::count(cautions.begin(), cautions.end(), "p_* via t.map.json: only the map's") == 1);
+  CHECK(std::count(cautions.begin(), cautions.end(), set.models[0].cautions.front()) == 1);
+  const std::string md = plumb::render_class_markdown(set);
+  CHECK(md.find("## Models side by side") != std::string::npos);
+  CHECK(md.find("| p\\_\\* via t.map.json | temperature (maps/t.map.json) | " + plumb::metric_text(set.models[1].brier)) !=
+        std::string::npos);
+  CHECK(count(md, "### Top label") == 2);
+  CHECK(md.find("1 of 2 gates failed.") != std::string::npos);
+  const std::string svg = plumb::render_class_svg(set);
+  REQUIRE(plumb::test::check_xml(svg, nullptr) == "");
+  CHECK(count(svg, "<g class=\"diagram\">") == 2 * (1 + 4));
+  CHECK(svg.find("model p_* via t.map.json (temperature map)") != std::string::npos);
 }

@@ -39,9 +39,13 @@ struct ClassColumns {
   // must name exactly the classes of the score columns, each once.
   std::vector<std::string> classes;
   std::string weight;  // empty: every row weighs 1
-  // A column whose values are read as texts (cross-fit's group, time or fold
-  // column); empty: none. It may not be a score column.
+  // A column whose values are read verbatim as texts: report --by's segment,
+  // or cross-fit's group, time or fold column; empty reads none. It may not
+  // be a score column. segment_role names it in messages ("segment",
+  // "split"). At most max_segment_values distinct values.
   std::string segment;
+  std::string segment_role = "segment";
+  std::size_t max_segment_values = 100000;
   // A row with a missing score or label: refuse (default) or skip.
   MissingPolicy missing = MissingPolicy::refuse;
   // Probability scale: the widest |sum of the row's K values - 1| accepted.
@@ -114,7 +118,8 @@ struct ClassRows {
 // probability outside [0, 1] or a row of probabilities whose sum misses 1 by
 // more than columns.sum_tolerance; a label with spaces or tabs around it; a
 // label that is not one of the classes; a weight that is not a finite
-// number >= 0; and a file with no data rows left. The labels come back as
+// number >= 0; a segment column that is a score column or holds more than
+// columns.max_segment_values distinct values; and a file with no data rows left. The labels come back as
 // class indexes; the values as read (a row of probabilities within the
 // tolerance is not rescaled here).
 ClassRows read_class_scores(const std::string& path, const ClassColumns& columns, char delimiter = 0);
