@@ -146,7 +146,7 @@ Command add_export_command(CLI::App& app) {
       "the SQL gives NULL, as it does for a NULL score: count the NULLs if that matters.\n\n"
       "--c writes double NAME(double score), which returns apply's probability bit for bit when compiled\n"
       "without -ffast-math and with -ffp-contract=off, and NaN where apply refuses the score.\n\n"
-      "A multi-class map (fitted with --scores) reads the K score columns it was fitted on: --sql (every\n"
+      "A multi-class map (plumb fit --scores) reads the K score columns it was fitted on: --sql (every\n"
       "dialect) writes a select list of K expressions named COLUMN_calibrated, as apply names them, to\n"
       "put in a SELECT; rows apply refuses give NULL. --c writes int NAME(const double score[K],\n"
       "double out[K]), bit for bit as above, which returns 1 and NaN in every out[j] for a row apply\n"
