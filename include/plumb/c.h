@@ -75,6 +75,53 @@ PLUMB_C_API const char* plumb_map_score_column(const plumb_map* map);
  * argument. */
 PLUMB_C_API int plumb_map_fitted_range(const plumb_map* map, double* score_min, double* score_max);
 
+/* ---- Multi-class maps (artifact format version 4: temperature, vector,
+ * dirichlet, one_vs_rest). The same rules hold as for a binary map above:
+ * the loaders may run on many threads at once; a loaded map is never
+ * changed, so many threads may map with one at once; free it only when no
+ * thread uses it; failures set the thread's last error. */
+
+/* A loaded multi-class map artifact. Opaque; free it with
+ * plumb_class_map_free. */
+typedef struct plumb_class_map plumb_class_map;
+
+/* Load and validate the multi-class map artifact at `path` (the checks of
+ * `plumb apply`). Returns NULL on failure, with plumb_last_error naming the
+ * file; a binary map's artifact is refused (exit code 4: use plumb_map_load). */
+PLUMB_C_API plumb_class_map* plumb_class_map_load(const char* path);
+
+/* As plumb_class_map_load, from an artifact's text in memory; `where` names
+ * it in messages (NULL: "<memory>"). */
+PLUMB_C_API plumb_class_map* plumb_class_map_from_text(const char* text, size_t length, const char* where);
+
+/* Free a map from plumb_class_map_load or _from_text. NULL is ignored. */
+PLUMB_C_API void plumb_class_map_free(plumb_class_map* map);
+
+/* The number of classes K (0 for a NULL map), and class j's name and the
+ * score column it was fitted on (NULL for a NULL map or j >= K). Valid as
+ * long as the map is. */
+PLUMB_C_API size_t plumb_class_map_classes(const plumb_class_map* map);
+PLUMB_C_API const char* plumb_class_map_class(const plumb_class_map* map, size_t j);
+PLUMB_C_API const char* plumb_class_map_score_column(const plumb_class_map* map, size_t j);
+
+/* The map's kind ("temperature", "vector", "dirichlet", "one_vs_rest") and
+ * the scale of its scores ("probability" or "logit"); NULL for a NULL map. */
+PLUMB_C_API const char* plumb_class_map_kind(const plumb_class_map* map);
+PLUMB_C_API const char* plumb_class_map_scale(const plumb_class_map* map);
+
+/* Map `rows` rows of K scores, row-major (scores[r * K + j] is row r's score
+ * of class j, in the map's class order), to rows x K probabilities in `out`
+ * (row-major too): the doubles `plumb apply --scores` writes for those rows,
+ * bit for bit. Mapped on the calling thread. `out` may be `scores` itself;
+ * otherwise the two must not overlap. Returns 0 on success. A row apply
+ * refuses (a logit not finite; a probability outside [0, 1] or not a
+ * number, or a row whose sum is further from 1 than the artifact's sum
+ * tolerance, 1e-3 unless fit was given --sum-tolerance) stops the call: the
+ * return value is 3, plumb_last_error names the row, the class and the
+ * value, rows before it hold their probabilities and the rest of `out` is
+ * left as it was. A NULL map, or NULL buffers with rows > 0, return 2. */
+PLUMB_C_API int plumb_class_map_apply(const plumb_class_map* map, const double* scores, double* out, size_t rows);
+
 /* The message of the last failing call on this thread, one line as
  * `plumb` prints it after "plumb: " ("FILE:LINE:COL ...: what went wrong:
  * got 'VALUE'; expected ..."); "" when no call has failed on this thread.

@@ -20,7 +20,8 @@
 // The kinds live in their own registry (class_map_kinds()), apart from the
 // binary kinds' (plumb/map_registry.hpp): they fit rows of K values, not
 // per-score sums of one score, and map rows, not scores, so none of the
-// binary registry's facts (scales, tallies, SQL and C export) applies.
+// binary registry's facts (scales, tallies) applies; the SQL and C export of
+// these kinds is io::class_sql_export and io::class_c_export.
 #include <cstddef>
 #include <memory>
 #include <optional>

@@ -10,6 +10,8 @@
 
 #include "capi/map_scores.hpp"
 #include "plumb/io/artifact.hpp"
+#include "plumb/io/class_artifact.hpp"
+#include "plumb/io/class_input.hpp"
 #include "plumb/error.hpp"
 #include "plumb/version.hpp"
 
@@ -17,6 +19,13 @@ struct plumb_map {
   plumb::Artifact artifact;
   std::string kind;
   std::string scale;
+};
+
+struct plumb_class_map {
+  plumb::ClassArtifact artifact;
+  std::string kind;
+  std::string scale;
+  double sum_tolerance;
 };
 
 namespace {
@@ -67,6 +76,14 @@ plumb_map* wrap(plumb::Artifact artifact) {
   auto* m = new plumb_map{std::move(artifact), {}, {}};
   m->kind = std::string(m->artifact.map->kind());
   m->scale = std::string(plumb::to_string(m->artifact.map->scale()));
+  return m;
+}
+
+plumb_class_map* wrap_classes(plumb::ClassArtifact artifact) {
+  auto* m = new plumb_class_map{std::move(artifact), {}, {}, plumb::io::default_sum_tolerance};
+  m->kind = std::string(m->artifact.map->kind());
+  m->scale = std::string(plumb::to_string(m->artifact.map->scale()));
+  m->sum_tolerance = plumb::embed::class_sum_tolerance(m->artifact);
   return m;
 }
 
@@ -132,6 +149,56 @@ int plumb_map_fitted_range(const plumb_map* map, double* score_min, double* scor
   *score_min = map->artifact.provenance.score_min;
   *score_max = map->artifact.provenance.score_max;
   return 0;
+}
+
+plumb_class_map* plumb_class_map_load(const char* path) {
+  plumb_class_map* result = nullptr;
+  if (path == nullptr) {
+    fail(static_cast<int>(plumb::ErrorKind::usage), "plumb_class_map_load: the path is NULL");
+    return nullptr;
+  }
+  guarded([&] { result = wrap_classes(plumb::embed::load_class_artifact(path)); });
+  return result;
+}
+
+plumb_class_map* plumb_class_map_from_text(const char* text, size_t length, const char* where) {
+  plumb_class_map* result = nullptr;
+  if (text == nullptr && length > 0) {
+    fail(static_cast<int>(plumb::ErrorKind::usage), "plumb_class_map_from_text: the text is NULL");
+    return nullptr;
+  }
+  guarded([&] {
+    result = wrap_classes(plumb::class_artifact_from_text(std::string(text == nullptr ? "" : text, length),
+                                                          where == nullptr ? "<memory>" : where));
+  });
+  return result;
+}
+
+void plumb_class_map_free(plumb_class_map* map) { delete map; }
+
+size_t plumb_class_map_classes(const plumb_class_map* map) { return map == nullptr ? 0 : map->artifact.map->k(); }
+
+const char* plumb_class_map_class(const plumb_class_map* map, size_t j) {
+  if (map == nullptr || j >= map->artifact.map->k()) return nullptr;
+  return map->artifact.map->classes()[j].c_str();
+}
+
+const char* plumb_class_map_score_column(const plumb_class_map* map, size_t j) {
+  if (map == nullptr || j >= map->artifact.score_columns.size()) return nullptr;
+  return map->artifact.score_columns[j].c_str();
+}
+
+const char* plumb_class_map_kind(const plumb_class_map* map) { return map == nullptr ? nullptr : map->kind.c_str(); }
+const char* plumb_class_map_scale(const plumb_class_map* map) {
+  return map == nullptr ? nullptr : map->scale.c_str();
+}
+
+int plumb_class_map_apply(const plumb_class_map* map, const double* scores, double* out, size_t rows) {
+  if (map == nullptr || ((scores == nullptr || out == nullptr) && rows > 0)) {
+    fail(static_cast<int>(plumb::ErrorKind::usage), "plumb_class_map_apply: a NULL map or buffer");
+    return static_cast<int>(plumb::ErrorKind::usage);
+  }
+  return guarded([&] { plumb::embed::map_class_rows(*map->artifact.map, map->sum_tolerance, scores, out, rows); });
 }
 
 const char* plumb_last_error(void) { return last_error.c_str(); }

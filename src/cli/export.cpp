@@ -6,6 +6,8 @@
 #include "cli/common.hpp"
 #include "plumb/io/artifact.hpp"
 #include "plumb/io/c_export.hpp"
+#include "plumb/io/class_artifact.hpp"
+#include "plumb/io/class_input.hpp"
 #include "plumb/error.hpp"
 #include "plumb/io/output.hpp"
 #include "plumb/io/sql_export.hpp"
@@ -58,12 +60,67 @@ std::string c_text(const ExportOptions& o, const Artifact& artifact) {
   return io::c_export(*artifact.map, c);
 }
 
+// The sum tolerance apply uses for the artifact's rows without --sum-tolerance.
+double class_sum_tolerance(const ClassArtifact& artifact) {
+  if (artifact.fit_options.contains("sum_tolerance") && artifact.fit_options["sum_tolerance"].is_number())
+    return artifact.fit_options["sum_tolerance"].get<double>();
+  return io::default_sum_tolerance;
+}
+
+std::string class_note(const ExportOptions& o, const ClassArtifact& artifact) {
+  std::string columns;
+  for (const std::string& name : artifact.score_columns) columns += (columns.empty() ? "" : ", ") + name;
+  return kind_with_article(artifact.map->kind()) + " map from " + o.artifact + " (fitted on columns " + columns + ")";
+}
+
+// A multi-class map as SQL: the expressions of the K score columns the map
+// was fitted on, or a function of K arguments.
+std::string class_sql_text(const ExportOptions& o, const ClassArtifact& artifact) {
+  io::ClassSqlExportOptions sql;
+  sql.dialect = *io::parse_sql_dialect(o.sql);
+  if (!o.score.empty())
+    throw Error(ErrorKind::usage, "--score names one score column, but a multi-class map reads the " +
+                    std::to_string(artifact.map->k()) + " columns it was fitted on",
+                {}, o.score, "no --score (rename the columns in a view to the map's names)");
+  if (!o.function.empty())
+    throw Error(ErrorKind::usage, "--function names a function, but --sql writes a select list for a multi-class map",
+                {}, o.function, "no --function (or --c, which writes a function)");
+  sql.score_columns = artifact.score_columns;
+  sql.knot_table = o.knot_table;
+  sql.inline_max = o.inline_max;
+  sql.source_note = class_note(o, artifact);
+  sql.sum_tolerance = class_sum_tolerance(artifact);
+  return io::class_sql_export(*artifact.map, sql);
+}
+
+// A multi-class map as C: the function of the row's K scores.
+std::string class_c_text(const ExportOptions& o, const ClassArtifact& artifact) {
+  if (!o.score.empty())
+    throw Error(ErrorKind::usage, "--score names the column of an SQL expression, but --c writes a function of a row",
+                {}, o.score, "--c without --score");
+  if (o.knot_options_given)
+    throw Error(ErrorKind::usage, "--knot-table and --inline-max shape the SQL, but --c writes C", {}, {},
+                "--c without them, or --sql DIALECT");
+  io::ClassCExportOptions c;
+  if (!o.function.empty()) c.function_name = o.function;
+  c.source_note = class_note(o, artifact);
+  c.sum_tolerance = class_sum_tolerance(artifact);
+  return io::class_c_export(*artifact.map, c);
+}
+
 int run_export(const ExportOptions& o) {
   if (o.sql.empty() == !o.c)
     throw Error(ErrorKind::usage, o.c ? "--sql and --c were both given" : "no output language was given", {}, {},
                 "--sql DIALECT (sqlite, postgresql or ansi) or --c");
-  const Artifact artifact = load_artifact(o.artifact);
-  const std::string text = o.c ? c_text(o, artifact) : sql_text(o, artifact);
+  const ArtifactFile file = read_artifact_file(o.artifact);
+  std::string text;
+  if (file.multi_class) {
+    const ClassArtifact artifact = class_artifact_from_text(file.text, file.name);
+    text = o.c ? class_c_text(o, artifact) : class_sql_text(o, artifact);
+  } else {
+    const Artifact artifact = artifact_from_text(file.text, file.name);
+    text = o.c ? c_text(o, artifact) : sql_text(o, artifact);
+  }
   io::OutputFile out(o.output);
   out.write(text);
   out.commit();
@@ -89,12 +146,18 @@ Command add_export_command(CLI::App& app) {
       "the SQL gives NULL, as it does for a NULL score: count the NULLs if that matters.\n\n"
       "--c writes double NAME(double score), which returns apply's probability bit for bit when compiled\n"
       "without -ffast-math and with -ffp-contract=off, and NaN where apply refuses the score.\n\n"
+      "A multi-class map (plumb fit --scores) reads the K score columns it was fitted on: --sql (every\n"
+      "dialect) writes a select list of K expressions named COLUMN_calibrated, as apply names them, to\n"
+      "put in a SELECT; rows apply refuses give NULL. --c writes int NAME(const double score[K],\n"
+      "double out[K]), bit for bit as above, which returns 1 and NaN in every out[j] for a row apply\n"
+      "refuses.\n\n"
       "Examples:\n"
       "  plumb export --sql sqlite late.map.json -o late.sql\n"
       "  plumb export --sql postgresql --function p_late late.map.json | psql parcels\n"
       "  psql parcels -c 'SELECT parcel_id, p_late(risk) FROM tonight'\n"
       "  plumb export --sql ansi --score model_score late.map.json -o late.sql\n"
-      "  plumb export --c --function p_late late.map.json -o p_late.c\n\n"
+      "  plumb export --c --function p_late late.map.json -o p_late.c\n"
+      "  plumb export --sql sqlite outcome.map.json -o outcome.sql\n\n"
       "The sqlite and ansi text holds its knot table's CREATE and INSERT statements first, if any; run\n"
       "them once, then put the expression after the line '-- The probability ...' in your SELECT.\n"
       "docs/library.md has the details and an example.");

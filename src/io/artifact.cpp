@@ -178,7 +178,8 @@ Artifact artifact_from_text(const std::string& text, const std::string& where) {
     Location loc;
     loc.file = where;
     throw Error(ErrorKind::artifact, "the map artifact holds a multi-class map", loc, {},
-                "a binary map here (plumb apply and plumb inspect read a multi-class map)");
+                "a binary map here (plumb apply, inspect and export, plumb_class_map_load in C and "
+                "plumb.load_class_map in Python read a multi-class map)");
   }
   // Version 4 is the multi-class feature's (docs/artifact-format.md, "Versioning").
   if (version == 4)

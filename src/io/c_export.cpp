@@ -6,6 +6,8 @@
 
 #include "plumb/error.hpp"
 #include "plumb/maps/beta_map.hpp"
+#include "plumb/maps/class_scaling_map.hpp"
+#include "plumb/maps/one_vs_rest_map.hpp"
 #include "plumb/maps/centered_isotonic_map.hpp"
 #include "plumb/maps/fold_average_map.hpp"
 #include "plumb/maps/histogram_map.hpp"
@@ -183,27 +185,10 @@ class Writer {
   int made_ = 0;
 };
 
-}  // namespace
-
-std::string c_export(const CalibrationMap& map, const CExportOptions& options) {
-  const std::string& name = options.function_name;
-  if (!is_identifier(name))
-    throw Error(ErrorKind::usage, "the function name is not a C identifier", {}, name,
-                "letters, digits and underscores, not starting with a digit");
-  Writer w(name);
-  const std::string top = w.function(map);
-  const bool probability = map.scale() == Scale::probability;
-  // The note names files and columns: "*/" in it would end the comment.
-  std::string note = options.source_note.empty() ? kind_with_article(map.kind()) + " map" : options.source_note;
-  for (std::size_t at; (at = note.find("*/")) != std::string::npos;) note.replace(at, 2, "* /");
-  std::string out = "/* plumb: " + note +
-                    ", on " + std::string(to_string(map.scale())) + " scores.\n"
-                    " * " + name + "(score) returns the probability plumb apply gives, bit for bit when built with\n"
-                    " * the same C library, without -ffast-math and without fused multiply-add contraction\n"
-                    " * (-ffp-contract=off). NaN for a score apply refuses (" +
-                    (probability ? "outside [0, 1], not a number" : "infinite, not a number") + "). */\n"
-                    "#include <math.h>\n\n";
-  // plumb's clipping and logistic function (include/plumb/scale.hpp), when used.
+// plumb's clipping and logistic function (include/plumb/scale.hpp), when
+// the writer's functions used them.
+std::string helpers(const Writer& w, const std::string& name) {
+  std::string out;
   if (w.uses_clip)
     out += "static double " + name + "_clip(double p) {\n"
            "  if (p < " + num(probability_clip) + ") p = " + num(probability_clip) + ";\n"
@@ -218,12 +203,183 @@ std::string c_export(const CalibrationMap& map, const CExportOptions& options) {
            "  if (x >= 0) return 1.0 / (1.0 + exp(-x));\n"
            "  const double e = exp(x);\n"
            "  return e / (1.0 + e);\n}\n\n";
+  return out;
+}
+
+void check_identifier(const std::string& name) {
+  if (!is_identifier(name))
+    throw Error(ErrorKind::usage, "the function name is not a C identifier", {}, name,
+                "letters, digits and underscores, not starting with a digit");
+}
+
+// The note names files and columns: "*/" in it would end the comment.
+std::string comment_safe(std::string note) {
+  for (std::size_t at; (at = note.find("*/")) != std::string::npos;) note.replace(at, 2, "* /");
+  return note;
+}
+
+}  // namespace
+
+std::string c_export(const CalibrationMap& map, const CExportOptions& options) {
+  const std::string& name = options.function_name;
+  check_identifier(name);
+  Writer w(name);
+  const std::string top = w.function(map);
+  const bool probability = map.scale() == Scale::probability;
+  const std::string note =
+      comment_safe(options.source_note.empty() ? kind_with_article(map.kind()) + " map" : options.source_note);
+  std::string out = "/* plumb: " + note +
+                    ", on " + std::string(to_string(map.scale())) + " scores.\n"
+                    " * " + name + "(score) returns the probability plumb apply gives, bit for bit when built with\n"
+                    " * the same C library, without -ffast-math and without fused multiply-add contraction\n"
+                    " * (-ffp-contract=off). NaN for a score apply refuses (" +
+                    (probability ? "outside [0, 1], not a number" : "infinite, not a number") + "). */\n"
+                    "#include <math.h>\n\n";
+  out += helpers(w, name);
   out += w.code;
   out += "double " + name + "(double score);\n\n";
   out += "double " + name + "(double score) {\n";
   out += probability ? "  if (!(score >= 0.0 && score <= 1.0)) return NAN;\n"
                      : "  if (!isfinite(score)) return NAN;\n";
   out += "  return " + top + "(score);\n}\n";
+  return out;
+}
+
+std::string class_c_export(const ClassCalibrationMap& map, const ClassCExportOptions& options) {
+  const std::string& name = options.function_name;
+  check_identifier(name);
+  if (!(options.sum_tolerance >= 0.0 && std::isfinite(options.sum_tolerance)))
+    throw Error(ErrorKind::usage, "the sum tolerance is negative or not finite", {}, num(options.sum_tolerance),
+                "a finite number >= 0");
+  const std::size_t k = map.k();
+  const std::string ks = std::to_string(k);
+  const bool probability = map.scale() == ClassScale::probability;
+  Writer w(name);
+  std::string tables, body;
+  // The row's K values as apply refuses them (class_row_problem).
+  body += "  unsigned long j;\n";
+  if (probability) {
+    body += "  double total = 0.0;\n"
+            "  for (j = 0; j < " + ks + "; ++j) {\n"
+            "    if (!(score[j] >= 0.0 && score[j] <= 1.0)) goto refused;\n"
+            "    total += score[j];\n"
+            "  }\n"
+            "  if (!(fabs(total - 1.0) <= " + num(options.sum_tolerance) + ")) goto refused;\n";
+  } else {
+    body += "  for (j = 0; j < " + ks + "; ++j)\n"
+            "    if (!isfinite(score[j])) goto refused;\n";
+  }
+  if (const auto* m = dynamic_cast<const ClassScalingMap*>(&map)) {
+    // log_probabilities (src/core/class_map.cpp), then the linear part, then softmax.
+    body += "  {\n    double l[" + ks + "], eta[" + ks + "], top, sum;\n";
+    if (probability) {
+      body += "    double ls;\n"
+              "    sum = 0.0;\n"
+              "    for (j = 0; j < " + ks + "; ++j) {\n"
+              "      double p = score[j];\n"
+              "      if (p < " + num(class_probability_floor) + ") p = " + num(class_probability_floor) + ";\n"
+              "      sum += p;\n"
+              "      l[j] = log(p);\n"
+              "    }\n"
+              "    ls = log(sum);\n"
+              "    for (j = 0; j < " + ks + "; ++j) l[j] -= ls;\n";
+    } else {
+      body += "    double lse;\n"
+              "    top = score[0];\n"
+              "    for (j = 1; j < " + ks + "; ++j) if (top < score[j]) top = score[j];\n"
+              "    sum = 0.0;\n"
+              "    for (j = 0; j < " + ks + "; ++j) sum += exp(score[j] - top);\n"
+              "    lse = top + log(sum);\n"
+              "    for (j = 0; j < " + ks + "; ++j) l[j] = score[j] - lse;\n";
+    }
+    if (m->form() == ClassScalingMap::Form::temperature) {
+      body += "    for (j = 0; j < " + ks + "; ++j) eta[j] = l[j] / " + num(m->temperature()) + ";\n";
+    } else {
+      const auto& a = m->matrix();
+      const auto& b = m->bias();
+      tables += array(name + "_bias", k, [&](std::size_t i) { return b[i]; });
+      if (m->form() == ClassScalingMap::Form::vector) {
+        tables += array(name + "_scale", k, [&](std::size_t i) { return a[i * k + i]; });
+        body += "    for (j = 0; j < " + ks + "; ++j) eta[j] = " + name + "_scale[j] * l[j] + " + name +
+                "_bias[j];\n";
+      } else {
+        tables += array(name + "_matrix", k * k, [&](std::size_t i) { return a[i]; });
+        body += "    unsigned long c;\n"
+                "    for (c = 0; c < " + ks + "; ++c) {\n"
+                "      double s = 0.0;\n"
+                "      for (j = 0; j < " + ks + "; ++j) s += " + name + "_matrix[c * " + ks + " + j] * l[j];\n"
+                "      eta[c] = s + " + name + "_bias[c];\n"
+                "    }\n";
+      }
+    }
+    // softmax (src/core/class_map.cpp): the largest value taken out first.
+    body += "    top = eta[0];\n"
+            "    for (j = 1; j < " + ks + "; ++j) if (top < eta[j]) top = eta[j];\n"
+            "    sum = 0.0;\n"
+            "    for (j = 0; j < " + ks + "; ++j) {\n"
+            "      out[j] = exp(eta[j] - top);\n"
+            "      sum += out[j];\n"
+            "    }\n"
+            "    for (j = 0; j < " + ks + "; ++j) out[j] /= sum;\n"
+            "  }\n";
+  } else if (const auto* m = dynamic_cast<const OneVsRestMap*>(&map)) {
+    // row_probabilities, each class's binary map, renormalise
+    // (src/core/maps/one_vs_rest_map.cpp).
+    std::vector<std::string> per;
+    for (std::size_t j = 0; j < k; ++j) per.push_back(w.function(m->class_map(j)));
+    body += "  {\n    double p[" + ks + "], sum = 0.0;\n";
+    if (probability) {
+      body += "    for (j = 0; j < " + ks + "; ++j) sum += score[j];\n"
+              "    for (j = 0; j < " + ks + "; ++j) p[j] = score[j] / sum;\n";
+    } else {
+      body += "    double top = score[0];\n"
+              "    for (j = 1; j < " + ks + "; ++j) if (top < score[j]) top = score[j];\n"
+              "    for (j = 0; j < " + ks + "; ++j) {\n"
+              "      p[j] = exp(score[j] - top);\n"
+              "      sum += p[j];\n"
+              "    }\n"
+              "    for (j = 0; j < " + ks + "; ++j) p[j] /= sum;\n";
+    }
+    for (std::size_t j = 0; j < k; ++j)
+      body += "    out[" + std::to_string(j) + "] = " + per[j] + "(p[" + std::to_string(j) + "]);\n";
+    body += "    sum = 0.0;\n"
+            "    for (j = 0; j < " + ks + "; ++j) sum += out[j];\n"
+            "    if (!(sum > 0.0)) {\n"
+            "      for (j = 0; j < " + ks + "; ++j) out[j] = 1.0 / " + num(static_cast<double>(k)) + ";\n"
+            "    } else {\n"
+            "      for (j = 0; j < " + ks + "; ++j) out[j] /= sum;\n"
+            "    }\n"
+            "  }\n";
+  } else {
+    throw Error(ErrorKind::usage, "no C form for " + kind_with_article(map.kind()) + " map", {},
+                std::string(map.kind()), "temperature, vector, dirichlet or one_vs_rest");
+  }
+  body += "  return 0;\n"
+          "refused:\n"
+          "  for (j = 0; j < " + ks + "; ++j) out[j] = NAN;\n"
+          "  return 1;\n";
+  std::string classes;
+  for (std::size_t j = 0; j < k; ++j) classes += (j ? ", " : "") + map.classes()[j];
+  const std::string note =
+      comment_safe(options.source_note.empty() ? kind_with_article(map.kind()) + " map" : options.source_note);
+  std::string out =
+      "/* plumb: " + note + ", on " + std::string(to_string(map.scale())) + " scores of " + ks +
+      " classes\n * (" + comment_safe(classes) + ", in this order).\n"
+      " * " + name + "(score, out) reads the row's " + ks + " scores and writes the " + ks +
+      " probabilities plumb apply gives,\n"
+      " * bit for bit when built with the same C library, without -ffast-math and without fused\n"
+      " * multiply-add contraction (-ffp-contract=off). It returns 0, or 1 with NaN in every out[j] for a\n"
+      " * row apply refuses (" +
+      (probability ? "a value outside [0, 1] or not a number, or a sum further than " + num(options.sum_tolerance) +
+                         " from 1"
+                   : "a logit infinite or not a number") +
+      "). */\n"
+      "#include <math.h>\n\n";
+  out += helpers(w, name);
+  out += tables.empty() ? "" : tables + "\n";
+  out += w.code;
+  out += "int " + name + "(const double score[" + ks + "], double out[" + ks + "]);\n\n";
+  out += "int " + name + "(const double score[" + ks + "], double out[" + ks + "]) {\n" + body + "}\n";
   return out;
 }
 

@@ -9,8 +9,11 @@
 #include <vector>
 
 #include "plumb/error.hpp"
+#include "plumb/number_text.hpp"
 #include "plumb/maps/beta_map.hpp"
 #include "plumb/maps/centered_isotonic_map.hpp"
+#include "plumb/maps/class_scaling_map.hpp"
+#include "plumb/maps/one_vs_rest_map.hpp"
 #include "plumb/maps/fold_average_map.hpp"
 #include "plumb/maps/histogram_map.hpp"
 #include "plumb/maps/isotonic_map.hpp"
@@ -373,6 +376,221 @@ std::string sql_export(const CalibrationMap& map, const SqlExportOptions& option
     for (char& c : column)
       if (c == '\n' || c == '\r') c = ' ';
     out += "-- The probability for the score column " + column + ":\n" + expression + "\n";
+  }
+  return out;
+}
+
+}  // namespace plumb::io
+
+namespace plumb::io {
+namespace {
+
+// The steps of a multi-class map as nested derived tables: each level
+// selects the previous level's columns and adds its own (names plumb_*),
+// so that every intermediate value is computed once and in apply's order.
+class Levels {
+ public:
+  explicit Levels(SqlDialect dialect) : dialect_(dialect) {}
+  void add(std::vector<std::pair<std::string, std::string>> columns) { levels_.push_back(std::move(columns)); }
+  // SELECT `what` FROM the nested levels.
+  std::string select(const std::string& what) const {
+    std::string inner;
+    for (std::size_t i = 0; i < levels_.size(); ++i) {
+      std::string list;
+      for (const auto& [name, expression] : levels_[i]) list += (list.empty() ? "" : ", ") + expression + " AS " + name;
+      if (i == 0) {
+        inner = "SELECT " + list + (dialect_ == SqlDialect::ansi ? " FROM (VALUES (0)) AS plumb_one (plumb_zero)" : "");
+      } else {
+        const std::string t = "plumb_t" + std::to_string(i);
+        inner = "SELECT " + t + ".*, " + list + " FROM (" + inner + ") AS " + t;
+      }
+    }
+    const std::string t = "plumb_t" + std::to_string(levels_.size());
+    return "SELECT " + what + " FROM (" + inner + ") AS " + t;
+  }
+
+ private:
+  SqlDialect dialect_;
+  std::vector<std::vector<std::pair<std::string, std::string>>> levels_;
+};
+
+std::string sum_of(const std::vector<std::string>& terms) {
+  std::string out = terms[0];
+  for (std::size_t j = 1; j < terms.size(); ++j) out = "(" + out + " + " + terms[j] + ")";
+  return out;
+}
+
+std::string indexed(const std::string& stem, std::size_t j) { return stem + std::to_string(j); }
+
+}  // namespace
+
+std::string class_sql_export(const ClassCalibrationMap& map, const ClassSqlExportOptions& options) {
+  const std::size_t k = map.k();
+  if (options.score_columns.size() != k)
+    throw Error(ErrorKind::internal, "class_sql_export: one score column per class");
+  for (const std::string& column : options.score_columns) {
+    for (const std::string_view name : knot_columns)
+      if (column == name)
+        throw Error(ErrorKind::usage, "a score column has the name of a knot table column", {}, column,
+                    "a column named otherwise (rename it in a view)");
+    if (column.empty() || column.rfind("plumb_", 0) == 0)
+      throw Error(ErrorKind::usage, "a score column's name is empty or starts with plumb_ (the SQL's own names)", {},
+                  column, "a column named otherwise (rename it in a view)");
+  }
+  if (options.knot_table.empty())
+    throw Error(ErrorKind::usage, "an SQL name is empty", {}, {}, "a table name");
+  if (!(options.sum_tolerance >= 0.0 && std::isfinite(options.sum_tolerance)))
+    throw Error(ErrorKind::internal, "class_sql_export: the sum tolerance is negative or not finite");
+  SqlExportOptions binary;
+  binary.dialect = options.dialect;
+  binary.knot_table = options.knot_table;
+  binary.inline_max = options.inline_max;
+  Writer w(binary);
+  const bool probability = map.scale() == ClassScale::probability;
+  std::vector<std::string> x(k);
+  for (std::size_t j = 0; j < k; ++j)
+    x[j] = options.dialect == SqlDialect::ansi ? "CAST(" + sql_name(options.score_columns[j]) + " AS DOUBLE PRECISION)"
+                                                    : sql_name(options.score_columns[j]);
+  // The row as apply checks it (class_row_problem).
+  std::string valid;
+  for (std::size_t j = 0; j < k; ++j) {
+    valid += (valid.empty() ? "" : " AND ") +
+             (probability ? x[j] + " >= " + w.num(0.0) + " AND " + x[j] + " <= " + w.num(1.0)
+                          : x[j] + " >= " + w.num(-std::numeric_limits<double>::max()) + " AND " + x[j] + " <= " +
+                                w.num(std::numeric_limits<double>::max()));
+  }
+  if (probability) valid += " AND abs(" + sum_of(x) + " - " + w.num(1.0) + ") <= " + w.num(options.sum_tolerance);
+
+  const auto greatest = [&](const std::vector<std::string>& v) {
+    std::string out = (options.dialect == SqlDialect::sqlite ? "max(" : "GREATEST(");
+    for (std::size_t j = 0; j < v.size(); ++j) out += (j ? ", " : "") + v[j];
+    return out + ")";
+  };
+  // exp of a value <= 0 held to [-exp_limit, 0] (PostgreSQL raises an error
+  // on underflow): below it apply's term is at most 1e-304 of a sum >= 1.
+  const auto exp_down = [&](const std::string& v) { return w.exp(w.greatest(v, w.num(-exp_limit))); };
+  const auto names = [&](const std::string& stem) {
+    std::vector<std::string> v(k);
+    for (std::size_t j = 0; j < k; ++j) v[j] = indexed(stem, j);
+    return v;
+  };
+  Levels levels(options.dialect);
+  std::vector<std::string> finals(k);
+  if (const auto* m = dynamic_cast<const ClassScalingMap*>(&map)) {
+    // log_probabilities (src/core/class_map.cpp).
+    if (probability) {
+      std::vector<std::pair<std::string, std::string>> floored;
+      for (std::size_t j = 0; j < k; ++j)
+        floored.emplace_back(indexed("plumb_f", j), "CASE WHEN " + x[j] + " < " + w.num(class_probability_floor) +
+                                                        " THEN " + w.num(class_probability_floor) + " ELSE " + x[j] +
+                                                        " END");
+      levels.add(floored);
+      levels.add({{"plumb_ls", w.ln(sum_of(names("plumb_f")))}});
+      std::vector<std::pair<std::string, std::string>> l;
+      for (std::size_t j = 0; j < k; ++j)
+        l.emplace_back(indexed("plumb_l", j), "(" + w.ln(indexed("plumb_f", j)) + " - plumb_ls)");
+      levels.add(l);
+    } else {
+      std::vector<std::pair<std::string, std::string>> first;
+      for (std::size_t j = 0; j < k; ++j) first.emplace_back(indexed("plumb_x", j), x[j]);
+      first.emplace_back("plumb_m", greatest(x));
+      levels.add(first);
+      std::vector<std::string> terms;
+      for (std::size_t j = 0; j < k; ++j) terms.push_back(exp_down("(" + indexed("plumb_x", j) + " - plumb_m)"));
+      levels.add({{"plumb_lse", "(plumb_m + " + w.ln(sum_of(terms)) + ")"}});
+      std::vector<std::pair<std::string, std::string>> l;
+      for (std::size_t j = 0; j < k; ++j)
+        l.emplace_back(indexed("plumb_l", j), "(" + indexed("plumb_x", j) + " - plumb_lse)");
+      levels.add(l);
+    }
+    // The linear part.
+    std::vector<std::pair<std::string, std::string>> eta;
+    for (std::size_t c = 0; c < k; ++c) {
+      std::string e;
+      if (m->form() == ClassScalingMap::Form::temperature) {
+        e = "(" + indexed("plumb_l", c) + " / " + w.num(m->temperature()) + ")";
+      } else if (m->form() == ClassScalingMap::Form::vector) {
+        e = "((" + w.num(m->matrix()[c * k + c]) + " * " + indexed("plumb_l", c) + ") + " + w.num(m->bias()[c]) + ")";
+      } else {
+        std::vector<std::string> products;
+        for (std::size_t j = 0; j < k; ++j)
+          products.push_back("(" + w.num(m->matrix()[c * k + j]) + " * " + indexed("plumb_l", j) + ")");
+        e = "(" + sum_of(products) + " + " + w.num(m->bias()[c]) + ")";
+      }
+      eta.emplace_back(indexed("plumb_e", c), e);
+    }
+    levels.add(eta);
+    // softmax, the largest value taken out first.
+    levels.add({{"plumb_em", greatest(names("plumb_e"))}});
+    std::vector<std::pair<std::string, std::string>> u;
+    for (std::size_t j = 0; j < k; ++j) u.emplace_back(indexed("plumb_u", j), exp_down("(" + indexed("plumb_e", j) + " - plumb_em)"));
+    levels.add(u);
+    const std::string total = sum_of(names("plumb_u"));
+    for (std::size_t c = 0; c < k; ++c) finals[c] = indexed("plumb_u", c) + " / " + total;
+  } else if (const auto* m = dynamic_cast<const OneVsRestMap*>(&map)) {
+    std::size_t pieces_all = 0;
+    for (std::size_t j = 0; j < k; ++j) pieces_all += pieces(m->class_map(j));
+    // SQLite's parser stack (100 deep) cannot hold the binary maps' nested
+    // CASEs inside the nested steps: knot tables for any piecewise map there.
+    w.use_tables = pieces_all > options.inline_max || (options.dialect == SqlDialect::sqlite && pieces_all > 0);
+    // row_probabilities (src/core/maps/one_vs_rest_map.cpp).
+    std::vector<std::pair<std::string, std::string>> first;
+    for (std::size_t j = 0; j < k; ++j) first.emplace_back(indexed("plumb_x", j), x[j]);
+    if (probability) {
+      first.emplace_back("plumb_s", sum_of(x));
+      levels.add(first);
+    } else {
+      first.emplace_back("plumb_m", greatest(x));
+      levels.add(first);
+      std::vector<std::pair<std::string, std::string>> u;
+      for (std::size_t j = 0; j < k; ++j)
+        u.emplace_back(indexed("plumb_u", j), exp_down("(" + indexed("plumb_x", j) + " - plumb_m)"));
+      levels.add(u);
+      levels.add({{"plumb_s", sum_of(names("plumb_u"))}});
+    }
+    std::vector<std::pair<std::string, std::string>> p;
+    for (std::size_t j = 0; j < k; ++j)
+      p.emplace_back(indexed("plumb_p", j), indexed(probability ? "plumb_x" : "plumb_u", j) + " / plumb_s");
+    levels.add(p);
+    // Each class's binary map, then the renormalisation (1/K when every value is 0).
+    std::vector<std::pair<std::string, std::string>> q;
+    for (std::size_t j = 0; j < k; ++j)
+      q.emplace_back(indexed("plumb_q", j), w.probability(m->class_map(j), indexed("plumb_p", j)));
+    levels.add(q);
+    levels.add({{"plumb_qs", sum_of(names("plumb_q"))}});
+    for (std::size_t c = 0; c < k; ++c)
+      finals[c] = "CASE WHEN plumb_qs > " + w.num(0.0) + " THEN " + indexed("plumb_q", c) + " / plumb_qs ELSE " +
+                  w.num(1.0 / static_cast<double>(k)) + " END";
+  } else {
+    throw Error(ErrorKind::usage, "no SQL form for " + kind_with_article(map.kind()) + " map", {},
+                std::string(map.kind()), "temperature, vector, dirichlet or one_vs_rest");
+  }
+
+  std::string note = options.source_note.empty() ? kind_with_article(map.kind()) + " map" : options.source_note;
+  for (char& c : note)
+    if (c == '\n' || c == '\r') c = ' ';
+  const auto one_line = [](std::string t) {
+    for (char& c : t)
+      if (c == '\n' || c == '\r') c = ' ';
+    return t;
+  };
+  std::string classes;
+  for (std::size_t j = 0; j < k; ++j)
+    classes += (j ? ", " : "") + map.classes()[j] + " (" + sql_name(options.score_columns[j]) + ")";
+  std::string out = "-- plumb: " + note + ", on " + std::string(to_string(map.scale())) + " scores of " +
+                    std::to_string(k) + " classes.\n-- Classes and score columns, in order: " + one_line(classes) +
+                    ".\n";
+  out += probability ? "-- NULL for a row with a NULL score and for a row plumb apply refuses (a score below 0, above 1 "
+                       "or not a number, or scores summing further than " +
+                           shortest_text(options.sum_tolerance) + " from 1).\n"
+                     : "-- NULL for a row with a NULL score and for a row plumb apply refuses (a score infinite or "
+                       "not a number).\n";
+  out += w.tables;
+  {
+    out += "-- The probabilities, a select list of " + std::to_string(k) + " columns named as plumb apply names them:\n";
+    for (std::size_t c = 0; c < k; ++c)
+      out += "CASE WHEN " + valid + " THEN (" + levels.select(finals[c]) + ") END AS " +
+             one_line(sql_name(options.score_columns[c] + "_calibrated")) + (c + 1 < k ? ",\n" : "\n");
   }
   return out;
 }

@@ -20,7 +20,9 @@
 #include "capi/map_scores.hpp"
 #include "io/byte_source.hpp"
 #include "plumb/io/artifact.hpp"
+#include "plumb/io/class_artifact.hpp"
 #include "plumb/calibration_map.hpp"
+#include "plumb/class_map.hpp"
 #include "plumb/error.hpp"
 #include "plumb/map_registry.hpp"
 #include "plumb/io/output.hpp"
@@ -291,6 +293,115 @@ struct Map {
   }
 
   json document() const { return plumb::artifact_to_json(*artifact); }
+};
+
+// Maps rows x K scores of T (any strides) into `out` (rows x K, C order),
+// each row read into a row buffer of doubles (no copy of the array), checked
+// as apply checks it, then mapped. Returns the first refused row with its
+// problem, which then stops the mapping.
+struct RowRefusal {
+  std::size_t row;
+  plumb::io::ClassRowProblem problem;
+  double value;
+};
+template <class T>
+std::optional<RowRefusal> map_class_strided(const plumb::ClassCalibrationMap& map, double sum_tolerance,
+                                            const char* base, std::size_t rows, py::ssize_t row_stride,
+                                            py::ssize_t class_stride, double* out) {
+  const std::size_t k = map.k();
+  std::vector<double> in(k);
+  for (std::size_t r = 0; r < rows; ++r) {
+    const char* row = base + static_cast<py::ssize_t>(r) * row_stride;
+    for (std::size_t j = 0; j < k; ++j) {
+      T raw;
+      std::memcpy(&raw, row + static_cast<py::ssize_t>(j) * class_stride, sizeof raw);
+      in[j] = static_cast<double>(raw);
+    }
+    if (auto p = plumb::io::class_row_problem(in.data(), k, map.scale(), sum_tolerance, "the artifact's sum tolerance",
+                                              "the map's scale is " + std::string(plumb::to_string(map.scale()))))
+      return RowRefusal{r, std::move(*p), in[p->column]};
+    map.map(in.data(), out + r * k);
+  }
+  return std::nullopt;
+}
+
+struct ClassMap {
+  std::shared_ptr<const plumb::ClassArtifact> artifact;
+  double sum_tolerance = plumb::io::default_sum_tolerance;
+
+  const plumb::ClassCalibrationMap& map() const { return *artifact->map; }
+
+  py::object call(py::handle scores, py::handle out_in) const {
+    const std::size_t k = map().k();
+    py::array a;
+    if (py::isinstance<py::array>(scores)) {
+      a = py::reinterpret_borrow<py::array>(scores);
+    } else {
+      a = py::array::ensure(scores);
+      if (!a) throw py::error_already_set();
+    }
+    const char kind = a.dtype().kind();
+    if (kind != 'f' && kind != 'i' && kind != 'u' && kind != 'b')
+      throw py::type_error("plumb: scores must be an array of floating-point numbers, got dtype " +
+                           py::str(a.dtype()).cast<std::string>());
+    const char order = a.dtype().byteorder();
+    const bool native =
+        order == '=' || order == '|' || order == (std::endian::native == std::endian::little ? '<' : '>');
+    const bool in_place =
+        kind == 'f' && native &&
+        (a.itemsize() == sizeof(double) || a.itemsize() == sizeof(float) || a.itemsize() == sizeof(long double));
+    if (!in_place) a = py::array_t<double, py::array::forcecast>::ensure(a);
+    if (!a) throw py::error_already_set();
+    const bool one_row = a.ndim() == 1;
+    if (!(a.ndim() == 2 || one_row) || a.shape(a.ndim() - 1) != static_cast<py::ssize_t>(k))
+      throw usage("the scores are not an array of rows of " + std::to_string(k) + " classes",
+                  "shape " + py::str(py::object(a.attr("shape"))).cast<std::string>(),
+                  "shape (rows, " + std::to_string(k) + "), one column per class in the map's order");
+    const std::size_t rows = one_row ? 1 : static_cast<std::size_t>(a.shape(0));
+    const py::ssize_t row_stride = one_row ? 0 : a.strides(0);
+    const py::ssize_t class_stride = a.strides(a.ndim() - 1);
+    const std::vector<py::ssize_t> shape(a.shape(), a.shape() + a.ndim());
+    py::array_t<double> out;
+    if (out_in.is_none()) {
+      out = py::array_t<double>(shape);
+    } else {
+      const bool fits = py::isinstance<py::array_t<double>>(out_in) &&
+                        py::reinterpret_borrow<py::array>(out_in).dtype().is(py::dtype::of<double>());
+      if (fits) out = py::reinterpret_borrow<py::array_t<double>>(out_in);
+      if (!fits || !(out.flags() & py::array::c_style) || !out.writeable() ||
+          static_cast<std::size_t>(out.ndim()) != shape.size() ||
+          !std::equal(shape.begin(), shape.end(), out.shape(), out.shape() + out.ndim()))
+        throw usage("out is not a writable float64 array in C order of the scores' shape",
+                    py::str(py::repr(out_in)).cast<std::string>().substr(0, 80),
+                    "an array like numpy.empty(scores.shape)");
+    }
+    double* o = out.mutable_data();
+    const char* base = static_cast<const char*>(a.data());
+    const std::size_t size = a.itemsize();
+    std::optional<RowRefusal> bad;
+    {
+      py::gil_scoped_release unlocked;
+      if (size == sizeof(double))
+        bad = map_class_strided<double>(map(), sum_tolerance, base, rows, row_stride, class_stride, o);
+      else if (size == sizeof(float))
+        bad = map_class_strided<float>(map(), sum_tolerance, base, rows, row_stride, class_stride, o);
+      else
+        bad = map_class_strided<long double>(map(), sum_tolerance, base, rows, row_stride, class_stride, o);
+    }
+    if (bad) {
+      const std::string row = "row " + std::to_string(bad->row);
+      if (bad->problem.message.rfind("the row's", 0) == 0)  // the sum: no one value to show
+        throw plumb::Error(plumb::ErrorKind::input, row + ": " + bad->problem.message, {}, {}, bad->problem.expected);
+      char text[32];
+      const auto end = std::to_chars(text, text + sizeof text, bad->value).ptr;
+      throw plumb::Error(plumb::ErrorKind::input,
+                         row + ", class '" + map().classes()[bad->problem.column] + "': " + bad->problem.message, {},
+                         std::string(text, end), bad->problem.expected);
+    }
+    return out;
+  }
+
+  json document() const { return plumb::class_artifact_to_json(*artifact); }
 };
 
 // A 1-D float64 copy of `values` (any shape, flattened in C order).
@@ -579,6 +690,49 @@ PYBIND11_MODULE(plumb, m) {
       },
       py::arg("path"),
       "Load and validate a map artifact (the checks `plumb apply` makes); plumb.Error when it is not one.");
+
+  py::class_<ClassMap>(m, "ClassMap",
+                       "A multi-class map artifact (temperature, vector, dirichlet, one_vs_rest). Call it on an "
+                       "array of shape (rows, K), one column per class in the map's order (classes), of any float "
+                       "dtype: it gives a float64 array of the same shape (read in place, without a copy, for "
+                       "float32, float64 and longdouble in the machine's byte order; the GIL is released while "
+                       "mapping). A 1-D array of K scores is one row.")
+      .def("__call__", &ClassMap::call, py::arg("scores"), py::arg("out") = py::none(),
+           "The K probabilities of each row, exactly as `plumb apply --scores` writes them. A row apply refuses "
+           "(a logit not finite; a probability outside [0, 1] or NaN, or a row whose sum misses 1 by more than "
+           "the artifact's sum tolerance) raises plumb.Error naming the row and class. With out (a float64 array "
+           "in C order of the scores' shape, which may be the scores themselves) the probabilities are written "
+           "there and out is returned.")
+      .def_property_readonly("kind", [](const ClassMap& self) { return std::string(self.map().kind()); })
+      .def_property_readonly("scale",
+                             [](const ClassMap& self) { return std::string(plumb::to_string(self.map().scale())); })
+      .def_property_readonly("classes", [](const ClassMap& self) { return self.map().classes(); })
+      .def_property_readonly("score_columns", [](const ClassMap& self) { return self.artifact->score_columns; })
+      .def_property_readonly("parameters", [](const ClassMap& self) { return to_python(self.map().parameters()); })
+      .def_property_readonly("provenance",
+                             [](const ClassMap& self) { return to_python(self.document()["provenance"]); })
+      .def_property_readonly(
+          "fit", [](const ClassMap& self) { return to_python(self.document()["fit"]); },
+          "The fit's diagnostics and options, as the artifact records them.")
+      .def(
+          "text", [](const ClassMap& self) { return plumb::class_artifact_to_text(*self.artifact); },
+          "The artifact's JSON text.")
+      .def("__repr__", [](const ClassMap& self) {
+        return "<plumb.ClassMap " + std::string(self.map().kind()) + " on " +
+               std::string(plumb::to_string(self.map().scale())) + " scores of " + std::to_string(self.map().k()) +
+               " classes>";
+      });
+
+  m.def(
+      "load_class_map",
+      [](const std::string& path) {
+        auto a = std::make_shared<plumb::ClassArtifact>(plumb::embed::load_class_artifact(path));
+        const double tolerance = plumb::embed::class_sum_tolerance(*a);
+        return ClassMap{std::move(a), tolerance};
+      },
+      py::arg("path"),
+      "Load and validate a multi-class map artifact (format version 4, written by plumb fit --scores or "
+      "cross-fit --scores); plumb.Error when it is not one (load_map reads a binary map).");
 
   m.def("fit", &fit, py::arg("scores"), py::arg("labels"), py::arg("kind"), py::arg("weights") = py::none(),
         py::kw_only(), py::arg("scale") = "probability", py::arg("between_blocks") = "linear",

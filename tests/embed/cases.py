@@ -104,3 +104,55 @@ def build(work):
     scores, probabilities = _applied(work, "fixture", fixture, os.path.join(work, "fixture.scores.csv"), column)
     cases.append(("fixture.given-split", fixture, scores, probabilities))
     return cases
+
+
+CLASS_COLUMNS = ["p_on_time", "p_late", "p_lost", "p_returned"]
+# Awkward rows (each accepted by apply): exact zeros, ties, a class near 1,
+# probabilities below the floor; and logits large, equal and far apart.
+CLASS_PROBABILITY_ROWS = [["1", "0", "0", "0"], ["0.25", "0.25", "0.25", "0.25"], ["0.5", "0.5", "0", "0"],
+                          ["0.9999999999999999", "1e-16", "0", "0"], ["1e-300", "0.5", "0.5", "5e-324"],
+                          ["0.9995", "0", "0", "0"]]
+CLASS_LOGIT_ROWS = [["0", "0", "0", "0"], ["700", "700", "-700", "0"], ["1e300", "0", "-1e300", "5"],
+                    ["-745", "-746", "-800", "-745"], ["30", "-30", "15.5", "-0"]]
+
+
+def build_classes(work):
+    """Multi-class cases in directory `work`: each kind fitted on the outcome
+    data (data/outcomes.csv; on the logit scale its logarithms) and applied
+    to data/outcomes_tonight.csv and the awkward rows above. Returns a list of
+    (name, map path, rows of K score texts, rows of K probability texts)."""
+    outcomes = os.path.join(DATA, "outcomes.csv")
+    with open(outcomes, newline="") as f:
+        fit_rows = list(csv.DictReader(f))
+    with open(os.path.join(DATA, "outcomes_tonight.csv"), newline="") as f:
+        tonight = [[r[c] for c in CLASS_COLUMNS] for r in csv.DictReader(f)]
+
+    def log_text(v):
+        return repr(math.log(max(float(v), 1e-300)))
+
+    _write(os.path.join(work, "outcomes.z.csv"), CLASS_COLUMNS + ["outcome"],
+           [[log_text(r[c]) for c in CLASS_COLUMNS] + [r["outcome"]] for r in fit_rows])
+    rows_p = tonight + CLASS_PROBABILITY_ROWS
+    rows_z = [[log_text(v) for v in r] for r in tonight] + CLASS_LOGIT_ROWS
+    _write(os.path.join(work, "classes.p.csv"), CLASS_COLUMNS, rows_p)
+    _write(os.path.join(work, "classes.z.csv"), CLASS_COLUMNS, rows_z)
+    cases = []
+    for name, options, logit in [("temperature", ["--map", "temperature"], False),
+                                 ("vector", ["--map", "vector"], False),
+                                 ("dirichlet", ["--map", "dirichlet", "--l2", "0.001"], False),
+                                 ("one_vs_rest", ["--map", "one_vs_rest"], False),
+                                 ("one_vs_rest-platt", ["--map", "one_vs_rest", "--per-class", "platt"], False),
+                                 ("temperature-logit", ["--map", "temperature"], True),
+                                 ("dirichlet-logit", ["--map", "dirichlet", "--l2", "0.001"], True),
+                                 ("one_vs_rest-logit", ["--map", "one_vs_rest"], True)]:
+        path = os.path.join(work, "classes." + name + ".map.json")
+        plumb("fit", "-q", *options, "--scores", "p_*", "--label", "outcome",
+              *(["--scale", "logit"] if logit else []),
+              os.path.join(work, "outcomes.z.csv") if logit else outcomes, "-o", path)
+        out = os.path.join(work, "classes." + name + ".applied.csv")
+        plumb("apply", "-q", path, os.path.join(work, "classes.z.csv" if logit else "classes.p.csv"), "-o", out)
+        with open(out, newline="") as f:
+            applied = list(csv.DictReader(f))
+        cases.append(("classes." + name, path, [[r[c] for c in CLASS_COLUMNS] for r in applied],
+                      [[r[c + "_calibrated"] for c in CLASS_COLUMNS] for r in applied]))
+    return cases

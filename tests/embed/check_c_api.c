@@ -13,6 +13,13 @@
  *       with one shared map at once, each checking apply's bits; each then
  *       fails on a score of its own and must read its own message from
  *       plumb_last_error, not another thread's.
+ *   check_c_api classes MAP SCORES EXPECTED   a multi-class map: SCORES and
+ *       EXPECTED hold rows x K numbers, row-major, one per line; map them all
+ *       and compare bit for bit, again in place, then with four threads
+ *       sharing the map.
+ *   check_c_api class_errors MAP BINARY_MAP   the multi-class refusals: a
+ *       refused row mid-buffer (rows before it written, the rest untouched),
+ *       NULL arguments, a binary map given to the multi-class loader.
  *
  * Prints one line per failure and "N checks, M failed"; exits 1 on any. */
 /* pthread barriers are POSIX, outside strict C11. */
@@ -242,6 +249,124 @@ static void run_threads(const char* map_path, const char* scores_path, const cha
   free(expected);
 }
 
+struct class_job {
+  const plumb_class_map* map;
+  const double* scores;
+  const double* expected;
+  size_t rows, k;
+  pthread_barrier_t* barrier;
+  size_t differ;
+  int rc;
+};
+
+static void* class_concurrently(void* arg) {
+  struct class_job* job = arg;
+  double* out = malloc(job->rows * job->k * sizeof *out);
+  pthread_barrier_wait(job->barrier);
+  for (int round = 0; round < 3 && job->rc == 0; ++round) {
+    job->rc = plumb_class_map_apply(job->map, job->scores, out, job->rows);
+    for (size_t i = 0; i < job->rows * job->k; ++i) job->differ += !same_bits(out[i], job->expected[i]);
+  }
+  free(out);
+  return NULL;
+}
+
+static void run_classes(const char* map_path, const char* scores_path, const char* expected_path) {
+  size_t n, m;
+  double* scores = read_numbers(scores_path, &n);
+  double* expected = read_numbers(expected_path, &m);
+  check(n == m && n > 0, "as many expected probabilities as scores", NULL);
+  plumb_class_map* map = plumb_class_map_load(map_path);
+  check(map != NULL, "load", plumb_last_error());
+  if (!map || n != m) return;
+  const size_t k = plumb_class_map_classes(map);
+  check(k >= 2 && n % k == 0, "rows of K scores", NULL);
+  const size_t rows = n / k;
+  double* out = malloc(n * sizeof *out);
+  check(plumb_class_map_apply(map, scores, out, rows) == 0, "apply", plumb_last_error());
+  size_t differ = 0, first = 0;
+  for (size_t i = 0; i < n; ++i)
+    if (!same_bits(out[i], expected[i]) && differ++ == 0) first = i;
+  char detail[200];
+  snprintf(detail, sizeof detail, "%zu of %zu differ, first at row %zu class %zu: %.17g, apply wrote %.17g", differ, n,
+           first / k, first % k, differ ? out[first] : 0.0, differ ? expected[first] : 0.0);
+  check(differ == 0, "bit-identical to plumb apply --scores", detail);
+  /* In place: out may be the scores buffer itself. */
+  double* copy = malloc(n * sizeof *copy);
+  memcpy(copy, scores, n * sizeof *copy);
+  check(plumb_class_map_apply(map, copy, copy, rows) == 0, "apply in place", plumb_last_error());
+  check(memcmp(copy, out, n * sizeof *out) == 0, "in place gives the same bits", NULL);
+  /* Four threads share the map. */
+  pthread_barrier_t barrier;
+  pthread_barrier_init(&barrier, NULL, thread_count);
+  pthread_t threads[thread_count];
+  struct class_job jobs[thread_count];
+  for (int t = 0; t < thread_count; ++t) {
+    jobs[t] = (struct class_job){map, scores, expected, rows, k, &barrier, 0, 0};
+    pthread_create(&threads[t], NULL, class_concurrently, &jobs[t]);
+  }
+  for (int t = 0; t < thread_count; ++t) pthread_join(threads[t], NULL);
+  for (int t = 0; t < thread_count; ++t)
+    check(jobs[t].rc == 0 && jobs[t].differ == 0, "a thread's probabilities are apply's bits", NULL);
+  pthread_barrier_destroy(&barrier);
+  check(plumb_class_map_class(map, 0) != NULL && plumb_class_map_class(map, k) == NULL, "class names, NULL past K",
+        NULL);
+  check(plumb_class_map_score_column(map, k - 1) != NULL && plumb_class_map_score_column(map, k) == NULL,
+        "score columns, NULL past K", NULL);
+  printf("%s: %s map on %s scores of %zu classes (%s ... %s), %zu rows\n", map_path, plumb_class_map_kind(map),
+         plumb_class_map_scale(map), k, plumb_class_map_class(map, 0), plumb_class_map_class(map, k - 1), rows);
+  plumb_class_map_free(map);
+  free(scores);
+  free(expected);
+  free(out);
+  free(copy);
+}
+
+static void run_class_errors(const char* map_path, const char* binary_path) {
+  check(plumb_class_map_load(binary_path) == NULL && plumb_last_error_code() == 4 &&
+            contains(plumb_last_error(), "binary map"),
+        "a binary map's artifact: artifact error (4)", plumb_last_error());
+  check(plumb_map_load(map_path) == NULL && plumb_last_error_code() == 4 && contains(plumb_last_error(), "multi-class"),
+        "the binary loader refuses a multi-class map (4)", plumb_last_error());
+  check(plumb_class_map_load(NULL) == NULL && plumb_last_error_code() == 2, "a NULL path: usage (2)", NULL);
+  check(plumb_class_map_from_text("{", 1, NULL) == NULL && plumb_last_error_code() == 4 &&
+            contains(plumb_last_error(), "<memory>"),
+        "truncated JSON: artifact error (4) naming <memory>", plumb_last_error());
+  plumb_class_map* map = plumb_class_map_load(map_path);
+  check(map != NULL, "load", plumb_last_error());
+  if (!map) return;
+  const size_t k = plumb_class_map_classes(map);
+  const int probability = strcmp(plumb_class_map_scale(map), "probability") == 0;
+  double* scores = malloc(3 * k * sizeof *scores);
+  double* out = malloc(3 * k * sizeof *out);
+  for (size_t i = 0; i < 3 * k; ++i) {
+    scores[i] = (i % k == 0) ? 1.0 : 0.0;
+    out[i] = -1;
+  }
+  scores[k + 1] = strtod("nan", NULL); /* row 1, class 1 */
+  check(plumb_class_map_apply(map, scores, out, 3) == 3, "NaN: bad input (3)", plumb_last_error());
+  check(contains(plumb_last_error(), "row 1, class '") && contains(plumb_last_error(), "nan"),
+        "NaN: the message names the row, the class and the value", plumb_last_error());
+  check(out[0] >= 0 && out[k] == -1 && out[2 * k] == -1, "rows before it mapped, the rest left as they were", NULL);
+  scores[k + 1] = strtod("inf", NULL);
+  check(plumb_class_map_apply(map, scores, out, 3) == 3 && contains(plumb_last_error(), "row 1"),
+        "infinity: bad input (3) naming the row", plumb_last_error());
+  if (probability) {
+    scores[k + 1] = 0.5; /* row 1 sums to 1.5 */
+    check(plumb_class_map_apply(map, scores, out, 3) == 3 && contains(plumb_last_error(), "row 1: the row's") &&
+              contains(plumb_last_error(), "sum to 1.5"),
+          "a row summing to 1.5: bad input (3)", plumb_last_error());
+  }
+  check(plumb_class_map_apply(NULL, scores, out, 3) == 2, "a NULL map: usage (2)", NULL);
+  check(plumb_class_map_apply(map, NULL, out, 3) == 2, "a NULL buffer: usage (2)", NULL);
+  check(plumb_class_map_apply(map, NULL, NULL, 0) == 0, "no rows, no buffers: nothing to do", plumb_last_error());
+  check(plumb_class_map_classes(NULL) == 0 && plumb_class_map_kind(NULL) == NULL, "a NULL map's accessors", NULL);
+  plumb_class_map_free(NULL);
+  plumb_class_map_free(map);
+  free(scores);
+  free(out);
+}
+
 int main(int argc, char** argv) {
   if (argc == 5 && strcmp(argv[1], "map") == 0) {
     run_map(argv[2], argv[3], argv[4]);
@@ -249,8 +374,12 @@ int main(int argc, char** argv) {
     run_threads(argv[2], argv[3], argv[4]);
   } else if (argc == 3 && strcmp(argv[1], "errors") == 0) {
     run_errors(argv[2]);
+  } else if (argc == 5 && strcmp(argv[1], "classes") == 0) {
+    run_classes(argv[2], argv[3], argv[4]);
+  } else if (argc == 4 && strcmp(argv[1], "class_errors") == 0) {
+    run_class_errors(argv[2], argv[3]);
   } else {
-    fprintf(stderr, "usage: check_c_api map|threads MAP SCORES EXPECTED | errors MAP\n");
+    fprintf(stderr, "usage: check_c_api map|threads|classes MAP SCORES EXPECTED | errors MAP | class_errors MAP BINARY_MAP\n");
     return 2;
   }
   printf("%d checks, %d failed\n", checks, failures);

@@ -50,6 +50,20 @@ class CApi(unittest.TestCase):
                 with self.subTest(case=name):
                     self.run_check("threads", map_path, *self.files(name, scores, probabilities))
 
+    def test_multi_class_maps_bit_identical_to_apply(self):
+        for name, map_path, rows, probabilities in cases.build_classes(self.tmp.name):
+            with self.subTest(case=name):
+                self.assertGreater(len(rows), 20000)
+                flat = [v for r in rows for v in r]
+                self.run_check("classes", map_path, *self.files(name, flat, [v for r in probabilities for v in r]))
+
+    def test_multi_class_refusals(self):
+        binary = next(c[1] for c in self.cases if c[0] == "demo.platt")
+        for name, map_path, _, _ in cases.build_classes(self.tmp.name):
+            if name in ("classes.vector", "classes.dirichlet-logit"):
+                with self.subTest(case=name):
+                    self.run_check("class_errors", map_path, binary)
+
     def test_refusals(self):
         for name in ["demo.isotonic", "logit.platt"]:
             with self.subTest(case=name):

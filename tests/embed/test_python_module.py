@@ -197,6 +197,104 @@ class DtypesAndShapes(Shared):
         self.assertGreater(used, n * 8 + n * 8 - slack, "an int32 array is copied to float64")
 
 
+class ClassMapsLikeApply(unittest.TestCase):
+    """plumb.load_class_map: rows x K arrays mapped as plumb apply --scores
+    maps them (cases.build_classes: every multi-class kind on the outcome
+    data and awkward rows)."""
+
+    @classmethod
+    def setUpClass(cls):
+        cls.cases = cases.build_classes(TMP.name)
+        cls.vector = plumb.load_class_map(next(c[1] for c in cls.cases if c[0] == "classes.vector"))
+        cls.rows = np.array([[float(v) for v in r] for r in next(c[2] for c in cls.cases if c[0] == "classes.vector")])
+
+    def test_every_case_bit_identical_to_apply(self):
+        for name, path, rows, probabilities in self.cases:
+            with self.subTest(case=name):
+                m = plumb.load_class_map(path)
+                got = m(np.array([[float(v) for v in r] for r in rows]))
+                want = np.array([[float(v) for v in r] for r in probabilities])
+                self.assertEqual(got.dtype, np.float64)
+                self.assertEqual(got.shape, want.shape)
+                self.assertTrue(np.array_equal(got.view(np.uint64), want.view(np.uint64)),
+                                f"{np.count_nonzero(got != want)} of {want.size} differ")
+
+    def test_attributes_are_the_artifact(self):
+        path = next(c[1] for c in self.cases if c[0] == "classes.dirichlet")
+        with open(path) as f:
+            doc = json.load(f)
+        m = plumb.load_class_map(path)
+        self.assertEqual(m.kind, "dirichlet")
+        self.assertEqual(m.scale, "probability")
+        self.assertEqual(m.classes, doc["classes"])
+        self.assertEqual(m.score_columns, doc["input"]["score_columns"])
+        self.assertEqual(m.parameters, doc["parameters"])
+        self.assertEqual(m.provenance, doc["provenance"])
+        self.assertIn("dirichlet", repr(m))
+
+    def test_one_row_strides_and_out(self):
+        want = self.vector(self.rows)
+        self.assertTrue(np.array_equal(self.vector(self.rows[3]), want[3]))  # one row, 1-D
+        fortran = np.asfortranarray(self.rows)
+        self.assertTrue(np.array_equal(self.vector(fortran), want))
+        self.assertTrue(np.array_equal(self.vector(self.rows[::2]), want[::2]))
+        f32 = self.rows.astype(np.float32)
+        expected32 = self.vector(f32.astype(np.float64))
+        self.assertTrue(np.array_equal(self.vector(f32), expected32))
+        out = np.empty_like(self.rows)
+        self.assertIs(self.vector(self.rows, out=out), out)
+        self.assertTrue(np.array_equal(out, want))
+        inplace = self.rows.copy()
+        self.vector(inplace, out=inplace)
+        self.assertTrue(np.array_equal(inplace, want))
+        with self.assertRaises(plumb.Error):
+            self.vector(self.rows, out=np.empty((3, 4)))
+        with self.assertRaises(plumb.Error) as e:
+            self.vector(self.rows[:, :3])
+        self.assertIn("rows of 4 classes", str(e.exception))
+
+    def test_no_copy_of_float_rows(self):
+        # As for binary maps: the peak during the call is the float64 result,
+        # not a copy of the rows (a float32 and a strided array included).
+        n = 250_000
+        base = np.resize(self.rows, (2 * n, 4))
+
+        def peak(a):
+            tracemalloc.start()
+            try:
+                tracemalloc.reset_peak()
+                before = tracemalloc.get_traced_memory()[0]
+                out = self.vector(a)
+                return tracemalloc.get_traced_memory()[1] - before, out
+            finally:
+                tracemalloc.stop()
+
+        slack = 64 * 1024
+        for name, a in [("float64 strided", base[::2]), ("float32", base[:n].astype(np.float32)),
+                        ("float64 Fortran order", np.asfortranarray(base[:n]))]:
+            with self.subTest(array=name):
+                used, out = peak(a)
+                self.assertEqual(out.shape, (n, 4))
+                self.assertLess(used, n * 4 * 8 + slack, f"{used} bytes for {name}")
+
+    def test_refused_rows_carry_plumbs_message(self):
+        bad = self.rows[:5].copy()
+        bad[2, 1] = np.nan
+        with self.assertRaises(plumb.Error) as e:
+            self.vector(bad)
+        self.assertEqual(e.exception.exit_code, 3)
+        self.assertIn("row 2, class 'late'", str(e.exception))
+        bad[2] = [0.5, 0.5, 0.5, 0.0]
+        with self.assertRaises(plumb.Error) as e:
+            self.vector(bad)
+        self.assertIn("row 2: the row's 4 probabilities sum to", str(e.exception))
+        binary = next(c[1] for c in CASES if c[0] == "demo.platt")
+        with self.assertRaises(plumb.Error) as e:
+            plumb.load_class_map(binary)
+        self.assertEqual(e.exception.exit_code, 4)
+        self.assertIn("binary map", str(e.exception))
+
+
 class Exceptions(Shared):
     def test_error_is_an_exception_class(self):
         self.assertTrue(issubclass(plumb.Error, Exception))

@@ -38,7 +38,10 @@
 #include <string>
 #include <string_view>
 
+#include <vector>
+
 #include "plumb/calibration_map.hpp"
+#include "plumb/class_map.hpp"
 
 namespace plumb::io {
 
@@ -81,5 +84,40 @@ struct SqlExportOptions {
 // could not tell them apart), when a name is empty, or when the map is of a
 // kind it does not know.
 std::string sql_export(const CalibrationMap& map, const SqlExportOptions& options);
+
+// A multi-class map (temperature, vector, dirichlet, one_vs_rest) as SQL of
+// its K score columns. The map's steps (plumb/class_map.hpp) are written as
+// nested derived tables, one per step, each computing its values once and
+// in apply's order: the row's log-probabilities (the floor, the logarithms,
+// the logarithm of their sum; or log-sum-exp with the row's largest logit
+// taken out), the linear part, then softmax with the largest value taken
+// out before exp; for one_vs_rest the row's probabilities, each class's
+// binary map as sql_export writes it (knot tables shared out as there,
+// counting the pieces of all K maps against inline_max; always knot tables
+// for sqlite, whose parser stack cannot hold the nested CASEs there), then the
+// renormalisation (1/K each when every mapped value is 0). exp of a value
+// below -700 is taken at -700 (PostgreSQL raises an error on underflow),
+// which moves a probability by less than 1e-300.
+//
+// Every dialect: after a comment line starting "-- The probabilities", a
+// select list of K expressions, each "CASE ... END AS "COLUMN_calibrated""
+// (apply's default names), separated by commas; each expression is a
+// correlated scalar subquery of the row. (No function for postgresql: a
+// function holding the subqueries is not inlined into the query, and
+// PostgreSQL then spends milliseconds a row on it.) A row apply refuses (a logit
+// not finite; a probability outside [0, 1] or not a number, or a sum further
+// than sum_tolerance from 1) and a row with a NULL score give NULL. Throws
+// plumb::Error(usage) for a score column named as a knot table column or
+// starting with plumb_ (the text's own names), an empty name, or a kind it
+// does not know.
+struct ClassSqlExportOptions {
+  SqlDialect dialect = SqlDialect::sqlite;
+  std::vector<std::string> score_columns;  // one per class, in class order
+  std::string knot_table = "plumb_knots";
+  std::size_t inline_max = 128;
+  std::string source_note;
+  double sum_tolerance = 1e-3;  // as apply uses it: the artifact's fit_options.sum_tolerance, else 1e-3
+};
+std::string class_sql_export(const ClassCalibrationMap& map, const ClassSqlExportOptions& options);
 
 }  // namespace plumb::io
