@@ -88,7 +88,7 @@ std::vector<double> histogram(std::span<const double> f, std::span<const double>
 // Poisson(1) counts of 32-bit uniforms (poisson1_of_u32, bootstrap.hpp)
 // looked up by their leading 16 bits: the count when every uniform with
 // those bits inverts to it (255 when they straddle a step of the
-// distribution function, a few prefixes in 10^5), so a draw costs one table
+// distribution function, about one prefix in 10^4), so a draw costs one table
 // read and gives the same count as poisson1_of_u32.
 struct Poisson1Prefix {
   std::vector<std::uint8_t> count;
@@ -163,7 +163,7 @@ ClassBootstrapResult bootstrap_class_report(const std::vector<double>& p, const 
       t[i] = draw(static_cast<std::uint32_t>(u >> 32));
       t[i + 1] = draw(static_cast<std::uint32_t>(u));  // past the last row when m is odd: never read
     }
-    std::size_t full = m - m % lanes;
+    const std::size_t full = m - m % lanes;
     for (std::size_t j = 0; j < totals; ++j) {
       const double* x = term[j].data() + from;
       double acc[lanes];
