@@ -49,19 +49,17 @@ CalibrationRegression calibration_regression(std::span<const double> forecast,
 // taken in another order, so the last bits can differ from the row form.
 CalibrationRegression calibration_regression(const ForecastCells& cells);
 
-// The weighted observations that fit is made of, gathered one distinct
-// forecast at a time (ascending), for callers that hold per-forecast sums
-// without a ForecastCells (report --tally builds them before its cells, so
-// the two are never held at once). add() takes what the cells' entries
-// hold: the forecast, its rows, weight, positive and negative weight;
-// calibration_regression(observations) then gives calibration_regression's
-// numbers for those cells, bit for bit.
-struct RegressionObservations {
-  std::vector<double> logit, label, weight;
-  double total = 0.0;
-  std::uint64_t clipped = 0;
-  void add(double forecast, std::uint64_t rows, double weight_sum, double positives, double negatives);
-};
-CalibrationRegression calibration_regression(const RegressionObservations& observations);
+// The same fit from per-forecast sums without a ForecastCells (report
+// --tally reads its tally's sums): forecast c, ascending, with weight[c]
+// (the rows' weight), positives[c] (sum w y) and negatives[c]
+// (sum w (1 - y)), and rows[c] rows (empty: rows[c] is weight[c], every row
+// weighing 1). calibration_regression(cells) is this on the cells' columns,
+// so the two agree bit for bit. The Newton steps read the sums in place
+// (fit_logistic_paired): the only copy is one log-odds per forecast.
+CalibrationRegression calibration_regression_of_sums(std::span<const double> forecast,
+                                                    std::span<const double> weight,
+                                                    std::span<const double> positives,
+                                                    std::span<const double> negatives,
+                                                    std::span<const std::uint64_t> rows = {});
 
 }  // namespace plumb

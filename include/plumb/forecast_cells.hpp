@@ -27,16 +27,19 @@ struct ForecastCells {
   std::size_t size() const noexcept { return forecast.size(); }
 };
 
-// Rows given as cells, in the order of the rows they stand for (report
-// --tally): cell c is rows[c] rows of forecast[c] and label[c] (0 or 1)
-// whose weights sum to weight[c] and their squares to weight_sq[c]. With
-// unit_weights every row weighs 1 (weight[c] == rows[c]; weight and
-// weight_sq may then be left empty, as report --tally leaves them: nothing
-// reads them) and a sum over the rows is taken row by row, in the same
-// order and with the same rounding as over the rows themselves; otherwise a
-// cell enters a sum once, with its weight.
-struct LabelCells {
-  std::vector<double> forecast, label, weight, weight_sq;
+// Rows given per score (report --tally reads its tally so): entry c stands
+// for rows of forecast[c], negatives[c] the weight of those of label 0 and
+// positives[c] of those of label 1, rows[c] rows in all (zero-weight rows
+// included) whose squared weights sum to weight_sq[c]. With unit_weights
+// every row weighs 1: negatives and positives are row counts (whole
+// numbers), and rows and weight_sq are left empty. Entries may come in any
+// order and may repeat a forecast (a map can send two scores to one
+// forecast). A sum over the rows is taken entry by entry, an entry's label-0
+// rows before its label-1 rows; with unit_weights row by row, with the same
+// rounding as over the rows themselves, otherwise each label's weight once,
+// with the entry's rows and squared weights counted on its first label.
+struct TallyCells {
+  std::vector<double> forecast, negatives, positives, weight_sq;
   std::vector<std::uint64_t> rows;
   bool unit_weights = true;
   std::size_t size() const noexcept { return forecast.size(); }

@@ -38,4 +38,13 @@ LogisticFit fit_logistic(std::span<const double> features, std::size_t k,
                          std::span<const double> target, std::span<const double> weight,
                          bool intercept = true, int max_iterations = 100);
 
+// fit_logistic with one feature and an intercept, given per distinct value:
+// value c stands for the rows (x[c], target 1, weight positive[c]) and
+// (x[c], target 0, weight negative[c]), in that order, value after value.
+// The fit is fit_logistic's on those rows, bit for bit (rows of zero weight
+// take no part in either), without the rows being stored: memory is the
+// three spans given, not six arrays of rows and a cache of their terms.
+LogisticFit fit_logistic_paired(std::span<const double> x, std::span<const double> positive,
+                                std::span<const double> negative, int max_iterations = 100);
+
 }  // namespace plumb

@@ -234,21 +234,24 @@ Report build_report(std::span<const ForecastColumn> columns, std::span<const dou
                     std::span<const std::string> segment_names, const std::vector<Gate>& gates,
                     const ReportOptions& options);
 
-// One forecast column given as cells of rows (forecast_cells.hpp), as
-// report --tally reads it.
+// One forecast column given per score (forecast_cells.hpp), as report
+// --tally reads it.
 struct ForecastCellColumn {
   std::string name;
-  LabelCells cells;
+  TallyCells cells;
 };
 
-// The report of the rows the cells stand for, without segments: with
+// The report of the rows the entries stand for, without segments: with
 // unit_weights the same report, number for number, as build_report on those
-// rows in the cells' order (every row-order sum is taken row by row; the
-// calibration regression works on cells in both). Memory and the rank-based
-// work are O(cells); the row-order sums are O(rows) additions. With weights
-// the sums take each cell once with its weight, and the effective sizes
-// read weight_sq; the bootstrap then needs each row's weight and
-// options.bootstrap > 0 gives Error(usage).
+// rows in the entries' order, each entry's label-0 rows first (every
+// row-order sum is taken row by row; the calibration regression works on
+// per-forecast sums in both). Memory and the rank-based work are
+// O(entries): entries sorted by forecast and distinct (a tally's) are read
+// in place, without a copy per distinct forecast; the row-order sums are
+// O(rows) additions. With weights the sums take each label of an entry once
+// with its weight, and the effective sizes read weight_sq; the bootstrap
+// then needs each row's weight and options.bootstrap > 0 gives
+// Error(usage).
 Report build_report_of_cells(std::span<const ForecastCellColumn> columns, const std::vector<Gate>& gates,
                              const ReportOptions& options);
 

@@ -8,11 +8,9 @@
 #include <cstdio>
 #include <cstdlib>
 #include <filesystem>
-#include <fstream>
 #include <map>
 #include <memory>
 #include <optional>
-#include <sstream>
 #include <string>
 #include <utility>
 
@@ -151,9 +149,11 @@ struct ReportCliOptions {
   std::vector<std::string> given_binary;  // options given that do not go with --scores
 };
 
-// The tally named by --tally, checked against the columns asked for.
-Tally load_report_tally(const ReportCliOptions& o, const io::LabelledColumns& columns) {
-  Tally t = load_tally(o.tally);
+// The tally named by --tally, checked against the columns asked for;
+// `sha256` receives the SHA-256 of its bytes as stored, hashed as they were
+// read.
+Tally load_report_tally(const ReportCliOptions& o, const io::LabelledColumns& columns, std::string* sha256) {
+  Tally t = load_tally(o.tally, sha256);
   Location loc;
   loc.file = o.tally;
   if (!t.weight_column.empty() && t.weight_sq.size() != t.score.size())
@@ -178,47 +178,34 @@ Tally load_report_tally(const ReportCliOptions& o, const io::LabelledColumns& co
   return t;
 }
 
-// The rows a tally stands for as cells, in score order (at each score its
-// negatives, then its positives): a reordering of the rows it was built
-// from, which is all the report needs (its figures and its bootstrap treat
-// the rows as a set). `map` (may be null) turns each score into the
-// forecast; `outside` counts the rows whose score the map held at an end.
-// With weights a score's rows and squared weights are not split by label:
-// they sit on its first cell (the report's bins hold whole scores).
-LabelCells cells_of_tally(const Tally& t, const CalibrationMap* map, std::uint64_t* outside) {
-  LabelCells cells;
+// The rows a tally stands for, one entry per score in score order (the
+// report reads an entry's negatives, then its positives): a reordering of
+// the rows it was built from, which is all the report needs (its figures
+// and its bootstrap treat the rows as a set). `map` (may be null) turns
+// each score into the forecast; `outside` counts the rows whose score the
+// map held at an end. With `last` the tally's sums are moved, not copied
+// (no later column needs them).
+TallyCells cells_of_tally(Tally& t, const CalibrationMap* map, std::uint64_t* outside, bool last) {
+  TallyCells cells;
   cells.unit_weights = t.unit_weights;
-  std::size_t n = 0;
-  for (std::size_t i = 0; i < t.score.size(); ++i) n += (t.negative[i] > 0.0 ? 1 : 0) + (t.positive[i] > 0.0 ? 1 : 0);
-  cells.forecast.reserve(n);
-  cells.label.reserve(n);
-  if (!t.unit_weights) cells.weight.reserve(n);
-  cells.rows.reserve(n);
-  if (!t.unit_weights) cells.weight_sq.reserve(n);
-  for (std::size_t i = 0; i < t.score.size(); ++i) {
-    double f = t.score[i];
-    if (map) {
-      const Mapped r = map->map(f);
-      f = r.probability;
+  if (map) {
+    cells.forecast.resize(t.score.size());
+    for (std::size_t i = 0; i < t.score.size(); ++i) {
+      const Mapped r = map->map(t.score[i]);
+      cells.forecast[i] = r.probability;
       if (r.outside_fit_range && outside) *outside += t.count[i];
     }
-    const double weight[2] = {t.negative[i], t.positive[i]};
-    bool first = true;
-    for (int l = 0; l < 2; ++l) {
-      if (!(weight[l] > 0.0)) continue;
-      cells.forecast.push_back(f);
-      cells.label.push_back(l);
-      if (t.unit_weights) {
-        // Every row weighs 1: the report reads weight and weight_sq only of
-        // weighted cells (forecast_cells.hpp), so they stay empty.
-        cells.rows.push_back(static_cast<std::uint64_t>(weight[l]));
-      } else {
-        cells.weight.push_back(weight[l]);
-        cells.weight_sq.push_back(first ? t.weight_sq[i] : 0.0);
-        cells.rows.push_back(first ? t.count[i] : 0);
-      }
-      first = false;
-    }
+  }
+  auto take = [last](auto& v) {
+    if (last) return std::move(v);
+    return std::remove_reference_t<decltype(v)>(v);
+  };
+  if (!map) cells.forecast = take(t.score);
+  cells.negatives = take(t.negative);
+  cells.positives = take(t.positive);
+  if (!t.unit_weights) {
+    cells.rows = take(t.count);
+    cells.weight_sq = take(t.weight_sq);
   }
   return cells;
 }
@@ -297,17 +284,6 @@ MapOrigin map_origin(const std::string& column, const std::string& file, const A
   return m;
 }
 
-// The SHA-256 of a tally file's bytes for the history; empty for standard
-// input, which cannot be read twice.
-std::string tally_sha256(const std::string& path) {
-  if (path == "-") return {};
-  std::ifstream in(path, std::ios::binary);
-  std::ostringstream bytes;
-  bytes << in.rdbuf();
-  if (!in.good() && !in.eof()) return {};
-  return io::sha256_hex(bytes.str());
-}
-
 int run_report_classes(const ReportCliOptions& o);
 
 int run_report(const ReportCliOptions& o) {
@@ -384,22 +360,19 @@ int run_report(const ReportCliOptions& o) {
   };
   if (!o.tally.empty()) {
     // The tally is read as cells: memory grows with its distinct scores, not its rows.
-    Tally t = load_report_tally(o, columns);
-    std::vector<ForecastCellColumn> cell_columns;
+    std::string sha256;
+    Tally t = load_report_tally(o, columns, &sha256);
+    if (o.tally == "-") sha256.clear();  // the history records no digest of standard input
+    // The mapped columns first (they read the scores), then the score
+    // columns; the last column built takes the tally's sums without a copy.
+    const std::size_t columns_in_all = o.scores.size() + artifacts.size();
+    std::vector<ForecastCellColumn> cell_columns(columns_in_all);
     std::vector<std::string> extra_cautions;
     std::vector<std::optional<IntervalWidth>> widths(artifacts.size());
-    for (const std::string& s : o.scores) cell_columns.push_back({s, cells_of_tally(t, nullptr, nullptr)});
+    std::uint64_t tallied_rows = 0;  // of positive weight, as the entries count them
+    for (std::uint64_t r : t.count) tallied_rows += r;
     for (std::size_t m = 0; m < artifacts.size(); ++m) {
       std::uint64_t outside = 0;
-      LabelCells cells = cells_of_tally(t, artifacts[m].map.get(), &outside);
-      std::uint64_t rows = 0;
-      for (std::uint64_t r : cells.rows) rows += r;
-      const std::string name = t.score_column + " via " + std::filesystem::path(o.maps[m]).filename().string();
-      if (!artifacts[m].odds_steps.empty()) extra_cautions.push_back(odds_caution(name, artifacts[m]));
-      if (static_cast<double>(outside) > outside_share_caution * static_cast<double>(rows))
-        extra_cautions.push_back(name + ": " + grouped(outside) +
-                                 " scores lie outside the range the map was fitted on and were held at its end values");
-      cell_columns.push_back({name, std::move(cells)});
       if (artifacts[m].map->has_interval()) {
         // One width per tallied score, weighing its rows' weight.
         std::vector<double> width(t.score.size()), weight(t.score.size());
@@ -410,8 +383,18 @@ int run_report(const ReportCliOptions& o) {
         }
         widths[m] = interval_width_summary(width, weight);
       }
+      const bool last = o.scores.empty() && m + 1 == artifacts.size();
+      const std::string name = t.score_column + " via " + std::filesystem::path(o.maps[m]).filename().string();
+      if (!artifacts[m].odds_steps.empty()) extra_cautions.push_back(odds_caution(name, artifacts[m]));
+      TallyCells cells = cells_of_tally(t, artifacts[m].map.get(), &outside, last);
+      if (static_cast<double>(outside) > outside_share_caution * static_cast<double>(tallied_rows))
+        extra_cautions.push_back(name + ": " + grouped(outside) +
+                                 " scores lie outside the range the map was fitted on and were held at its end values");
+      cell_columns[o.scores.size() + m] = {name, std::move(cells)};
     }
-    // The report reads the cells only: the per-score sums go before it runs.
+    for (std::size_t k = 0; k < o.scores.size(); ++k)
+      cell_columns[k] = {o.scores[k], cells_of_tally(t, nullptr, nullptr, k + 1 == o.scores.size())};
+    // The report reads the entries only: what is left of the per-score sums goes before it runs.
     std::vector<double>().swap(t.score);
     std::vector<std::uint64_t>().swap(t.count);
     std::vector<double>().swap(t.negative);
@@ -432,7 +415,7 @@ int run_report(const ReportCliOptions& o) {
       report.scores[o.scores.size() + m].map = map_origin(t.score_column, o.maps[m], artifacts[m]);
       report.scores[o.scores.size() + m].overall.interval_width = widths[m];
     }
-    return emit_report(o, report, tally_sha256(o.tally), history);
+    return emit_report(o, report, sha256, history);
   }
   // One unweighted score column without segments: its cells are counted on
   // a second thread while the reader parses (the cell sums are then counts,

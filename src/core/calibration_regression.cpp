@@ -3,6 +3,8 @@
 #include <cmath>
 #include <vector>
 
+#include "plumb/error.hpp"
+
 #include "core/metric_input.hpp"
 #include "plumb/logistic.hpp"
 #include "plumb/scale.hpp"
@@ -29,17 +31,38 @@ struct OffsetFit {
   bool converged = false;
 };
 
+// The rows of a regression: logit, label and weight (empty: all 1), or one
+// logit per distinct forecast standing for a row of label 1 and weight
+// positive[c], then one of label 0 and weight negative[c].
+struct RowColumns {
+  std::span<const double> logit, label, weight;
+  std::size_t size() const noexcept { return logit.size(); }
+  double x(std::size_t i) const noexcept { return logit[i]; }
+  double y(std::size_t i) const noexcept { return label[i]; }
+  double w(std::size_t i) const noexcept { return detail::weight_at(weight, i); }
+};
+struct PairedColumns {
+  std::span<const double> logit, positive, negative;
+  std::size_t size() const noexcept { return 2 * logit.size(); }
+  double x(std::size_t i) const noexcept { return logit[i >> 1]; }
+  double y(std::size_t i) const noexcept { return (i & 1) ? 0.0 : 1.0; }
+  double w(std::size_t i) const noexcept { return (i & 1) ? negative[i >> 1] : positive[i >> 1]; }
+};
+
 // Solves sum w (y - sigmoid(a + l)) = 0 for a. The left side falls strictly
 // in a, so a bracket plus Newton steps kept inside it (bisecting when a step
-// leaves) always converges when a root exists (both classes present).
-OffsetFit fit_offset_intercept(std::span<const double> logit, std::span<const double> label,
-                               std::span<const double> weight, double total) {
+// leaves) always converges when a root exists (both classes present). A
+// row of zero weight adds a zero to each sum, which leaves it as it was
+// (the sums start at +0 and never become -0), so the paired rows give the
+// sums of the rows of positive weight alone, bit for bit.
+template <class Rows>
+OffsetFit fit_offset_intercept(const Rows& rows, double total) {
   auto score = [&](double a, double* slope) {
     double g = 0.0, h = 0.0;
-    for (std::size_t i = 0; i < logit.size(); ++i) {
-      const double w = detail::weight_at(weight, i);
-      const double q = sigmoid(a + logit[i]);
-      g += w * (label[i] - q);
+    for (std::size_t i = 0; i < rows.size(); ++i) {
+      const double w = rows.w(i);
+      const double q = sigmoid(a + rows.x(i));
+      g += w * (rows.y(i) - q);
       h += w * q * (1.0 - q);
     }
     if (slope) *slope = h;
@@ -72,16 +95,11 @@ OffsetFit fit_offset_intercept(std::span<const double> logit, std::span<const do
   return out;
 }
 
-// The two fits of the calibration regression on rows (or weighted cells,
-// two rows a distinct forecast) of logit(forecast), label and weight, with
-// `total` the weight; `out` carries the clipped count already.
-CalibrationRegression fit_regression(CalibrationRegression out, std::span<const double> logit,
-                                     std::span<const double> label, std::span<const double> weight, double total) {
-  detail::require_positive_total("calibration_regression", total);
-  const LogisticFit fit = fit_logistic(logit, 1, label, weight, true);
+// The two fits of the calibration regression; `out` carries the clipped
+// count already, `total` is the rows' weight.
+CalibrationRegression finish_regression(CalibrationRegression out, const LogisticFit& fit, const OffsetFit& offset) {
   out.slope = fit.coef.at(0);
   out.intercept_free = fit.coef.at(1);
-  const OffsetFit offset = fit_offset_intercept(logit, label, weight, total);
   out.intercept_at_unit_slope = offset.intercept;
   out.converged = fit.converged && offset.converged;
   return out;
@@ -102,41 +120,35 @@ CalibrationRegression calibration_regression(std::span<const double> forecast,
     if (clipped) ++out.clipped;
     total += detail::weight_at(weight, i);
   }
-  return fit_regression(out, logit, label, weight, total);
+  detail::require_positive_total("calibration_regression", total);
+  const LogisticFit fit = fit_logistic(logit, 1, label, weight, true);
+  return finish_regression(out, fit, fit_offset_intercept(RowColumns{logit, label, weight}, total));
 }
 
-void RegressionObservations::add(double forecast, std::uint64_t rows, double weight_sum, double positives,
-                                 double negatives) {
-  bool is_clipped = false;
-  const double l = clipped_logit(forecast, &is_clipped);
-  if (is_clipped) clipped += rows;
-  total += weight_sum;
-  if (positives > 0.0) {
-    logit.push_back(l);
-    label.push_back(1.0);
-    weight.push_back(positives);
-  }
-  if (negatives > 0.0) {
-    logit.push_back(l);
-    label.push_back(0.0);
-    weight.push_back(negatives);
-  }
-}
-
-CalibrationRegression calibration_regression(const RegressionObservations& observations) {
+CalibrationRegression calibration_regression_of_sums(std::span<const double> forecast,
+                                                    std::span<const double> weight,
+                                                    std::span<const double> positives,
+                                                    std::span<const double> negatives,
+                                                    std::span<const std::uint64_t> rows) {
+  const std::size_t n = forecast.size();
+  if (weight.size() != n || positives.size() != n || negatives.size() != n || (!rows.empty() && rows.size() != n))
+    throw Error(ErrorKind::internal, "calibration_regression_of_sums: columns differ in length");
   CalibrationRegression out;
-  out.clipped = observations.clipped;
-  return fit_regression(out, observations.logit, observations.label, observations.weight, observations.total);
+  std::vector<double> logit(n);
+  double total = 0.0;
+  for (std::size_t c = 0; c < n; ++c) {
+    bool clipped = false;
+    logit[c] = clipped_logit(forecast[c], &clipped);
+    if (clipped) out.clipped += rows.empty() ? static_cast<std::uint64_t>(weight[c]) : rows[c];
+    total += weight[c];
+  }
+  detail::require_positive_total("calibration_regression", total);
+  const LogisticFit fit = fit_logistic_paired(logit, positives, negatives);
+  return finish_regression(out, fit, fit_offset_intercept(PairedColumns{logit, positives, negatives}, total));
 }
 
 CalibrationRegression calibration_regression(const ForecastCells& cells) {
-  RegressionObservations observations;
-  observations.logit.reserve(2 * cells.size());
-  observations.label.reserve(2 * cells.size());
-  observations.weight.reserve(2 * cells.size());
-  for (std::size_t c = 0; c < cells.size(); ++c)
-    observations.add(cells.forecast[c], cells.rows[c], cells.weight[c], cells.positives[c], cells.negatives[c]);
-  return calibration_regression(observations);
+  return calibration_regression_of_sums(cells.forecast, cells.weight, cells.positives, cells.negatives, cells.rows);
 }
 
 }  // namespace plumb

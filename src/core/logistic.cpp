@@ -53,6 +53,32 @@ class Terms {
   double e_ = 0.0, a_ = 0.0, l_ = 0.0;
 };
 
+// The rows a fit reads. ColumnRows: k feature columns, column-major (feature
+// j of row i at x[j * n + i]), a target and a weight per row (no weights:
+// all 1); the solver keeps a cache of each row's exp and log1p terms.
+// PairedRows: one feature per distinct value c, standing for two rows, 2c
+// of target 1 and weight positive[c], then 2c + 1 of target 0 and weight
+// negative[c]; no cache (the pairs are what keeps the memory down, and the
+// terms it would hold are recomputed to the same bits).
+struct ColumnRows {
+  static constexpr bool keeps_cache = true;
+  std::span<const double> x, t, w;
+  std::size_t n = 0;
+  std::size_t size() const noexcept { return n; }
+  double feature(std::size_t j, std::size_t i) const noexcept { return x[j * n + i]; }
+  double target(std::size_t i) const noexcept { return t[i]; }
+  double weight(std::size_t i) const noexcept { return w.empty() ? 1.0 : w[i]; }
+};
+
+struct PairedRows {
+  static constexpr bool keeps_cache = false;
+  std::span<const double> x, positive, negative;
+  std::size_t size() const noexcept { return 2 * x.size(); }
+  double feature(std::size_t, std::size_t i) const noexcept { return x[i >> 1]; }
+  double target(std::size_t i) const noexcept { return (i & 1) ? 0.0 : 1.0; }
+  double weight(std::size_t i) const noexcept { return (i & 1) ? negative[i >> 1] : positive[i >> 1]; }
+};
+
 // Everything one Newton iteration needs at the current coefficients.
 struct Evaluation {
   double loss = 0.0;  // weighted negative log-likelihood
@@ -60,15 +86,16 @@ struct Evaluation {
   Eigen::MatrixXd hessian;
 };
 
+template <class Rows>
 class Problem {
  public:
-  Problem(std::span<const double> features, std::size_t k, std::span<const double> target,
-          std::span<const double> weight, bool intercept)
-      : x_(features), k_(k), n_(target.size()), t_(target), w_(weight), intercept_(intercept) {}
+  Problem(Rows rows, std::size_t k, bool intercept) : rows_(rows), k_(k), n_(rows.size()), intercept_(intercept) {}
 
   std::size_t dim() const noexcept { return k_ + (intercept_ ? 1 : 0); }
-  double weight(std::size_t i) const noexcept { return w_.empty() ? 1.0 : w_[i]; }
-  double feature(std::size_t j, std::size_t i) const noexcept { return j < k_ ? x_[j * n_ + i] : 1.0; }
+  double weight(std::size_t i) const noexcept { return rows_.weight(i); }
+  double feature(std::size_t j, std::size_t i) const noexcept { return j < k_ ? rows_.feature(j, i) : 1.0; }
+  double target(std::size_t i) const noexcept { return rows_.target(i); }
+  static constexpr bool keeps_cache = Rows::keeps_cache;
 
   double eta(const Eigen::VectorXd& beta, std::size_t i) const noexcept {
     double e = 0.0;
@@ -87,15 +114,17 @@ class Problem {
     }
     double total = 0.0;
     Terms terms;
-    cache_.resize(3 * n_);
+    if constexpr (keeps_cache) cache_.resize(3 * n_);
     for (std::size_t i = 0; i < n_; ++i) {
       const double w = weight(i);
       if (!(w > 0.0)) continue;
       terms.at(eta(beta, i));
-      cache_[3 * i] = terms.e();
-      cache_[3 * i + 1] = terms.a();
-      cache_[3 * i + 2] = terms.l();
-      total += w * entry_loss(terms, t_[i]);
+      if constexpr (keeps_cache) {
+        cache_[3 * i] = terms.e();
+        cache_[3 * i + 1] = terms.a();
+        cache_[3 * i + 2] = terms.l();
+      }
+      total += w * entry_loss(terms, target(i));
     }
     return total;
   }
@@ -109,17 +138,19 @@ class Problem {
     for (std::size_t j = 0; j < D; ++j) b[j] = beta[static_cast<Eigen::Index>(j)];
     double total = 0.0;
     Terms terms;
-    cache_.resize(3 * n_);
+    if constexpr (keeps_cache) cache_.resize(3 * n_);
     for (std::size_t i = 0; i < n_; ++i) {
       const double w = weight(i);
       if (!(w > 0.0)) continue;
       double e = 0.0;
       for (std::size_t j = 0; j < D; ++j) e += b[j] * feature(j, i);
       terms.at(e);
-      cache_[3 * i] = terms.e();
-      cache_[3 * i + 1] = terms.a();
-      cache_[3 * i + 2] = terms.l();
-      total += w * entry_loss(terms, t_[i]);
+      if constexpr (keeps_cache) {
+        cache_[3 * i] = terms.e();
+        cache_[3 * i + 1] = terms.a();
+        cache_[3 * i + 2] = terms.l();
+      }
+      total += w * entry_loss(terms, target(i));
     }
     return total;
   }
@@ -155,8 +186,9 @@ class Problem {
         terms.at(row.dot(beta), cache_[3 * i], cache_[3 * i + 1], cache_[3 * i + 2]);
       const double p = terms.sigmoid_pos(), q = terms.sigmoid_neg();
       // p - t written so that it does not cancel to zero when p rounds to 1.
-      const double residual = (1.0 - t_[i]) * p - t_[i] * q;
-      ev.loss += w * ((1.0 - t_[i]) * terms.softplus_pos() + t_[i] * terms.softplus_neg());
+      const double t = target(i);
+      const double residual = (1.0 - t) * p - t * q;
+      ev.loss += w * ((1.0 - t) * terms.softplus_pos() + t * terms.softplus_neg());
       ev.gradient += (w * residual) * row;
       ev.hessian.selfadjointView<Eigen::Lower>().rankUpdate(row, w * p * q);
     }
@@ -200,7 +232,7 @@ class Problem {
     }
     double total = 0.0;
     Terms terms;
-    const bool cached = !cache_.empty();
+    const bool cached = keeps_cache && !cache_.empty();
     bool have = false;
     double last_e = 0.0, p = 0.0, q = 0.0, sp_pos = 0.0, sp_neg = 0.0;
     bool finite = true;
@@ -223,7 +255,7 @@ class Problem {
         sp_neg = terms.softplus_neg();
         finite = std::isfinite(e);
       }
-      const double t = t_[i];
+      const double t = target(i);
       double residual, loss;
       if (finite && t == 0.0) {
         residual = p;
@@ -281,11 +313,9 @@ class Problem {
   }
 
  private:
-  std::span<const double> x_;
+  Rows rows_;
   std::size_t k_;
   std::size_t n_;
-  std::span<const double> t_;
-  std::span<const double> w_;
   bool intercept_;
   // Per entry, the linear predictor of the last loss() and its exp(-|e|)
   // and log1p of that: the accepted step of a line search is the next
@@ -294,38 +324,33 @@ class Problem {
   mutable std::vector<double> cache_;
 };
 
-}  // namespace
-
-LogisticFit fit_logistic(std::span<const double> features, std::size_t k, std::span<const double> target,
-                         std::span<const double> weight, bool intercept, int max_iterations) {
-  const std::size_t n = target.size();
-  if (features.size() != n * k || (!weight.empty() && weight.size() != n) || (k == 0 && !intercept))
-    throw Error(ErrorKind::internal, "fit_logistic: inconsistent feature, target or weight sizes");
-
-  // Features of extreme magnitude (margins near 1e300, or near 1e-300) would
-  // overflow or underflow the Hessian's x^2 terms, and the solver would stop
-  // at once with a zero step. Such a column is scaled by a power of two to a
-  // largest magnitude in [1/2, 1); the fit is equivariant under the scaling
-  // (eta = beta x), and a power of two keeps it exact, so the coefficient is
-  // scaled back by the same power at the end. Ordinary columns are left as
-  // they are, so their fits do not change by a bit.
+// The largest magnitude of each feature over the rows that count, as the
+// power of two to divide it by (0: used as given). Features of extreme
+// magnitude (margins near 1e300, or near 1e-300) would overflow or
+// underflow the Hessian's x^2 terms, and the solver would stop at once with
+// a zero step. Such a column is scaled by a power of two to a largest
+// magnitude in [1/2, 1); the fit is equivariant under the scaling
+// (eta = beta x), and a power of two keeps it exact, so the coefficient is
+// scaled back by the same power at the end. Ordinary columns are left as
+// they are, so their fits do not change by a bit.
+template <class Rows>
+std::vector<int> scale_exponents(const Rows& rows, std::size_t k) {
   std::vector<int> exponent(k, 0);
-  std::vector<double> scaled;
   for (std::size_t j = 0; j < k; ++j) {
     double largest = 0.0;
-    for (std::size_t i = 0; i < n; ++i)
-      if (weight.empty() || weight[i] > 0.0) largest = std::max(largest, std::abs(features[j * n + i]));
+    for (std::size_t i = 0; i < rows.size(); ++i)
+      if (rows.weight(i) > 0.0) largest = std::max(largest, std::abs(rows.feature(j, i)));
     if (largest > 0.0 && std::isfinite(largest) && (largest > 0x1p32 || largest < 0x1p-32))
       exponent[j] = std::ilogb(largest) + 1;
   }
-  const bool rescale = std::any_of(exponent.begin(), exponent.end(), [](int e) { return e != 0; });
-  if (rescale) {
-    scaled.assign(features.begin(), features.end());
-    for (std::size_t j = 0; j < k; ++j)
-      for (std::size_t i = 0; i < n; ++i) scaled[j * n + i] = std::ldexp(scaled[j * n + i], -exponent[j]);
-  }
+  return exponent;
+}
 
-  const Problem problem(rescale ? std::span<const double>(scaled) : features, k, target, weight, intercept);
+// The Newton iteration on `problem`, whose feature j was divided by
+// 2^exponent[j].
+template <class Rows>
+LogisticFit solve(const Problem<Rows>& problem, int max_iterations, const std::vector<int>& exponent) {
+  const std::size_t k = exponent.size();
   const auto d = static_cast<Eigen::Index>(problem.dim());
   Eigen::VectorXd beta = Eigen::VectorXd::Zero(d);
   const Eigen::VectorXd tolerance = problem.gradient_tolerance();
@@ -395,6 +420,43 @@ LogisticFit fit_logistic(std::span<const double> features, std::size_t k, std::s
   }
   fit.deviance = 2.0 * ev.loss;
   return fit;
+}
+
+bool any_scaled(const std::vector<int>& exponent) {
+  return std::any_of(exponent.begin(), exponent.end(), [](int e) { return e != 0; });
+}
+
+}  // namespace
+
+LogisticFit fit_logistic(std::span<const double> features, std::size_t k, std::span<const double> target,
+                         std::span<const double> weight, bool intercept, int max_iterations) {
+  const std::size_t n = target.size();
+  if (features.size() != n * k || (!weight.empty() && weight.size() != n) || (k == 0 && !intercept))
+    throw Error(ErrorKind::internal, "fit_logistic: inconsistent feature, target or weight sizes");
+  const std::vector<int> exponent = scale_exponents(ColumnRows{features, target, weight, n}, k);
+  std::vector<double> scaled;
+  if (any_scaled(exponent)) {
+    scaled.assign(features.begin(), features.end());
+    for (std::size_t j = 0; j < k; ++j)
+      for (std::size_t i = 0; i < n; ++i) scaled[j * n + i] = std::ldexp(scaled[j * n + i], -exponent[j]);
+  }
+  const Problem problem(ColumnRows{scaled.empty() ? features : std::span<const double>(scaled), target, weight, n},
+                        k, intercept);
+  return solve(problem, max_iterations, exponent);
+}
+
+LogisticFit fit_logistic_paired(std::span<const double> x, std::span<const double> positive,
+                                std::span<const double> negative, int max_iterations) {
+  if (positive.size() != x.size() || negative.size() != x.size())
+    throw Error(ErrorKind::internal, "fit_logistic_paired: inconsistent value and weight sizes");
+  const std::vector<int> exponent = scale_exponents(PairedRows{x, positive, negative}, 1);
+  std::vector<double> scaled;
+  if (any_scaled(exponent)) {
+    scaled.assign(x.begin(), x.end());
+    for (double& v : scaled) v = std::ldexp(v, -exponent[0]);
+  }
+  const Problem problem(PairedRows{scaled.empty() ? x : std::span<const double>(scaled), positive, negative}, 1, true);
+  return solve(problem, max_iterations, exponent);
 }
 
 }  // namespace plumb

@@ -326,48 +326,69 @@ ScoreSummary summarise(const ForecastColumn& column, std::span<const double> y, 
   return s;
 }
 
-// Calls add(w) once per row a cell stands for: rows[c] times with w = 1
-// for unit weights (the sums then round as over the rows), else once with
-// the cell's weight.
-template <class Add>
-void each_row(const LabelCells& cells, std::size_t c, Add add) {
-  if (cells.unit_weights) {
-    for (std::uint64_t k = 0; k < cells.rows[c]; ++k) add(1.0);
-  } else {
-    add(cells.weight[c]);
+// The rows entry c stands for, as cells of one label: its label-0 rows,
+// then its label-1 rows, a label without weight left out. cell(y, weight,
+// rows, weight_sq) is called per cell: with unit weights the weight is the
+// row count and weight_sq unused (0); with weights the entry's rows and
+// squared weights are counted on its first cell (0 on the second).
+template <class Cell>
+void each_cell(const TallyCells& cells, std::size_t c, Cell cell) {
+  const double weight[2] = {cells.negatives[c], cells.positives[c]};
+  bool first = true;
+  for (int l = 0; l < 2; ++l) {
+    if (!(weight[l] > 0.0)) continue;
+    if (cells.unit_weights)
+      cell(static_cast<double>(l), weight[l], static_cast<std::uint64_t>(weight[l]), 0.0);
+    else
+      cell(static_cast<double>(l), weight[l], first ? cells.rows[c] : 0, first ? cells.weight_sq[c] : 0.0);
+    first = false;
   }
 }
 
-// bin_sums over the rows of the cells, `bin` one per cell.
-std::vector<BinSums> cell_bin_sums(const LabelCells& cells, const std::vector<std::uint32_t>& bin, std::size_t bins) {
+// Calls add(w) once per row a cell of `weight` and `rows` stands for:
+// rows times with w = 1 for unit weights (the sums then round as over the
+// rows), else once with the cell's weight.
+template <class Add>
+void each_row(bool unit_weights, double weight, std::uint64_t rows, Add add) {
+  if (unit_weights) {
+    for (std::uint64_t k = 0; k < rows; ++k) add(1.0);
+  } else {
+    add(weight);
+  }
+}
+
+// bin_sums over the rows of the entries, `bin` one per entry.
+std::vector<BinSums> cell_bin_sums(const TallyCells& cells, const std::vector<std::uint32_t>& bin, std::size_t bins) {
   std::vector<BinSums> sums(bins);
   for (auto& s : sums) s.forecast_min = s.forecast_max = std::numeric_limits<double>::quiet_NaN();
   for (std::size_t c = 0; c < cells.size(); ++c) {
     BinSums& s = sums[bin[c]];
-    const double p = cells.forecast[c], y = cells.label[c];
-    if (s.rows == 0) {
-      s.forecast_min = s.forecast_max = p;
-    } else {
-      s.forecast_min = std::min(s.forecast_min, p);
-      s.forecast_max = std::max(s.forecast_max, p);
-    }
-    s.rows += cells.rows[c];
-    each_row(cells, c, [&](double w) {
-      s.weight += w;
-      s.forecast += w * p;
-      s.label += w * y;
-      if (cells.unit_weights) s.weight_sq += w * w;
+    const double p = cells.forecast[c];
+    each_cell(cells, c, [&](double y, double weight, std::uint64_t rows, double weight_sq) {
+      if (s.rows == 0) {
+        s.forecast_min = s.forecast_max = p;
+      } else {
+        s.forecast_min = std::min(s.forecast_min, p);
+        s.forecast_max = std::max(s.forecast_max, p);
+      }
+      s.rows += rows;
+      each_row(cells.unit_weights, weight, rows, [&](double w) {
+        s.weight += w;
+        s.forecast += w * p;
+        s.label += w * y;
+        if (cells.unit_weights) s.weight_sq += w * w;
+      });
+      if (!cells.unit_weights) s.weight_sq += weight_sq;
     });
-    if (!cells.unit_weights) s.weight_sq += cells.weight_sq[c];
   }
   return sums;
 }
 
-// The equal-mass binning of make_binning over the rows of the cells:
-// bin_of_row holds one bin per cell. `sorted` lists the cells by forecast
-// (stably), empty when they are in ascending forecast already; `total` is
-// the rows' weight summed in row order.
-Binning cell_mass_binning(const LabelCells& cells, const std::vector<std::size_t>& sorted, std::size_t bins,
+// The equal-mass binning of make_binning over the rows of the entries:
+// bin_of_row holds one bin per entry. `sorted` lists the entries by
+// forecast (stably), empty when they are in ascending forecast already;
+// `total` is the rows' weight summed in row order.
+Binning cell_mass_binning(const TallyCells& cells, const std::vector<std::size_t>& sorted, std::size_t bins,
                           double total) {
   const std::size_t n = cells.size();
   const auto at = [&](std::size_t k) { return sorted.empty() ? k : sorted[k]; };
@@ -384,7 +405,9 @@ Binning cell_mass_binning(const LabelCells& cells, const std::vector<std::size_t
     std::size_t e = s;
     double group = 0.0;
     while (e < n && cells.forecast[at(e)] == cells.forecast[at(s)]) {
-      each_row(cells, at(e), [&](double w) { group += w; });
+      each_cell(cells, at(e), [&](double, double weight, std::uint64_t rows, double) {
+        each_row(cells.unit_weights, weight, rows, [&](double w) { group += w; });
+      });
       ++e;
     }
     const double pos = total > 0.0 ? k * (before + 0.5 * group) / total : 0.0;
@@ -399,10 +422,62 @@ Binning cell_mass_binning(const LabelCells& cells, const std::vector<std::size_t
   return out;
 }
 
-// summarise() for rows given as cells (report --tally): the same figures,
-// the row-order sums replayed cell by cell.
+// One entry per distinct forecast, ascending, summed over the entries (and
+// their rows) in sorted order: what ForecastCells holds for rows. When the
+// entries are sorted and distinct already (a tally's scores) the sums of an
+// entry's rows are its own negatives and positives, exactly (each is one
+// label's weight plus zeros), so those columns are read in place and only
+// the weights are stored.
+struct DistinctForecasts {
+  std::span<const double> forecast, positives, negatives;
+  std::vector<double> weight;
+  std::vector<std::uint64_t> rows;  // only with weights: unit-weight rows are the weight
+  std::vector<double> own_forecast, own_positives, own_negatives;
+  std::size_t size() const noexcept { return forecast.size(); }
+};
+
+DistinctForecasts distinct_forecasts(const TallyCells& lc, const std::vector<std::size_t>& sorted, bool distinct) {
+  const std::size_t n = lc.size();
+  const auto at = [&](std::size_t k) { return sorted.empty() ? k : sorted[k]; };
+  DistinctForecasts fc;
+  for (std::size_t k = 0; k < n;) {
+    const double f = lc.forecast[at(k)];
+    double w = 0.0, pos = 0.0, neg = 0.0;
+    std::uint64_t rows = 0;
+    for (; k < n && lc.forecast[at(k)] == f; ++k) {
+      each_cell(lc, at(k), [&](double y, double weight, std::uint64_t cell_rows, double) {
+        rows += cell_rows;
+        each_row(lc.unit_weights, weight, cell_rows, [&](double wi) {
+          w += wi;
+          pos += wi * y;
+          neg += wi * (1.0 - y);
+        });
+      });
+    }
+    if (!distinct) {
+      fc.own_forecast.push_back(f);
+      fc.own_positives.push_back(pos);
+      fc.own_negatives.push_back(neg);
+    }
+    fc.weight.push_back(w);
+    if (!lc.unit_weights) fc.rows.push_back(rows);
+  }
+  if (distinct) {
+    fc.forecast = lc.forecast;
+    fc.positives = lc.positives;
+    fc.negatives = lc.negatives;
+  } else {
+    fc.forecast = fc.own_forecast;
+    fc.positives = fc.own_positives;
+    fc.negatives = fc.own_negatives;
+  }
+  return fc;
+}
+
+// summarise() for rows given per score (report --tally): the same figures,
+// the row-order sums replayed entry by entry.
 ScoreSummary summarise_cells(const ForecastCellColumn& column, const ReportOptions& o) {
-  const LabelCells& lc = column.cells;
+  const TallyCells& lc = column.cells;
   const std::size_t n = lc.size();
   ScoreSummary s;
   s.name = column.name;
@@ -410,24 +485,27 @@ ScoreSummary summarise_cells(const ForecastCellColumn& column, const ReportOptio
   double brier = 0.0, log_sum = 0.0, log_total = 0.0, spg_num = 0.0, spg_var = 0.0;
   s.histogram.assign(o.histogram_bins, 0.0);
   for (std::size_t c = 0; c < n; ++c) {
-    const double f = lc.forecast[c], y = lc.label[c];
-    s.rows += lc.rows[c];
-    if (f == 0.0 || f == 1.0) t.at_zero_or_one += lc.rows[c];
-    const double d = f - y, lever = 1.0 - 2.0 * f, log_term = log_loss_term(f, y);
+    const double f = lc.forecast[c];
+    const double lever = 1.0 - 2.0 * f;
     const std::size_t hb =
         o.histogram_bins == 0 ? 0 : std::min(o.histogram_bins - 1, static_cast<std::size_t>(f * static_cast<double>(o.histogram_bins)));
-    each_row(lc, c, [&](double w) {
-      t.weight += w;
-      t.positives += w * y;
-      t.weighted_forecast += w * f;
-      brier += w * d * d;
-      if (w != 0.0) {
-        log_sum += w * log_term;
-        log_total += w;
-      }
-      spg_num += w * (y - f) * lever;
-      spg_var += w * lever * lever * f * (1.0 - f);
-      if (o.histogram_bins > 0) s.histogram[hb] += w;
+    each_cell(lc, c, [&](double y, double weight, std::uint64_t rows, double) {
+      s.rows += rows;
+      if (f == 0.0 || f == 1.0) t.at_zero_or_one += rows;
+      const double d = f - y, log_term = log_loss_term(f, y);
+      each_row(lc.unit_weights, weight, rows, [&](double w) {
+        t.weight += w;
+        t.positives += w * y;
+        t.weighted_forecast += w * f;
+        brier += w * d * d;
+        if (w != 0.0) {
+          log_sum += w * log_term;
+          log_total += w;
+        }
+        spg_num += w * (y - f) * lever;
+        spg_var += w * lever * lever * f * (1.0 - f);
+        if (o.histogram_bins > 0) s.histogram[hb] += w;
+      });
     });
   }
   s.weight = t.weight;
@@ -442,12 +520,11 @@ ScoreSummary summarise_cells(const ForecastCellColumn& column, const ReportOptio
   s.calibration_in_the_large = s.mean_forecast - s.observed_rate;
   s.spiegelhalter = spiegelhalter_from_sums(spg_num, spg_var);
 
-  // The cells by forecast (stably), and one cell per distinct forecast. A
-  // tally's cells come in ascending forecast already (its scores are sorted
-  // and distinct): then the order is the identity and is not stored (`sorted`
-  // empty), which is what the stable sort would give. A forecast's group is
-  // counted as the sorted cells are walked, so no index per cell is kept.
-  // The ForecastCells' weight_sq is left empty: nothing below reads it.
+  // The entries by forecast (stably), and one entry per distinct forecast.
+  // A tally's entries come in ascending forecast already (its scores are
+  // sorted and distinct): then the order is the identity and is not stored
+  // (`sorted` empty), which is what the stable sort would give, and the
+  // per-forecast sums are the entries' own columns.
   std::vector<std::size_t> sorted;
   if (!std::is_sorted(lc.forecast.begin(), lc.forecast.end())) {
     sorted.resize(n);
@@ -456,77 +533,41 @@ ScoreSummary summarise_cells(const ForecastCellColumn& column, const ReportOptio
                      [&](std::size_t a, std::size_t b) { return lc.forecast[a] < lc.forecast[b]; });
   }
   const auto at = [&](std::size_t k) { return sorted.empty() ? k : sorted[k]; };
-  // The calibration regression first, from the same per-forecast sums as
-  // the cells below (the same additions in the same order), so that its
-  // observations and its solver's buffers are gone before the cells exist.
-  {
-    RegressionObservations observations;
-    observations.logit.reserve(n);  // at most one observation per cell
-    observations.label.reserve(n);
-    observations.weight.reserve(n);
-    for (std::size_t k = 0; k < n;) {
-      const double f = lc.forecast[at(k)];
-      double w = 0.0, pos = 0.0, neg = 0.0;
-      std::uint64_t rows = 0;
-      for (; k < n && lc.forecast[at(k)] == f; ++k) {
-        const std::size_t c = at(k);
-        const double y = lc.label[c];
-        rows += lc.rows[c];
-        each_row(lc, c, [&](double wi) {
-          w += wi;
-          pos += wi * y;
-          neg += wi * (1.0 - y);
-        });
-      }
-      observations.add(f, rows, w, pos, neg);
-    }
-    s.regression = calibration_regression(observations);
-  }
-  ForecastCells fc;
-  for (std::size_t k = 0; k < n;) {
-    const double f = lc.forecast[at(k)];
-    double w = 0.0, pos = 0.0, neg = 0.0;
-    std::uint64_t rows = 0;
-    for (; k < n && lc.forecast[at(k)] == f; ++k) {
-      const std::size_t c = at(k);
-      const double y = lc.label[c];
-      rows += lc.rows[c];
-      each_row(lc, c, [&](double wi) {
-        w += wi;
-        pos += wi * y;
-        neg += wi * (1.0 - y);
-      });
-    }
-    fc.forecast.push_back(f);
-    fc.weight.push_back(w);
-    fc.positives.push_back(pos);
-    fc.negatives.push_back(neg);
-    fc.rows.push_back(rows);
-  }
+  const bool distinct =
+      sorted.empty() && std::adjacent_find(lc.forecast.begin(), lc.forecast.end(),
+                                           [](double a, double b) { return !(a < b); }) == lc.forecast.end();
+  const DistinctForecasts fc = distinct_forecasts(lc, sorted, distinct);
+  s.regression = calibration_regression_of_sums(fc.forecast, fc.weight, fc.positives, fc.negatives, fc.rows);
   s.auc = auc_cells(fc.positives, fc.negatives);
   s.pav_curve = pav_fit_cells(fc.forecast, fc.positives, fc.weight);
 
-  // CORP: each cell's recalibrated forecast, then the sums in row order.
+  // CORP: each entry's recalibrated forecast, then the sums in row order.
   {
     const std::vector<double> value = pav_value_of_cells(s.pav_curve, fc.forecast);
-    std::vector<double> recalibrated(n);
-    for (std::size_t k = 0, g = 0; k < n; ++k) {
-      if (k > 0 && lc.forecast[at(k)] != lc.forecast[at(k - 1)]) ++g;
-      recalibrated[at(k)] = value[g];
+    std::vector<double> by_entry;
+    if (!distinct) {
+      by_entry.resize(n);
+      for (std::size_t k = 0, g = 0; k < n; ++k) {
+        if (k > 0 && lc.forecast[at(k)] != lc.forecast[at(k - 1)]) ++g;
+        by_entry[at(k)] = value[g];
+      }
     }
+    const std::vector<double>& recalibrated = distinct ? value : by_entry;
     const double rate = t.positives / t.weight;
     double bx = 0.0, bp = 0.0, bc = 0.0, lx = 0.0, lp = 0.0, lcl = 0.0;
     for (std::size_t c = 0; c < n; ++c) {
-      const double y = lc.label[c], x = lc.forecast[c], r = recalibrated[c];
-      const double tx = log_loss_term(x, y), tp = log_loss_term(r, y), tc = log_loss_term(rate, y);
-      each_row(lc, c, [&](double w) {
-        if (w == 0.0) return;
-        bx += w * (x - y) * (x - y);
-        bp += w * (r - y) * (r - y);
-        bc += w * (rate - y) * (rate - y);
-        lx += w * tx;
-        lp += w * tp;
-        lcl += w * tc;
+      const double x = lc.forecast[c], r = recalibrated[c];
+      each_cell(lc, c, [&](double y, double weight, std::uint64_t rows, double) {
+        const double tx = log_loss_term(x, y), tp = log_loss_term(r, y), tc = log_loss_term(rate, y);
+        each_row(lc.unit_weights, weight, rows, [&](double w) {
+          if (w == 0.0) return;
+          bx += w * (x - y) * (x - y);
+          bp += w * (r - y) * (r - y);
+          bc += w * (rate - y) * (rate - y);
+          lx += w * tx;
+          lp += w * tp;
+          lcl += w * tc;
+        });
       });
     }
     s.corp_brier = corp_terms(bx, bp, bc, t.weight);
@@ -553,10 +594,13 @@ ScoreSummary summarise_cells(const ForecastCellColumn& column, const ReportOptio
     for (std::size_t c = 0; c < n; ++c) {
       const BinSums& b = sums[binning.bin_of_row[c]];
       if (!(b.weight > 0.0)) continue;
-      const double dp = lc.forecast[c] - b.mean_forecast(), dy = lc.label[c] - b.observed();
-      each_row(lc, c, [&](double w) {
-        variance += w * dp * dp;
-        covariance += w * dp * dy;
+      const double dp = lc.forecast[c] - b.mean_forecast();
+      each_cell(lc, c, [&](double y, double weight, std::uint64_t rows, double) {
+        const double dy = y - b.observed();
+        each_row(lc.unit_weights, weight, rows, [&](double w) {
+          variance += w * dp * dp;
+          covariance += w * dp * dy;
+        });
       });
     }
     s.murphy = murphy_from_sums(sums, s.brier, variance, covariance);
@@ -585,13 +629,15 @@ ScoreSummary summarise_cells(const ForecastCellColumn& column, const ReportOptio
     // The bootstrap's cells: per distinct forecast its negative rows, then
     // its positive rows.
     std::vector<double> p, y, base;
-    std::vector<std::uint64_t> count;
+    std::vector<std::uint64_t> count, rows;
     std::vector<std::uint32_t> band_bin;
     for (std::size_t k = 0, g = 0; k < n; ++g) {
       const std::size_t first = k;
       std::uint64_t tally[2] = {0, 0};
       for (; k < n && lc.forecast[at(k)] == lc.forecast[at(first)]; ++k)
-        tally[lc.label[at(k)] > 0.5 ? 1 : 0] += lc.rows[at(k)];
+        each_cell(lc, at(k), [&](double label, double, std::uint64_t cell_rows, double) {
+          tally[label > 0.5 ? 1 : 0] += cell_rows;
+        });
       for (int l = 0; l < 2; ++l) {
         if (tally[l] == 0) continue;
         p.push_back(fc.forecast[g]);
@@ -599,13 +645,14 @@ ScoreSummary summarise_cells(const ForecastCellColumn& column, const ReportOptio
         base.push_back(1.0);
         count.push_back(tally[l]);
       }
+      rows.push_back(tally[0] + tally[1]);
       band_bin.push_back(binning.bin_of_row[at(first)]);
     }
     s.bootstrap = bootstrap_metrics_of_cells(p, y, base, count, b);
     b.binning = o.binning;
     std::vector<double> bin_weight(sums.size());
     for (std::size_t i = 0; i < sums.size(); ++i) bin_weight[i] = sums[i].weight;
-    s.band = consistency_band_of_cells(fc.forecast, fc.rows, band_bin, bin_weight, b);
+    s.band = consistency_band_of_cells(fc.forecast, rows, band_bin, bin_weight, b);
   }
   return s;
 }
@@ -795,15 +842,18 @@ Report build_report_of_cells(std::span<const ForecastCellColumn> columns, const 
   Report r;
   r.options = options;
   for (const ForecastCellColumn& c : columns) {
-    const LabelCells& lc = c.cells;
+    const TallyCells& lc = c.cells;
     const std::size_t n = lc.size();
-    if (lc.label.size() != n || (lc.weight.size() != n && !(lc.unit_weights && lc.weight.empty())) ||
-        lc.rows.size() != n ||
-        (!lc.unit_weights && lc.weight_sq.size() != n))
+    if (lc.negatives.size() != n || lc.positives.size() != n ||
+        (!lc.unit_weights && (lc.rows.size() != n || lc.weight_sq.size() != n)))
       throw Error(ErrorKind::internal, "build_report_of_cells: cell columns differ in length");
-    for (std::size_t k = 0; k < n; ++k)
-      if (!(lc.forecast[k] >= 0.0 && lc.forecast[k] <= 1.0) || !(lc.label[k] == 0.0 || lc.label[k] == 1.0))
-        throw Error(ErrorKind::internal, "build_report_of_cells: a cell's forecast or label is out of range");
+    for (std::size_t k = 0; k < n; ++k) {
+      const double neg = lc.negatives[k], pos = lc.positives[k];
+      const bool counts = !lc.unit_weights || (std::floor(neg) == neg && std::floor(pos) == pos);
+      if (!(lc.forecast[k] >= 0.0 && lc.forecast[k] <= 1.0) || !(neg >= 0.0 && pos >= 0.0) ||
+          !std::isfinite(neg + pos) || !counts)
+        throw Error(ErrorKind::internal, "build_report_of_cells: an entry's forecast or weights are out of range");
+    }
     ScoreReport sr;
     sr.overall = summarise_cells(c, options);
     r.scores.push_back(std::move(sr));

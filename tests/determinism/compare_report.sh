@@ -3,8 +3,8 @@
 #
 # Runs a fixed set of report command lines (every output format, both
 # binnings, other bin and group counts, weights, segments, maps on the fly,
-# a seeded bootstrap, a tally) with two plumb binaries, say one built from
-# an older commit and the current build, and compares the outputs byte for
+# a seeded bootstrap, tallies with and without weights) with two plumb
+# binaries, say one built from an older commit and the current build, and compares the outputs byte for
 # byte. Text, SVG and Markdown must be identical, and JSON may differ only in
 # - the calibration regression's three numbers (slope and both intercepts),
 #   whose Newton steps run on per-forecast cells since the report was moved
@@ -74,16 +74,24 @@ run_all() {
 LINES
   "$plumb" tally "${c[@]}" -q ../holdout.csv -o holdout.tally.json
   "$plumb" tally "${c[@]}" -q ../ties.csv -o ties.tally.json
-  for t in holdout ties; do
-    "$plumb" report --score risk --tally "$t.tally.json" --bootstrap 40 --json "t-$t.json" --svg "t-$t.svg" \
-      --markdown "t-$t.md" > "t-$t.txt"
-    "$plumb" report --map iso.map.json --score risk --tally "$t.tally.json" --binning mass --bootstrap 20 \
-      --json "tm-$t.json" > "tm-$t.txt"
+  "$plumb" tally "${c[@]}" --weight route_km -q ../ties.csv -o weighted.tally.json
+  "$plumb" tally --score score --label label -q ../rows.csv -o rows.tally.json
+  for t in holdout ties weighted; do
+    # The bootstrap resamples rows: a weighted tally has summed them away.
+    if [ "$t" != weighted ]; then
+      "$plumb" report --score risk --tally "$t.tally.json" --bootstrap 40 --json "t-$t.json" --svg "t-$t.svg" \
+        --markdown "t-$t.md" > "t-$t.txt"
+      "$plumb" report --map iso.map.json --score risk --tally "$t.tally.json" --binning mass --bootstrap 20 \
+        --json "tm-$t.json" > "tm-$t.txt"
+    fi
     "$plumb" report --score risk --tally "$t.tally.json" --bootstrap 0 --json "zt-$t.json" --svg "zt-$t.svg" \
       --markdown "zt-$t.md" > "zt-$t.txt"
     "$plumb" report --map iso.map.json --score risk --tally "$t.tally.json" --binning mass --bootstrap 0 \
       --json "ztm-$t.json" > "ztm-$t.txt"
   done
+  "$plumb" report --score score --tally rows.tally.json --bootstrap 30 --json t-rows.json > t-rows.txt
+  "$plumb" report --score score --tally rows.tally.json --bootstrap 0 --binning mass --json zt-rows.json \
+    > zt-rows.txt
   cd - > /dev/null
 }
 

@@ -204,3 +204,49 @@ TEST_CASE("logistic: a slope too large for a double is a fit error", "[logistic]
     CHECK(std::string(e.what()).find("too large for a double") != std::string::npos);
   }
 }
+
+TEST_CASE("logistic: the paired form is the fit on its rows, bit for bit", "[logistic]") {
+  // fit_logistic_paired(x, positive, negative) stands for the rows
+  // (x_c, 1, positive_c), (x_c, 0, negative_c); rows of zero weight are
+  // left out of the row form, as report's per-forecast sums leave them.
+  // Also on features scaled by 2^-1000 and 2^1000, where both forms take
+  // the solver's power-of-two rescaling.
+  std::mt19937_64 rng(47);
+  std::uniform_real_distribution<double> unif(0.0, 1.0);
+  std::vector<double> x, positive, negative;
+  for (int c = 0; c < 400; ++c) {
+    const double v = -4.0 + 8.0 * unif(rng);
+    x.push_back(v);
+    const double p = plumb::sigmoid(0.7 * v - 0.3);
+    const double n = std::floor(1.0 + 20.0 * unif(rng));
+    positive.push_back(c % 7 == 0 ? 0.0 : std::floor(n * p + unif(rng)));
+    negative.push_back(c % 11 == 0 ? 0.0 : n - std::floor(n * p) + 0.25 * unif(rng));
+  }
+  for (int k : {0, -1000, 1000}) {
+    INFO("features times 2^" << k);
+    std::vector<double> scaled(x), rx, ry, rw;
+    for (double& v : scaled) v = std::ldexp(v, k);
+    for (std::size_t c = 0; c < x.size(); ++c) {
+      if (positive[c] > 0.0) {
+        rx.push_back(scaled[c]);
+        ry.push_back(1.0);
+        rw.push_back(positive[c]);
+      }
+      if (negative[c] > 0.0) {
+        rx.push_back(scaled[c]);
+        ry.push_back(0.0);
+        rw.push_back(negative[c]);
+      }
+    }
+    const plumb::LogisticFit rows = plumb::fit_logistic(rx, 1, ry, rw);
+    const plumb::LogisticFit paired = plumb::fit_logistic_paired(scaled, positive, negative);
+    REQUIRE(rows.converged);
+    CHECK(paired.converged);
+    CHECK(paired.iterations == rows.iterations);
+    CHECK(paired.coef == rows.coef);
+    CHECK(paired.deviance == rows.deviance);
+    // And the fit is the model's: the slope near 0.7 / 2^k.
+    CHECK(std::abs(std::ldexp(paired.coef[0], k) - 0.7) < 0.2);
+  }
+  CHECK_THROWS_AS(plumb::fit_logistic_paired(x, positive, std::vector<double>(3, 1.0)), plumb::Error);
+}

@@ -133,23 +133,24 @@ TEST_CASE("Forecast cells: equal-mass binning in a given order equals make_binni
 
 namespace {
 
-// The cells of unit-weight rows in the order report --tally lays them out
-// (per forecast ascending, negatives then positives), and those rows.
-void tally_like(std::size_t levels, std::uint64_t seed, plumb::LabelCells& cells, Rows& rows) {
+// Unit-weight rows as report --tally reads a tally (one entry per forecast,
+// ascending), and those rows in the order the report replays them (per
+// entry its label-0 rows, then its label-1 rows). Some forecasts have rows
+// of one label only.
+void tally_like(std::size_t levels, std::uint64_t seed, plumb::TallyCells& cells, Rows& rows) {
   std::mt19937_64 gen(seed);
   std::uniform_int_distribution<int> count(0, 40);
   for (std::size_t k = 0; k < levels; ++k) {
     const double p = static_cast<double>(k) / static_cast<double>(levels - 1);
+    int n[2];
+    for (int l = 0; l < 2; ++l) n[l] = count(gen) * (l == 1 ? 1 : 2) / 2 + (k % 3 == 0 ? 0 : 1);
+    if (n[0] + n[1] == 0) continue;
+    cells.forecast.push_back(p);
+    cells.negatives.push_back(n[0]);
+    cells.positives.push_back(n[1]);
     for (int l = 0; l < 2; ++l) {
-      const int n = count(gen) * (l == 1 ? 1 : 2) / 2 + (k % 3 == 0 ? 0 : 1);
-      if (n == 0) continue;
-      cells.forecast.push_back(p);
-      cells.label.push_back(l);
-      cells.weight.push_back(n);
-      cells.weight_sq.push_back(n);
-      cells.rows.push_back(static_cast<std::uint64_t>(n));
-      rows.p.insert(rows.p.end(), static_cast<std::size_t>(n), p);
-      rows.y.insert(rows.y.end(), static_cast<std::size_t>(n), static_cast<double>(l));
+      rows.p.insert(rows.p.end(), static_cast<std::size_t>(n[l]), p);
+      rows.y.insert(rows.y.end(), static_cast<std::size_t>(n[l]), static_cast<double>(l));
     }
   }
 }
@@ -203,7 +204,7 @@ void check_same(const plumb::ScoreSummary& a, const plumb::ScoreSummary& b, doub
 }  // namespace
 
 TEST_CASE("Report on cells of unit-weight rows: the figures of the rows, bit for bit", "[report][cells]") {
-  plumb::LabelCells cells;
+  plumb::TallyCells cells;
   Rows rows;
   tally_like(61, 7, cells, rows);
   for (plumb::BinningKind kind : {plumb::BinningKind::equal_width, plumb::BinningKind::equal_mass}) {
@@ -223,31 +224,36 @@ TEST_CASE("Report on cells of unit-weight rows: the figures of the rows, bit for
 
 TEST_CASE("Report on cells out of forecast order: the figures of their rows in that order, bit for bit",
           "[report][cells]") {
-  // A tally's cells come in ascending forecast and the report then keeps no
-  // sorted order of its own; cells in another order (here descending) are
-  // sorted as before. Either way the figures are those of the rows.
-  for (const bool descending : {false, true}) {
-    plumb::LabelCells cells;
+  // A tally's entries come in ascending forecast, distinct, and the report
+  // then reads their sums in place; entries in another order (descending),
+  // or repeating a forecast (as a map that sends two scores to one value
+  // makes them), are sorted and summed per forecast. Either way the figures
+  // are those of the rows.
+  enum class Layout { ascending, descending, repeated };
+  for (const Layout layout : {Layout::ascending, Layout::descending, Layout::repeated}) {
+    plumb::TallyCells cells;
     Rows rows;
     std::mt19937_64 gen(19);
     std::uniform_int_distribution<int> count(0, 30);
     const std::size_t levels = 41;
     for (std::size_t j = 0; j < levels; ++j) {
-      const std::size_t k = descending ? levels - 1 - j : j;
-      const double p = static_cast<double>(k) / static_cast<double>(levels - 1);
+      const std::size_t k = layout == Layout::descending ? levels - 1 - j : j;
+      // Repeated: every forecast twice in a row, as two entries.
+      const double p = layout == Layout::repeated ? static_cast<double>(k / 2) / static_cast<double>(levels / 2)
+                                                  : static_cast<double>(k) / static_cast<double>(levels - 1);
+      int n[2];
+      for (int l = 0; l < 2; ++l) n[l] = count(gen) + (k % 4 == 0 ? 0 : 1);
+      if (n[0] + n[1] == 0) continue;
+      cells.forecast.push_back(p);
+      cells.negatives.push_back(n[0]);
+      cells.positives.push_back(n[1]);
       for (int l = 0; l < 2; ++l) {
-        const int n = count(gen) + (k % 4 == 0 ? 0 : 1);
-        if (n == 0) continue;
-        cells.forecast.push_back(p);
-        cells.label.push_back(l);
-        cells.weight.push_back(n);
-        cells.rows.push_back(static_cast<std::uint64_t>(n));
-        rows.p.insert(rows.p.end(), static_cast<std::size_t>(n), p);
-        rows.y.insert(rows.y.end(), static_cast<std::size_t>(n), static_cast<double>(l));
+        rows.p.insert(rows.p.end(), static_cast<std::size_t>(n[l]), p);
+        rows.y.insert(rows.y.end(), static_cast<std::size_t>(n[l]), static_cast<double>(l));
       }
     }
     for (plumb::BinningKind kind : {plumb::BinningKind::equal_width, plumb::BinningKind::equal_mass}) {
-      INFO((descending ? "descending" : "ascending") << ", binning " << static_cast<int>(kind));
+      INFO("layout " << static_cast<int>(layout) << ", binning " << static_cast<int>(kind));
       plumb::ReportOptions o;
       o.bootstrap = 20;
       o.threads = 1;
@@ -259,19 +265,14 @@ TEST_CASE("Report on cells out of forecast order: the figures of their rows in t
       const plumb::ForecastCellColumn cell_column{"p", cells};
       const plumb::Report b = plumb::build_report_of_cells(std::span(&cell_column, 1), {}, o);
       check_same(a.scores[0].overall, b.scores[0].overall, 0.0);
-      // The regression, fitted before the cells' ForecastCells exist, is the
-      // fit on the rows' ForecastCells to the bit.
+      // The regression, fitted on the per-forecast sums read in place (or
+      // summed), is the fit on the rows' ForecastCells to the bit.
       const plumb::CalibrationRegression direct =
           plumb::calibration_regression(plumb::make_forecast_cells(rows.p, rows.y, {}));
       CHECK(b.scores[0].overall.regression.slope == direct.slope);
       CHECK(b.scores[0].overall.regression.intercept_free == direct.intercept_free);
       CHECK(b.scores[0].overall.regression.intercept_at_unit_slope == direct.intercept_at_unit_slope);
       CHECK(b.scores[0].overall.regression.clipped == direct.clipped);
-      // Unit weights need no weight column (report --tally leaves it empty).
-      plumb::ForecastCellColumn bare{"p", cells};
-      bare.cells.weight.clear();
-      const plumb::Report c = plumb::build_report_of_cells(std::span(&bare, 1), {}, o);
-      check_same(a.scores[0].overall, c.scores[0].overall, 0.0);
     }
   }
 }
@@ -280,7 +281,7 @@ TEST_CASE("Report on weighted cells: each cell one row of its weight gives the r
   // With one row per cell the cell's weight is the row's and weight_sq its
   // square, so every sum is the rows' sum up to rounding.
   const Rows r = tied_rows(2000, 2000, true, 61);
-  plumb::LabelCells cells;
+  plumb::TallyCells cells;
   cells.unit_weights = false;
   std::vector<std::size_t> order(r.p.size());
   std::iota(order.begin(), order.end(), std::size_t{0});
@@ -288,8 +289,8 @@ TEST_CASE("Report on weighted cells: each cell one row of its weight gives the r
   Rows sorted;
   for (std::size_t i : order) {
     cells.forecast.push_back(r.p[i]);
-    cells.label.push_back(r.y[i]);
-    cells.weight.push_back(r.w[i]);
+    cells.negatives.push_back(r.y[i] == 0.0 ? r.w[i] : 0.0);
+    cells.positives.push_back(r.y[i] == 1.0 ? r.w[i] : 0.0);
     cells.weight_sq.push_back(r.w[i] * r.w[i]);
     cells.rows.push_back(1);
     sorted.p.push_back(r.p[i]);
@@ -312,13 +313,14 @@ TEST_CASE("Report on weighted cells of several rows: the Kish sizes read the cel
           "[report][cells]") {
   // Two rows of weights 1 and 3 in one cell: effective size (1 + 3)^2 /
   // (1 + 9) = 1.6 (Kish 1965), not the 16 / 16 = 1 of one row of weight 4.
-  plumb::LabelCells cells;
+  // Here with a third row of label 1 and weight 1 at the same score.
+  plumb::TallyCells cells;
   cells.unit_weights = false;
-  cells.forecast = {0.05, 0.05};
-  cells.label = {0.0, 1.0};
-  cells.weight = {4.0, 1.0};
-  cells.weight_sq = {10.0, 1.0};
-  cells.rows = {2, 1};
+  cells.forecast = {0.05};
+  cells.negatives = {4.0};
+  cells.positives = {1.0};
+  cells.weight_sq = {11.0};
+  cells.rows = {3};
   plumb::ReportOptions o;
   o.bootstrap = 0;
   o.bins = 10;
