@@ -86,7 +86,7 @@ header=$(head -n 1 "$big_file")
   echo "bench/run.sh: unexpected header '$header' from make_rows.py" >&2
   exit 1
 }
-big_bytes=$(stat -c %s "$big_file")
+big_bytes=$(stat -L -c %s "$big_file")
 
 # The isotonic map that apply uses, fitted on the smaller file.
 "$plumb" fit -q --map isotonic --score score --label label "$small_file" -o "$work/isotonic.map.json"
@@ -200,7 +200,7 @@ echo
 echo "- $("$plumb" --version 2>/dev/null | head -n 1) at $(git -C "$root" describe --always --dirty 2>/dev/null || echo '?'), $build_type build in $build"
 echo "- machine: $(nproc) cores, $(sed -n 's/^model name[[:space:]]*: //p' /proc/cpuinfo | head -n 1), $(awk '/MemTotal/ {printf "%.1f GiB", $2 / 1048576}' /proc/meminfo) RAM, $(. /etc/os-release && echo "$PRETTY_NAME")"
 echo "- load average (1, 5, 15 min) before: $load_before; after: $load_after"
-echo "- data: bench/make_rows.py $rows: $big_bytes bytes ($(awk -v b="$big_bytes" -v n="$rows" 'BEGIN { printf "%.1f", b / n }') bytes a row), header $header; gzip -6: $(stat -c %s "$big_file.gz") bytes"
+echo "- data: bench/make_rows.py $rows: $big_bytes bytes ($(awk -v b="$big_bytes" -v n="$rows" 'BEGIN { printf "%.1f", b / n }') bytes a row), header $header; gzip -6: $(stat -L -c %s "$big_file.gz") bytes"
 echo "- awk is $(readlink -f "$(command -v awk)"); $(R --version | head -n 1)"
 echo "- each command run $repeat times, output to /dev/null; median wall time, largest peak RSS"
 echo
